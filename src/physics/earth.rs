@@ -1,0 +1,149 @@
+//! Earth's geocentre in the ICRF, heliocentric and barycentric, from the IAU SOFA `epv00` series (ported by
+//! the `sofars` crate; ≤ ~10 km from JPL DE421 over 1990–2050, see tests/earth_vs_de421.rs).
+//!
+//! One `epv00` call costs tens of microseconds, far too much per observation inside a fit, so
+//! [`EarthTable`] samples it on a grid and interpolates with cubic Hermite polynomials (position and
+//! velocity at both nodes). At a 0.5-day step the interpolation error is well under 0.1 km.
+
+use super::V3;
+use super::time::Jd2;
+use thiserror::Error;
+
+#[derive(Debug, Error, Clone, PartialEq)]
+pub enum EphemerisError {
+    #[error("Earth's ephemeris is valid for 1900–2100 only (asked for JD {0:.1})")]
+    OutOfRange(f64),
+}
+
+/// Position (AU) and velocity (AU/day) of the geocentre, and of the Sun about the barycentre.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EarthState {
+    pub helio_pos: V3,
+    pub helio_vel: V3,
+    pub bary_pos: V3,
+    pub bary_vel: V3,
+}
+
+impl EarthState {
+    /// Barycentric position of the Sun.
+    pub fn sun_bary_pos(&self) -> V3 {
+        self.bary_pos - self.helio_pos
+    }
+    /// Barycentric velocity of the Sun.
+    pub fn sun_bary_vel(&self) -> V3 {
+        self.bary_vel - self.helio_vel
+    }
+}
+
+/// Earth's state at a TDB date, straight from the series.
+pub fn earth_state(tdb: Jd2) -> Result<EarthState, EphemerisError> {
+    let jd = tdb.value();
+    if !(2_415_020.5..=2_488_070.5).contains(&jd) {
+        return Err(EphemerisError::OutOfRange(jd));
+    }
+    let (h, b) = sofars::eph::epv00(tdb.jd1, tdb.jd2).ok_or(EphemerisError::OutOfRange(jd))?;
+    let v = |a: [f64; 3]| V3::new(a[0], a[1], a[2]);
+    Ok(EarthState {
+        helio_pos: v(h[0]),
+        helio_vel: v(h[1]),
+        bary_pos: v(b[0]),
+        bary_vel: v(b[1]),
+    })
+}
+
+/// Earth's state on a regular grid of TDB dates, interpolated between nodes.
+#[derive(Debug, Clone)]
+pub struct EarthTable {
+    start: f64,
+    step: f64,
+    nodes: Vec<EarthState>,
+}
+
+/// Grid step of [`EarthTable`] (days).
+pub const EARTH_TABLE_STEP: f64 = 0.5;
+
+impl EarthTable {
+    /// A table covering `[from, to]` (TDB JD), with one spare node at each end.
+    pub fn new(from: f64, to: f64) -> Result<EarthTable, EphemerisError> {
+        let step = EARTH_TABLE_STEP;
+        let start = (from / step).floor() * step - step;
+        let n = (((to - start) / step).ceil() as usize).max(1) + 2;
+        let nodes = (0..n)
+            .map(|k| earth_state(Jd2::new(start, k as f64 * step)))
+            .collect::<Result<Vec<_>, _>>()?;
+        Ok(EarthTable { start, step, nodes })
+    }
+
+    /// First and last TDB JD the table can answer for.
+    pub fn span(&self) -> (f64, f64) {
+        (
+            self.start,
+            self.start + (self.nodes.len() - 1) as f64 * self.step,
+        )
+    }
+
+    /// Interpolated state; falls back to the series outside the table.
+    pub fn state(&self, tdb: Jd2) -> Result<EarthState, EphemerisError> {
+        let x = ((tdb.jd1 - self.start) + tdb.jd2) / self.step;
+        let k = x.floor();
+        if !(k >= 0.0 && (k as usize) + 1 < self.nodes.len()) {
+            return earth_state(tdb);
+        }
+        let i = k as usize;
+        let s = x - k;
+        let (a, b) = (&self.nodes[i], &self.nodes[i + 1]);
+        let h = self.step;
+        let (p, dp) = hermite(s, h, &a.helio_pos, &a.helio_vel, &b.helio_pos, &b.helio_vel);
+        let (pb, dpb) = hermite(s, h, &a.bary_pos, &a.bary_vel, &b.bary_pos, &b.bary_vel);
+        Ok(EarthState {
+            helio_pos: p,
+            helio_vel: dp,
+            bary_pos: pb,
+            bary_vel: dpb,
+        })
+    }
+}
+
+/// Cubic Hermite interpolation on [0, h] at fraction s; returns value and derivative.
+fn hermite(s: f64, h: f64, p0: &V3, v0: &V3, p1: &V3, v1: &V3) -> (V3, V3) {
+    let s2 = s * s;
+    let s3 = s2 * s;
+    let h00 = 2.0 * s3 - 3.0 * s2 + 1.0;
+    let h10 = s3 - 2.0 * s2 + s;
+    let h01 = -2.0 * s3 + 3.0 * s2;
+    let h11 = s3 - s2;
+    let d00 = (6.0 * s2 - 6.0 * s) / h;
+    let d10 = 3.0 * s2 - 4.0 * s + 1.0;
+    let d01 = (-6.0 * s2 + 6.0 * s) / h;
+    let d11 = 3.0 * s2 - 2.0 * s;
+    (
+        h00 * p0 + h10 * h * v0 + h01 * p1 + h11 * h * v1,
+        d00 * p0 + d10 * v0 + d01 * p1 + d11 * v1,
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::constants::AU_KM;
+
+    #[test]
+    fn table_interpolation_stays_within_a_tenth_of_a_kilometre() {
+        let t0 = 2_461_000.5;
+        let table = EarthTable::new(t0, t0 + 40.0).unwrap();
+        let mut worst: f64 = 0.0;
+        for k in 0..400 {
+            let t = Jd2::new(t0, k as f64 * 0.1 + 0.0371);
+            let a = table.state(t).unwrap();
+            let b = earth_state(t).unwrap();
+            worst = worst.max((a.helio_pos - b.helio_pos).norm() * AU_KM);
+            worst = worst.max((a.bary_pos - b.bary_pos).norm() * AU_KM);
+        }
+        assert!(worst < 0.1, "worst {worst} km");
+    }
+
+    #[test]
+    fn dates_outside_the_series_are_errors() {
+        assert!(earth_state(Jd2::new(2_300_000.5, 0.0)).is_err());
+    }
+}

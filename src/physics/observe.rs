@@ -1,0 +1,252 @@
+//! The observation model: where an object on a given heliocentric orbit appears from an observer, as
+//! astrometric RA/Dec (light time included; no aberration or deflection, since astrometry is measured
+//! against catalogue stars that share them), and the partial derivatives of (RA·cos Dec, Dec) with
+//! respect to the object's state at the orbit epoch.
+//!
+//! Light time is taken in the barycentric frame: ρ = r☉(t−τ) − R☉(t) − V☉,bary·τ, where the last term
+//! carries the Sun's own barycentric motion during the light time (up to ~0.01″ at 1 AU otherwise).
+
+use super::constants::{AU_KM, C_AU_PER_DAY};
+use super::earth::{EarthState, EarthTable, EphemerisError, earth_state};
+use super::propagate::{PropagationError, propagate_with_stm};
+use super::site::{GroundPosition, OrientationTable, celestial_to_intermediate, site_gcrs};
+use super::time::{Instant, Jd2};
+use super::{M3, S6, V3};
+use nalgebra::{Matrix2x6, Matrix3x6, RowVector3};
+
+/// Where an observation was made from.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
+pub enum ObserverLocation {
+    /// A fixed ground site.
+    Ground(GroundPosition),
+    /// A position relative to the geocentre, ICRF axes, in km (space telescopes, roving observers).
+    Geocentric { pos_km: [f64; 3] },
+    /// A heliocentric position, ICRF axes, in AU (spacecraft far from Earth).
+    Heliocentric { pos_au: [f64; 3] },
+}
+
+/// The observer at one instant, heliocentric, ICRF axes.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ObserverState {
+    pub helio_pos: V3,
+    pub helio_vel: V3,
+    /// Barycentric velocity of the Sun (AU/day), for the light-time term.
+    pub sun_bary_vel: V3,
+}
+
+fn compose(
+    loc: &ObserverLocation,
+    inst: &Instant,
+    earth: &EarthState,
+    c2i: impl Fn() -> M3,
+) -> ObserverState {
+    let (pos, vel) = match loc {
+        ObserverLocation::Ground(g) => {
+            let (s, ds) = site_gcrs(&g.itrs_km(), inst.ut1, &c2i());
+            (earth.helio_pos + s, earth.helio_vel + ds)
+        }
+        ObserverLocation::Geocentric { pos_km } => {
+            let p = V3::from(*pos_km) / AU_KM;
+            (earth.helio_pos + p, earth.helio_vel)
+        }
+        ObserverLocation::Heliocentric { pos_au } => (V3::from(*pos_au), V3::zeros()),
+    };
+    ObserverState {
+        helio_pos: pos,
+        helio_vel: vel,
+        sun_bary_vel: earth.sun_bary_vel(),
+    }
+}
+
+/// The observer at an instant, computed directly from the series (slow; for one-off use).
+pub fn observer_state(
+    loc: &ObserverLocation,
+    inst: &Instant,
+) -> Result<ObserverState, EphemerisError> {
+    let earth = earth_state(inst.tdb)?;
+    Ok(compose(loc, inst, &earth, || {
+        celestial_to_intermediate(inst.tt)
+    }))
+}
+
+/// Earth and orientation tables for a span of time, so that a night's observer positions cost
+/// microseconds each.
+#[derive(Debug, Clone)]
+pub struct ObserverModel {
+    earth: EarthTable,
+    orientation: OrientationTable,
+}
+
+impl ObserverModel {
+    /// Tables covering TDB dates `[from, to]`.
+    pub fn new(from: f64, to: f64) -> Result<ObserverModel, EphemerisError> {
+        Ok(ObserverModel {
+            earth: EarthTable::new(from, to)?,
+            orientation: OrientationTable::new(from, to),
+        })
+    }
+    /// The observer at an instant.
+    pub fn observer(
+        &self,
+        loc: &ObserverLocation,
+        inst: &Instant,
+    ) -> Result<ObserverState, EphemerisError> {
+        let earth = self.earth.state(inst.tdb)?;
+        Ok(compose(loc, inst, &earth, || self.orientation.c2i(inst.tt)))
+    }
+    /// Earth's state from the table.
+    pub fn earth(&self, tdb: Jd2) -> Result<EarthState, EphemerisError> {
+        self.earth.state(tdb)
+    }
+}
+
+/// A computed position.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Prediction {
+    /// Right ascension in [0, 2π) and declination, radians.
+    pub ra: f64,
+    pub dec: f64,
+    /// Topocentric vector to the object (AU), light-time corrected.
+    pub topo: V3,
+    /// Light time (days).
+    pub light_time: f64,
+    /// Heliocentric state of the object at emission time t − τ.
+    pub obj_pos: V3,
+    pub obj_vel: V3,
+}
+
+/// Astrometric position of an object with heliocentric state `x0` at `epoch` (TDB), seen at `t` (TDB),
+/// with the partials ∂(RA·cos Dec, Dec)/∂x0 (radians per AU and per AU/day).
+pub fn predict_with_partials(
+    x0: &S6,
+    epoch: Jd2,
+    t: Jd2,
+    obs: &ObserverState,
+    mu: f64,
+) -> Result<(Prediction, Matrix2x6<f64>), PropagationError> {
+    let r0 = x0.fixed_rows::<3>(0).into_owned();
+    let v0 = x0.fixed_rows::<3>(3).into_owned();
+    let dt = t.minus(epoch);
+    let (r, v, phi) = propagate_with_stm(&r0, &v0, dt, mu)?;
+    // Emission-time state from a Taylor series about t: the light time (≲ 0.3 d) is so short that the
+    // fourth-order term is below a metre for anything outside 0.05 AU of the Sun.
+    let rm = r.norm();
+    let acc = -mu * r / (rm * rm * rm);
+    let jerk = -mu * (v / (rm * rm * rm) - 3.0 * r.dot(&v) * r / rm.powi(5));
+    let at = |tau: f64| r - v * tau + acc * (0.5 * tau * tau) - jerk * (tau * tau * tau / 6.0);
+    let mut tau = 0.0;
+    let mut rho = r - obs.helio_pos;
+    for _ in 0..3 {
+        tau = rho.norm() / C_AU_PER_DAY;
+        rho = at(tau) - obs.helio_pos - obs.sun_bary_vel * tau;
+    }
+    let obj_pos = at(tau);
+    let obj_vel = v - acc * tau + jerk * (0.5 * tau * tau);
+    let dist = rho.norm();
+    let u = rho / dist;
+    let ra = rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU);
+    let dec = u.z.clamp(-1.0, 1.0).asin();
+    // Position rows of Φ(t − τ, t0) ≈ Φr(t) − τ Φv(t).
+    let phi_r: Matrix3x6<f64> = phi.fixed_rows::<3>(0) - phi.fixed_rows::<3>(3) * tau;
+    let w = obj_vel + obs.sun_bary_vel;
+    let u_phi = u.transpose() * phi_r;
+    let u_a = u_phi / (1.0 + u.dot(&w) / C_AU_PER_DAY);
+    let a = phi_r - w * u_a / C_AU_PER_DAY;
+    let (sa, ca) = ra.sin_cos();
+    let (sd, cd) = dec.sin_cos();
+    let e_ra = RowVector3::new(-sa, ca, 0.0);
+    let e_dec = RowVector3::new(-sd * ca, -sd * sa, cd);
+    let mut jac = Matrix2x6::zeros();
+    jac.set_row(0, &(e_ra * a / dist));
+    jac.set_row(1, &(e_dec * a / dist));
+    Ok((
+        Prediction {
+            ra,
+            dec,
+            topo: rho,
+            light_time: tau,
+            obj_pos,
+            obj_vel,
+        },
+        jac,
+    ))
+}
+
+/// Astrometric position only.
+pub fn predict(
+    x0: &S6,
+    epoch: Jd2,
+    t: Jd2,
+    obs: &ObserverState,
+    mu: f64,
+) -> Result<Prediction, PropagationError> {
+    predict_with_partials(x0, epoch, t, obs, mu).map(|p| p.0)
+}
+
+/// Residual (O − C) in (RA·cos Dec, Dec), radians, with RA wrapped to ±π.
+pub fn residual(obs_ra: f64, obs_dec: f64, pred: &Prediction) -> [f64; 2] {
+    let mut dra = obs_ra - pred.ra;
+    dra = (dra + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU) - std::f64::consts::PI;
+    [dra * pred.dec.cos(), obs_dec - pred.dec]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::constants::{ARCSEC, MU_SUN};
+    use crate::physics::propagate::propagate;
+
+    fn sample() -> (S6, Jd2, ObserverState) {
+        let x0 = S6::new(1.2, 0.9, 0.2, -0.008, 0.011, 0.002);
+        let obs = ObserverState {
+            helio_pos: V3::new(0.3, -0.95, 0.0),
+            helio_vel: V3::new(0.0165, 0.005, 0.0),
+            sun_bary_vel: V3::new(3e-6, -5e-6, 0.0),
+        };
+        (x0, Jd2::new(2_461_000.5, 0.0), obs)
+    }
+
+    #[test]
+    fn taylor_emission_state_matches_exact_light_time_iteration() {
+        let (x0, epoch, obs) = sample();
+        let t = Jd2::new(2_461_000.5, 12.3);
+        let p = predict(&x0, epoch, t, &obs, MU_SUN).unwrap();
+        let r0 = x0.fixed_rows::<3>(0).into_owned();
+        let v0 = x0.fixed_rows::<3>(3).into_owned();
+        let mut tau = 0.0;
+        let mut rho = V3::zeros();
+        for _ in 0..5 {
+            let (r, _) = propagate(&r0, &v0, t.minus(epoch) - tau, MU_SUN).unwrap();
+            rho = r - obs.helio_pos - obs.sun_bary_vel * tau;
+            tau = rho.norm() / C_AU_PER_DAY;
+        }
+        assert!((p.topo - rho).norm() < 1e-13, "{}", (p.topo - rho).norm());
+    }
+
+    #[test]
+    fn partials_match_central_differences() {
+        let (x0, epoch, obs) = sample();
+        let t = Jd2::new(2_461_000.5, -20.0);
+        let (p, jac) = predict_with_partials(&x0, epoch, t, &obs, MU_SUN).unwrap();
+        for j in 0..6 {
+            let h = if j < 3 { 1e-7 } else { 1e-9 };
+            let mut xp = x0;
+            let mut xm = x0;
+            xp[j] += h;
+            xm[j] -= h;
+            let a = predict(&xp, epoch, t, &obs, MU_SUN).unwrap();
+            let b = predict(&xm, epoch, t, &obs, MU_SUN).unwrap();
+            let ra = residual(a.ra, a.dec, &p);
+            let rb = residual(b.ra, b.dec, &p);
+            for i in 0..2 {
+                let num = (ra[i] - rb[i]) / (2.0 * h);
+                let scale = jac.column(j).amax();
+                assert!(
+                    (num - jac[(i, j)]).abs() < 1e-6 * scale + 1e-3 * ARCSEC,
+                    "({i},{j}) numeric {num} analytic {}",
+                    jac[(i, j)]
+                );
+            }
+        }
+    }
+}
