@@ -66,11 +66,16 @@ mod tests {
 
     #[test]
     fn series_and_closed_forms_agree_at_the_switch() {
-        for z in [0.1, -0.1, 0.05] {
+        for z in [0.1, -0.1] {
             let a = series(z);
             let b = closed(z);
             for k in 0..6 {
-                assert!((a[k] - b[k]).abs() < 1e-12 * a[k].abs(), "k={k} z={z} {} {}", a[k], b[k]);
+                assert!(
+                    (a[k] - b[k]).abs() < 1e-12 * a[k].abs(),
+                    "k={k} z={z} {} {}",
+                    a[k],
+                    b[k]
+                );
             }
         }
     }
