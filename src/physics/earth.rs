@@ -2,8 +2,8 @@
 //! the `sofars` crate; ≤ ~10 km from JPL DE421 over 1990–2050, see tests/earth_vs_de421.rs).
 //!
 //! One `epv00` call costs tens of microseconds, far too much per observation inside a fit, so
-//! [`EarthTable`] samples it on a grid and interpolates with cubic Hermite polynomials (position and
-//! velocity at both nodes). At a 0.5-day step the interpolation error is well under 0.1 km.
+//! [`crate::physics::observe::ObserverModel`] samples it at whole days and interpolates with
+//! [`hermite`] polynomials (position and velocity at both nodes).
 
 use super::V3;
 use super::time::Jd2;
@@ -51,61 +51,8 @@ pub fn earth_state(tdb: Jd2) -> Result<EarthState, EphemerisError> {
     })
 }
 
-/// Earth's state on a regular grid of TDB dates, interpolated between nodes.
-#[derive(Debug, Clone)]
-pub struct EarthTable {
-    start: f64,
-    step: f64,
-    nodes: Vec<EarthState>,
-}
-
-/// Grid step of [`EarthTable`] (days).
-pub const EARTH_TABLE_STEP: f64 = 0.5;
-
-impl EarthTable {
-    /// A table covering `[from, to]` (TDB JD), with one spare node at each end.
-    pub fn new(from: f64, to: f64) -> Result<EarthTable, EphemerisError> {
-        let step = EARTH_TABLE_STEP;
-        let start = (from / step).floor() * step - step;
-        let n = (((to - start) / step).ceil() as usize).max(1) + 2;
-        let nodes = (0..n)
-            .map(|k| earth_state(Jd2::new(start, k as f64 * step)))
-            .collect::<Result<Vec<_>, _>>()?;
-        Ok(EarthTable { start, step, nodes })
-    }
-
-    /// First and last TDB JD the table can answer for.
-    pub fn span(&self) -> (f64, f64) {
-        (
-            self.start,
-            self.start + (self.nodes.len() - 1) as f64 * self.step,
-        )
-    }
-
-    /// Interpolated state; falls back to the series outside the table.
-    pub fn state(&self, tdb: Jd2) -> Result<EarthState, EphemerisError> {
-        let x = ((tdb.jd1 - self.start) + tdb.jd2) / self.step;
-        let k = x.floor();
-        if !(k >= 0.0 && (k as usize) + 1 < self.nodes.len()) {
-            return earth_state(tdb);
-        }
-        let i = k as usize;
-        let s = x - k;
-        let (a, b) = (&self.nodes[i], &self.nodes[i + 1]);
-        let h = self.step;
-        let (p, dp) = hermite(s, h, &a.helio_pos, &a.helio_vel, &b.helio_pos, &b.helio_vel);
-        let (pb, dpb) = hermite(s, h, &a.bary_pos, &a.bary_vel, &b.bary_pos, &b.bary_vel);
-        Ok(EarthState {
-            helio_pos: p,
-            helio_vel: dp,
-            bary_pos: pb,
-            bary_vel: dpb,
-        })
-    }
-}
-
 /// Cubic Hermite interpolation on [0, h] at fraction s; returns value and derivative.
-fn hermite(s: f64, h: f64, p0: &V3, v0: &V3, p1: &V3, v1: &V3) -> (V3, V3) {
+pub(crate) fn hermite(s: f64, h: f64, p0: &V3, v0: &V3, p1: &V3, v1: &V3) -> (V3, V3) {
     let s2 = s * s;
     let s3 = s2 * s;
     let h00 = 2.0 * s3 - 3.0 * s2 + 1.0;
@@ -125,22 +72,6 @@ fn hermite(s: f64, h: f64, p0: &V3, v0: &V3, p1: &V3, v1: &V3) -> (V3, V3) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::constants::AU_KM;
-
-    #[test]
-    fn table_interpolation_stays_within_a_tenth_of_a_kilometre() {
-        let t0 = 2_461_000.5;
-        let table = EarthTable::new(t0, t0 + 40.0).unwrap();
-        let mut worst: f64 = 0.0;
-        for k in 0..400 {
-            let t = Jd2::new(t0, k as f64 * 0.1 + 0.0371);
-            let a = table.state(t).unwrap();
-            let b = earth_state(t).unwrap();
-            worst = worst.max((a.helio_pos - b.helio_pos).norm() * AU_KM);
-            worst = worst.max((a.bary_pos - b.bary_pos).norm() * AU_KM);
-        }
-        assert!(worst < 0.1, "worst {worst} km");
-    }
 
     #[test]
     fn dates_outside_the_series_are_errors() {

@@ -134,7 +134,7 @@ fn solve(s: &Scalars, dt: f64) -> Result<Step, PropagationError> {
         if converged {
             return Ok(Step { chi, u, r: fp });
         }
-        if !(next > lo && next < hi) || !next.is_finite() {
+        if !(next > lo && next < hi && next.is_finite()) {
             next = next_inside(lo, hi, chi);
         }
         if next == chi {

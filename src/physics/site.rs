@@ -4,8 +4,8 @@
 //! UT1 = UTC (|DUT1| < 0.9 s, ≤ 0.4 km); both are below what a single astrometric position resolves
 //! beyond 0.01 AU.
 //!
-//! `c2i06a` is expensive (the full nutation series), but it moves by milliarcseconds per hour, so
-//! [`OrientationTable`] samples it on a half-day grid and interpolates linearly (≪ 1 m at the surface).
+//! `c2i06a` is expensive (the full nutation series) but moves by milliarcseconds per hour, so the
+//! observer model samples it once a day and interpolates linearly (< 1 m at the surface).
 
 use super::constants::{AU_KM, WGS84_A_KM, WGS84_F};
 use super::frames::r3;
@@ -87,6 +87,16 @@ pub fn earth_rotation_angle(ut1: Jd2) -> f64 {
     sofars::erst::era00(ut1.jd1, ut1.jd2)
 }
 
+/// Greenwich mean sidereal time (radians), IAU 2006 (SOFA `gmst06`).
+pub fn gmst(ut1: Jd2, tt: Jd2) -> f64 {
+    sofars::erst::gmst06(ut1.jd1, ut1.jd2, tt.jd1, tt.jd2)
+}
+
+/// Greenwich apparent sidereal time (radians), IAU 2006/2000A (SOFA `gst06a`).
+pub fn gast(ut1: Jd2, tt: Jd2) -> f64 {
+    sofars::erst::gst06a(ut1.jd1, ut1.jd2, tt.jd1, tt.jd2)
+}
+
 /// Celestial-to-intermediate matrix (IAU 2006/2000A, CIO based) at a TT date.
 pub fn celestial_to_intermediate(tt: Jd2) -> M3 {
     let m = sofars::pnp::c2i06a(tt.jd1, tt.jd2);
@@ -105,41 +115,6 @@ pub fn site_gcrs(itrs_km: &V3, ut1: Jd2, c2i: &M3) -> (V3, V3) {
     let vel = V3::new(-ERA_RATE * cirs.y, ERA_RATE * cirs.x, 0.0);
     let to_gcrs = c2i.transpose();
     (to_gcrs * cirs / AU_KM, to_gcrs * vel / AU_KM)
-}
-
-/// The celestial-to-intermediate matrix sampled on a grid of TT dates.
-#[derive(Debug, Clone)]
-pub struct OrientationTable {
-    start: f64,
-    step: f64,
-    mats: Vec<M3>,
-}
-
-impl OrientationTable {
-    pub const STEP: f64 = 0.5;
-
-    /// A table covering `[from, to]` (TT JD), with a spare node at each end.
-    pub fn new(from: f64, to: f64) -> OrientationTable {
-        let step = Self::STEP;
-        let start = (from / step).floor() * step - step;
-        let n = (((to - start) / step).ceil() as usize).max(1) + 2;
-        let mats = (0..n)
-            .map(|k| celestial_to_intermediate(Jd2::new(start, k as f64 * step)))
-            .collect();
-        OrientationTable { start, step, mats }
-    }
-
-    /// Interpolated matrix; computed directly outside the table.
-    pub fn c2i(&self, tt: Jd2) -> M3 {
-        let x = ((tt.jd1 - self.start) + tt.jd2) / self.step;
-        let k = x.floor();
-        if !(k >= 0.0 && (k as usize) + 1 < self.mats.len()) {
-            return celestial_to_intermediate(tt);
-        }
-        let i = k as usize;
-        let s = x - k;
-        self.mats[i] * (1.0 - s) + self.mats[i + 1] * s
-    }
 }
 
 #[cfg(test)]
@@ -162,18 +137,5 @@ mod tests {
         assert!((p.itrs_km() - x).norm() < 1e-9);
         let (lat, _) = p.geodetic_lat_lon();
         assert!((lat.to_degrees() + 31.5).abs() < 0.01);
-    }
-
-    #[test]
-    fn interpolated_orientation_moves_a_site_by_under_a_metre() {
-        let t0 = 2_461_200.5;
-        let table = OrientationTable::new(t0, t0 + 3.0);
-        let site = V3::new(-1500.0, -5000.0, 3300.0);
-        for k in 0..30 {
-            let tt = Jd2::new(t0, 0.0137 + k as f64 * 0.1);
-            let (a, _) = site_gcrs(&site, tt, &table.c2i(tt));
-            let (b, _) = site_gcrs(&site, tt, &celestial_to_intermediate(tt));
-            assert!((a - b).norm() * AU_KM < 1e-3, "k={k}");
-        }
     }
 }

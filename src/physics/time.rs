@@ -194,7 +194,7 @@ impl UtcTime {
             return Err(TimeError::NotADate(shown));
         }
         let clock = format!("{shown}T{hour:02}:{minute:02}:{second}");
-        if hour > 23 || minute > 59 || !second.is_finite() || second < 0.0 || second >= 61.0 {
+        if hour > 23 || minute > 59 || !second.is_finite() || !(0.0..61.0).contains(&second) {
             return Err(TimeError::NotATime(clock));
         }
         if second >= 60.0 && !(hour == 23 && minute == 59 && day_has_leap_second(year, month, day))
