@@ -1,5 +1,20 @@
-//! Command-line entry point (thin: parses arguments and calls the library).
+//! Command-line entry point: parse arguments, run the subcommand, map errors to exit codes.
+//! Exit codes: 0 all inputs fitted, 1 something failed or was rejected (see stderr), 2 usage error.
 
-fn main() -> anyhow::Result<()> {
-    Ok(())
+mod cli;
+
+use clap::Parser;
+
+fn main() {
+    let args = cli::Cli::parse();
+    let code = match &args.command {
+        cli::Command::Fit(a) => cli::fit::run(a),
+    };
+    match code {
+        Ok(c) => std::process::exit(c),
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            std::process::exit(1);
+        }
+    }
 }

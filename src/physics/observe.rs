@@ -11,7 +11,7 @@ use super::earth::{EarthState, EphemerisError, earth_state, hermite};
 use super::propagate::{PropagationError, propagate_with_stm};
 use super::site::{GroundPosition, celestial_to_intermediate, site_gcrs};
 use super::time::{Instant, Jd2};
-use super::{M3, S6, V3};
+use super::{M3, M6, S6, V3};
 use nalgebra::{Matrix2x6, Matrix3x6, RowVector3};
 use std::cell::RefCell;
 use std::collections::HashMap;
@@ -181,8 +181,15 @@ pub fn predict_with_partials(
 ) -> Result<(Prediction, Matrix2x6<f64>), PropagationError> {
     let r0 = x0.fixed_rows::<3>(0).into_owned();
     let v0 = x0.fixed_rows::<3>(3).into_owned();
-    let dt = t.minus(epoch);
-    let (r, v, phi) = propagate_with_stm(&r0, &v0, dt, mu)?;
+    let state = propagate_with_stm(&r0, &v0, t.minus(epoch), mu)?;
+    Ok(project(state, obs, mu))
+}
+
+/// Astrometric position and partials from the object's heliocentric state and STM at the observation
+/// time `t` (before light time). Any propagator can supply them; the light-time step back uses a
+/// two-body Taylor series about `t`, which is exact far below a metre over minutes to hours.
+pub fn project(state: (V3, V3, M6), obs: &ObserverState, mu: f64) -> (Prediction, Matrix2x6<f64>) {
+    let (r, v, phi) = state;
     // Emission-time state from a Taylor series about t: the light time (≲ 0.3 d) is so short that the
     // fourth-order term is below a metre for anything outside 0.05 AU of the Sun.
     let rm = r.norm();
@@ -214,7 +221,7 @@ pub fn predict_with_partials(
     let mut jac = Matrix2x6::zeros();
     jac.set_row(0, &(e_ra * a / dist));
     jac.set_row(1, &(e_dec * a / dist));
-    Ok((
+    (
         Prediction {
             ra,
             dec,
@@ -224,7 +231,7 @@ pub fn predict_with_partials(
             obj_vel,
         },
         jac,
-    ))
+    )
 }
 
 /// Astrometric position only.

@@ -173,6 +173,19 @@ fn fg(s: &Scalars, st: &Step, dt: f64) -> Fg {
     }
 }
 
+/// Exact Lagrange coefficients (f, g, ḟ, ġ) for a step of `dt`: r = f r₀ + g v₀, v = ḟ r₀ + ġ v₀.
+pub fn lagrange_coefficients(
+    r0: &V3,
+    v0: &V3,
+    dt: f64,
+    mu: f64,
+) -> Result<[f64; 4], PropagationError> {
+    let s = scalars(r0, v0, mu)?;
+    let st = solve(&s, dt)?;
+    let c = fg(&s, &st, dt);
+    Ok([c.f, c.g, c.fdot, c.gdot])
+}
+
 /// State after `dt` days of two-body motion about a centre of gravitational parameter `mu` (AU³/d²).
 pub fn propagate(r0: &V3, v0: &V3, dt: f64, mu: f64) -> Result<(V3, V3), PropagationError> {
     let s = scalars(r0, v0, mu)?;

@@ -10,7 +10,7 @@ import numpy as np
 from jplephem.spk import SPK
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-DATA = os.path.join(HERE, "data")
+DATA = os.environ.get("REFERENCE_OUT", os.path.join(HERE, "data"))
 AU_KM = 149597870.700
 C_AU_D = 299792.458 * 86400.0 / AU_KM
 GM_SUN = 0.01720209895 ** 2  # AU^3/d^2, Gaussian constant (same system the tool uses)

@@ -1,0 +1,134 @@
+//! `interloper fit`: batch fit of files, ranked table or JSON lines.
+
+use super::inputs::{SiteArgs, expand, read_file};
+use interloper::feed::tracklets::Limits;
+use interloper::fitting::fit::{
+    FitOptions, FitResult, MethodChoice, PerturbChoice, fit_tracklet, rank,
+};
+use interloper::fitting::input::Tracklet;
+use interloper::physics::observe::ObserverModel;
+use std::io::Write;
+use std::path::PathBuf;
+
+#[derive(Debug, clap::Args)]
+pub struct FitArgs {
+    #[command(flatten)]
+    pub sites: SiteArgs,
+    /// One JSON object per tracklet per line instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Force the ranging method for every tracklet.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub method: Method,
+    /// Planetary perturbations: by arc length and Earth distance, always, or never.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub perturbations: Perturb,
+    /// Speed cap at infinity for ranging (km/s).
+    #[arg(long, default_value_t = 100.0, value_name = "KM_S")]
+    pub v_cap: f64,
+    /// Seed for ranging jitter and orbit sampling (results are reproducible for a given seed).
+    #[arg(long, default_value_t = 0x5EED)]
+    pub seed: u64,
+    /// Do not inflate uncertainties of many same-night positions from one site.
+    #[arg(long)]
+    pub no_night_inflation: bool,
+    /// Worker threads (default: the machine's cores).
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Files or directories of tracklet files.
+    #[arg(required = true, value_name = "PATH")]
+    pub paths: Vec<PathBuf>,
+}
+
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum Method {
+    Auto,
+    Ranging,
+}
+
+#[derive(Debug, Clone, Copy, clap::ValueEnum)]
+pub enum Perturb {
+    Auto,
+    On,
+    Off,
+}
+
+impl FitArgs {
+    pub fn options(&self) -> FitOptions {
+        let mut o = FitOptions {
+            method: match self.method {
+                Method::Auto => MethodChoice::Auto,
+                Method::Ranging => MethodChoice::Ranging,
+            },
+            perturbations: match self.perturbations {
+                Perturb::Auto => PerturbChoice::Auto,
+                Perturb::On => PerturbChoice::On,
+                Perturb::Off => PerturbChoice::Off,
+            },
+            inflate_nights: !self.no_night_inflation,
+            seed: self.seed,
+            ..FitOptions::default()
+        };
+        o.ranging.v_cap_km_s = self.v_cap;
+        o.ranging.seed = self.seed;
+        o
+    }
+}
+
+/// Fit tracklets on `threads` workers, each with its own observer model.
+pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> Vec<FitResult> {
+    let threads = threads.max(1).min(tracklets.len().max(1));
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let mut results: Vec<Option<FitResult>> = vec![None; tracklets.len()];
+    let slots = std::sync::Mutex::new(&mut results);
+    std::thread::scope(|s| {
+        for _ in 0..threads {
+            s.spawn(|| {
+                let model = ObserverModel::new();
+                loop {
+                    let i = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                    let Some(t) = tracklets.get(i) else { break };
+                    let r = fit_tracklet(t, &model, opts);
+                    if let Ok(mut g) = slots.lock() {
+                        g[i] = Some(r);
+                    }
+                }
+            });
+        }
+    });
+    results.into_iter().flatten().collect()
+}
+
+pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
+    let sites = args.sites.load()?;
+    let files = expand(&args.paths)?;
+    let limits = Limits::default();
+    let mut tracklets = Vec::new();
+    let mut input_errors = 0;
+    for f in &files {
+        let intake = read_file(f, &sites, &limits);
+        for e in &intake.errors {
+            eprintln!("rejected: {e}");
+        }
+        input_errors += intake.errors.len();
+        tracklets.extend(intake.tracklets);
+    }
+    let threads = args
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let mut results = fit_all(tracklets, &args.options(), threads);
+    rank(&mut results);
+    let stdout = std::io::stdout();
+    let mut out = std::io::BufWriter::new(stdout.lock());
+    if args.json {
+        for r in &results {
+            serde_json::to_writer(&mut out, r)?;
+            out.write_all(b"\n")?;
+        }
+    } else {
+        out.write_all(interloper::report::ranked_table(&results).as_bytes())?;
+    }
+    out.flush()?;
+    let failed = results.iter().filter(|r| r.status == "failed").count();
+    Ok(if failed > 0 || input_errors > 0 { 1 } else { 0 })
+}

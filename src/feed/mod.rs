@@ -1,0 +1,18 @@
+//! The feed layer: input formats, the site table, and turning files into tracklets. Reads files; knows
+//! nothing of the console.
+
+pub mod ades;
+pub mod sanitize;
+pub mod sites;
+pub mod tracklets;
+
+/// Why one line (or a whole file) was not taken in.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]
+#[error("{file}: line {line}{}: {reason}", column.as_ref().map(|c| format!(", column {c}")).unwrap_or_default())]
+pub struct InputError {
+    pub file: String,
+    /// 1-based line number (0 for the whole file).
+    pub line: usize,
+    pub column: Option<String>,
+    pub reason: String,
+}

@@ -1,0 +1,242 @@
+//! Observing sites: our own TOML table (`[[site]]` entries), the bundled demo network, and the trade's
+//! published table of site codes with parallax constants when the user points at a copy.
+
+use super::InputError;
+use super::sanitize::clean;
+use crate::physics::site::GroundPosition;
+use std::collections::HashMap;
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Site {
+    pub code: String,
+    pub name: String,
+    pub position: GroundPosition,
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct SiteTable {
+    sites: HashMap<String, Site>,
+}
+
+#[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SiteFile {
+    #[serde(default)]
+    site: Vec<SiteEntry>,
+}
+
+#[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SiteEntry {
+    code: String,
+    #[serde(default)]
+    name: String,
+    longitude_deg: f64,
+    latitude_deg: Option<f64>,
+    altitude_m: Option<f64>,
+    rho_cos_phi: Option<f64>,
+    rho_sin_phi: Option<f64>,
+}
+
+/// The invented demo network (no real site): codes of letter-letter-digit form, which the trade's
+/// own codes never use, so they cannot be mistaken for a real station.
+pub const DEMO_SITES: &str = include_str!("demo_sites.toml");
+
+impl SiteTable {
+    /// The built-in demo sites.
+    pub fn builtin() -> SiteTable {
+        let mut t = SiteTable::default();
+        // The embedded table is part of the program and tested; a failure here is a build defect.
+        if let Ok(n) = t.load_toml("<built-in demo sites>", DEMO_SITES) {
+            debug_assert!(n > 0);
+        }
+        t
+    }
+
+    pub fn get(&self, code: &str) -> Option<&Site> {
+        self.sites.get(code)
+    }
+
+    pub fn len(&self) -> usize {
+        self.sites.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.sites.is_empty()
+    }
+
+    pub fn codes(&self) -> Vec<&str> {
+        let mut v: Vec<&str> = self.sites.keys().map(String::as_str).collect();
+        v.sort_unstable();
+        v
+    }
+
+    /// Add the sites of a TOML table; later entries override earlier ones with the same code.
+    pub fn load_toml(&mut self, file: &str, text: &str) -> Result<usize, InputError> {
+        let err = |line: usize, reason: String| InputError {
+            file: clean(file),
+            line,
+            column: None,
+            reason,
+        };
+        let parsed: SiteFile = toml::from_str(text).map_err(|e| {
+            let line = e
+                .span()
+                .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1)
+                .unwrap_or(0);
+            err(line, clean(e.message()))
+        })?;
+        let mut n = 0;
+        for (k, s) in parsed.site.into_iter().enumerate() {
+            let code = clean(s.code.trim());
+            let what = format!("site {} ({code})", k + 1);
+            if code.is_empty() {
+                return Err(err(0, format!("{what}: empty code")));
+            }
+            let position = match (s.latitude_deg, s.rho_cos_phi, s.rho_sin_phi) {
+                (Some(lat), None, None) => {
+                    if !(-90.0..=90.0).contains(&lat) {
+                        return Err(err(0, format!("{what}: latitude {lat} outside ±90°")));
+                    }
+                    GroundPosition::Geodetic {
+                        lon_deg: s.longitude_deg,
+                        lat_deg: lat,
+                        alt_m: s.altitude_m.unwrap_or(0.0),
+                    }
+                }
+                (None, Some(c), Some(sn)) => GroundPosition::Parallax {
+                    lon_deg: s.longitude_deg,
+                    rho_cos_phi: c,
+                    rho_sin_phi: sn,
+                },
+                _ => {
+                    return Err(err(
+                        0,
+                        format!(
+                            "{what}: give latitude_deg (and altitude_m), or rho_cos_phi and rho_sin_phi"
+                        ),
+                    ));
+                }
+            };
+            if !s.longitude_deg.is_finite() || s.longitude_deg.abs() > 360.0 {
+                return Err(err(
+                    0,
+                    format!("{what}: longitude {} is not an angle", s.longitude_deg),
+                ));
+            }
+            self.sites.insert(
+                code.clone(),
+                Site {
+                    code,
+                    name: clean(&s.name),
+                    position,
+                },
+            );
+            n += 1;
+        }
+        Ok(n)
+    }
+
+    /// Add the sites of the trade's fixed-column site-code table (code, longitude, ρcos φ′, ρsin φ′,
+    /// name); lines without parallax constants (space-based codes) are skipped. Returns the count and
+    /// the lines it could not read.
+    pub fn load_site_codes(&mut self, file: &str, text: &str) -> (usize, Vec<InputError>) {
+        let mut n = 0;
+        let mut bad = Vec::new();
+        for (k, line) in text.lines().enumerate() {
+            let chars: Vec<char> = line.chars().collect();
+            if chars.len() < 4 || line.trim().is_empty() {
+                continue;
+            }
+            let field = |a: usize, b: usize| -> String {
+                chars
+                    .iter()
+                    .skip(a)
+                    .take(b - a)
+                    .collect::<String>()
+                    .trim()
+                    .to_string()
+            };
+            let code = field(0, 3);
+            let (lon, c, s) = (field(4, 13), field(13, 21), field(21, 30));
+            if lon.is_empty() || c.is_empty() {
+                continue; // header lines and space-based codes
+            }
+            match (lon.parse::<f64>(), c.parse::<f64>(), s.parse::<f64>()) {
+                (Ok(lon), Ok(c), Ok(s)) if c.abs() <= 1.1 && s.abs() <= 1.1 => {
+                    let code = clean(&code);
+                    self.sites.insert(
+                        code.clone(),
+                        Site {
+                            code,
+                            name: clean(&field(30, chars.len())),
+                            position: GroundPosition::Parallax {
+                                lon_deg: lon,
+                                rho_cos_phi: c,
+                                rho_sin_phi: s,
+                            },
+                        },
+                    );
+                    n += 1;
+                }
+                _ => {
+                    if k > 0 {
+                        bad.push(InputError {
+                            file: clean(file),
+                            line: k + 1,
+                            column: None,
+                            reason:
+                                "not a site line (code, longitude, rho cos phi, rho sin phi, name)"
+                                    .into(),
+                        })
+                    }
+                }
+            }
+        }
+        (n, bad)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn builtin_demo_sites_load() {
+        let t = SiteTable::builtin();
+        assert!(t.len() >= 3);
+        assert!(t.get("TV1").is_some());
+    }
+
+    #[test]
+    fn bad_site_tables_say_why() {
+        let mut t = SiteTable::default();
+        let e = t
+            .load_toml("s.toml", "[[site]]\ncode = \"AB1\"\nlongitude_deg = 10.0\n")
+            .unwrap_err();
+        assert!(e.reason.contains("give latitude_deg"), "{e}");
+        let e = t
+            .load_toml(
+                "s.toml",
+                "[[site]]\ncode = \"AB1\"\nlongitude_deg = 10.0\nlatitude_deg = 95.0\n",
+            )
+            .unwrap_err();
+        assert!(e.reason.contains("outside"), "{e}");
+        let e = t
+            .load_toml("s.toml", "[[site]]\ncode = \"AB1\"\nlongtude_deg = 1\n")
+            .unwrap_err();
+        assert_eq!(e.line, 3, "{e}");
+    }
+
+    #[test]
+    fn parallax_constant_table_lines_are_read() {
+        let mut t = SiteTable::default();
+        let text = "Code  Long.   cos      sin    Name\nXY9 123.4567 0.845120 +0.533980 Somewhere Hill\nSP1                              Orbiting thing\n";
+        let (n, bad) = t.load_site_codes("codes.txt", text);
+        assert_eq!((n, bad.len()), (1, 0));
+        assert!(matches!(
+            t.get("XY9").unwrap().position,
+            GroundPosition::Parallax { .. }
+        ));
+    }
+}

@@ -1,0 +1,204 @@
+//! From a file's bytes to tracklets: checks (size, text, format), parsing, site resolution and grouping
+//! of observations by object.
+
+use super::InputError;
+use super::ades::{self, AdesRecord};
+use super::sanitize::clean;
+use super::sites::SiteTable;
+use crate::fitting::input::{Observation, Tracklet};
+use crate::physics::constants::{AU_KM, DEG};
+use crate::physics::observe::ObserverLocation;
+use std::collections::BTreeMap;
+
+/// Limits on what one file may hold.
+#[derive(Debug, Clone, Copy)]
+pub struct Limits {
+    pub max_bytes: u64,
+    pub max_observations: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            max_bytes: 64 * 1024 * 1024,
+            max_observations: 200_000,
+        }
+    }
+}
+
+/// What a file gave: tracklets, and everything it could not take in.
+#[derive(Debug, Default)]
+pub struct FileIntake {
+    pub tracklets: Vec<Tracklet>,
+    pub errors: Vec<InputError>,
+    /// The whole file was refused (errors then says why).
+    pub rejected: bool,
+}
+
+fn whole_file(file: &str, reason: String) -> FileIntake {
+    FileIntake {
+        tracklets: Vec::new(),
+        errors: vec![InputError {
+            file: clean(file),
+            line: 0,
+            column: None,
+            reason,
+        }],
+        rejected: true,
+    }
+}
+
+/// Read tracklets from the bytes of one file.
+pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) -> FileIntake {
+    if bytes.len() as u64 > limits.max_bytes {
+        return whole_file(
+            file,
+            format!(
+                "{} bytes is over the {}-byte limit",
+                bytes.len(),
+                limits.max_bytes
+            ),
+        );
+    }
+    if bytes.is_empty() {
+        return whole_file(file, "empty file".into());
+    }
+    if bytes.contains(&0) {
+        return whole_file(file, "binary file (contains NUL bytes)".into());
+    }
+    let text = match std::str::from_utf8(bytes) {
+        Ok(t) => t,
+        Err(e) => {
+            return whole_file(
+                file,
+                format!(
+                    "not UTF-8 text (invalid byte at offset {})",
+                    e.valid_up_to()
+                ),
+            );
+        }
+    };
+    let body = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let (records, mut errors) = if ades::looks_like_psv(body) {
+        ades::parse(file, body)
+    } else if body
+        .lines()
+        .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'))
+    {
+        return whole_file(file, "no observations in file".into());
+    } else {
+        return whole_file(
+            file,
+            "format not recognised (expected an ADES PSV header line)".into(),
+        );
+    };
+    if records.len() > limits.max_observations {
+        return whole_file(
+            file,
+            format!(
+                "{} observations is over the {}-observation limit",
+                records.len(),
+                limits.max_observations
+            ),
+        );
+    }
+    let rejected = records.is_empty();
+    let mut groups: BTreeMap<String, Vec<Observation>> = BTreeMap::new();
+    for r in records {
+        match observation(file, &r, sites) {
+            Ok(o) => groups.entry(r.object.clone()).or_default().push(o),
+            Err(e) => errors.push(e),
+        }
+    }
+    let tracklets = groups
+        .into_iter()
+        .map(|(object, obs)| Tracklet::new(object, clean(file), dedupe(obs)))
+        .collect();
+    FileIntake {
+        tracklets,
+        errors,
+        rejected,
+    }
+}
+
+/// Same time, place and position: the same observation reported twice.
+pub fn dedupe(mut obs: Vec<Observation>) -> Vec<Observation> {
+    obs.sort_by(|a, b| a.time.tdb.minus(b.time.tdb).total_cmp(&0.0));
+    obs.dedup_by(|a, b| {
+        a.site_code == b.site_code
+            && (a.time.tdb.minus(b.time.tdb)).abs() < 1e-8
+            && (a.ra - b.ra).abs() < 1e-9
+            && (a.dec - b.dec).abs() < 1e-9
+    });
+    obs
+}
+
+fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observation, InputError> {
+    let err = |column: &str, reason: String| InputError {
+        file: clean(file),
+        line: r.line,
+        column: Some(column.into()),
+        reason,
+    };
+    let time = r
+        .time
+        .instant()
+        .map_err(|e| err("obsTime", e.to_string()))?;
+    let location = match &r.observer_pos {
+        Some((sys, ctr, p)) => {
+            let scale = match sys.as_str() {
+                "ICRF_KM" => 1.0,
+                "ICRF_AU" => AU_KM,
+                other => {
+                    return Err(err(
+                        "sys",
+                        format!("'{other}' is not supported (use ICRF_KM or ICRF_AU)"),
+                    ));
+                }
+            };
+            match ctr {
+                399 => ObserverLocation::Geocentric {
+                    pos_km: [p[0] * scale, p[1] * scale, p[2] * scale],
+                },
+                10 => ObserverLocation::Heliocentric {
+                    pos_au: [
+                        p[0] * scale / AU_KM,
+                        p[1] * scale / AU_KM,
+                        p[2] * scale / AU_KM,
+                    ],
+                },
+                other => {
+                    return Err(err(
+                        "ctr",
+                        format!("centre {other} is not supported (399 or 10)"),
+                    ));
+                }
+            }
+        }
+        None => match sites.get(&r.stn) {
+            Some(s) => ObserverLocation::Ground(s.position),
+            None => {
+                return Err(err(
+                    "stn",
+                    format!(
+                        "unknown site code '{}' (give --sites or --site-codes)",
+                        r.stn
+                    ),
+                ));
+            }
+        },
+    };
+    Ok(Observation {
+        time,
+        ra: r.ra_deg * DEG,
+        dec: r.dec_deg * DEG,
+        sigma_ra_arcsec: r.rms_ra,
+        sigma_dec_arcsec: r.rms_dec,
+        correlation: r.rms_corr,
+        site_code: r.stn.clone(),
+        location,
+        mag: r.mag,
+        band: r.band.clone(),
+        origin: format!("{}:{}", clean(file), r.line),
+    })
+}

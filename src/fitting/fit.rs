@@ -1,0 +1,814 @@
+//! One tracklet in, one answer out: chooses the method (least squares for multi-night arcs, ranging
+//! for one night or a degenerate problem), the dynamics, and how P(e > 1) is estimated, and gathers
+//! everything the console and the batch output show.
+
+use super::covariance::{ElementSigmas, eccentricity_gradient, elements_with_sigmas};
+use super::gauss::{Sight, gauss};
+use super::input::Tracklet;
+use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::perturb::{Dynamics, NBody, TwoBody};
+use super::quality::{NightMean, night_means, poor_fit_reasons};
+use super::ranging::{RangingOptions, RangingResult, range};
+use super::sampling::{distrust_reasons, importance_sample};
+use super::significance::{
+    Incoming, MU_BARY, barycentric, incoming, linear_score, probability_score, sampled_probability,
+};
+use super::stats::{normal_cdf, weighted_quantile};
+use crate::physics::constants::{ARCSEC, C_AU_PER_DAY, MU_SUN};
+use crate::physics::elements::CometaryElements;
+use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
+use crate::physics::observe::{ObserverModel, ObserverState};
+use crate::physics::propagate::propagate;
+use crate::physics::time::{Jd2, tdb_to_tt, tt_to_utc};
+use crate::physics::{M3, S6, V3};
+
+/// Which method to use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum MethodChoice {
+    #[default]
+    Auto,
+    Ranging,
+}
+
+/// Whether to include planetary perturbations.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PerturbChoice {
+    #[default]
+    Auto,
+    On,
+    Off,
+}
+
+/// Arcs longer than this (days) are fitted with planetary perturbations under `Auto`.
+pub const PERTURB_ARC_DAYS: f64 = 10.0;
+/// ... and so are objects passing closer than this to Earth (AU).
+pub const PERTURB_EARTH_AU: f64 = 0.05;
+
+#[derive(Debug, Clone, Copy)]
+pub struct FitOptions {
+    pub method: MethodChoice,
+    pub perturbations: PerturbChoice,
+    pub lsq: LsqOptions,
+    pub ranging: RangingOptions,
+    pub inflate_nights: bool,
+    pub samples: usize,
+    pub seed: u64,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        FitOptions {
+            method: MethodChoice::Auto,
+            perturbations: PerturbChoice::Auto,
+            lsq: LsqOptions::default(),
+            ranging: RangingOptions::default(),
+            inflate_nights: true,
+            samples: 2000,
+            seed: 0x5EED,
+        }
+    }
+}
+
+/// Elements with 1σ, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ElementsOut {
+    pub q_au: f64,
+    pub e: f64,
+    pub i_deg: f64,
+    pub node_deg: f64,
+    pub peri_deg: f64,
+    pub tp_jd_tdb: f64,
+    pub inv_a_per_au: f64,
+    pub a_au: Option<f64>,
+    pub mean_anomaly_deg: Option<f64>,
+    pub sigma: Option<ElementSigmas>,
+}
+
+fn elements_out(el: &CometaryElements, sigma: Option<ElementSigmas>, mu: f64) -> ElementsOut {
+    ElementsOut {
+        q_au: el.q,
+        e: el.e,
+        i_deg: el.i,
+        node_deg: el.node,
+        peri_deg: el.peri,
+        tp_jd_tdb: el.tp,
+        inv_a_per_au: el.inv_a,
+        a_au: el.a(),
+        mean_anomaly_deg: el.mean_anomaly(mu),
+        sigma,
+    }
+}
+
+/// Ranging summary, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct RangingOut {
+    pub prior: &'static str,
+    pub p_hyperbolic_uniform_prior: f64,
+    pub bayes_factor: f64,
+    pub prior_dominated: bool,
+    pub trials: usize,
+    pub n_eff: f64,
+    pub v_cap_km_s: f64,
+    pub e_interval: [f64; 3],
+    pub q_interval: [f64; 3],
+    pub i_interval: [f64; 3],
+}
+
+/// Another solution of a short arc.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Alternative {
+    pub delta_chi2: f64,
+    pub e: f64,
+    pub q_au: f64,
+    pub i_deg: f64,
+}
+
+/// One observation's residual, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ResidualOut {
+    pub time_utc: String,
+    pub site: String,
+    pub night: usize,
+    pub ra_arcsec: f64,
+    pub dec_arcsec: f64,
+    pub used: bool,
+    pub chi2: f64,
+}
+
+/// The answer for one tracklet (the `fit --json` record).
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct FitResult {
+    pub source: String,
+    pub object: String,
+    pub n_obs: usize,
+    pub n_used: usize,
+    pub n_nights: usize,
+    pub arc_days: f64,
+    pub method: &'static str,
+    pub probability_from: &'static str,
+    pub dynamics: &'static str,
+    pub e: Option<f64>,
+    pub e_sigma: Option<f64>,
+    pub p_hyperbolic: Option<f64>,
+    pub z_hyperbolic: Option<f64>,
+    /// The score is only a bound (sampled, and no sample or every sample was unbound): read "≤" or "≥".
+    pub z_is_bound: bool,
+    pub q_au: Option<f64>,
+    pub q_sigma: Option<f64>,
+    pub i_deg: Option<f64>,
+    pub i_sigma: Option<f64>,
+    pub rms_arcsec: Option<f64>,
+    pub chi2_per_dof: Option<f64>,
+    pub epoch_jd_tdb: Option<f64>,
+    pub status: &'static str,
+    pub error: Option<String>,
+    pub e_bary: Option<f64>,
+    pub e_bary_sigma: Option<f64>,
+    pub inv_a_bary: Option<f64>,
+    pub elements: Option<ElementsOut>,
+    pub barycentric: Option<ElementsOut>,
+    pub incoming: Option<Incoming>,
+    pub ranging: Option<RangingOut>,
+    pub n_eff: Option<f64>,
+    pub distrust_linear: Vec<String>,
+    /// Other least-squares minima that fit nearly as well (short arcs).
+    pub alternatives: Vec<Alternative>,
+    pub poor_fit: Vec<String>,
+    pub night_means: Vec<NightMean>,
+    pub residuals: Vec<ResidualOut>,
+    /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
+    pub state: Option<[f64; 6]>,
+    pub covariance: Option<Vec<[f64; 6]>>,
+    /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
+    #[serde(skip)]
+    pub samples: Vec<([f64; 6], f64, f64)>,
+}
+
+impl FitResult {
+    fn empty(tr: &Tracklet) -> FitResult {
+        FitResult {
+            source: tr.source.clone(),
+            object: tr.object.clone(),
+            n_obs: tr.obs.len(),
+            n_used: 0,
+            n_nights: tr.n_nights(),
+            arc_days: tr.arc_days(),
+            method: "least-squares",
+            probability_from: "none",
+            dynamics: "two-body",
+            e: None,
+            e_sigma: None,
+            p_hyperbolic: None,
+            z_hyperbolic: None,
+            z_is_bound: false,
+            q_au: None,
+            q_sigma: None,
+            i_deg: None,
+            i_sigma: None,
+            rms_arcsec: None,
+            chi2_per_dof: None,
+            epoch_jd_tdb: None,
+            status: "failed",
+            error: None,
+            e_bary: None,
+            e_bary_sigma: None,
+            inv_a_bary: None,
+            elements: None,
+            barycentric: None,
+            incoming: None,
+            ranging: None,
+            n_eff: None,
+            distrust_linear: Vec::new(),
+            alternatives: Vec::new(),
+            poor_fit: Vec::new(),
+            night_means: Vec::new(),
+            residuals: Vec::new(),
+            state: None,
+            covariance: None,
+            samples: Vec::new(),
+        }
+    }
+
+    /// A failed result with its reason.
+    pub fn failed(tr: &Tracklet, reason: impl Into<String>) -> FitResult {
+        let mut r = FitResult::empty(tr);
+        r.error = Some(reason.into());
+        r
+    }
+
+    /// Ranking order: usable fits before poor ones before failures, then by score.
+    pub fn rank_key(&self) -> (u8, f64) {
+        let tier = match self.status {
+            "ok" => 2,
+            "poor-fit" => 1,
+            _ => 0,
+        };
+        (tier, self.z_hyperbolic.unwrap_or(f64::NEG_INFINITY))
+    }
+}
+
+/// Sort results by rank, best first.
+pub fn rank(results: &mut [FitResult]) {
+    results.sort_by(|a, b| {
+        let (ta, za) = a.rank_key();
+        let (tb, zb) = b.rank_key();
+        tb.cmp(&ta)
+            .then(zb.total_cmp(&za))
+            .then(a.object.cmp(&b.object))
+    });
+}
+
+fn split(x: &S6) -> (V3, V3) {
+    (V3::new(x[0], x[1], x[2]), V3::new(x[3], x[4], x[5]))
+}
+
+fn utc_string(tdb: Jd2) -> String {
+    tt_to_utc(tdb_to_tt(tdb)).to_string()
+}
+
+/// Fit one tracklet.
+pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
+    if tr.obs.len() < 2 {
+        return FitResult::failed(
+            tr,
+            format!("{} observation(s): at least 2 are needed", tr.obs.len()),
+        );
+    }
+    let mut observers = Vec::with_capacity(tr.obs.len());
+    for o in &tr.obs {
+        match model.observer(&o.location, &o.time) {
+            Ok(s) => observers.push(s),
+            Err(e) => return FitResult::failed(tr, format!("{}: {e}", o.origin)),
+        }
+    }
+    let cov = tr.covariances(opts.inflate_nights);
+    let first = tr.obs[0].time.tdb;
+    let epoch = first.plus_days(tr.arc_days() / 2.0);
+    let shift = match barycentric(&S6::zeros(), epoch) {
+        Ok(s) => s,
+        Err(e) => return FitResult::failed(tr, e.to_string()),
+    };
+    let multi_night = tr.n_nights() >= 2 && tr.arc_days() >= 0.5;
+    if opts.method == MethodChoice::Ranging || !multi_night || tr.obs.len() < 3 {
+        return ranging_result(tr, model, &observers, &cov, &shift, opts, None);
+    }
+    let two_body = TwoBody;
+    let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
+    // Short multi-night arcs have several minima: ranging over all nights finds the right basin.
+    let extra_seeds = if tr.n_nights() < 3 {
+        ranging_seeds(tr, model, &observers, &cov, &shift, opts, epoch)
+    } else {
+        Vec::new()
+    };
+    let Some((mut fit, alternatives)) = least_squares(&problem, opts, extra_seeds) else {
+        return ranging_result(
+            tr,
+            model,
+            &observers,
+            &cov,
+            &shift,
+            opts,
+            Some("no initial orbit converged"),
+        );
+    };
+    // Perturbations, by arc length or a close approach to Earth.
+    let nbody = NBody::new();
+    let close = problem
+        .evaluate_all(&fit.state)
+        .map(|ev| {
+            ev.iter()
+                .map(|e| e.0.topo.norm())
+                .fold(f64::INFINITY, f64::min)
+        })
+        .unwrap_or(f64::INFINITY);
+    let perturb = match opts.perturbations {
+        PerturbChoice::On => true,
+        PerturbChoice::Off => false,
+        PerturbChoice::Auto => tr.arc_days() > PERTURB_ARC_DAYS || close < PERTURB_EARTH_AU,
+    };
+    let dynamics: &dyn Dynamics = if perturb { &nbody } else { &two_body };
+    let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, dynamics);
+    if perturb {
+        match correct_with_outliers(&problem, &fit.state, &opts.lsq) {
+            Ok(f) => fit = f,
+            Err(e) => return FitResult::failed(tr, format!("perturbed refit failed: {e}")),
+        }
+    }
+    if fit.cov.is_none() {
+        return ranging_result(
+            tr,
+            model,
+            &observers,
+            &cov,
+            &shift,
+            opts,
+            Some("degenerate least squares"),
+        );
+    }
+    let alternatives = if perturb { Vec::new() } else { alternatives };
+    lsq_result(
+        tr,
+        &problem,
+        &fit,
+        &alternatives,
+        &shift,
+        opts,
+        dynamics.name(),
+    )
+}
+
+/// Initial orbits from Gauss's method on night triplets, each corrected; the best by χ², then
+/// corrected again with outlier handling.
+/// Distinct minima within this Δχ² of the best are kept as alternative solutions.
+pub const ALTERNATIVE_DCHI2: f64 = 9.0;
+
+fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqFit, Vec<LsqFit>)> {
+    let tr = p.tracklet;
+    let mut seeds = initial_orbits(p);
+    seeds.extend(extra);
+    let used = vec![true; tr.obs.len()];
+    let mut minima: Vec<LsqFit> = Vec::new();
+    for s in seeds {
+        let Ok(f) = correct(p, &s, &used, &opts.lsq) else {
+            continue;
+        };
+        if !f.chi2.is_finite() || !f.converged {
+            continue;
+        }
+        // The same minimum if within 3σ (Mahalanobis) of one already found.
+        let same = minima.iter().position(|m| {
+            let d = m.state - f.state;
+            match m.cov.and_then(|c| c.try_inverse()) {
+                Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
+                None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+            }
+        });
+        match same {
+            Some(k) if minima[k].chi2 <= f.chi2 => {}
+            Some(k) => minima[k] = f,
+            None => minima.push(f),
+        }
+    }
+    minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+    let best = minima.first()?.clone();
+    let best_fit = correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best);
+    let others = minima
+        .into_iter()
+        .skip(1)
+        .filter(|m| m.chi2 - best_fit.chi2 < ALTERNATIVE_DCHI2 && m.cov.is_some())
+        .collect();
+    Some((best_fit, others))
+}
+
+fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
+    let o = &p.tracklet.obs[i];
+    Sight {
+        t: o.time.tdb.minus(t_ref),
+        dir: unit_from_radec(o.ra, o.dec),
+        observer: p.observers[i].helio_pos,
+    }
+}
+
+/// Gauss solutions for several triplets of observations, propagated to the epoch.
+fn initial_orbits(p: &Problem) -> Vec<S6> {
+    let tr = p.tracklet;
+    let nights = tr.n_nights();
+    let members =
+        |k: usize| -> Vec<usize> { (0..tr.obs.len()).filter(|&i| tr.night[i] == k).collect() };
+    let mid = |k: usize| {
+        let m = members(k);
+        m[m.len() / 2]
+    };
+    let mut triplets: Vec<[usize; 3]> = Vec::new();
+    if nights >= 3 {
+        triplets.push([mid(0), mid(nights / 2), mid(nights - 1)]);
+        for a in 0..nights {
+            for b in a + 1..nights {
+                for c in b + 1..nights {
+                    let t = [mid(a), mid(b), mid(c)];
+                    if !triplets.contains(&t) && triplets.len() < 20 {
+                        triplets.push(t);
+                    }
+                }
+            }
+        }
+    }
+    // Two points of one night and one of another: weaker, but the only option for two nights and a
+    // fallback for more.
+    for k in 0..nights {
+        let m = members(k);
+        if m.len() >= 2 {
+            let other = if k + 1 < nights {
+                mid(k + 1)
+            } else {
+                mid(k - 1)
+            };
+            let mut t = [m[0], m[m.len() - 1], other];
+            t.sort_unstable();
+            if !triplets.contains(&t) {
+                triplets.push(t);
+            }
+        }
+    }
+    let mut seeds = Vec::new();
+    for t in triplets {
+        let sights = [
+            sight(p, t[0], p.epoch),
+            sight(p, t[1], p.epoch),
+            sight(p, t[2], p.epoch),
+        ];
+        for sol in gauss(&sights, MU_SUN, Some(C_AU_PER_DAY), true) {
+            if let Ok((r, v)) = propagate(&sol.r2, &sol.v2, -sol.t2, MU_SUN) {
+                seeds.push(S6::new(r.x, r.y, r.z, v.x, v.y, v.z));
+            }
+        }
+    }
+    seeds
+}
+
+fn rms(fit_res: &[[f64; 2]], used: &[bool]) -> f64 {
+    let (mut s, mut n) = (0.0, 0usize);
+    for (r, u) in fit_res.iter().zip(used) {
+        if *u {
+            s += r[0] * r[0] + r[1] * r[1];
+            n += 2;
+        }
+    }
+    (s / n.max(1) as f64).sqrt() / ARCSEC
+}
+
+fn residual_list(tr: &Tracklet, res: &[[f64; 2]], used: &[bool], chi2: &[f64]) -> Vec<ResidualOut> {
+    tr.obs
+        .iter()
+        .enumerate()
+        .map(|(i, o)| ResidualOut {
+            time_utc: utc_string(o.time.tdb),
+            site: o.site_code.clone(),
+            night: tr.night[i],
+            ra_arcsec: res[i][0] / ARCSEC,
+            dec_arcsec: res[i][1] / ARCSEC,
+            used: used[i],
+            chi2: chi2.get(i).copied().unwrap_or(f64::NAN),
+        })
+        .collect()
+}
+
+fn lsq_result(
+    tr: &Tracklet,
+    p: &Problem,
+    fit: &LsqFit,
+    alternatives: &[LsqFit],
+    shift: &S6,
+    opts: &FitOptions,
+    dynamics: &'static str,
+) -> FitResult {
+    let mut out = FitResult::empty(tr);
+    out.dynamics = dynamics;
+    out.method = "least-squares";
+    let ecl: M3 = equatorial_to_ecliptic();
+    let (el, sig) = elements_with_sigmas(
+        &fit.state,
+        fit.cov.as_ref(),
+        fit.epoch.value(),
+        MU_SUN,
+        &ecl,
+    );
+    let xb = fit.state + shift;
+    let (elb, sigb) = elements_with_sigmas(&xb, fit.cov.as_ref(), fit.epoch.value(), MU_BARY, &ecl);
+    let (rb, vb) = split(&xb);
+    let sigma_eb = fit.cov.map(|c| {
+        let g = eccentricity_gradient(&rb, &vb, MU_BARY);
+        (g * c * g.transpose())[0].max(0.0).sqrt()
+    });
+    out.n_used = fit.n_used();
+    out.e = Some(el.e);
+    out.e_sigma = sig.map(|s| s.e);
+    out.q_au = Some(el.q);
+    out.q_sigma = sig.map(|s| s.q);
+    out.i_deg = Some(el.i);
+    out.i_sigma = sig.map(|s| s.i);
+    out.e_bary = Some(elb.e);
+    out.e_bary_sigma = sigma_eb;
+    out.inv_a_bary = Some(elb.inv_a);
+    out.rms_arcsec = Some(rms(&fit.residuals, &fit.used));
+    out.chi2_per_dof = Some(fit.chi2_per_dof());
+    out.epoch_jd_tdb = Some(fit.epoch.value());
+    out.elements = Some(elements_out(&el, sig, MU_SUN));
+    out.barycentric = Some(elements_out(&elb, sigb, MU_BARY));
+    out.incoming = incoming(&xb, MU_BARY, sigb.map(|s| s.inv_a));
+    out.residuals = residual_list(tr, &fit.residuals, &fit.used, &fit.obs_chi2);
+    out.night_means = night_means(p, fit);
+    out.state = Some([
+        fit.state[0],
+        fit.state[1],
+        fit.state[2],
+        fit.state[3],
+        fit.state[4],
+        fit.state[5],
+    ]);
+    out.covariance = fit.cov.map(|c| {
+        (0..6)
+            .map(|i| [0, 1, 2, 3, 4, 5].map(|j| c[(i, j)]))
+            .collect()
+    });
+    out.distrust_linear = distrust_reasons(p, fit, shift);
+    let ecl_alt = equatorial_to_ecliptic();
+    out.alternatives = alternatives
+        .iter()
+        .map(|a| {
+            let (r, v) = split(&a.state);
+            let el = CometaryElements::from_state(
+                &(ecl_alt * r),
+                &(ecl_alt * v),
+                a.epoch.value(),
+                MU_SUN,
+            );
+            Alternative {
+                delta_chi2: a.chi2 - fit.chi2,
+                e: el.e,
+                q_au: el.q,
+                i_deg: el.i,
+            }
+        })
+        .collect();
+    if !alternatives.is_empty() {
+        out.distrust_linear.push(format!(
+            "{} other solution(s) fit as well",
+            alternatives.len()
+        ));
+    }
+    if out.distrust_linear.is_empty() {
+        let z = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
+        out.z_hyperbolic = Some(z);
+        out.p_hyperbolic = Some(sigma_eb.map_or(if elb.e > 1.0 { 1.0 } else { 0.0 }, |s| {
+            normal_cdf((elb.e - 1.0) / s.max(1e-300))
+        }));
+        out.probability_from = "linear";
+    } else if let Some(set) = {
+        let mut all: Vec<&LsqFit> = vec![fit];
+        all.extend(alternatives.iter());
+        importance_sample(p, &all, opts.samples, opts.seed, shift)
+    } {
+        let ph = sampled_probability(set.p_hyperbolic, set.n_eff);
+        out.p_hyperbolic = Some(ph);
+        out.z_hyperbolic = Some(probability_score(ph));
+        out.z_is_bound = set.p_hyperbolic <= 0.0 || set.p_hyperbolic >= 1.0;
+        out.n_eff = Some(set.n_eff);
+        out.probability_from = "importance-sampling";
+        // Uncertainties from the samples, which follow the real (curved) distribution.
+        let ecl_s = equatorial_to_ecliptic();
+        let els: Vec<CometaryElements> = set
+            .states
+            .iter()
+            .map(|x| {
+                let (r, v) = split(x);
+                CometaryElements::from_state(&(ecl_s * r), &(ecl_s * v), fit.epoch.value(), MU_SUN)
+            })
+            .collect();
+        let spread = |f: &dyn Fn(&CometaryElements) -> f64| {
+            let v: Vec<f64> = els.iter().map(f).collect();
+            super::sampling::weighted_spread(&v, &set.weights).1
+        };
+        out.e_sigma = Some(spread(&|e| e.e));
+        out.q_sigma = Some(spread(&|e| e.q));
+        out.i_sigma = Some(spread(&|e| e.i));
+        out.samples = set
+            .states
+            .iter()
+            .zip(&set.weights)
+            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], fit.epoch.value(), *w))
+            .collect();
+    } else {
+        let z = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
+        out.z_hyperbolic = Some(z);
+        out.p_hyperbolic = Some(normal_cdf(z));
+        out.probability_from = "linear";
+    }
+    out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
+    out.status = if out.poor_fit.is_empty() {
+        "ok"
+    } else {
+        "poor-fit"
+    };
+    out
+}
+
+fn ranging_result(
+    tr: &Tracklet,
+    model: &ObserverModel,
+    observers: &[ObserverState],
+    cov: &[nalgebra::Matrix2<f64>],
+    shift: &S6,
+    opts: &FitOptions,
+    why: Option<&str>,
+) -> FitResult {
+    let location = tr.obs[tr.obs.len() / 2].location;
+    let observer_at = |t: Jd2| model.observer(&location, &instant_at(tr, t)).ok();
+    let sun = (
+        V3::new(shift[0], shift[1], shift[2]),
+        V3::new(shift[3], shift[4], shift[5]),
+    );
+    let Some(rr) = range(tr, observers, cov, observer_at, sun, &opts.ranging) else {
+        let mut f = FitResult::failed(tr, "ranging found no admissible orbit");
+        f.method = "ranging";
+        return f;
+    };
+    let mut out = FitResult::empty(tr);
+    out.method = "ranging";
+    out.probability_from = "systematic-ranging";
+    fill_ranging(&mut out, tr, observers, &rr, opts);
+    if let Some(w) = why {
+        out.distrust_linear.push(w.to_string());
+    }
+    out
+}
+
+/// The best nodes of a ranging run over all observations, propagated to the epoch.
+fn ranging_seeds(
+    tr: &Tracklet,
+    model: &ObserverModel,
+    observers: &[ObserverState],
+    cov: &[nalgebra::Matrix2<f64>],
+    shift: &S6,
+    opts: &FitOptions,
+    epoch: Jd2,
+) -> Vec<S6> {
+    let location = tr.obs[tr.obs.len() / 2].location;
+    let observer_at = |t: Jd2| model.observer(&location, &instant_at(tr, t)).ok();
+    let sun = (
+        V3::new(shift[0], shift[1], shift[2]),
+        V3::new(shift[3], shift[4], shift[5]),
+    );
+    let mut ropts = opts.ranging;
+    ropts.n_rho = 60;
+    ropts.n_rhodot = 60;
+    let Some(rr) = range(tr, observers, cov, observer_at, sun, &ropts) else {
+        return Vec::new();
+    };
+    // The best node in each of eight distance bands: separate minima lie at separate distances.
+    let bands = 8usize;
+    let span = (super::ranging::RHO_MAX_AU / super::ranging::RHO_MIN_AU).ln();
+    let mut best: Vec<Option<&super::ranging::RangingSample>> = vec![None; bands];
+    for smp in &rr.samples {
+        let b = (((smp.rho / super::ranging::RHO_MIN_AU).ln() / span * bands as f64) as usize)
+            .min(bands - 1);
+        if best[b].is_none_or(|x| smp.chi2 < x.chi2) {
+            best[b] = Some(smp);
+        }
+    }
+    best.iter()
+        .flatten()
+        .filter_map(|s| {
+            let (r, v) = split(&s.state);
+            propagate(&r, &v, epoch.minus(s.epoch), MU_SUN)
+                .ok()
+                .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
+        })
+        .collect()
+}
+
+fn instant_at(tr: &Tracklet, t: Jd2) -> crate::physics::time::Instant {
+    crate::physics::time::Instant {
+        tai: t,
+        tt: tdb_to_tt(t),
+        tdb: t,
+        ut1: ut1_of(tr, t),
+        status: tr.obs[0].time.status,
+    }
+}
+
+/// UT1 (≈ UTC) at a TDB time, from the nearest observation's offset (constant within a night).
+fn ut1_of(tr: &Tracklet, t: Jd2) -> Jd2 {
+    let o = &tr.obs[0].time;
+    let offset = o.ut1.minus(o.tdb);
+    t.plus_days(offset)
+}
+
+fn fill_ranging(
+    out: &mut FitResult,
+    tr: &Tracklet,
+    observers: &[ObserverState],
+    rr: &RangingResult,
+    opts: &FitOptions,
+) {
+    let ph = sampled_probability(rr.p_hyperbolic, rr.n_eff);
+    out.p_hyperbolic = Some(ph);
+    out.z_hyperbolic = Some(probability_score(ph));
+    out.z_is_bound = rr.p_hyperbolic <= 0.0 || rr.p_hyperbolic >= 1.0;
+    out.n_eff = Some(rr.n_eff);
+    out.e = Some(rr.e_interval[1]);
+    out.q_au = Some(rr.q_interval[1]);
+    out.i_deg = Some(rr.i_interval[1]);
+    let w: Vec<f64> = rr.samples.iter().map(|s| s.weight).collect();
+    let half68 = |f: &dyn Fn(&super::ranging::RangingSample) -> f64| {
+        let v: Vec<f64> = rr.samples.iter().map(f).collect();
+        match (
+            weighted_quantile(&v, &w, 0.1587),
+            weighted_quantile(&v, &w, 0.8413),
+        ) {
+            (Some(a), Some(b)) => Some((b - a) / 2.0),
+            _ => None,
+        }
+    };
+    out.q_sigma = half68(&|s| s.q);
+    out.i_sigma = half68(&|s| s.i);
+    out.e_bary = Some(rr.best.e_bary);
+    out.epoch_jd_tdb = Some(rr.best.epoch.value());
+    out.n_used = tr.obs.len();
+    let b = rr.best.state;
+    out.state = Some([b[0], b[1], b[2], b[3], b[4], b[5]]);
+    let ecl = equatorial_to_ecliptic();
+    let (r, v) = split(&b);
+    let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), rr.best.epoch.value(), MU_SUN);
+    out.elements = Some(elements_out(&el, None, MU_SUN));
+    // Residuals of the most probable orbit.
+    let mut res = Vec::new();
+    for (i, o) in tr.obs.iter().enumerate() {
+        let p = super::ranging::quick_predict(&r, &v, rr.best.epoch, o.time.tdb, &observers[i]);
+        res.push(p.map_or([f64::NAN; 2], |p| {
+            crate::physics::observe::residual(o.ra, o.dec, &p)
+        }));
+    }
+    let used = vec![true; tr.obs.len()];
+    out.rms_arcsec = Some(rms(&res, &used));
+    out.chi2_per_dof = Some(rr.best.chi2 / ((2 * tr.obs.len()).saturating_sub(4)).max(1) as f64);
+    out.residuals = residual_list(tr, &res, &used, &[]);
+    out.ranging = Some(RangingOut {
+        prior: "population: log-distance, unbound density x0.01",
+        p_hyperbolic_uniform_prior: rr.p_hyperbolic_uniform,
+        bayes_factor: rr.bayes_factor,
+        prior_dominated: rr.prior_dominated,
+        trials: rr.trials,
+        n_eff: rr.n_eff,
+        v_cap_km_s: opts.ranging.v_cap_km_s,
+        e_interval: rr.e_interval,
+        q_interval: rr.q_interval,
+        i_interval: rr.i_interval,
+    });
+    out.samples = rr
+        .samples
+        .iter()
+        .map(|s| {
+            (
+                [
+                    s.state[0], s.state[1], s.state[2], s.state[3], s.state[4], s.state[5],
+                ],
+                s.epoch.value(),
+                s.weight,
+            )
+        })
+        .collect();
+    if out.chi2_per_dof.unwrap_or(0.0) > super::quality::MAX_CHI2_PER_DOF {
+        out.poor_fit.push(format!(
+            "chi2/dof {:.1} at the best node",
+            out.chi2_per_dof.unwrap_or(0.0)
+        ));
+    }
+    out.status = if out.poor_fit.is_empty() {
+        "ok"
+    } else {
+        "poor-fit"
+    };
+}

@@ -1,0 +1,390 @@
+//! Weighted differential correction: Levenberg–Marquardt on the Cartesian state at an epoch near
+//! mid-arc, solved by QR on whitened rows (the normal matrix of a short arc is too ill-conditioned to
+//! invert directly), with velocity scaled by the arc length. Outliers are rejected and readmitted with
+//! the χ² test of Carpino, Milani & Chesley (2003, Icarus 166, 248).
+
+use super::input::Tracklet;
+use super::perturb::Dynamics;
+use crate::physics::observe::{ObserverState, Prediction, project, residual};
+use crate::physics::time::Jd2;
+use crate::physics::{M6, S6};
+use nalgebra::{DMatrix, DVector, Matrix2, Matrix2x6};
+use thiserror::Error;
+
+#[derive(Debug, Error, Clone, PartialEq)]
+pub enum LsqError {
+    #[error("orbit fell inside 0.005 AU of the Sun")]
+    TooClose,
+    #[error("propagation failed: {0}")]
+    Propagation(String),
+    #[error("too few observations ({0}) for six parameters")]
+    TooFew(usize),
+}
+
+/// Everything fixed during a fit of one tracklet.
+pub struct Problem<'a> {
+    pub tracklet: &'a Tracklet,
+    pub observers: Vec<ObserverState>,
+    pub cov: Vec<Matrix2<f64>>,
+    /// Inverse Cholesky factors of `cov` (whitening).
+    pub whiten: Vec<Matrix2<f64>>,
+    pub epoch: Jd2,
+    pub mu: f64,
+    pub dynamics: &'a dyn Dynamics,
+}
+
+impl<'a> Problem<'a> {
+    pub fn new(
+        tracklet: &'a Tracklet,
+        observers: Vec<ObserverState>,
+        cov: Vec<Matrix2<f64>>,
+        epoch: Jd2,
+        mu: f64,
+        dynamics: &'a dyn Dynamics,
+    ) -> Problem<'a> {
+        let whiten = cov
+            .iter()
+            .map(|c| {
+                c.cholesky()
+                    .and_then(|ch| ch.l().try_inverse())
+                    .unwrap_or_else(|| {
+                        Matrix2::from_diagonal(&c.diagonal().map(|d| 1.0 / d.sqrt()))
+                    })
+            })
+            .collect();
+        Problem {
+            tracklet,
+            observers,
+            cov,
+            whiten,
+            epoch,
+            mu,
+            dynamics,
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.tracklet.obs.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.tracklet.obs.is_empty()
+    }
+
+    /// Prediction, O − C (radians) and partials for every observation.
+    pub fn evaluate_all(&self, x: &S6) -> Result<Vec<Evaluated>, LsqError> {
+        let times: Vec<Jd2> = self.tracklet.obs.iter().map(|o| o.time.tdb).collect();
+        let states = self
+            .dynamics
+            .states(x, self.epoch, &times)
+            .map_err(|e| LsqError::Propagation(e.to_string()))?;
+        Ok(states
+            .into_iter()
+            .enumerate()
+            .map(|(i, st)| {
+                let o = &self.tracklet.obs[i];
+                let (p, jac) = project(st, &self.observers[i], self.mu);
+                (p, residual(o.ra, o.dec, &p), jac)
+            })
+            .collect())
+    }
+
+    /// χ² of a state over the given observations (no partials needed by the caller).
+    pub fn chi2(&self, x: &S6, used: &[bool]) -> Result<f64, LsqError> {
+        let ev = self.evaluate_all(x)?;
+        Ok(ev
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| used[*i])
+            .map(|(i, e)| (self.whiten[i] * nalgebra::Vector2::new(e.1[0], e.1[1])).norm_squared())
+            .sum())
+    }
+}
+
+/// One observation evaluated at a state: prediction, O − C and partials.
+pub type Evaluated = (Prediction, [f64; 2], Matrix2x6<f64>);
+
+/// Result of a differential correction.
+#[derive(Debug, Clone)]
+pub struct LsqFit {
+    pub state: S6,
+    pub epoch: Jd2,
+    /// Covariance of the state (None when the normal matrix is singular).
+    pub cov: Option<M6>,
+    pub chi2: f64,
+    /// O − C in (RA·cos Dec, Dec), radians, for every observation (used or not).
+    pub residuals: Vec<[f64; 2]>,
+    /// Per-observation χ² of Carpino et al. (with the fit's own uncertainty removed or added).
+    pub obs_chi2: Vec<f64>,
+    pub used: Vec<bool>,
+    pub iterations: usize,
+    pub lambda: f64,
+    pub converged: bool,
+}
+
+impl LsqFit {
+    pub fn n_used(&self) -> usize {
+        self.used.iter().filter(|u| **u).count()
+    }
+    pub fn dof(&self) -> usize {
+        (2 * self.n_used()).saturating_sub(6)
+    }
+    pub fn chi2_per_dof(&self) -> f64 {
+        self.chi2 / self.dof().max(1) as f64
+    }
+}
+
+struct Linearised {
+    rows: DMatrix<f64>,
+    rhs: DVector<f64>,
+    chi2: f64,
+    residuals: Vec<[f64; 2]>,
+    partials: Vec<Matrix2x6<f64>>,
+}
+
+fn linearise(p: &Problem, x: &S6, used: &[bool], vscale: f64) -> Result<Linearised, LsqError> {
+    let n_used = used.iter().filter(|u| **u).count();
+    let mut rows = DMatrix::zeros(2 * n_used, 6);
+    let mut rhs = DVector::zeros(2 * n_used);
+    let mut residuals = Vec::with_capacity(p.len());
+    let mut partials = Vec::with_capacity(p.len());
+    let mut chi2 = 0.0;
+    let mut k = 0;
+    for (i, (pred, res, jac)) in p.evaluate_all(x)?.into_iter().enumerate() {
+        if pred.obj_pos.norm() < 0.005 {
+            return Err(LsqError::TooClose);
+        }
+        residuals.push(res);
+        partials.push(jac);
+        if !used[i] {
+            continue;
+        }
+        let w = &p.whiten[i];
+        let wr = w * nalgebra::Vector2::new(res[0], res[1]);
+        let mut wj = w * jac;
+        for c in 3..6 {
+            wj[(0, c)] /= vscale;
+            wj[(1, c)] /= vscale;
+        }
+        chi2 += wr.norm_squared();
+        for a in 0..2 {
+            rhs[k + a] = wr[a];
+            for c in 0..6 {
+                rows[(k + a, c)] = wj[(a, c)];
+            }
+        }
+        k += 2;
+    }
+    Ok(Linearised {
+        rows,
+        rhs,
+        chi2,
+        residuals,
+        partials,
+    })
+}
+
+/// Least-squares solution of [J; √λ·D] Δ = [r; 0] by QR (D = column norms of J).
+fn lm_step(lin: &Linearised, lambda: f64) -> Option<DVector<f64>> {
+    let n = lin.rows.nrows();
+    let mut a = DMatrix::zeros(n + 6, 6);
+    a.rows_mut(0, n).copy_from(&lin.rows);
+    let mut b = DVector::zeros(n + 6);
+    b.rows_mut(0, n).copy_from(&lin.rhs);
+    for c in 0..6 {
+        a[(n + c, c)] = lambda.sqrt() * lin.rows.column(c).norm().max(1e-300);
+    }
+    let qr = a.qr();
+    let qtb = qr.q().transpose() * b;
+    qr.r().solve_upper_triangular(&qtb)
+}
+
+/// Covariance of the (unscaled) state from the whitened rows, None if singular.
+fn covariance(lin: &Linearised, vscale: f64) -> Option<M6> {
+    if lin.rows.nrows() < 6 {
+        return None;
+    }
+    let svd = lin.rows.clone().svd(false, true);
+    let smax = svd.singular_values.max();
+    if svd.singular_values.min() <= 1e-13 * smax {
+        return None;
+    }
+    let vt = svd.v_t.as_ref()?;
+    let mut g = M6::zeros();
+    for k in 0..6 {
+        let s2 = svd.singular_values[k].powi(2);
+        let v = vt.row(k);
+        for i in 0..6 {
+            for j in 0..6 {
+                g[(i, j)] += v[i] * v[j] / s2;
+            }
+        }
+    }
+    let d = S6::new(1.0, 1.0, 1.0, 1.0 / vscale, 1.0 / vscale, 1.0 / vscale);
+    Some(M6::from_fn(|i, j| g[(i, j)] * d[i] * d[j]))
+}
+
+/// Options of the differential correction.
+#[derive(Debug, Clone, Copy)]
+pub struct LsqOptions {
+    pub max_iterations: usize,
+    pub reject_chi2: f64,
+    pub recover_chi2: f64,
+    pub outliers: bool,
+    /// At most this fraction of the observations may be rejected.
+    pub max_reject_fraction: f64,
+    /// Each night keeps at least this many observations.
+    pub min_per_night: usize,
+}
+
+impl Default for LsqOptions {
+    fn default() -> Self {
+        LsqOptions {
+            max_iterations: 50,
+            // Project defaults (the paper's own thresholds were not checked): reject above 9, readmit below 8.
+            reject_chi2: 9.0,
+            recover_chi2: 8.0,
+            outliers: true,
+            max_reject_fraction: 0.1,
+            min_per_night: 2,
+        }
+    }
+}
+
+/// Levenberg–Marquardt from `x0` with the given observations in use.
+pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result<LsqFit, LsqError> {
+    let n_used = used.iter().filter(|u| **u).count();
+    if 2 * n_used < 6 {
+        return Err(LsqError::TooFew(n_used));
+    }
+    let vscale = p.tracklet.arc_days().max(1.0);
+    let mut x = *x0;
+    let mut lin = linearise(p, &x, used, vscale)?;
+    let mut lambda = 1e-3;
+    let mut converged = false;
+    let mut iterations = 0;
+    while iterations < opts.max_iterations {
+        iterations += 1;
+        // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6).
+        if let Some(gn) = lm_step(&lin, 0.0) {
+            if (&lin.rows * &gn).norm_squared() / 6.0 < 1e-6 {
+                converged = true;
+                break;
+            }
+        }
+        let Some(dp) = lm_step(&lin, lambda) else {
+            break;
+        };
+        let mut trial = x;
+        for c in 0..6 {
+            trial[c] += if c < 3 { dp[c] } else { dp[c] / vscale };
+        }
+        match linearise(p, &trial, used, vscale) {
+            Ok(next) if next.chi2 <= lin.chi2 => {
+                let rel = (lin.chi2 - next.chi2) / lin.chi2.max(1e-300);
+                x = trial;
+                lin = next;
+                lambda = (lambda / 10.0).max(1e-12);
+                if rel < 1e-10 && lambda < 1e-2 {
+                    converged = true;
+                    break;
+                }
+            }
+            _ => {
+                lambda *= 10.0;
+                if lambda > 1e10 {
+                    break;
+                }
+            }
+        }
+    }
+    let cov = covariance(&lin, vscale);
+    let obs_chi2 = per_observation_chi2(p, &lin, cov.as_ref(), used);
+    Ok(LsqFit {
+        state: x,
+        epoch: p.epoch,
+        cov,
+        chi2: lin.chi2,
+        residuals: lin.residuals,
+        obs_chi2,
+        used: used.to_vec(),
+        iterations,
+        lambda,
+        converged,
+    })
+}
+
+fn per_observation_chi2(
+    p: &Problem,
+    lin: &Linearised,
+    cov: Option<&M6>,
+    used: &[bool],
+) -> Vec<f64> {
+    (0..p.len())
+        .map(|i| {
+            let r = nalgebra::Vector2::new(lin.residuals[i][0], lin.residuals[i][1]);
+            let b = &lin.partials[i];
+            let mut g = p.cov[i];
+            if let Some(c) = cov {
+                let bgb = b * c * b.transpose();
+                g = if used[i] { g - bgb } else { g + bgb };
+            }
+            let g = if g.determinant() > 1e-6 * p.cov[i].determinant() {
+                g
+            } else {
+                p.cov[i]
+            };
+            g.try_inverse()
+                .map_or(f64::INFINITY, |gi| (r.transpose() * gi * r)[0])
+        })
+        .collect()
+}
+
+/// Differential correction with outlier rejection and recovery until the set of used observations is
+/// stable. Never rejects more than `max_reject_fraction` of the points, nor leaves a night with fewer
+/// than `min_per_night`.
+pub fn correct_with_outliers(p: &Problem, x0: &S6, opts: &LsqOptions) -> Result<LsqFit, LsqError> {
+    let n = p.len();
+    let mut used = vec![true; n];
+    let mut fit = correct(p, x0, &used, opts)?;
+    if !opts.outliers {
+        return Ok(fit);
+    }
+    let max_reject = ((n as f64 * opts.max_reject_fraction).floor() as usize).max(1);
+    for _ in 0..10 {
+        let mut changed = false;
+        // Readmit every rejected point that now fits.
+        for (u, c) in used.iter_mut().zip(&fit.obs_chi2) {
+            if !*u && *c < opts.recover_chi2 {
+                *u = true;
+                changed = true;
+            }
+        }
+        // Reject the worst point above the threshold, if the limits allow.
+        let rejected = used.iter().filter(|u| !**u).count();
+        if rejected < max_reject {
+            let worst = (0..n)
+                .filter(|&i| used[i] && fit.obs_chi2[i] > opts.reject_chi2)
+                .filter(|&i| {
+                    let night = p.tracklet.night[i];
+                    let left = (0..n)
+                        .filter(|&j| used[j] && p.tracklet.night[j] == night)
+                        .count();
+                    left > opts.min_per_night
+                })
+                .max_by(|&a, &b| fit.obs_chi2[a].total_cmp(&fit.obs_chi2[b]));
+            if let Some(w) = worst {
+                used[w] = false;
+                changed = true;
+            }
+        }
+        if !changed {
+            break;
+        }
+        if 2 * used.iter().filter(|u| **u).count() < 7 {
+            break;
+        }
+        fit = correct(p, &fit.state, &used, opts)?;
+    }
+    Ok(fit)
+}

@@ -1,0 +1,104 @@
+//! Is the fit believable? χ²/dof, nights whose mean residual disagrees with the rest, and an
+//! eccentricity that jumps when one night is left out: the marks of a false linkage of different
+//! objects, which converge to large-e orbits and must never rank as confident candidates.
+
+use super::covariance::eccentricity_gradient;
+use super::lsq::{LsqFit, LsqOptions, Problem, correct};
+use crate::physics::V3;
+use crate::physics::constants::ARCSEC;
+use nalgebra::Vector2;
+
+/// χ²/dof above this is a poor fit (common practice, no source).
+pub const MAX_CHI2_PER_DOF: f64 = 3.0;
+/// A night's mean whitened residual, n·|mean|², is χ²(2) if the night agrees; above this (p = 0.001)
+/// it disagrees.
+pub const NIGHT_DISAGREES_CHI2: f64 = 13.8;
+
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct NightMean {
+    pub night: usize,
+    pub n: usize,
+    pub ra_arcsec: f64,
+    pub dec_arcsec: f64,
+    pub chi2: f64,
+}
+
+/// Mean residual of each night (used observations only).
+pub fn night_means(p: &Problem, fit: &LsqFit) -> Vec<NightMean> {
+    let nights = p.tracklet.n_nights();
+    (0..nights)
+        .filter_map(|k| {
+            let idx: Vec<usize> = (0..p.len())
+                .filter(|&i| p.tracklet.night[i] == k && fit.used[i])
+                .collect();
+            if idx.is_empty() {
+                return None;
+            }
+            let n = idx.len() as f64;
+            let mut raw = [0.0, 0.0];
+            let mut white = Vector2::zeros();
+            for &i in &idx {
+                raw[0] += fit.residuals[i][0] / n;
+                raw[1] += fit.residuals[i][1] / n;
+                white += p.whiten[i] * Vector2::new(fit.residuals[i][0], fit.residuals[i][1]) / n;
+            }
+            Some(NightMean {
+                night: k,
+                n: idx.len(),
+                ra_arcsec: raw[0] / ARCSEC,
+                dec_arcsec: raw[1] / ARCSEC,
+                chi2: n * white.norm_squared(),
+            })
+        })
+        .collect()
+}
+
+/// Reasons the fit is poor (empty when it is fine).
+pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) -> Vec<String> {
+    let mut why = Vec::new();
+    if fit.chi2_per_dof() > MAX_CHI2_PER_DOF {
+        why.push(format!("chi2/dof {:.1}", fit.chi2_per_dof()));
+    }
+    let means = night_means(p, fit);
+    if means.len() >= 2 {
+        for m in &means {
+            if m.chi2 > NIGHT_DISAGREES_CHI2 {
+                why.push(format!(
+                    "night {} disagrees (mean O-C {:+.2}\", {:+.2}\")",
+                    m.night + 1,
+                    m.ra_arcsec,
+                    m.dec_arcsec
+                ));
+            }
+        }
+    }
+    // Leave one night out only where three or more remain: two nights alone do not fix e.
+    if p.tracklet.n_nights() >= 4 {
+        for k in 0..p.tracklet.n_nights() {
+            let used: Vec<bool> = (0..p.len())
+                .map(|i| fit.used[i] && p.tracklet.night[i] != k)
+                .collect();
+            let Ok(f) = correct(p, &fit.state, &used, opts) else {
+                continue;
+            };
+            if !f.converged {
+                continue;
+            }
+            let r = V3::new(f.state[0], f.state[1], f.state[2]);
+            let v = V3::new(f.state[3], f.state[4], f.state[5]);
+            let el = crate::physics::elements::CometaryElements::from_state(&r, &v, 0.0, p.mu);
+            let sigma = f
+                .cov
+                .map(|c| {
+                    let g = eccentricity_gradient(&r, &v, p.mu);
+                    (g * c * g.transpose())[0].max(0.0).sqrt()
+                })
+                .unwrap_or(f64::INFINITY);
+            let de = (el.e - e).abs();
+            if de > (3.0 * sigma).max(0.05) {
+                why.push(format!("e moves {:.2} without night {}", de, k + 1));
+            }
+        }
+    }
+    why
+}

@@ -1,0 +1,396 @@
+//! Systematic ranging for short arcs (one night, or a degenerate least-squares problem): a grid over
+//! topocentric distance ρ (log-spaced) and radial velocity ρ̇ at the mean epoch, inside the region
+//! where the heliocentric energy stays below v_cap²/2 (so unbound orbits up to v∞ = v_cap are admitted).
+//! At each node the four attributable parameters (direction and its rate) are profiled out: O − C is
+//! projected off their linear span, which is what a per-node four-parameter fit converges to for a
+//! short arc, at the cost of one prediction per observation.
+//!
+//! Priors. `population` (the default): density ∝ 1/ρ in distance, uniform in ρ̇, and unbound nodes
+//! down-weighted by [`UNBOUND_DENSITY_FACTOR`], because unbound objects are rare among moving objects.
+//! `uniform`: uniform in (ρ, ρ̇) over the capped region, no class factor. Both are reported, with the
+//! Bayes factor K of unbound vs bound (posterior odds over prior odds, which cancels both class weight
+//! and volume); |log₁₀ K| < 0.5 marks a result decided by the prior rather than the data.
+
+use super::input::Tracklet;
+use super::stats::{effective_sample_size, weighted_quantile};
+use crate::physics::constants::{AU_PER_DAY_TO_KM_S, C_AU_PER_DAY, MU_SUN};
+use crate::physics::elements::CometaryElements;
+use crate::physics::frames::equatorial_to_ecliptic;
+use crate::physics::observe::{ObserverState, Prediction, residual};
+use crate::physics::propagate::propagate;
+use crate::physics::time::Jd2;
+use crate::physics::{S6, V3};
+use nalgebra::{DMatrix, DVector, Matrix2};
+
+/// Relative prior density of unbound orbits in the population prior (our choice, no source: it
+/// encodes "rare" without pretending to know the real rate, which is orders of magnitude smaller).
+pub const UNBOUND_DENSITY_FACTOR: f64 = 0.01;
+/// Default speed cap at infinity (km/s).
+pub const DEFAULT_V_CAP_KM_S: f64 = 100.0;
+/// Nearest distance considered (AU): just beyond the Moon, so Earth satellites are not modelled.
+pub const RHO_MIN_AU: f64 = 0.003;
+/// Farthest distance considered (AU).
+pub const RHO_MAX_AU: f64 = 100.0;
+
+#[derive(Debug, Clone, Copy)]
+pub struct RangingOptions {
+    pub v_cap_km_s: f64,
+    pub n_rho: usize,
+    pub n_rhodot: usize,
+    pub seed: u64,
+}
+
+impl Default for RangingOptions {
+    fn default() -> Self {
+        RangingOptions {
+            v_cap_km_s: DEFAULT_V_CAP_KM_S,
+            n_rho: 100,
+            n_rhodot: 100,
+            seed: 0x1A7E_2026,
+        }
+    }
+}
+
+/// One weighted orbit of the ranging set.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RangingSample {
+    pub state: S6,
+    pub epoch: Jd2,
+    pub chi2: f64,
+    /// Posterior weight under the population prior (normalised to sum 1 over the set).
+    pub weight: f64,
+    pub e: f64,
+    pub e_bary: f64,
+    pub q: f64,
+    pub i: f64,
+    pub rho: f64,
+}
+
+/// A grid node with its prior under both priors and its class.
+struct Node {
+    sample: RangingSample,
+    prior_pop: f64,
+    prior_uni: f64,
+    unbound: bool,
+}
+
+/// Summary of a ranging run.
+#[derive(Debug, Clone)]
+pub struct RangingResult {
+    pub samples: Vec<RangingSample>,
+    pub p_hyperbolic: f64,
+    pub p_hyperbolic_uniform: f64,
+    pub bayes_factor: f64,
+    pub prior_dominated: bool,
+    pub n_eff: f64,
+    pub e_interval: [f64; 3],
+    pub q_interval: [f64; 3],
+    pub i_interval: [f64; 3],
+    pub best: RangingSample,
+    pub trials: usize,
+}
+
+/// A small seeded generator (SplitMix64) for reproducible jitter within grid cells.
+pub struct SplitMix(u64);
+
+impl SplitMix {
+    pub fn new(seed: u64) -> Self {
+        SplitMix(seed)
+    }
+    pub fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    pub fn uniform(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+    /// Standard normal (Box–Muller).
+    pub fn normal(&mut self) -> f64 {
+        let u1 = self.uniform().max(1e-300);
+        let u2 = self.uniform();
+        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+    }
+}
+
+/// Position only, with light time, for a state at its own epoch (no partials: ranging needs speed).
+pub fn quick_predict(
+    r0: &V3,
+    v0: &V3,
+    epoch: Jd2,
+    t: Jd2,
+    obs: &ObserverState,
+) -> Option<Prediction> {
+    let (r, v) = propagate(r0, v0, t.minus(epoch), MU_SUN).ok()?;
+    let rm = r.norm();
+    let acc = -MU_SUN * r / (rm * rm * rm);
+    let mut rho = r - obs.helio_pos;
+    let mut tau = 0.0;
+    for _ in 0..2 {
+        tau = rho.norm() / C_AU_PER_DAY;
+        rho = r - v * tau + acc * (0.5 * tau * tau) - obs.helio_pos - obs.sun_bary_vel * tau;
+    }
+    let u = rho / rho.norm();
+    Some(Prediction {
+        ra: rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU),
+        dec: u.z.clamp(-1.0, 1.0).asin(),
+        topo: rho,
+        light_time: tau,
+        obj_pos: r - v * tau,
+        obj_vel: v,
+    })
+}
+
+/// The attributable: direction and rate at the mean epoch, from a weighted polynomial fit in the
+/// tangent plane.
+struct Attributable {
+    t0: Jd2,
+    u: V3,
+    udot: V3,
+    e_a: V3,
+    e_d: V3,
+}
+
+fn tangent_axes(u: &V3) -> (V3, V3) {
+    let e_a = V3::new(-u.y, u.x, 0.0);
+    let e_a = if e_a.norm() > 1e-12 {
+        e_a.normalize()
+    } else {
+        V3::x()
+    };
+    (e_a, u.cross(&e_a))
+}
+
+fn attributable(tr: &Tracklet) -> Attributable {
+    let n = tr.obs.len();
+    let t0 = {
+        let base = tr.obs[0].time.tdb;
+        let mean = tr.obs.iter().map(|o| o.time.tdb.minus(base)).sum::<f64>() / n as f64;
+        base.plus_days(mean)
+    };
+    let dirs: Vec<V3> = tr
+        .obs
+        .iter()
+        .map(|o| crate::physics::frames::unit_from_radec(o.ra, o.dec))
+        .collect();
+    let u0 = dirs.iter().fold(V3::zeros(), |a, d| a + d).normalize();
+    let (e_a, e_d) = tangent_axes(&u0);
+    let span = tr.arc_days();
+    let degree = if n > 4 && span > 1.0 / 24.0 { 2 } else { 1 };
+    let mut a = DMatrix::zeros(n, degree + 1);
+    let mut bx = DVector::zeros(n);
+    let mut by = DVector::zeros(n);
+    for (i, (o, d)) in tr.obs.iter().zip(&dirs).enumerate() {
+        let dt = o.time.tdb.minus(t0);
+        let w = d.dot(&u0);
+        bx[i] = d.dot(&e_a) / w;
+        by[i] = d.dot(&e_d) / w;
+        for k in 0..=degree {
+            a[(i, k)] = dt.powi(k as i32);
+        }
+    }
+    let solve = |b: &DVector<f64>| {
+        let qr = a.clone().qr();
+        qr.r()
+            .solve_upper_triangular(&(qr.q().transpose() * b))
+            .unwrap_or_else(|| DVector::zeros(degree + 1))
+    };
+    let (cx, cy) = (solve(&bx), solve(&by));
+    let u = (u0 + cx[0] * e_a + cy[0] * e_d).normalize();
+    let udot_raw = cx[1] * e_a + cy[1] * e_d;
+    let udot = udot_raw - u * u.dot(&udot_raw);
+    let (e_a, e_d) = tangent_axes(&u);
+    Attributable {
+        t0,
+        u,
+        udot,
+        e_a,
+        e_d,
+    }
+}
+
+/// Run systematic ranging. `observer_at_t0` is the observer at the tracklet's mean epoch;
+/// `sun_bary` the Sun's barycentric state at that epoch (for barycentric eccentricities).
+pub fn range(
+    tr: &Tracklet,
+    observers: &[ObserverState],
+    cov: &[Matrix2<f64>],
+    observer_at_t0: impl Fn(Jd2) -> Option<ObserverState>,
+    sun_bary: (V3, V3),
+    opts: &RangingOptions,
+) -> Option<RangingResult> {
+    let n = tr.obs.len();
+    if n < 2 {
+        return None;
+    }
+    let att = attributable(tr);
+    let obs0 = observer_at_t0(att.t0)?;
+    let whiten: Vec<Matrix2<f64>> = cov
+        .iter()
+        .map(|c| {
+            c.cholesky()
+                .and_then(|ch| ch.l().try_inverse())
+                .unwrap_or_else(Matrix2::identity)
+        })
+        .collect();
+    // Whitened linear model of the four attributable parameters, and its projector.
+    let mut a = DMatrix::zeros(2 * n, 4);
+    for i in 0..n {
+        let dt = tr.obs[i].time.tdb.minus(att.t0);
+        let block = nalgebra::Matrix2x4::new(1.0, 0.0, dt, 0.0, 0.0, 1.0, 0.0, dt);
+        let wb = whiten[i] * block;
+        for r in 0..2 {
+            for c in 0..4 {
+                a[(2 * i + r, c)] = wb[(r, c)];
+            }
+        }
+    }
+    let ata_inv = (a.transpose() * &a).try_inverse()?;
+    let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let ecl = equatorial_to_ecliptic();
+    let mut rng = SplitMix::new(opts.seed);
+    let dln = (RHO_MAX_AU / RHO_MIN_AU).ln() / opts.n_rho as f64;
+    let mut nodes: Vec<Node> = Vec::new();
+    let mut trials = 0;
+    let mut xi = DVector::zeros(2 * n);
+    for k in 0..opts.n_rho {
+        let ln_rho = RHO_MIN_AU.ln() + dln * (k as f64 + rng.uniform());
+        let rho = ln_rho.exp();
+        let r = obs0.helio_pos + rho * att.u;
+        let w0 = obs0.helio_vel + rho * att.udot;
+        let c1 = w0.dot(&att.u);
+        let disc = c1 * c1 - w0.norm_squared() + 2.0 * MU_SUN / r.norm() + v_cap * v_cap;
+        if disc <= 0.0 {
+            continue;
+        }
+        let (lo, hi) = (-c1 - disc.sqrt(), -c1 + disc.sqrt());
+        let drd = (hi - lo) / opts.n_rhodot as f64;
+        for j in 0..opts.n_rhodot {
+            let rhodot = lo + drd * (j as f64 + rng.uniform());
+            let epoch = att.t0.plus_days(-rho / C_AU_PER_DAY);
+            let v = w0 + rhodot * att.u;
+            trials += 1;
+            let mut ok = true;
+            for i in 0..n {
+                let Some(p) = quick_predict(&r, &v, epoch, tr.obs[i].time.tdb, &observers[i])
+                else {
+                    ok = false;
+                    break;
+                };
+                let res = residual(tr.obs[i].ra, tr.obs[i].dec, &p);
+                let wr = whiten[i] * nalgebra::Vector2::new(res[0], res[1]);
+                xi[2 * i] = wr[0];
+                xi[2 * i + 1] = wr[1];
+            }
+            if !ok {
+                continue;
+            }
+            let atx = a.transpose() * &xi;
+            let c = &ata_inv * &atx;
+            let chi2 = (xi.norm_squared() - atx.dot(&c)).max(0.0);
+            // Apply the profiled attributable correction to the node's orbit.
+            let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
+            let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
+            let rr = obs0.helio_pos + rho * u;
+            let vv = obs0.helio_vel + rho * udot + rhodot * u;
+            let el = CometaryElements::from_state(&(ecl * rr), &(ecl * vv), epoch.value(), MU_SUN);
+            let eb = CometaryElements::from_state(
+                &(rr + sun_bary.0),
+                &(vv + sun_bary.1),
+                epoch.value(),
+                super::significance::MU_BARY,
+            );
+            let unbound = eb.e > 1.0;
+            let area = rho * dln * drd;
+            let prior_pop = dln * drd * if unbound { UNBOUND_DENSITY_FACTOR } else { 1.0 };
+            nodes.push(Node {
+                sample: RangingSample {
+                    state: S6::new(rr.x, rr.y, rr.z, vv.x, vv.y, vv.z),
+                    epoch,
+                    chi2,
+                    weight: 0.0,
+                    e: el.e,
+                    e_bary: eb.e,
+                    q: el.q,
+                    i: el.i,
+                    rho,
+                },
+                prior_pop,
+                prior_uni: area,
+                unbound,
+            });
+        }
+    }
+    if nodes.is_empty() {
+        return None;
+    }
+    let chi2_min = nodes
+        .iter()
+        .map(|n| n.sample.chi2)
+        .fold(f64::INFINITY, f64::min);
+    let like: Vec<f64> = nodes
+        .iter()
+        .map(|n| (-(n.sample.chi2 - chi2_min) / 2.0).exp())
+        .collect();
+    let sum_class = |prior: &dyn Fn(&Node) -> f64, with_like: bool, unb: bool| {
+        nodes
+            .iter()
+            .zip(&like)
+            .filter(|(n, _)| n.unbound == unb)
+            .map(|(n, l)| prior(n) * if with_like { *l } else { 1.0 })
+            .sum::<f64>()
+    };
+    let pop = |n: &Node| n.prior_pop;
+    let uni = |n: &Node| n.prior_uni;
+    let (pu, pb) = (sum_class(&pop, true, true), sum_class(&pop, true, false));
+    let (uu, ub) = (sum_class(&uni, true, true), sum_class(&uni, true, false));
+    let (qu, qb) = (sum_class(&pop, false, true), sum_class(&pop, false, false));
+    let p_hyp = pu / (pu + pb);
+    let p_uni = uu / (uu + ub);
+    let bayes = if qu > 0.0 && pb > 0.0 && qb > 0.0 {
+        (pu / pb) / (qu / qb)
+    } else if pu > 0.0 {
+        f64::INFINITY
+    } else {
+        0.0
+    };
+    let total = pu + pb;
+    let mut samples: Vec<RangingSample> = nodes
+        .iter()
+        .zip(&like)
+        .map(|(n, l)| RangingSample {
+            weight: n.prior_pop * l / total,
+            ..n.sample
+        })
+        .collect();
+    let w: Vec<f64> = samples.iter().map(|s| s.weight).collect();
+    let n_eff = effective_sample_size(&w);
+    let interval = |f: &dyn Fn(&RangingSample) -> f64| {
+        let v: Vec<f64> = samples.iter().map(f).collect();
+        [0.025, 0.5, 0.975].map(|q| weighted_quantile(&v, &w, q).unwrap_or(f64::NAN))
+    };
+    let e_interval = interval(&|s| s.e);
+    let q_interval = interval(&|s| s.q);
+    let i_interval = interval(&|s| s.i);
+    let best = *samples
+        .iter()
+        .max_by(|a, b| a.weight.total_cmp(&b.weight))?;
+    let wmax = best.weight;
+    samples.retain(|s| s.weight > 1e-9 * wmax);
+    Some(RangingResult {
+        samples,
+        p_hyperbolic: p_hyp,
+        p_hyperbolic_uniform: p_uni,
+        bayes_factor: bayes,
+        prior_dominated: bayes.is_nan() || bayes.log10().abs() < 0.5,
+        n_eff,
+        e_interval,
+        q_interval,
+        i_interval,
+        best,
+        trials,
+    })
+}
