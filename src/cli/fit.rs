@@ -2,11 +2,8 @@
 
 use super::inputs::{SiteArgs, expand, read_file};
 use interloper::feed::tracklets::Limits;
-use interloper::fitting::fit::{
-    FitOptions, FitResult, MethodChoice, PerturbChoice, fit_tracklet, rank,
-};
-use interloper::fitting::input::Tracklet;
-use interloper::physics::observe::ObserverModel;
+use interloper::fitting::batch::fit_all;
+use interloper::fitting::fit::{FitOptions, MethodChoice, PerturbChoice, rank};
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -73,30 +70,6 @@ impl FitArgs {
         o.ranging.seed = self.seed;
         o
     }
-}
-
-/// Fit tracklets on `threads` workers, each with its own observer model.
-pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> Vec<FitResult> {
-    let threads = threads.max(1).min(tracklets.len().max(1));
-    let next = std::sync::atomic::AtomicUsize::new(0);
-    let mut results: Vec<Option<FitResult>> = vec![None; tracklets.len()];
-    let slots = std::sync::Mutex::new(&mut results);
-    std::thread::scope(|s| {
-        for _ in 0..threads {
-            s.spawn(|| {
-                let model = ObserverModel::new();
-                loop {
-                    let i = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-                    let Some(t) = tracklets.get(i) else { break };
-                    let r = fit_tracklet(t, &model, opts);
-                    if let Ok(mut g) = slots.lock() {
-                        g[i] = Some(r);
-                    }
-                }
-            });
-        }
-    });
-    results.into_iter().flatten().collect()
 }
 
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {

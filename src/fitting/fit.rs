@@ -11,7 +11,7 @@ use super::quality::{NightMean, night_means, poor_fit_reasons};
 use super::ranging::{RangingOptions, RangingResult, range};
 use super::sampling::{distrust_reasons, importance_sample};
 use super::significance::{
-    Incoming, MU_BARY, barycentric, incoming, linear_score, probability_score, sampled_probability,
+    Incoming, MU_BARY, incoming, linear_score, probability_score, sampled_probability,
 };
 use super::stats::{normal_cdf, weighted_quantile};
 use crate::physics::constants::{ARCSEC, C_AU_PER_DAY, MU_SUN};
@@ -264,10 +264,6 @@ fn split(x: &S6) -> (V3, V3) {
     (V3::new(x[0], x[1], x[2]), V3::new(x[3], x[4], x[5]))
 }
 
-fn utc_string(tdb: Jd2) -> String {
-    tt_to_utc(tdb_to_tt(tdb)).to_string()
-}
-
 /// Fit one tracklet.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     if tr.obs.len() < 2 {
@@ -286,8 +282,8 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     let cov = tr.covariances(opts.inflate_nights);
     let first = tr.obs[0].time.tdb;
     let epoch = first.plus_days(tr.arc_days() / 2.0);
-    let shift = match barycentric(&S6::zeros(), epoch) {
-        Ok(s) => s,
+    let shift = match model.earth(epoch) {
+        Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
     let multi_night = tr.n_nights() >= 2 && tr.arc_days() >= 0.5;
@@ -361,34 +357,65 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
 
 /// Initial orbits from Gauss's method on night triplets, each corrected; the best by χ², then
 /// corrected again with outlier handling.
+/// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
+pub const LINEAR_DECIDES: f64 = 6.0;
+
 /// Distinct minima within this Δχ² of the best are kept as alternative solutions.
 pub const ALTERNATIVE_DCHI2: f64 = 9.0;
 
 fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqFit, Vec<LsqFit>)> {
     let tr = p.tracklet;
-    let mut seeds = initial_orbits(p);
-    seeds.extend(extra);
+    // Seeds are made lazily, triplet by triplet: most arcs settle on the first.
+    let triplets = night_triplets(p);
     let used = vec![true; tr.obs.len()];
     let mut minima: Vec<LsqFit> = Vec::new();
-    for s in seeds {
-        let Ok(f) = correct(p, &s, &used, &opts.lsq) else {
-            continue;
-        };
-        if !f.chi2.is_finite() || !f.converged {
-            continue;
+    let settle = tr.n_nights() >= 3;
+    // "Good" means χ² consistent with the stated errors (3σ of the χ² distribution): a wrong basin can
+    // still fit loosely, so only a statistically acceptable fit stops the search.
+    let good = |minima: &[LsqFit]| {
+        minima.iter().any(|m| {
+            let dof = m.dof().max(1) as f64;
+            m.cov.is_some() && m.chi2_per_dof() < 1.0 + 3.0 * (2.0 / dof).sqrt()
+        })
+    };
+    let mut pending = triplets.into_iter();
+    let mut extra = Some(extra);
+    loop {
+        // With three nights or more a statistically good minimum settles it; shorter arcs look at
+        // every seed for other solutions.
+        if settle && good(&minima) {
+            break;
         }
-        // The same minimum if within 3σ (Mahalanobis) of one already found.
-        let same = minima.iter().position(|m| {
-            let d = m.state - f.state;
-            match m.cov.and_then(|c| c.try_inverse()) {
-                Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
-                None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+        let group = match pending.next() {
+            Some(t) => gauss_seeds(p, t),
+            None => match extra.take() {
+                Some(e) => e,
+                None => break,
+            },
+        };
+        for s in group {
+            if settle && good(&minima) {
+                break;
             }
-        });
-        match same {
-            Some(k) if minima[k].chi2 <= f.chi2 => {}
-            Some(k) => minima[k] = f,
-            None => minima.push(f),
+            let Ok(f) = correct(p, &s, &used, &opts.lsq) else {
+                continue;
+            };
+            if !f.chi2.is_finite() || !f.converged {
+                continue;
+            }
+            // The same minimum if within 3σ (Mahalanobis) of one already found.
+            let same = minima.iter().position(|m| {
+                let d = m.state - f.state;
+                match m.cov.and_then(|c| c.try_inverse()) {
+                    Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
+                    None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+                }
+            });
+            match same {
+                Some(k) if minima[k].chi2 <= f.chi2 => {}
+                Some(k) => minima[k] = f,
+                None => minima.push(f),
+            }
         }
     }
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
@@ -411,8 +438,9 @@ fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
     }
 }
 
-/// Gauss solutions for several triplets of observations, propagated to the epoch.
-fn initial_orbits(p: &Problem) -> Vec<S6> {
+/// Triplets of observations for Gauss's method: the middle of the first, middle and last nights
+/// first, then other night triplets, then two points of one night with one of another.
+fn night_triplets(p: &Problem) -> Vec<[usize; 3]> {
     let tr = p.tracklet;
     let nights = tr.n_nights();
     let members =
@@ -435,8 +463,6 @@ fn initial_orbits(p: &Problem) -> Vec<S6> {
             }
         }
     }
-    // Two points of one night and one of another: weaker, but the only option for two nights and a
-    // fallback for more.
     for k in 0..nights {
         let m = members(k);
         if m.len() >= 2 {
@@ -452,20 +478,24 @@ fn initial_orbits(p: &Problem) -> Vec<S6> {
             }
         }
     }
-    let mut seeds = Vec::new();
-    for t in triplets {
-        let sights = [
-            sight(p, t[0], p.epoch),
-            sight(p, t[1], p.epoch),
-            sight(p, t[2], p.epoch),
-        ];
-        for sol in gauss(&sights, MU_SUN, Some(C_AU_PER_DAY), true) {
-            if let Ok((r, v)) = propagate(&sol.r2, &sol.v2, -sol.t2, MU_SUN) {
-                seeds.push(S6::new(r.x, r.y, r.z, v.x, v.y, v.z));
-            }
-        }
-    }
-    seeds
+    triplets
+}
+
+/// Gauss solutions of one triplet, propagated to the epoch.
+fn gauss_seeds(p: &Problem, t: [usize; 3]) -> Vec<S6> {
+    let sights = [
+        sight(p, t[0], p.epoch),
+        sight(p, t[1], p.epoch),
+        sight(p, t[2], p.epoch),
+    ];
+    gauss(&sights, MU_SUN, Some(C_AU_PER_DAY), true)
+        .into_iter()
+        .filter_map(|sol| {
+            propagate(&sol.r2, &sol.v2, -sol.t2, MU_SUN)
+                .ok()
+                .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
+        })
+        .collect()
 }
 
 fn rms(fit_res: &[[f64; 2]], used: &[bool]) -> f64 {
@@ -484,7 +514,7 @@ fn residual_list(tr: &Tracklet, res: &[[f64; 2]], used: &[bool], chi2: &[f64]) -
         .iter()
         .enumerate()
         .map(|(i, o)| ResidualOut {
-            time_utc: utc_string(o.time.tdb),
+            time_utc: tt_to_utc(o.time.tt).to_string(),
             site: o.site_code.clone(),
             night: tr.night[i],
             ra_arcsec: res[i][0] / ARCSEC,
@@ -579,8 +609,12 @@ fn lsq_result(
             alternatives.len()
         ));
     }
-    if out.distrust_linear.is_empty() {
-        let z = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
+    let z_linear = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
+    // Beyond ±6σ a nonlinearity of a fifth of σ (the trigger) cannot carry e across 1, and samples
+    // could not resolve so small a probability anyway: keep the linear answer there for ≥ 3 nights.
+    let decided = z_linear.abs() >= LINEAR_DECIDES && tr.n_nights() >= 3 && alternatives.is_empty();
+    if out.distrust_linear.is_empty() || decided {
+        let z = z_linear;
         out.z_hyperbolic = Some(z);
         out.p_hyperbolic = Some(sigma_eb.map_or(if elb.e > 1.0 { 1.0 } else { 0.0 }, |s| {
             normal_cdf((elb.e - 1.0) / s.max(1e-300))

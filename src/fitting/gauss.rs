@@ -152,7 +152,7 @@ fn refine_solution(
     let mut sol = start;
     // Each new (f, g) is averaged with the previous one: the plain iteration oscillates.
     let mut prev = series;
-    for _ in 0..200 {
+    for _ in 0..100 {
         let lt = |rho: f64| light_speed.map_or(0.0, |c| rho / c);
         let t1 = sights[0].t - lt(sol.ranges[0]);
         let t2 = sights[1].t - lt(sol.ranges[1]);
@@ -186,7 +186,8 @@ fn refine_solution(
             t2,
             ranges: [rho1, rho2, rho3],
         };
-        if change < 1e-12 * (1.0 + rho2) {
+        // The differential correction polishes the orbit; Gauss only has to find the basin.
+        if change < 1e-9 * (1.0 + rho2) {
             return Some(sol);
         }
     }

@@ -89,14 +89,24 @@ impl<'a> Problem<'a> {
             .collect())
     }
 
-    /// χ² of a state over the given observations (no partials needed by the caller).
+    /// χ² of a state over the given observations (positions only, no partials).
     pub fn chi2(&self, x: &S6, used: &[bool]) -> Result<f64, LsqError> {
-        let ev = self.evaluate_all(x)?;
-        Ok(ev
+        let times: Vec<Jd2> = self.tracklet.obs.iter().map(|o| o.time.tdb).collect();
+        let states = self
+            .dynamics
+            .positions(x, self.epoch, &times)
+            .map_err(|e| LsqError::Propagation(e.to_string()))?;
+        Ok(states
             .iter()
             .enumerate()
             .filter(|(i, _)| used[*i])
-            .map(|(i, e)| (self.whiten[i] * nalgebra::Vector2::new(e.1[0], e.1[1])).norm_squared())
+            .map(|(i, (r, v))| {
+                let o = &self.tracklet.obs[i];
+                let p =
+                    crate::physics::observe::project_position(r, v, &self.observers[i], self.mu);
+                let res = residual(o.ra, o.dec, &p);
+                (self.whiten[i] * nalgebra::Vector2::new(res[0], res[1])).norm_squared()
+            })
             .sum())
     }
 }
@@ -195,8 +205,9 @@ fn lm_step(lin: &Linearised, lambda: f64) -> Option<DVector<f64>> {
         a[(n + c, c)] = lambda.sqrt() * lin.rows.column(c).norm().max(1e-300);
     }
     let qr = a.qr();
-    let qtb = qr.q().transpose() * b;
-    qr.r().solve_upper_triangular(&qtb)
+    let mut qtb = b;
+    qr.q_tr_mul(&mut qtb);
+    qr.r().solve_upper_triangular(&qtb.rows(0, 6).into_owned())
 }
 
 /// Covariance of the (unscaled) state from the whitened rows, None if singular.

@@ -1,6 +1,7 @@
 //! The fitting layer: from the observations of one candidate to an orbit, its uncertainty and the
 //! hyperbolicity score. Depends on the physics layer only; no I/O.
 
+pub mod batch;
 pub mod covariance;
 pub mod fit;
 pub mod gauss;

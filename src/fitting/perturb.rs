@@ -31,6 +31,19 @@ pub trait Dynamics {
             .map(|t| self.state_and_stm(x0, epoch, *t))
             .collect()
     }
+    /// States without the STM (sampling needs many and no partials).
+    fn positions(
+        &self,
+        x0: &S6,
+        epoch: Jd2,
+        times: &[Jd2],
+    ) -> Result<Vec<(V3, V3)>, PropagationError> {
+        Ok(self
+            .states(x0, epoch, times)?
+            .into_iter()
+            .map(|(r, v, _)| (r, v))
+            .collect())
+    }
     fn name(&self) -> &'static str;
 }
 
@@ -48,6 +61,18 @@ impl Dynamics for TwoBody {
     fn state_and_stm(&self, x0: &S6, epoch: Jd2, t: Jd2) -> Result<(V3, V3, M6), PropagationError> {
         let (r, v) = split(x0);
         propagate_with_stm(&r, &v, t.minus(epoch), MU_SUN)
+    }
+    fn positions(
+        &self,
+        x0: &S6,
+        epoch: Jd2,
+        times: &[Jd2],
+    ) -> Result<Vec<(V3, V3)>, PropagationError> {
+        let (r, v) = split(x0);
+        times
+            .iter()
+            .map(|t| crate::physics::propagate::propagate(&r, &v, t.minus(epoch), MU_SUN))
+            .collect()
     }
     fn name(&self) -> &'static str {
         "two-body"

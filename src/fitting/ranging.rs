@@ -16,7 +16,7 @@ use super::stats::{effective_sample_size, weighted_quantile};
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, C_AU_PER_DAY, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
-use crate::physics::observe::{ObserverState, Prediction, residual};
+use crate::physics::observe::{ObserverState, Prediction, project_position, residual};
 use crate::physics::propagate::propagate;
 use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
@@ -125,23 +125,7 @@ pub fn quick_predict(
     obs: &ObserverState,
 ) -> Option<Prediction> {
     let (r, v) = propagate(r0, v0, t.minus(epoch), MU_SUN).ok()?;
-    let rm = r.norm();
-    let acc = -MU_SUN * r / (rm * rm * rm);
-    let mut rho = r - obs.helio_pos;
-    let mut tau = 0.0;
-    for _ in 0..2 {
-        tau = rho.norm() / C_AU_PER_DAY;
-        rho = r - v * tau + acc * (0.5 * tau * tau) - obs.helio_pos - obs.sun_bary_vel * tau;
-    }
-    let u = rho / rho.norm();
-    Some(Prediction {
-        ra: rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU),
-        dec: u.z.clamp(-1.0, 1.0).asin(),
-        topo: rho,
-        light_time: tau,
-        obj_pos: r - v * tau,
-        obj_vel: v,
-    })
+    Some(project_position(&r, &v, obs, MU_SUN))
 }
 
 /// The attributable: direction and rate at the mean epoch, from a weighted polynomial fit in the

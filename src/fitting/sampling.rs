@@ -77,6 +77,7 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
         MU_BARY,
     );
     let e0 = bary_e(&fit.state, bary_shift);
+    let sigma_e = (grad * cov * grad.transpose())[0].max(0.0).sqrt();
     let eig = cov.symmetric_eigen();
     for k in 0..6 {
         let lam = eig.eigenvalues[k].max(0.0);
@@ -87,7 +88,8 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
         }
         for sgn in [1.0, -1.0] {
             let non = bary_e(&(fit.state + dx * sgn), bary_shift) - e0;
-            if (non - sgn * lin).abs() > 0.2 * lin.abs() {
+            // A curvature that moves e by a fifth of its own σ changes the answer; smaller ones do not.
+            if (non - sgn * lin).abs() > 0.2 * sigma_e {
                 why.push("eccentricity nonlinear within 1σ".into());
                 return why;
             }

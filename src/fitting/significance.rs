@@ -3,7 +3,7 @@
 
 use super::stats::normal_quantile;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_BARY_OVER_SUN, MU_SUN};
-use crate::physics::earth::{EphemerisError, earth_state};
+use crate::physics::earth::{EarthState, EphemerisError, earth_state};
 use crate::physics::frames::{equatorial_to_galactic, radec_from_vector};
 use crate::physics::time::Jd2;
 use crate::physics::{M6, S6, V3};
@@ -14,7 +14,22 @@ pub const SCORE_CLIP: f64 = 8.0;
 /// Gravitational parameter for barycentric elements (Sun plus planets).
 pub const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
 
-/// Barycentric state of an object from its heliocentric state (ICRF), and the Sun's barycentric state.
+/// Barycentric state of an object from its heliocentric state (ICRF), given Earth's state (which
+/// carries the Sun's barycentric motion).
+pub fn barycentric_with(x_helio: &S6, e: &EarthState) -> S6 {
+    let sp = e.sun_bary_pos();
+    let sv = e.sun_bary_vel();
+    S6::new(
+        x_helio[0] + sp.x,
+        x_helio[1] + sp.y,
+        x_helio[2] + sp.z,
+        x_helio[3] + sv.x,
+        x_helio[4] + sv.y,
+        x_helio[5] + sv.z,
+    )
+}
+
+/// Barycentric state of an object from its heliocentric state (ICRF) at a TDB date.
 pub fn barycentric(x_helio: &S6, epoch: Jd2) -> Result<S6, EphemerisError> {
     let e = earth_state(epoch)?;
     let sp = e.sun_bary_pos();

@@ -185,16 +185,12 @@ pub fn predict_with_partials(
     Ok(project(state, obs, mu))
 }
 
-/// Astrometric position and partials from the object's heliocentric state and STM at the observation
-/// time `t` (before light time). Any propagator can supply them; the light-time step back uses a
-/// two-body Taylor series about `t`, which is exact far below a metre over minutes to hours.
-pub fn project(state: (V3, V3, M6), obs: &ObserverState, mu: f64) -> (Prediction, Matrix2x6<f64>) {
-    let (r, v, phi) = state;
-    // Emission-time state from a Taylor series about t: the light time (≲ 0.3 d) is so short that the
-    // fourth-order term is below a metre for anything outside 0.05 AU of the Sun.
+/// Emission-time state and topocentric vector by light-time iteration on a two-body Taylor series
+/// about the observation time `t`: exact far below a metre over minutes to hours.
+fn light_time(r: &V3, v: &V3, obs: &ObserverState, mu: f64) -> (V3, f64, V3, V3) {
     let rm = r.norm();
     let acc = -mu * r / (rm * rm * rm);
-    let jerk = -mu * (v / (rm * rm * rm) - 3.0 * r.dot(&v) * r / rm.powi(5));
+    let jerk = -mu * (v / (rm * rm * rm) - 3.0 * r.dot(v) * r / rm.powi(5));
     let at = |tau: f64| r - v * tau + acc * (0.5 * tau * tau) - jerk * (tau * tau * tau / 6.0);
     let mut tau = 0.0;
     let mut rho = r - obs.helio_pos;
@@ -202,36 +198,49 @@ pub fn project(state: (V3, V3, M6), obs: &ObserverState, mu: f64) -> (Prediction
         tau = rho.norm() / C_AU_PER_DAY;
         rho = at(tau) - obs.helio_pos - obs.sun_bary_vel * tau;
     }
-    let obj_pos = at(tau);
     let obj_vel = v - acc * tau + jerk * (0.5 * tau * tau);
+    (rho, tau, at(tau), obj_vel)
+}
+
+fn prediction(rho: V3, tau: f64, obj_pos: V3, obj_vel: V3) -> Prediction {
+    let u = rho / rho.norm();
+    Prediction {
+        ra: rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU),
+        dec: u.z.clamp(-1.0, 1.0).asin(),
+        topo: rho,
+        light_time: tau,
+        obj_pos,
+        obj_vel,
+    }
+}
+
+/// Astrometric position from the object's heliocentric state at the observation time (no partials).
+pub fn project_position(r: &V3, v: &V3, obs: &ObserverState, mu: f64) -> Prediction {
+    let (rho, tau, p, w) = light_time(r, v, obs, mu);
+    prediction(rho, tau, p, w)
+}
+
+/// Astrometric position and partials from the object's heliocentric state and STM at the observation
+/// time `t` (before light time). Any propagator can supply them.
+pub fn project(state: (V3, V3, M6), obs: &ObserverState, mu: f64) -> (Prediction, Matrix2x6<f64>) {
+    let (r, v, phi) = state;
+    let (rho, tau, obj_pos, obj_vel) = light_time(&r, &v, obs, mu);
+    let pred = prediction(rho, tau, obj_pos, obj_vel);
     let dist = rho.norm();
     let u = rho / dist;
-    let ra = rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU);
-    let dec = u.z.clamp(-1.0, 1.0).asin();
     // Position rows of Φ(t − τ, t0) ≈ Φr(t) − τ Φv(t).
     let phi_r: Matrix3x6<f64> = phi.fixed_rows::<3>(0) - phi.fixed_rows::<3>(3) * tau;
     let w = obj_vel + obs.sun_bary_vel;
-    let u_phi = u.transpose() * phi_r;
-    let u_a = u_phi / (1.0 + u.dot(&w) / C_AU_PER_DAY);
+    let u_a = u.transpose() * phi_r / (1.0 + u.dot(&w) / C_AU_PER_DAY);
     let a = phi_r - w * u_a / C_AU_PER_DAY;
-    let (sa, ca) = ra.sin_cos();
-    let (sd, cd) = dec.sin_cos();
+    let (sa, ca) = pred.ra.sin_cos();
+    let (sd, cd) = pred.dec.sin_cos();
     let e_ra = RowVector3::new(-sa, ca, 0.0);
     let e_dec = RowVector3::new(-sd * ca, -sd * sa, cd);
     let mut jac = Matrix2x6::zeros();
     jac.set_row(0, &(e_ra * a / dist));
     jac.set_row(1, &(e_dec * a / dist));
-    (
-        Prediction {
-            ra,
-            dec,
-            topo: rho,
-            light_time: tau,
-            obj_pos,
-            obj_vel,
-        },
-        jac,
-    )
+    (pred, jac)
 }
 
 /// Astrometric position only.

@@ -28,10 +28,12 @@ ORBITS = [
 NIGHT_PLANS = {1: [0], 2: [0, 1], 3: [0, 1, 3], 10: [0, 1, 2, 4, 6, 8, 11, 14, 17, 21]}
 SITES = demo_sites()
 SITE_ORDER = ["TV1", "TV3", "TV2", "TV4"]
-T_START = 2461370.5  # 2026-12-10 0h TDB
+T_START = 2461370.5  # 2026-11-26 0h TDB
+PER_NIGHT = {}
 
 
 def night_times(day, code, n=4, spacing_min=25.0):
+    n = PER_NIGHT.get("n", n)
     lon = SITES[code][0]
     local_midnight_utc = (24.0 - lon / 15.0) % 24.0
     start = day + (local_midnight_utc - 1.0) / 24.0
@@ -120,6 +122,16 @@ def main():
     with open(os.path.join(OUT, "false_link_3n.psv"), "w") as fh:
         fh.write(psv(linked))
     truths.append({"object": "false_link_3n", "file": "false_link_3n.psv", "orbit": "false_linkage", "nights": 3})
+    # The benchmark case: three nights of five positions of a main-belt orbit.
+    PER_NIGHT["n"] = 5
+    rows, truth = build_case("mainbelt", ORBITS[2], 3, plan_offset=2)
+    for r in rows:
+        r["id"] = "bench_3n15"
+    with open(os.path.join(OUT, "bench_3n15.psv"), "w") as fh:
+        fh.write(psv(rows))
+    truth.update({"object": "bench_3n15", "file": "bench_3n15.psv"})
+    truths.append(truth)
+    PER_NIGHT.clear()
     with open(os.path.join(OUT, "truth.json"), "w") as fh:
         json.dump(truths, fh, indent=1)
 
