@@ -35,7 +35,7 @@ pub fn ranked_table(results: &[FitResult]) -> String {
             clean(e)
         } else if !r.poor_fit.is_empty() {
             clean(&r.poor_fit.join("; "))
-        } else if r.ranging.as_ref().is_some_and(|g| g.prior_dominated) {
+        } else if r.prior_dominated {
             "answer set by the prior".into()
         } else if !r.distrust_linear.is_empty() {
             format!("sampled: {}", clean(&r.distrust_linear.join(", ")))

@@ -86,6 +86,7 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
         input_errors += intake.errors.len();
         tracklets.extend(intake.tracklets);
     }
+    let tracklets = interloper::feed::tracklets::merge(tracklets);
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));

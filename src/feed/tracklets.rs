@@ -121,6 +121,30 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
     }
 }
 
+/// Merge tracklets of the same object (from several files) into one, duplicates removed. The merged
+/// tracklet's source lists the files it came from, separated by "; ", in order of first appearance.
+pub fn merge(tracklets: Vec<Tracklet>) -> Vec<Tracklet> {
+    let mut order: Vec<String> = Vec::new();
+    let mut by_object: BTreeMap<String, (Vec<String>, Vec<Observation>)> = BTreeMap::new();
+    for t in tracklets {
+        let entry = by_object.entry(t.object.clone()).or_insert_with(|| {
+            order.push(t.object.clone());
+            (Vec::new(), Vec::new())
+        });
+        if !entry.0.contains(&t.source) {
+            entry.0.push(t.source.clone());
+        }
+        entry.1.extend(t.obs);
+    }
+    order
+        .into_iter()
+        .filter_map(|o| {
+            let (sources, obs) = by_object.remove(&o)?;
+            Some(Tracklet::new(o, sources.join("; "), dedupe(obs)))
+        })
+        .collect()
+}
+
 /// Same time, place and position: the same observation reported twice.
 pub fn dedupe(mut obs: Vec<Observation>) -> Vec<Observation> {
     obs.sort_by(|a, b| a.time.tdb.minus(b.time.tdb).total_cmp(&0.0));

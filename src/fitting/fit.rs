@@ -101,13 +101,13 @@ fn elements_out(el: &CometaryElements, sigma: Option<ElementSigmas>, mu: f64) ->
     }
 }
 
+/// The priors of the sampled answers, as printed.
+pub const RANGING_PRIOR: &str = "population: log-uniform distance, uniform radial velocity, unbound density x0.01";
+pub const SAMPLING_PRIOR: &str = "population: flat in the state, unbound density x0.01";
+
 /// Ranging summary, as printed.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct RangingOut {
-    pub prior: &'static str,
-    pub p_hyperbolic_uniform_prior: f64,
-    pub bayes_factor: f64,
-    pub prior_dominated: bool,
     pub trials: usize,
     pub n_eff: f64,
     pub v_cap_km_s: f64,
@@ -155,6 +155,12 @@ pub struct FitResult {
     pub z_hyperbolic: Option<f64>,
     /// The score is only a bound (sampled, and no sample or every sample was unbound): read "≤" or "≥".
     pub z_is_bound: bool,
+    /// For sampled answers: the prior, P under a flat prior, the Bayes factor of unbound vs bound and
+    /// whether the prior rather than the data decided (|log₁₀ K| < 0.5).
+    pub prior: Option<&'static str>,
+    pub p_hyperbolic_flat_prior: Option<f64>,
+    pub bayes_factor: Option<f64>,
+    pub prior_dominated: bool,
     pub q_au: Option<f64>,
     pub q_sigma: Option<f64>,
     pub i_deg: Option<f64>,
@@ -203,6 +209,10 @@ impl FitResult {
             p_hyperbolic: None,
             z_hyperbolic: None,
             z_is_bound: false,
+            prior: None,
+            p_hyperbolic_flat_prior: None,
+            bayes_factor: None,
+            prior_dominated: false,
             q_au: None,
             q_sigma: None,
             i_deg: None,
@@ -343,6 +353,14 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
             Some("degenerate least squares"),
         );
     }
+    // A range known to worse than this is a nearly degenerate problem: its minimum means little and
+    // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
+    if let Some(rel) = super::sampling::relative_range_sigma(&problem, &fit) {
+        if rel > DEGENERATE_RANGE && tr.n_nights() < 3 {
+            let why = format!("least squares nearly degenerate (range known to {:.0} %)", 100.0 * rel);
+            return ranging_result(tr, model, &observers, &cov, &shift, opts, Some(&why));
+        }
+    }
     let alternatives = if perturb { Vec::new() } else { alternatives };
     lsq_result(
         tr,
@@ -357,6 +375,9 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
 
 /// Initial orbits from Gauss's method on night triplets, each corrected; the best by χ², then
 /// corrected again with outlier handling.
+/// Relative range uncertainty beyond which a short arc is handed to ranging.
+pub const DEGENERATE_RANGE: f64 = 0.3;
+
 /// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
 pub const LINEAR_DECIDES: f64 = 6.0;
 
@@ -629,6 +650,10 @@ fn lsq_result(
         out.p_hyperbolic = Some(ph);
         out.z_hyperbolic = Some(probability_score(ph));
         out.z_is_bound = set.p_hyperbolic <= 0.0 || set.p_hyperbolic >= 1.0;
+        out.prior = Some(SAMPLING_PRIOR);
+        out.p_hyperbolic_flat_prior = Some(set.p_hyperbolic_flat);
+        out.bayes_factor = Some(set.bayes_factor);
+        out.prior_dominated = set.bayes_factor.is_nan() || set.bayes_factor.log10().abs() < 0.5;
         out.n_eff = Some(set.n_eff);
         out.probability_from = "importance-sampling";
         // Uncertainties from the samples, which follow the real (curved) distribution.
@@ -771,6 +796,10 @@ fn fill_ranging(
     out.p_hyperbolic = Some(ph);
     out.z_hyperbolic = Some(probability_score(ph));
     out.z_is_bound = rr.p_hyperbolic <= 0.0 || rr.p_hyperbolic >= 1.0;
+    out.prior = Some(RANGING_PRIOR);
+    out.p_hyperbolic_flat_prior = Some(rr.p_hyperbolic_uniform);
+    out.bayes_factor = Some(rr.bayes_factor);
+    out.prior_dominated = rr.prior_dominated;
     out.n_eff = Some(rr.n_eff);
     out.e = Some(rr.e_interval[1]);
     out.q_au = Some(rr.q_interval[1]);
@@ -810,10 +839,6 @@ fn fill_ranging(
     out.chi2_per_dof = Some(rr.best.chi2 / ((2 * tr.obs.len()).saturating_sub(4)).max(1) as f64);
     out.residuals = residual_list(tr, &res, &used, &[]);
     out.ranging = Some(RangingOut {
-        prior: "population: log-distance, unbound density x0.01",
-        p_hyperbolic_uniform_prior: rr.p_hyperbolic_uniform,
-        bayes_factor: rr.bayes_factor,
-        prior_dominated: rr.prior_dominated,
         trials: rr.trials,
         n_eff: rr.n_eff,
         v_cap_km_s: opts.ranging.v_cap_km_s,

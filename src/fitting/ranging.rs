@@ -240,6 +240,7 @@ pub fn range(
     let mut nodes: Vec<Node> = Vec::new();
     let mut trials = 0;
     let mut xi = DVector::zeros(2 * n);
+    let multi_night = tr.n_nights() >= 2;
     for k in 0..opts.n_rho {
         let ln_rho = RHO_MIN_AU.ln() + dln * (k as f64 + rng.uniform());
         let rho = ln_rho.exp();
@@ -257,27 +258,66 @@ pub fn range(
             let epoch = att.t0.plus_days(-rho / C_AU_PER_DAY);
             let v = w0 + rhodot * att.u;
             trials += 1;
-            let mut ok = true;
-            for i in 0..n {
-                let Some(p) = quick_predict(&r, &v, epoch, tr.obs[i].time.tdb, &observers[i])
-                else {
-                    ok = false;
-                    break;
-                };
-                let res = residual(tr.obs[i].ra, tr.obs[i].dec, &p);
-                let wr = whiten[i] * nalgebra::Vector2::new(res[0], res[1]);
-                xi[2 * i] = wr[0];
-                xi[2 * i + 1] = wr[1];
-            }
-            if !ok {
+            // Whitened O − C of the node's orbit built from a direction and its rate.
+            let whitened = |u: &V3, udot: &V3, out: &mut DVector<f64>| -> bool {
+                let rr = obs0.helio_pos + rho * u;
+                let vv = obs0.helio_vel + rho * udot + rhodot * u;
+                for i in 0..n {
+                    let Some(p) = quick_predict(&rr, &vv, epoch, tr.obs[i].time.tdb, &observers[i]) else {
+                        return false;
+                    };
+                    let res = residual(tr.obs[i].ra, tr.obs[i].dec, &p);
+                    let wr = whiten[i] * nalgebra::Vector2::new(res[0], res[1]);
+                    out[2 * i] = wr[0];
+                    out[2 * i + 1] = wr[1];
+                }
+                true
+            };
+            let _ = &v;
+            if !whitened(&att.u, &att.udot, &mut xi) {
                 continue;
             }
-            let atx = a.transpose() * &xi;
-            let c = &ata_inv * &atx;
-            let chi2 = (xi.norm_squared() - atx.dot(&c)).max(0.0);
-            // Apply the profiled attributable correction to the node's orbit.
-            let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
-            let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
+            let (u, udot, chi2) = if multi_night {
+                // Over several nights the linear attributable model is not enough: one Gauss–Newton
+                // step on the four parameters with partials taken at this node, then the exact χ².
+                let mut jac = DMatrix::zeros(2 * n, 4);
+                let mut probe = DVector::zeros(2 * n);
+                let mut ok = true;
+                for k in 0..4 {
+                    let h = 1e-7;
+                    let (du, dud) = match k {
+                        0 => (att.e_a * h, V3::zeros()),
+                        1 => (att.e_d * h, V3::zeros()),
+                        2 => (V3::zeros(), att.e_a * h),
+                        _ => (V3::zeros(), att.e_d * h),
+                    };
+                    if !whitened(&(att.u + du).normalize(), &(att.udot + dud), &mut probe) {
+                        ok = false;
+                        break;
+                    }
+                    jac.set_column(k, &((&xi - &probe) / h));
+                }
+                let step = ok
+                    .then(|| (jac.transpose() * &jac).try_inverse().map(|m| m * (jac.transpose() * &xi)))
+                    .flatten();
+                let Some(c) = step else {
+                    continue;
+                };
+                let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
+                let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
+                if !whitened(&u, &udot, &mut probe) {
+                    continue;
+                }
+                (u, udot, probe.norm_squared())
+            } else {
+                let atx = a.transpose() * &xi;
+                let c = &ata_inv * &atx;
+                let chi2 = (xi.norm_squared() - atx.dot(&c)).max(0.0);
+                // Apply the profiled attributable correction to the node's orbit.
+                let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
+                let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
+                (u, udot, chi2)
+            };
             let rr = obs0.helio_pos + rho * u;
             let vv = obs0.helio_vel + rho * udot + rhodot * u;
             let el = CometaryElements::from_state(&(ecl * rr), &(ecl * vv), epoch.value(), MU_SUN);

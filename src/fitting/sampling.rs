@@ -1,10 +1,13 @@
 //! When the linear covariance cannot be trusted (few nights, poorly known range, a strongly nonlinear
-//! eccentricity), P(e > 1) comes from importance sampling around the fit: draws from N(x̂, s²Γ),
-//! weighted by exp(−χ²/2) over the proposal density (flat prior in the Cartesian state).
+//! eccentricity), P(e > 1) comes from importance sampling around the fit: draws from Gaussians around
+//! the minima, weighted by exp(−χ²/2) × prior over the proposal density. The prior is the same
+//! population prior as ranging's (flat in the Cartesian state, unbound orbits down-weighted), since a
+//! flat prior alone hands a loosely constrained arc to the vast unbound volume; the Bayes factor
+//! reports what the data alone say.
 
 use super::covariance::eccentricity_gradient;
 use super::lsq::{LsqFit, Problem};
-use super::ranging::SplitMix;
+use super::ranging::{SplitMix, UNBOUND_DENSITY_FACTOR};
 use super::significance::MU_BARY;
 use super::stats::effective_sample_size;
 use crate::physics::elements::CometaryElements;
@@ -16,8 +19,14 @@ pub const PROPOSAL_SCALE: f64 = 2.0;
 #[derive(Debug, Clone)]
 pub struct SampleSet {
     pub states: Vec<S6>,
+    /// Posterior weights under the population prior (normalised).
     pub weights: Vec<f64>,
+    /// P(e_bary > 1) under the population prior (flat in the state, unbound density × the ranging
+    /// factor), and under the flat prior alone.
     pub p_hyperbolic: f64,
+    pub p_hyperbolic_flat: f64,
+    /// Posterior over prior odds of unbound vs bound (data alone); |log₁₀ K| < 0.5: decided by the prior.
+    pub bayes_factor: f64,
     pub n_eff: f64,
 }
 
@@ -42,60 +51,48 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
         why.push("singular normal matrix".into());
         return why;
     };
-    // Range uncertainty at the epoch, from the observer nearest in time.
-    let mid = p
-        .tracklet
-        .obs
-        .iter()
-        .enumerate()
-        .min_by(|a, b| {
-            a.1.time
-                .tdb
-                .minus(fit.epoch)
-                .abs()
-                .total_cmp(&b.1.time.tdb.minus(fit.epoch).abs())
-        })
-        .map_or(0, |(i, _)| i);
-    let r = V3::new(fit.state[0], fit.state[1], fit.state[2]);
-    let topo = r - p.observers[mid].helio_pos;
-    let u = topo.normalize();
-    let var_rho = (u.transpose() * cov.fixed_view::<3, 3>(0, 0) * u)[0];
-    if var_rho.sqrt() / topo.norm() > 0.1 {
-        why.push(format!(
-            "range known to {:.0} %",
-            100.0 * var_rho.sqrt() / topo.norm()
-        ));
+    if let Some(rel) = relative_range_sigma(p, fit) {
+        if rel > 0.1 {
+            why.push(format!("range known to {:.0} %", 100.0 * rel));
+        }
     }
     if fit.lambda > 1e-2 {
         why.push("damping still large at convergence".into());
     }
-    // Sigma points along the covariance's principal axes: is e linear over ±1σ?
+    if eccentricity_nonlinear(fit, &cov, bary_shift) {
+        why.push("eccentricity nonlinear within 1σ".into());
+    }
+    why
+}
+
+/// σ_ρ/ρ at the epoch, seen from the observer nearest in time.
+pub fn relative_range_sigma(p: &Problem, fit: &LsqFit) -> Option<f64> {
+    let cov = fit.cov?;
+    let dt = |i: usize| p.tracklet.obs[i].time.tdb.minus(fit.epoch).abs();
+    let mid = (0..p.len()).min_by(|&a, &b| dt(a).total_cmp(&dt(b)))?;
+    let r = V3::new(fit.state[0], fit.state[1], fit.state[2]);
+    let topo = r - p.observers[mid].helio_pos;
+    let u = topo.normalize();
+    let var_rho = (u.transpose() * cov.fixed_view::<3, 3>(0, 0) * u)[0];
+    Some(var_rho.max(0.0).sqrt() / topo.norm())
+}
+
+/// Sigma points along the covariance's principal axes: does e leave its linear prediction over ±1σ by
+/// more than a fifth of σ_e (a curvature that size changes the answer; smaller ones do not)?
+fn eccentricity_nonlinear(fit: &LsqFit, cov: &M6, bary_shift: &S6) -> bool {
     let b = fit.state + bary_shift;
-    let grad = eccentricity_gradient(
-        &V3::new(b[0], b[1], b[2]),
-        &V3::new(b[3], b[4], b[5]),
-        MU_BARY,
-    );
+    let grad = eccentricity_gradient(&V3::new(b[0], b[1], b[2]), &V3::new(b[3], b[4], b[5]), MU_BARY);
     let e0 = bary_e(&fit.state, bary_shift);
     let sigma_e = (grad * cov * grad.transpose())[0].max(0.0).sqrt();
     let eig = cov.symmetric_eigen();
-    for k in 0..6 {
-        let lam = eig.eigenvalues[k].max(0.0);
-        let dx: S6 = eig.eigenvectors.column(k) * lam.sqrt();
+    (0..6).any(|k| {
+        let dx: S6 = eig.eigenvectors.column(k) * eig.eigenvalues[k].max(0.0).sqrt();
         let lin = (grad * dx)[0];
-        if lin.abs() < 1e-9 {
-            continue;
-        }
-        for sgn in [1.0, -1.0] {
-            let non = bary_e(&(fit.state + dx * sgn), bary_shift) - e0;
-            // A curvature that moves e by a fifth of its own σ changes the answer; smaller ones do not.
-            if (non - sgn * lin).abs() > 0.2 * sigma_e {
-                why.push("eccentricity nonlinear within 1σ".into());
-                return why;
-            }
-        }
-    }
-    why
+        [1.0, -1.0].iter().any(|sgn| {
+            let non = bary_e(&(fit.state + dx * *sgn), bary_shift) - e0;
+            (non - sgn * lin).abs() > 0.2 * sigma_e
+        })
+    })
 }
 
 /// One Gaussian of a proposal mixture.
@@ -147,6 +144,7 @@ pub fn importance_sample(
     for round in 0..rounds {
         let mut states = Vec::with_capacity(per_round);
         let mut logw = Vec::with_capacity(per_round);
+        let mut log_q_all = Vec::with_capacity(per_round);
         for k in 0..per_round {
             let c = &comps[k % comps.len()];
             let z = S6::from_fn(|_, _| rng.normal());
@@ -165,23 +163,42 @@ pub fn importance_sample(
             let log_q = top + terms.iter().map(|t| (t - top).exp()).sum::<f64>().ln();
             states.push(x);
             logw.push(-0.5 * (chi2 - chi2_ref) - log_q);
+            log_q_all.push(log_q);
         }
         let max = logw.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
         if !max.is_finite() {
             break;
         }
-        let weights: Vec<f64> = logw.iter().map(|w| (w - max).exp()).collect();
-        let total: f64 = weights.iter().sum();
-        let weights: Vec<f64> = weights.iter().map(|w| w / total).collect();
-        let hyp: f64 = states
+        let lq_max = log_q_all.iter().cloned().fold(f64::INFINITY, f64::min);
+        // Likelihood over proposal (flat prior), then the population prior's class factor.
+        let flat: Vec<f64> = logw.iter().map(|w| (w - max).exp()).collect();
+        let unbound: Vec<bool> = states.iter().map(|x| bary_e(x, bary_shift) > 1.0).collect();
+        let factor = |u: bool| if u { UNBOUND_DENSITY_FACTOR } else { 1.0 };
+        let post: Vec<f64> = flat.iter().zip(&unbound).map(|(w, u)| w * factor(*u)).collect();
+        let total: f64 = post.iter().sum();
+        let weights: Vec<f64> = post.iter().map(|w| w / total).collect();
+        let class = |w: &[f64], u: bool| w.iter().zip(&unbound).filter(|(_, b)| **b == u).map(|(x, _)| x).sum::<f64>();
+        let flat_total: f64 = flat.iter().sum();
+        // Prior mass of each class within the sampled region: prior over proposal, no likelihood.
+        let prior_only: Vec<f64> = log_q_all
             .iter()
-            .zip(&weights)
-            .filter(|(x, _)| bary_e(x, bary_shift) > 1.0)
-            .map(|(_, w)| w)
-            .sum();
+            .zip(&unbound)
+            .map(|(lq, u)| (-(lq - lq_max)).exp() * factor(*u))
+            .collect();
+        let (pu, pb) = (class(&post, true), class(&post, false));
+        let (qu, qb) = (class(&prior_only, true), class(&prior_only, false));
+        let bayes_factor = if pb > 0.0 && qu > 0.0 && qb > 0.0 {
+            (pu / pb) / (qu / qb)
+        } else if pu > 0.0 {
+            f64::INFINITY
+        } else {
+            0.0
+        };
         let set = SampleSet {
             n_eff: effective_sample_size(&weights),
-            p_hyperbolic: hyp,
+            p_hyperbolic: pu / total,
+            p_hyperbolic_flat: class(&flat, true) / flat_total,
+            bayes_factor,
             weights,
             states,
         };
