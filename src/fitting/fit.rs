@@ -102,7 +102,8 @@ fn elements_out(el: &CometaryElements, sigma: Option<ElementSigmas>, mu: f64) ->
 }
 
 /// The priors of the sampled answers, as printed.
-pub const RANGING_PRIOR: &str = "population: log-uniform distance, uniform radial velocity, unbound density x0.01";
+pub const RANGING_PRIOR: &str =
+    "population: log-uniform distance, uniform radial velocity, unbound density x0.01";
 pub const SAMPLING_PRIOR: &str = "population: flat in the state, unbound density x0.01";
 
 /// Ranging summary, as printed.
@@ -357,7 +358,10 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
     if let Some(rel) = super::sampling::relative_range_sigma(&problem, &fit) {
         if rel > DEGENERATE_RANGE && tr.n_nights() < 3 {
-            let why = format!("least squares nearly degenerate (range known to {:.0} %)", 100.0 * rel);
+            let why = format!(
+                "least squares nearly degenerate (range known to {:.0} %)",
+                100.0 * rel
+            );
             return ranging_result(tr, model, &observers, &cov, &shift, opts, Some(&why));
         }
     }

@@ -263,7 +263,8 @@ pub fn range(
                 let rr = obs0.helio_pos + rho * u;
                 let vv = obs0.helio_vel + rho * udot + rhodot * u;
                 for i in 0..n {
-                    let Some(p) = quick_predict(&rr, &vv, epoch, tr.obs[i].time.tdb, &observers[i]) else {
+                    let Some(p) = quick_predict(&rr, &vv, epoch, tr.obs[i].time.tdb, &observers[i])
+                    else {
                         return false;
                     };
                     let res = residual(tr.obs[i].ra, tr.obs[i].dec, &p);
@@ -298,7 +299,11 @@ pub fn range(
                     jac.set_column(k, &((&xi - &probe) / h));
                 }
                 let step = ok
-                    .then(|| (jac.transpose() * &jac).try_inverse().map(|m| m * (jac.transpose() * &xi)))
+                    .then(|| {
+                        (jac.transpose() * &jac)
+                            .try_inverse()
+                            .map(|m| m * (jac.transpose() * &xi))
+                    })
                     .flatten();
                 let Some(c) = step else {
                     continue;

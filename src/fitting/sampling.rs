@@ -81,7 +81,11 @@ pub fn relative_range_sigma(p: &Problem, fit: &LsqFit) -> Option<f64> {
 /// more than a fifth of σ_e (a curvature that size changes the answer; smaller ones do not)?
 fn eccentricity_nonlinear(fit: &LsqFit, cov: &M6, bary_shift: &S6) -> bool {
     let b = fit.state + bary_shift;
-    let grad = eccentricity_gradient(&V3::new(b[0], b[1], b[2]), &V3::new(b[3], b[4], b[5]), MU_BARY);
+    let grad = eccentricity_gradient(
+        &V3::new(b[0], b[1], b[2]),
+        &V3::new(b[3], b[4], b[5]),
+        MU_BARY,
+    );
     let e0 = bary_e(&fit.state, bary_shift);
     let sigma_e = (grad * cov * grad.transpose())[0].max(0.0).sqrt();
     let eig = cov.symmetric_eigen();
@@ -174,10 +178,20 @@ pub fn importance_sample(
         let flat: Vec<f64> = logw.iter().map(|w| (w - max).exp()).collect();
         let unbound: Vec<bool> = states.iter().map(|x| bary_e(x, bary_shift) > 1.0).collect();
         let factor = |u: bool| if u { UNBOUND_DENSITY_FACTOR } else { 1.0 };
-        let post: Vec<f64> = flat.iter().zip(&unbound).map(|(w, u)| w * factor(*u)).collect();
+        let post: Vec<f64> = flat
+            .iter()
+            .zip(&unbound)
+            .map(|(w, u)| w * factor(*u))
+            .collect();
         let total: f64 = post.iter().sum();
         let weights: Vec<f64> = post.iter().map(|w| w / total).collect();
-        let class = |w: &[f64], u: bool| w.iter().zip(&unbound).filter(|(_, b)| **b == u).map(|(x, _)| x).sum::<f64>();
+        let class = |w: &[f64], u: bool| {
+            w.iter()
+                .zip(&unbound)
+                .filter(|(_, b)| **b == u)
+                .map(|(x, _)| x)
+                .sum::<f64>()
+        };
         let flat_total: f64 = flat.iter().sum();
         // Prior mass of each class within the sampled region: prior over proposal, no likelihood.
         let prior_only: Vec<f64> = log_q_all
