@@ -9,6 +9,8 @@ fn main() {
     let args = cli::Cli::parse();
     let code = match &args.command {
         cli::Command::Fit(a) => cli::fit::run(a),
+        cli::Command::Watch(a) => cli::watch::run(a),
+        cli::Command::JournalAppend(a) => cli::journal::run(a),
     };
     match code {
         Ok(c) => std::process::exit(c),

@@ -51,6 +51,11 @@ pub enum Perturb {
 }
 
 impl FitArgs {
+    /// The fit options used when no flags are given (the watcher's).
+    pub fn default_options() -> FitOptions {
+        FitOptions::default()
+    }
+
     pub fn options(&self) -> FitOptions {
         let mut o = FitOptions {
             method: match self.method {

@@ -2,6 +2,8 @@
 
 pub mod fit;
 pub mod inputs;
+pub mod journal;
+pub mod watch;
 
 use clap::{Parser, Subcommand};
 
@@ -17,4 +19,9 @@ pub struct Cli {
 pub enum Command {
     /// Fit every tracklet in the given files and print them ranked by hyperbolicity score.
     Fit(fit::FitArgs),
+    /// Watch a directory: fit every tracklet file as it arrives.
+    Watch(watch::WatchArgs),
+    /// Append test decisions to a journal, acknowledging each once synced (durability tests).
+    #[command(hide = true)]
+    JournalAppend(journal::JournalArgs),
 }

@@ -2,9 +2,13 @@
 //! nothing of the console.
 
 pub mod ades;
+pub mod journal;
+pub mod obs80;
 pub mod sanitize;
 pub mod sites;
+pub mod store;
 pub mod tracklets;
+pub mod watcher;
 
 /// Why one line (or a whole file) was not taken in.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]

@@ -81,6 +81,8 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
     let body = text.strip_prefix('\u{feff}').unwrap_or(text);
     let (records, mut errors) = if ades::looks_like_psv(body) {
         ades::parse(file, body)
+    } else if super::obs80::looks_like_obs80(body) {
+        super::obs80::parse(file, body)
     } else if body
         .lines()
         .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'))
@@ -89,7 +91,7 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
     } else {
         return whole_file(
             file,
-            "format not recognised (expected an ADES PSV header line)".into(),
+            "format not recognised (neither an ADES PSV header line nor 80-column records)".into(),
         );
     };
     if records.len() > limits.max_observations {
@@ -169,6 +171,14 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         .instant()
         .map_err(|e| err("obsTime", e.to_string()))?;
     let location = match &r.observer_pos {
+        // A roving observer: the ground point is given on the record itself.
+        Some((sys, _, p)) if sys == "WGS84" => {
+            ObserverLocation::Ground(crate::physics::site::GroundPosition::Geodetic {
+                lon_deg: p[0],
+                lat_deg: p[1],
+                alt_m: p[2],
+            })
+        }
         Some((sys, ctr, p)) => {
             let scale = match sys.as_str() {
                 "ICRF_KM" => 1.0,

@@ -35,3 +35,104 @@ pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> V
         .map(|(r, t)| r.unwrap_or_else(|| FitResult::failed(t, "worker thread stopped")))
         .collect()
 }
+
+/// A pool of fit workers fed by object: submitting an object that is already waiting replaces its
+/// pending tracklet, so only the newest pending fit of each object is ever run. Results come back on a
+/// channel with the version they were made from. Submitting never waits for a fit.
+pub struct FitPool {
+    shared: std::sync::Arc<(Mutex<PoolState>, std::sync::Condvar)>,
+    workers: Vec<std::thread::JoinHandle<()>>,
+}
+
+#[derive(Default)]
+struct PoolState {
+    pending: std::collections::HashMap<String, (u64, Tracklet, FitOptions)>,
+    order: std::collections::VecDeque<String>,
+    running: usize,
+    stop: bool,
+}
+
+/// A finished fit: object, the version it was made from, the result.
+pub type PoolResult = (String, u64, FitResult);
+
+impl FitPool {
+    pub fn new(threads: usize, results: std::sync::mpsc::Sender<PoolResult>) -> FitPool {
+        let shared =
+            std::sync::Arc::new((Mutex::new(PoolState::default()), std::sync::Condvar::new()));
+        let workers = (0..threads.max(1))
+            .map(|_| {
+                let shared = shared.clone();
+                let results = results.clone();
+                std::thread::spawn(move || {
+                    let model = ObserverModel::new();
+                    loop {
+                        let job = {
+                            let (lock, cv) = &*shared;
+                            let Ok(mut st) = lock.lock() else { return };
+                            loop {
+                                if st.stop {
+                                    return;
+                                }
+                                if let Some(obj) = st.order.pop_front() {
+                                    if let Some(job) = st.pending.remove(&obj) {
+                                        st.running += 1;
+                                        break (obj, job);
+                                    }
+                                    continue;
+                                }
+                                st = match cv.wait(st) {
+                                    Ok(s) => s,
+                                    Err(_) => return,
+                                };
+                            }
+                        };
+                        let (obj, (version, tracklet, opts)) = job;
+                        let r = fit_tracklet(&tracklet, &model, &opts);
+                        if let Ok(mut st) = shared.0.lock() {
+                            st.running -= 1;
+                        }
+                        if results.send((obj, version, r)).is_err() {
+                            return;
+                        }
+                    }
+                })
+            })
+            .collect();
+        FitPool { shared, workers }
+    }
+
+    /// Queue a fit of `tracklet` at `version`, replacing any pending one for the same object.
+    pub fn submit(&self, version: u64, tracklet: Tracklet, opts: FitOptions) {
+        let (lock, cv) = &*self.shared;
+        if let Ok(mut st) = lock.lock() {
+            let obj = tracklet.object.clone();
+            if st
+                .pending
+                .insert(obj.clone(), (version, tracklet, opts))
+                .is_none()
+            {
+                st.order.push_back(obj);
+            }
+            cv.notify_one();
+        }
+    }
+
+    /// (waiting, running) fits.
+    pub fn load(&self) -> (usize, usize) {
+        self.shared
+            .0
+            .lock()
+            .map_or((0, 0), |st| (st.pending.len(), st.running))
+    }
+
+    /// Stop the workers after their current fit; pending fits are dropped.
+    pub fn shutdown(self) {
+        if let Ok(mut st) = self.shared.0.lock() {
+            st.stop = true;
+        }
+        self.shared.1.notify_all();
+        for w in self.workers {
+            let _ = w.join();
+        }
+    }
+}

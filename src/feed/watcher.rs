@@ -1,0 +1,262 @@
+//! Watching a directory for tracklet files. A periodic scan is the source of truth (so a lost or
+//! overflowed event only delays a file, never loses it); file-system events wake the scan early and
+//! tell it when a file was closed after writing or renamed into place. A file is handed on only when
+//! complete: closed after writing and ending in a newline, renamed into place, or unchanged for the
+//! settle time. Files that grow are handed on again. The directory is only ever read.
+
+use notify::event::{AccessKind, AccessMode, ModifyKind, RenameMode};
+use notify::{EventKind, RecursiveMode, Watcher as _};
+use std::collections::{HashMap, HashSet};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender, channel};
+use std::time::{Duration, Instant, SystemTime};
+
+#[derive(Debug, Clone)]
+pub struct WatchOptions {
+    /// A file unchanged for this long is taken as complete.
+    pub settle: Duration,
+    /// Scan only, without file-system events (network file systems).
+    pub poll: bool,
+    /// Interval between scans (a safety net with events, the only mechanism when polling).
+    pub scan_interval: Duration,
+    /// Files larger than this are rejected without being read.
+    pub max_bytes: u64,
+}
+
+impl Default for WatchOptions {
+    fn default() -> Self {
+        WatchOptions {
+            settle: Duration::from_millis(500),
+            poll: false,
+            scan_interval: Duration::from_millis(250),
+            max_bytes: super::tracklets::Limits::default().max_bytes,
+        }
+    }
+}
+
+/// What the watcher reports.
+#[derive(Debug)]
+pub enum WatchEvent {
+    /// A complete file (or a complete new version of a grown file), with its bytes.
+    Ready {
+        path: PathBuf,
+        bytes: Vec<u8>,
+        arrived: SystemTime,
+    },
+    /// A file refused without reading it (over the size limit, unreadable).
+    Refused {
+        path: PathBuf,
+        reason: String,
+        arrived: SystemTime,
+    },
+    /// The watcher could not start or lost the directory.
+    Failed(String),
+}
+
+/// Hidden, editor and partial-download files are never read.
+pub fn ignored(path: &Path) -> bool {
+    let Some(name) = path.file_name().and_then(|n| n.to_str()) else {
+        return true;
+    };
+    name.starts_with('.')
+        || name.starts_with('#')
+        || name.ends_with('~')
+        || [".tmp", ".part", ".partial", ".swp", ".crdownload", ".lock"]
+            .iter()
+            .any(|s| name.to_ascii_lowercase().ends_with(s))
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Stamp {
+    size: u64,
+    mtime: SystemTime,
+}
+
+struct FileState {
+    stamp: Stamp,
+    changed_at: Instant,
+    hinted: bool,
+    delivered: Option<Stamp>,
+}
+
+/// Start watching `dir` on a thread of its own; events arrive on the returned channel until `stop`.
+pub fn spawn(dir: PathBuf, opts: WatchOptions, stop: Arc<AtomicBool>) -> Receiver<WatchEvent> {
+    let (tx, rx) = channel();
+    std::thread::spawn(move || run(&dir, &opts, &stop, &tx));
+    rx
+}
+
+fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEvent>) {
+    let (ntx, nrx) = channel::<notify::Result<notify::Event>>();
+    let _keep = if opts.poll {
+        None
+    } else {
+        match notify::recommended_watcher(ntx) {
+            Ok(mut w) => match w.watch(dir, RecursiveMode::NonRecursive) {
+                Ok(()) => Some(w),
+                Err(e) => {
+                    let _ = tx.send(WatchEvent::Failed(format!(
+                        "cannot watch {}: {e} (scanning only)",
+                        dir.display()
+                    )));
+                    None
+                }
+            },
+            Err(_) => None,
+        }
+    };
+    let mut files: HashMap<PathBuf, FileState> = HashMap::new();
+    let mut hints: HashSet<PathBuf> = HashSet::new();
+    let started = Instant::now();
+    let mut first = true;
+    while !stop.load(Ordering::Relaxed) {
+        if !first {
+            // Wait for an event or the next scan, collecting completion hints on the way.
+            match nrx.recv_timeout(opts.scan_interval) {
+                Ok(ev) => {
+                    collect_hint(ev, &mut hints);
+                    while let Ok(ev) = nrx.try_recv() {
+                        collect_hint(ev, &mut hints);
+                    }
+                }
+                Err(RecvTimeoutError::Timeout) | Err(RecvTimeoutError::Disconnected) => {
+                    if opts.poll || _keep.is_none() {
+                        std::thread::sleep(Duration::ZERO);
+                    }
+                }
+            }
+        }
+        if scan(dir, opts, &mut files, &mut hints, first, started, tx).is_err() {
+            return;
+        }
+        first = false;
+    }
+}
+
+fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>) {
+    let Ok(ev) = ev else {
+        return; // an error or overflow: the next scan catches up
+    };
+    let complete = matches!(
+        ev.kind,
+        EventKind::Access(AccessKind::Close(AccessMode::Write))
+            | EventKind::Modify(ModifyKind::Name(RenameMode::To))
+            | EventKind::Modify(ModifyKind::Name(RenameMode::Both))
+    );
+    if complete {
+        // For a rename with both ends, the destination is the last path.
+        if let Some(p) = ev.paths.last() {
+            hints.insert(p.clone());
+        }
+    }
+}
+
+fn stamp(meta: &std::fs::Metadata) -> Stamp {
+    Stamp {
+        size: meta.len(),
+        mtime: meta.modified().unwrap_or(SystemTime::UNIX_EPOCH),
+    }
+}
+
+/// One pass over the directory. Returns Err only when the receiver is gone.
+fn scan(
+    dir: &Path,
+    opts: &WatchOptions,
+    files: &mut HashMap<PathBuf, FileState>,
+    hints: &mut HashSet<PathBuf>,
+    first: bool,
+    started: Instant,
+    tx: &Sender<WatchEvent>,
+) -> Result<(), ()> {
+    let Ok(entries) = std::fs::read_dir(dir) else {
+        return tx
+            .send(WatchEvent::Failed(format!("cannot list {}", dir.display())))
+            .map_err(|_| ());
+    };
+    let mut paths: Vec<PathBuf> = entries
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| !ignored(p))
+        .collect();
+    paths.sort();
+    let now = Instant::now();
+    for path in paths {
+        let Ok(meta) = std::fs::metadata(&path) else {
+            continue;
+        };
+        if !meta.is_file() {
+            continue;
+        }
+        let st = stamp(&meta);
+        let hinted = hints.remove(&path);
+        let state = files.entry(path.clone()).or_insert(FileState {
+            stamp: st,
+            // Files already there at start and not being written count as settled.
+            changed_at: if first { started - opts.settle } else { now },
+            hinted: false,
+            delivered: None,
+        });
+        if state.stamp != st {
+            state.stamp = st;
+            state.changed_at = now;
+            state.hinted = false;
+        }
+        state.hinted |= hinted;
+        if state.delivered == Some(st) {
+            continue;
+        }
+        let settled = now.duration_since(state.changed_at) >= opts.settle;
+        if !(settled || state.hinted) {
+            continue;
+        }
+        if st.size > opts.max_bytes {
+            state.delivered = Some(st);
+            tx.send(WatchEvent::Refused {
+                path: path.clone(),
+                reason: format!(
+                    "{} bytes is over the {}-byte limit",
+                    st.size, opts.max_bytes
+                ),
+                arrived: SystemTime::now(),
+            })
+            .map_err(|_| ())?;
+            continue;
+        }
+        let bytes = match std::fs::read(&path) {
+            Ok(b) => b,
+            Err(_) => continue, // vanished or unreadable for now; try again next scan
+        };
+        // Changed while we read it: not complete yet.
+        match std::fs::metadata(&path) {
+            Ok(m) if stamp(&m) == st && bytes.len() as u64 == st.size => {}
+            _ => continue,
+        }
+        // A close without a final newline may be a writer that closes between chunks: let it settle.
+        if !settled && !bytes.is_empty() && bytes.last() != Some(&b'\n') {
+            state.hinted = false;
+            continue;
+        }
+        state.delivered = Some(st);
+        tx.send(WatchEvent::Ready {
+            path,
+            bytes,
+            arrived: SystemTime::now(),
+        })
+        .map_err(|_| ())?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn temporary_and_hidden_files_are_ignored() {
+        for n in [".x.psv", "a.psv~", "#a#", "a.psv.part", "b.TMP", "c.swp"] {
+            assert!(ignored(Path::new(n)), "{n}");
+        }
+        assert!(!ignored(Path::new("001_K27.psv")));
+    }
+}
