@@ -30,14 +30,19 @@ pub struct AdesRecord {
     pub observer_pos: Option<(String, i64, [f64; 3])>,
 }
 
-/// Whether text looks like ADES PSV (a header line with the required column names).
+/// Whether text looks like ADES PSV: its first data line is a pipe-separated header naming at least
+/// two of the standard columns (the parser then says which required ones are missing).
 pub fn looks_like_psv(text: &str) -> bool {
+    const KNOWN: [&str; 12] = [
+        "obsTime", "ra", "dec", "stn", "trkSub", "permID", "provID", "mode", "rmsRA", "rmsDec",
+        "mag", "band",
+    ];
     text.lines()
         .map(str::trim)
         .find(|l| !l.is_empty() && !l.starts_with('#') && !l.starts_with('!'))
         .is_some_and(|l| {
             let cols: Vec<&str> = l.split('|').map(str::trim).collect();
-            cols.contains(&"obsTime") && cols.contains(&"ra") && cols.contains(&"dec")
+            cols.len() >= 2 && cols.iter().filter(|c| KNOWN.contains(c)).count() >= 2
         })
 }
 
@@ -114,12 +119,16 @@ pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
             Err((col, reason)) => bad.push(err(line_no, Some(&col), reason)),
         }
     }
-    if header.is_none() {
-        bad.push(err(
+    match header {
+        None => bad.push(err(
             0,
             None,
             "no ADES PSV header line (columns separated by |)".into(),
-        ));
+        )),
+        Some(_) if good.is_empty() && bad.is_empty() => {
+            bad.push(err(0, None, "header but no data lines".into()))
+        }
+        Some(_) => {}
     }
     (good, bad)
 }

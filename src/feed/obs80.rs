@@ -17,7 +17,6 @@ pub fn looks_like_obs80(text: &str) -> bool {
         .is_some_and(|l| {
             let c: Vec<char> = l.chars().collect();
             c.len() >= 56
-                && c.len() <= 82
                 && c[15..19].iter().all(|d| d.is_ascii_digit())
                 && c[19] == ' '
                 && c[22] == ' '

@@ -109,7 +109,6 @@ fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEven
     };
     let mut files: HashMap<PathBuf, FileState> = HashMap::new();
     let mut hints: HashSet<PathBuf> = HashSet::new();
-    let started = Instant::now();
     let mut first = true;
     while !stop.load(Ordering::Relaxed) {
         if !first {
@@ -128,7 +127,7 @@ fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEven
                 }
             }
         }
-        if scan(dir, opts, &mut files, &mut hints, first, started, tx).is_err() {
+        if scan(dir, opts, &mut files, &mut hints, tx).is_err() {
             return;
         }
         first = false;
@@ -166,8 +165,6 @@ fn scan(
     opts: &WatchOptions,
     files: &mut HashMap<PathBuf, FileState>,
     hints: &mut HashSet<PathBuf>,
-    first: bool,
-    started: Instant,
     tx: &Sender<WatchEvent>,
 ) -> Result<(), ()> {
     let Ok(entries) = std::fs::read_dir(dir) else {
@@ -190,12 +187,18 @@ fn scan(
         }
         let st = stamp(&meta);
         let hinted = hints.remove(&path);
-        let state = files.entry(path.clone()).or_insert(FileState {
-            stamp: st,
-            // Files already there at start and not being written count as settled.
-            changed_at: if first { started - opts.settle } else { now },
-            hinted: false,
-            delivered: None,
+        let state = files.entry(path.clone()).or_insert_with(|| {
+            // A file first seen has been unchanged since its modification time (a file present at
+            // start may still be being written, so start-up is no exception).
+            let age = SystemTime::now()
+                .duration_since(st.mtime)
+                .unwrap_or(Duration::ZERO);
+            FileState {
+                stamp: st,
+                changed_at: now.checked_sub(age.min(opts.settle)).unwrap_or(now),
+                hinted: false,
+                delivered: None,
+            }
         });
         if state.stamp != st {
             state.stamp = st;
