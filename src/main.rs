@@ -10,6 +10,7 @@ fn main() {
     let code = match &args.command {
         cli::Command::Fit(a) => cli::fit::run(a),
         cli::Command::Watch(a) => cli::watch::run(a),
+        cli::Command::Ephem(a) => cli::ephem::run(a),
         cli::Command::JournalAppend(a) => cli::journal::run(a),
     };
     match code {

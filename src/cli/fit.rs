@@ -77,6 +77,14 @@ impl FitArgs {
     }
 }
 
+/// Fit with default options on all cores (input order kept).
+pub fn fit_all_default(
+    tracklets: Vec<interloper::fitting::input::Tracklet>,
+) -> Vec<interloper::fitting::fit::FitResult> {
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+    fit_all(tracklets, &FitOptions::default(), threads)
+}
+
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
     let files = expand(&args.paths)?;

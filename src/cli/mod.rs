@@ -1,5 +1,6 @@
 //! The command line: argument definitions and one module per subcommand. Only glue lives here.
 
+pub mod ephem;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
@@ -19,6 +20,8 @@ pub struct Cli {
 pub enum Command {
     /// Fit every tracklet in the given files and print them ranked by hyperbolicity score.
     Fit(fit::FitArgs),
+    /// Follow-up ephemeris of fitted tracklets from a site over a time range.
+    Ephem(ephem::EphemArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
     /// Append test decisions to a journal, acknowledging each once synced (durability tests).

@@ -3,6 +3,7 @@
 
 pub mod batch;
 pub mod covariance;
+pub mod ephemeris;
 pub mod fit;
 pub mod gauss;
 pub mod input;

@@ -38,20 +38,26 @@ def night_times(day, code, n):
     return [start + k * 22.0 / 1440.0 for k in range(n)]
 
 
-def visible_node(q, e, inc, node, peri, tfp, t):
-    for k in range(24):
-        nd = (node + 15.0 * k) % 360.0
-        tr = Trajectory(q, e, inc, nd, peri, tfp, t, 0.3, 0.3)
-        ra, dec, delta, elong, r, _ = tr.observe(utc_from_jd(t), SITES["TV1"])
-        if elong > 110.0 and delta > 0.12:
-            return nd
-    return node
+def visible_geometry(q, e, inc, node, peri, tfp, t):
+    """Turn the node and shift the time from perihelion until the object stands far from the Sun (in
+    the night sky at local midnight); the best of the tries is kept."""
+    best = (-1.0, node, tfp)
+    for shift in (0.0, -15.0, -30.0, -60.0, 20.0, 45.0):
+        for k in range(12):
+            nd = (node + 30.0 * k) % 360.0
+            tr = Trajectory(q, e, inc, nd, peri, tfp + shift, t, 0.3, 0.3)
+            ra, dec, delta, elong, r, _ = tr.observe(utc_from_jd(t), SITES["TV1"])
+            if delta > 0.12 and elong > best[0]:
+                best = (elong, nd, tfp + shift)
+            if best[0] > 120.0:
+                return best[1], best[2]
+    return best[1], best[2]
 
 
 def observe(obj):
     oid, q, e, inc, node, peri, tfp, nights, per, sigma, mag = obj
     t_mid = T0 + np.mean(nights)
-    node = visible_node(q, e, inc, node, peri, tfp, t_mid)
+    node, tfp = visible_geometry(q, e, inc, node, peri, tfp, t_mid)
     tr = Trajectory(q, e, inc, node, peri, tfp, t_mid, 4.0, 4.0)
     out = {}
     for j, d in enumerate(nights):

@@ -1,0 +1,278 @@
+//! `interloper ephem`: fit the given tracklets, then predict where each object will be from a site over a
+//! time range: position, rates, brightness, altitude, observability and the uncertainty region.
+
+use super::fit::fit_all_default;
+use super::inputs::{SiteArgs, expand, read_file};
+use anyhow::{Context, bail};
+use interloper::feed::sanitize::clean;
+use interloper::feed::tracklets::{Limits, merge};
+use interloper::fitting::ephemeris::{DEFAULT_MIN_ALT_DEG, EphemerisPoint, fitted_h, point};
+use interloper::physics::observe::ObserverModel;
+use interloper::physics::time::{UtcTime, tt_to_utc};
+use std::io::Write;
+use std::path::PathBuf;
+
+#[derive(Debug, clap::Args)]
+pub struct EphemArgs {
+    #[command(flatten)]
+    pub sites: SiteArgs,
+    /// Site code to predict for (the built-in demo sites, --sites or --site-codes).
+    #[arg(long)]
+    pub site: String,
+    /// First time, ISO 8601 UTC (e.g. 2027-03-21T10:00:00Z).
+    #[arg(long)]
+    pub from: String,
+    /// Last time, ISO 8601 UTC (included).
+    #[arg(long)]
+    pub to: String,
+    /// Step: a number with s, m, h or d (e.g. 10m, 1h, 1d).
+    #[arg(long, default_value = "1h")]
+    pub step: String,
+    /// One JSON object per time step instead of the table.
+    #[arg(long)]
+    pub json: bool,
+    /// Lowest altitude counted as observable (degrees).
+    #[arg(long, default_value_t = DEFAULT_MIN_ALT_DEG)]
+    pub min_alt: f64,
+    /// Only these objects (repeatable); default all.
+    #[arg(long = "object")]
+    pub objects: Vec<String>,
+    /// Also write a follow-up request: PREFIX.txt (for people) and PREFIX.json (for scheduling tools).
+    #[arg(long, value_name = "PREFIX")]
+    pub request: Option<PathBuf>,
+    /// Tracklet files or directories.
+    #[arg(required = true, value_name = "PATH")]
+    pub paths: Vec<PathBuf>,
+}
+
+/// Parse 10m, 1h, 1d, 30s into days.
+pub fn parse_step(s: &str) -> anyhow::Result<f64> {
+    let s = s.trim();
+    let (num, unit) = s.split_at(s.find(|c: char| c.is_ascii_alphabetic()).unwrap_or(s.len()));
+    let v: f64 = num
+        .trim()
+        .parse()
+        .with_context(|| format!("'{s}' is not a duration (e.g. 10m, 1h, 1d)"))?;
+    let days = match unit {
+        "s" => v / 86_400.0,
+        "m" | "min" => v / 1440.0,
+        "h" => v / 24.0,
+        "d" => v,
+        _ => bail!("'{s}': the unit must be s, m, h or d"),
+    };
+    if !(days > 0.0 && days.is_finite()) {
+        bail!("'{s}': the step must be positive");
+    }
+    Ok(days)
+}
+
+fn windows(points: &[EphemerisPoint]) -> Vec<(String, String)> {
+    let mut out = Vec::new();
+    let mut start: Option<&str> = None;
+    let mut last = "";
+    for p in points {
+        match (p.observable, start) {
+            (true, None) => start = Some(&p.time_utc),
+            (false, Some(s)) => {
+                out.push((s.to_string(), last.to_string()));
+                start = None;
+            }
+            _ => {}
+        }
+        last = &p.time_utc;
+    }
+    if let Some(s) = start {
+        out.push((s.to_string(), last.to_string()));
+    }
+    out
+}
+
+fn table(points: &[EphemerisPoint]) -> String {
+    let mut s = String::new();
+    let Some(first) = points.first() else {
+        return s;
+    };
+    s.push_str(&format!("== {}\n", clean(&first.object)));
+    s.push_str("time (UTC)                  RA°        Dec°      \"/min E  \"/min N   alt°   elong°  V     3σ major\" minor\" PA°  obs\n");
+    for p in points {
+        s.push_str(&format!(
+            "{:<26} {:>10.5} {:>+10.5} {:>8.3} {:>8.3} {:>6.1} {:>7.1} {:>5} {:>9} {:>7} {:>4} {}{}\n",
+            p.time_utc,
+            p.ra_deg,
+            p.dec_deg,
+            p.ra_rate_arcsec_min,
+            p.dec_rate_arcsec_min,
+            p.alt_deg.unwrap_or(f64::NAN),
+            p.elong_deg,
+            p.v_mag.map_or("-".into(), |v| format!("{v:.1}")),
+            p.unc_major_arcsec.map_or("-".into(), |v| format!("{v:.1}")),
+            p.unc_minor_arcsec.map_or("-".into(), |v| format!("{v:.1}")),
+            p.unc_pa_deg.map_or("-".into(), |v| format!("{v:.0}")),
+            if p.observable { "yes" } else { "no" },
+            if p.sun_caution { "  SUN" } else { "" }
+        ));
+    }
+    let w = windows(points);
+    if w.is_empty() {
+        s.push_str("not observable in this range (Sun below -12° and the object above the minimum altitude)\n");
+    }
+    for (a, b) in w {
+        s.push_str(&format!("observable {a} .. {b}\n"));
+    }
+    if points.iter().any(|p| p.sun_caution) {
+        s.push_str("CAUTION: within 45° of the Sun at times marked SUN. Check your site's own solar-avoidance limits and procedures before pointing.\n");
+    }
+    s
+}
+
+pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
+    let sites = args.sites.load()?;
+    let site = sites
+        .get(&args.site)
+        .with_context(|| format!("unknown site code '{}'", clean(&args.site)))?
+        .position;
+    let from = UtcTime::parse(&args.from)
+        .with_context(|| format!("--from {}", args.from))?
+        .instant()?;
+    let to = UtcTime::parse(&args.to)
+        .with_context(|| format!("--to {}", args.to))?
+        .instant()?;
+    let step = parse_step(&args.step)?;
+    let span = to.tt.minus(from.tt);
+    if span < 0.0 {
+        bail!("--to is before --from");
+    }
+    let n = (span / step + 1e-9).floor() as usize + 1;
+    if n > 200_000 {
+        bail!("{n} steps is too many (at most 200000)");
+    }
+    let limits = Limits::default();
+    let mut tracklets = Vec::new();
+    let mut input_errors = 0;
+    for f in expand(&args.paths)? {
+        let intake = read_file(&f, &sites, &limits);
+        for e in &intake.errors {
+            eprintln!("rejected: {e}");
+        }
+        input_errors += intake.errors.len();
+        tracklets.extend(intake.tracklets);
+    }
+    let mut tracklets = merge(tracklets);
+    if !args.objects.is_empty() {
+        tracklets.retain(|t| args.objects.contains(&t.object));
+    }
+    let results = fit_all_default(tracklets.clone());
+    let model = ObserverModel::new();
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    let mut all: Vec<EphemerisPoint> = Vec::new();
+    let mut failed = 0;
+    for (t, fit) in tracklets.iter().zip(&results) {
+        if fit.status == "failed" {
+            eprintln!(
+                "{}: not fitted: {}",
+                clean(&fit.object),
+                clean(fit.error.as_deref().unwrap_or(""))
+            );
+            failed += 1;
+            continue;
+        }
+        let mags: Vec<_> = t
+            .obs
+            .iter()
+            .filter_map(|o| o.mag.map(|m| (o.time.tdb, m)))
+            .collect();
+        let obs: Vec<_> = t
+            .obs
+            .iter()
+            .filter(|o| o.mag.is_some())
+            .filter_map(|o| model.observer(&o.location, &o.time).ok())
+            .collect();
+        let h = fitted_h(fit, &mags, &obs);
+        let mut points = Vec::with_capacity(n);
+        for k in 0..n {
+            let tt = from.tt.plus_days(k as f64 * step);
+            let shift = k as f64 * step;
+            let inst = interloper::physics::time::Instant {
+                tai: from.tai.plus_days(shift),
+                tt,
+                tdb: from.tdb.plus_days(shift),
+                ut1: from.ut1.plus_days(shift),
+                status: from.status,
+            };
+            if let Some(p) = point(
+                fit,
+                &inst,
+                tt_to_utc(tt).to_string(),
+                &site,
+                &model,
+                h,
+                args.min_alt,
+            ) {
+                points.push(p);
+            }
+        }
+        if args.json {
+            for p in &points {
+                serde_json::to_writer(&mut out, p)?;
+                out.write_all(b"\n")?;
+            }
+        } else {
+            out.write_all(table(&points).as_bytes())?;
+            if fit.status != "ok" || fit.prior_dominated {
+                out.write_all(
+                    format!(
+                        "note: fit is {}{}\n",
+                        fit.status,
+                        if fit.prior_dominated {
+                            ", answer set by the prior"
+                        } else {
+                            ""
+                        }
+                    )
+                    .as_bytes(),
+                )?;
+            }
+        }
+        all.extend(points);
+    }
+    out.flush()?;
+    if let Some(prefix) = &args.request {
+        let txt = prefix.with_extension("txt");
+        let json = prefix.with_extension("json");
+        let mut text = String::from(
+            "Follow-up request (advisory: a high hyperbolicity score is a reason for follow-up, not a discovery)\n",
+        );
+        text.push_str(&format!(
+            "site {} from {} to {} step {}\n\n",
+            clean(&args.site),
+            args.from,
+            args.to,
+            args.step
+        ));
+        let mut objects: Vec<&str> = all.iter().map(|p| p.object.as_str()).collect();
+        objects.dedup();
+        for o in &objects {
+            let pts: Vec<EphemerisPoint> = all.iter().filter(|p| p.object == *o).cloned().collect();
+            text.push_str(&table(&pts));
+            text.push('\n');
+        }
+        std::fs::write(&txt, text).with_context(|| format!("writing {}", txt.display()))?;
+        let req = serde_json::json!({
+            "site": args.site, "from": args.from, "to": args.to, "step": args.step,
+            "advisory": "a hyperbolicity score is a reason for follow-up, not a discovery; check the site's own solar-avoidance limits",
+            "targets": objects.iter().map(|o| serde_json::json!({
+                "object": o,
+                "windows": windows(&all.iter().filter(|p| p.object == *o).cloned().collect::<Vec<_>>()),
+                "points": all.iter().filter(|p| p.object == *o).collect::<Vec<_>>(),
+            })).collect::<Vec<_>>(),
+        });
+        std::fs::write(&json, serde_json::to_string_pretty(&req)?)
+            .with_context(|| format!("writing {}", json.display()))?;
+        eprintln!(
+            "request written to {} and {}",
+            txt.display(),
+            json.display()
+        );
+    }
+    Ok(if failed > 0 || input_errors > 0 { 1 } else { 0 })
+}
