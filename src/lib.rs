@@ -5,6 +5,7 @@
 //! (formats, sites, files into tracklets), and the binary's thin command line.
 #![cfg_attr(not(test), deny(clippy::unwrap_used))]
 
+pub mod console;
 pub mod feed;
 pub mod fitting;
 pub mod physics;

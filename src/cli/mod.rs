@@ -1,5 +1,7 @@
 //! The command line: argument definitions and one module per subcommand. Only glue lives here.
 
+pub mod console;
+pub mod demo;
 pub mod ephem;
 pub mod fit;
 pub mod inputs;
@@ -20,6 +22,8 @@ pub struct Cli {
 pub enum Command {
     /// Fit every tracklet in the given files and print them ranked by hyperbolicity score.
     Fit(fit::FitArgs),
+    /// Replay the bundled demo night into a temporary directory while the console watches it.
+    Demo(demo::DemoArgs),
     /// Follow-up ephemeris of fitted tracklets from a site over a time range.
     Ephem(ephem::EphemArgs),
     /// Watch a directory: fit every tracklet file as it arrives.

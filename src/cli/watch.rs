@@ -41,6 +41,9 @@ pub struct WatchArgs {
     /// Worker threads for fitting (default: the machine's cores).
     #[arg(long)]
     pub threads: Option<usize>,
+    /// Key map file for the console (overrides the default keys one by one).
+    #[arg(long, value_name = "FILE")]
+    pub keymap: Option<PathBuf>,
     /// The directory to watch (it is only read).
     #[arg(value_name = "DIR")]
     pub dir: PathBuf,
@@ -71,15 +74,43 @@ impl Out {
     }
 }
 
+impl WatchArgs {
+    /// Arguments for watching `dir` (the demo's replay folder).
+    pub fn for_dir(
+        dir: PathBuf,
+        state: PathBuf,
+        headless: bool,
+        json: bool,
+        keymap: Option<PathBuf>,
+        idle: f64,
+    ) -> WatchArgs {
+        WatchArgs {
+            sites: SiteArgs {
+                sites: None,
+                site_codes: None,
+            },
+            state: Some(state),
+            headless,
+            json,
+            poll: false,
+            settle_ms: 500,
+            stop_after_idle: headless.then_some(idle),
+            threads: None,
+            keymap,
+            dir,
+        }
+    }
+}
+
 pub fn run(args: &WatchArgs) -> anyhow::Result<i32> {
+    run_with(args, Arc::new(AtomicBool::new(false)))
+}
+
+pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     if !args.dir.is_dir() {
         anyhow::bail!("{} is not a directory", args.dir.display());
     }
-    if !args.headless {
-        eprintln!("note: the console is not built yet; running headless");
-    }
     let sites = args.sites.load()?;
-    let stop = Arc::new(AtomicBool::new(false));
     signal_hook::flag::register(signal_hook::consts::SIGINT, stop.clone())?;
     signal_hook::flag::register(signal_hook::consts::SIGTERM, stop.clone())?;
     let opts = WatchOptions {
@@ -87,11 +118,29 @@ pub fn run(args: &WatchArgs) -> anyhow::Result<i32> {
         poll: args.poll,
         ..WatchOptions::default()
     };
-    let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
-    let (rtx, results) = std::sync::mpsc::channel();
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if !args.headless {
+        let state = args
+            .state
+            .clone()
+            .unwrap_or_else(interloper::feed::journal::default_state_dir);
+        std::fs::create_dir_all(&state)?;
+        return super::console::open(
+            super::console::ConsoleConfig {
+                dir: args.dir.clone(),
+                sites,
+                state,
+                keymap: args.keymap.clone(),
+                watch: opts,
+                threads,
+            },
+            stop,
+        );
+    }
+    let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
+    let (rtx, results) = std::sync::mpsc::channel();
     let pool = FitPool::new(threads, rtx);
     let fit_opts: FitOptions = FitArgs::default_options();
     let limits = Limits::default();

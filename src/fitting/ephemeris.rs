@@ -252,8 +252,12 @@ fn sample_region(
     let (c, s) = (theta.cos(), theta.sin());
     let along: Vec<f64> = pts.iter().map(|p| (p.0 * c + p.1 * s).abs()).collect();
     let across: Vec<f64> = pts.iter().map(|p| (-p.0 * s + p.1 * c).abs()).collect();
-    let a = weighted_quantile(&along, &ws, REGION_FRACTION)?;
-    let b = weighted_quantile(&across, &ws, REGION_FRACTION)?;
+    // With n draws the k-th largest covers k/(n + 1) of new draws on average, so the level that covers
+    // REGION_FRACTION is ⌈p(n + 1)⌉/n (for the effective n of the weights).
+    let n_eff = crate::fitting::stats::effective_sample_size(&ws);
+    let level = ((REGION_FRACTION * (n_eff + 1.0)).ceil() / n_eff).min(1.0);
+    let a = weighted_quantile(&along, &ws, level)?;
+    let b = weighted_quantile(&across, &ws, level)?;
     // PA from north through east of the direction (cos θ east, sin θ north).
     let pa = c.atan2(s).rem_euclid(std::f64::consts::PI) / DEG;
     Some((

@@ -132,6 +132,9 @@ pub struct ResidualOut {
     pub time_utc: String,
     pub site: String,
     pub night: usize,
+    /// Observed position (degrees).
+    pub ra_deg: f64,
+    pub dec_deg: f64,
     pub ra_arcsec: f64,
     pub dec_arcsec: f64,
     pub used: bool,
@@ -273,6 +276,36 @@ pub fn rank(results: &mut [FitResult]) {
 
 fn split(x: &S6) -> (V3, V3) {
     (V3::new(x[0], x[1], x[2]), V3::new(x[3], x[4], x[5]))
+}
+
+/// Orbits kept per sampled fit for ephemerides: enough for 99 % regions, small enough that ten
+/// thousand candidates stay within a couple of hundred megabytes.
+pub const KEPT_SAMPLES: usize = 200;
+
+/// Systematic resampling to `n` equally weighted orbits: unbiased, tails included (keeping only the
+/// heaviest would shrink the uncertainty region).
+pub fn resample(
+    samples: Vec<([f64; 6], f64, f64)>,
+    n: usize,
+    seed: u64,
+) -> Vec<([f64; 6], f64, f64)> {
+    let total: f64 = samples.iter().map(|s| s.2).sum();
+    if samples.len() <= n || total <= 0.0 {
+        return samples;
+    }
+    let mut rng = super::ranging::SplitMix::new(seed);
+    let step = total / n as f64;
+    let mut u = rng.uniform() * step;
+    let mut acc = 0.0;
+    let mut out = Vec::with_capacity(n);
+    for s in &samples {
+        acc += s.2;
+        while u < acc && out.len() < n {
+            out.push((s.0, s.1, 1.0 / n as f64));
+            u += step;
+        }
+    }
+    out
 }
 
 /// Fit one tracklet.
@@ -542,6 +575,8 @@ fn residual_list(tr: &Tracklet, res: &[[f64; 2]], used: &[bool], chi2: &[f64]) -
             time_utc: tt_to_utc(o.time.tt).to_string(),
             site: o.site_code.clone(),
             night: tr.night[i],
+            ra_deg: o.ra.to_degrees(),
+            dec_deg: o.dec.to_degrees(),
             ra_arcsec: res[i][0] / ARCSEC,
             dec_arcsec: res[i][1] / ARCSEC,
             used: used[i],
@@ -677,12 +712,15 @@ fn lsq_result(
         out.e_sigma = Some(spread(&|e| e.e));
         out.q_sigma = Some(spread(&|e| e.q));
         out.i_sigma = Some(spread(&|e| e.i));
-        out.samples = set
-            .states
-            .iter()
-            .zip(&set.weights)
-            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], fit.epoch.value(), *w))
-            .collect();
+        out.samples = resample(
+            set.states
+                .iter()
+                .zip(&set.weights)
+                .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], fit.epoch.value(), *w))
+                .collect(),
+            KEPT_SAMPLES,
+            opts.seed,
+        );
     } else {
         let z = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
         out.z_hyperbolic = Some(z);
@@ -850,19 +888,22 @@ fn fill_ranging(
         q_interval: rr.q_interval,
         i_interval: rr.i_interval,
     });
-    out.samples = rr
-        .samples
-        .iter()
-        .map(|s| {
-            (
-                [
-                    s.state[0], s.state[1], s.state[2], s.state[3], s.state[4], s.state[5],
-                ],
-                s.epoch.value(),
-                s.weight,
-            )
-        })
-        .collect();
+    out.samples = resample(
+        rr.samples
+            .iter()
+            .map(|s| {
+                (
+                    [
+                        s.state[0], s.state[1], s.state[2], s.state[3], s.state[4], s.state[5],
+                    ],
+                    s.epoch.value(),
+                    s.weight,
+                )
+            })
+            .collect(),
+        KEPT_SAMPLES,
+        opts.seed,
+    );
     if out.chi2_per_dof.unwrap_or(0.0) > super::quality::MAX_CHI2_PER_DOF {
         out.poor_fit.push(format!(
             "chi2/dof {:.1} at the best node",

@@ -1,0 +1,9 @@
+//! The triage console: state and actions (`state`, `actions`), key bindings (`keymap`), the panes
+//! (`panes`, `view`) and the runtime that connects them to the feed, the fit workers and the journal.
+
+pub mod actions;
+pub mod keymap;
+pub mod panes;
+pub mod runtime;
+pub mod state;
+pub mod view;

@@ -1,0 +1,139 @@
+//! The selected candidate's orbit: heliocentric and barycentric elements with 1σ, 1/a, v∞ and the
+//! incoming direction, ranging intervals, the prior, and why the fit is poor when it is.
+
+use super::{Theme, num};
+use crate::console::state::App;
+use crate::feed::sanitize::clean;
+use ratatui::Frame;
+use ratatui::layout::Rect;
+use ratatui::style::Color;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
+
+fn pm(v: Option<f64>, s: Option<f64>, prec: usize) -> String {
+    match (v, s) {
+        (Some(v), Some(s)) => format!("{v:.prec$} ± {s:.prec$}"),
+        (v, _) => num(v, prec),
+    }
+}
+
+pub fn lines(app: &App) -> Vec<Line<'static>> {
+    let Some(c) = app.selected_candidate() else {
+        return vec![Line::from("no candidate yet: waiting for files")];
+    };
+    let f = &c.fit;
+    let mut out = Vec::new();
+    out.push(Line::from(vec![
+        Span::raw(format!("{}  ", clean(&f.object))),
+        Span::raw(format!(
+            "{} · {} · {}",
+            f.method, f.probability_from, f.dynamics
+        )),
+    ]));
+    if let Some(e) = &f.error {
+        out.push(Line::from(format!("failed: {}", clean(e))));
+        return out;
+    }
+    if let Some(el) = &f.elements {
+        let s = el.sigma;
+        out.push(Line::from(format!(
+            "helio  q {}  e {}  i {}°",
+            pm(Some(el.q_au), s.map(|s| s.q), 4),
+            pm(Some(el.e), s.map(|s| s.e), 5),
+            pm(Some(el.i_deg), s.map(|s| s.i), 2)
+        )));
+        out.push(Line::from(format!(
+            "       Ω {}°  ω {}°  Tp {}  1/a {}",
+            pm(Some(el.node_deg), s.map(|s| s.node), 2),
+            pm(Some(el.peri_deg), s.map(|s| s.peri), 2),
+            pm(Some(el.tp_jd_tdb), s.map(|s| s.tp), 2),
+            pm(Some(el.inv_a_per_au), s.map(|s| s.inv_a), 5)
+        )));
+    }
+    if let Some(b) = &f.barycentric {
+        out.push(Line::from(format!(
+            "bary   e {}  q {} AU  1/a {} /AU",
+            pm(f.e_bary, f.e_bary_sigma, 5),
+            num(Some(b.q_au), 4),
+            pm(Some(b.inv_a_per_au), b.sigma.map(|s| s.inv_a), 5)
+        )));
+    }
+    if let Some(inc) = &f.incoming {
+        out.push(Line::from(format!(
+            "v∞ {} km/s from RA {:.1}° Dec {:+.1}° (l {:.1}° b {:+.1}°)  UVW {:+.1} {:+.1} {:+.1}",
+            pm(Some(inc.v_inf_km_s), inc.v_inf_sigma_km_s, 2),
+            inc.radiant_ra_deg,
+            inc.radiant_dec_deg,
+            inc.radiant_l_deg,
+            inc.radiant_b_deg,
+            inc.uvw_km_s[0],
+            inc.uvw_km_s[1],
+            inc.uvw_km_s[2]
+        )));
+    }
+    if let Some(r) = &f.ranging {
+        out.push(Line::from(format!(
+            "ranging 95%: e {:.2}–{:.2}  q {:.2}–{:.2} AU  i {:.0}–{:.0}°  ({} trials, v cap {:.0} km/s)",
+            r.e_interval[0], r.e_interval[2], r.q_interval[0], r.q_interval[2], r.i_interval[0], r.i_interval[2], r.trials, r.v_cap_km_s
+        )));
+    }
+    out.push(Line::from(format!(
+        "score {}  P(e>1) {}  rms {}\"  χ²/dof {}",
+        num(f.z_hyperbolic, 2),
+        num(f.p_hyperbolic, 4),
+        num(f.rms_arcsec, 2),
+        num(f.chi2_per_dof, 2)
+    )));
+    if let Some(p) = f.prior {
+        out.push(Line::from(format!(
+            "prior: {p}; flat-prior P {}; Bayes factor {}{}",
+            num(f.p_hyperbolic_flat_prior, 3),
+            num(f.bayes_factor, 2),
+            if f.prior_dominated {
+                " — ANSWER SET BY THE PRIOR"
+            } else {
+                ""
+            }
+        )));
+    }
+    if !f.distrust_linear.is_empty() {
+        out.push(Line::from(format!(
+            "not linear: {}",
+            clean(&f.distrust_linear.join("; "))
+        )));
+    }
+    if !f.poor_fit.is_empty() {
+        out.push(Line::from(Span::raw(format!(
+            "POOR FIT: {}",
+            clean(&f.poor_fit.join("; "))
+        ))));
+    }
+    if let Some(d) = &c.decision {
+        let fewer = if d.n_obs < f.n_obs {
+            format!(" — decided on {} of {} observations", d.n_obs, f.n_obs)
+        } else {
+            String::new()
+        };
+        out.push(Line::from(format!(
+            "decision: {} at {}{}{}",
+            d.verdict.label(),
+            d.time_utc,
+            d.note
+                .as_ref()
+                .map(|n| format!(" — \"{}\"", clean(n)))
+                .unwrap_or_default(),
+            fewer
+        )));
+    }
+    out
+}
+
+pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
+    let p = Paragraph::new(lines(app)).wrap(Wrap { trim: true }).block(
+        Block::default()
+            .borders(Borders::ALL)
+            .title(" orbit ")
+            .border_style(theme.fg(Color::Blue)),
+    );
+    f.render_widget(p, area);
+}

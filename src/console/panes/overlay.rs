@@ -1,0 +1,133 @@
+//! Panels drawn over the main screen: help (generated from the active keymap), rejected files and lines,
+//! the follow-up ephemeris, and the one-line prompt for a filter or a note.
+
+use super::{Theme, num};
+use crate::console::state::{App, Mode};
+use crate::feed::sanitize::clean;
+use ratatui::Frame;
+use ratatui::layout::Rect;
+use ratatui::widgets::{Block, Borders, Clear, Paragraph};
+
+fn centered(area: Rect, w_pct: u16, h_pct: u16) -> Rect {
+    let w = area.width * w_pct / 100;
+    let h = area.height * h_pct / 100;
+    Rect::new(
+        area.x + (area.width - w) / 2,
+        area.y + (area.height - h) / 2,
+        w,
+        h,
+    )
+}
+
+fn panel(f: &mut Frame, area: Rect, title: &str, lines: Vec<String>, scroll: usize) {
+    let r = centered(area, 90, 85);
+    f.render_widget(Clear, r);
+    let text: Vec<ratatui::text::Line> = lines
+        .into_iter()
+        .skip(scroll)
+        .map(ratatui::text::Line::from)
+        .collect();
+    f.render_widget(
+        Paragraph::new(text).block(
+            Block::default()
+                .borders(Borders::ALL)
+                .title(title.to_string()),
+        ),
+        r,
+    );
+}
+
+pub fn help_lines(app: &App) -> Vec<String> {
+    let mut out = Vec::new();
+    let mut last = None;
+    for (ctx, action, keys) in app.keymap.describe() {
+        if last != Some(ctx) {
+            out.push(format!("[{}]", ctx.name()));
+            last = Some(ctx);
+        }
+        let k = keys.iter().map(|k| k.label()).collect::<Vec<_>>().join(" ");
+        out.push(format!(
+            "  {k:<14} {:<20} {}",
+            action.name(),
+            action.describe()
+        ));
+    }
+    out
+}
+
+pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
+    match app.mode {
+        Mode::Help => panel(
+            f,
+            area,
+            " keys (from the active keymap) ",
+            help_lines(app),
+            app.overlay_scroll,
+        ),
+        Mode::Rejected => {
+            let lines = if app.rejected.is_empty() {
+                vec!["nothing rejected".to_string()]
+            } else {
+                app.rejected.iter().map(|e| clean(&e.to_string())).collect()
+            };
+            panel(
+                f,
+                area,
+                " rejected files and lines ",
+                lines,
+                app.overlay_scroll,
+            )
+        }
+        Mode::Ephemeris => {
+            let lines = match &app.ephemeris {
+                None => vec!["computing…".to_string()],
+                Some((obj, pts)) => {
+                    let mut v = vec![format!(
+                        "{} — next 24 h from the site of its last observation (3σ region)",
+                        clean(obj)
+                    )];
+                    v.push("time (UTC)                 RA°       Dec°     \"/min E \"/min N  alt°  elong°  V     3σ\"      obs".into());
+                    for p in pts {
+                        v.push(format!(
+                            "{:<26} {:>9.4} {:>+9.4} {:>7.2} {:>7.2} {:>5} {:>6.1} {:>5} {:>6}×{:<6} {}{}",
+                            p.time_utc,
+                            p.ra_deg,
+                            p.dec_deg,
+                            p.ra_rate_arcsec_min,
+                            p.dec_rate_arcsec_min,
+                            num(p.alt_deg, 0),
+                            p.elong_deg,
+                            num(p.v_mag, 1),
+                            num(p.unc_major_arcsec, 1),
+                            num(p.unc_minor_arcsec, 1),
+                            if p.observable { "yes" } else { "no" },
+                            if p.sun_caution { " SUN: check your site's solar-avoidance limits" } else { "" }
+                        ));
+                    }
+                    v
+                }
+            };
+            panel(f, area, " follow-up ephemeris ", lines, app.overlay_scroll)
+        }
+        Mode::Filter | Mode::Note => {
+            let r = Rect::new(
+                area.x,
+                area.y + area.height.saturating_sub(3),
+                area.width,
+                3.min(area.height),
+            );
+            f.render_widget(Clear, r);
+            let title = if app.mode == Mode::Filter {
+                " filter "
+            } else {
+                " note "
+            };
+            f.render_widget(
+                Paragraph::new(app.input.value().to_string())
+                    .block(Block::default().borders(Borders::ALL).title(title)),
+                r,
+            );
+        }
+        Mode::List => {}
+    }
+}

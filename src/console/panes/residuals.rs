@@ -1,0 +1,181 @@
+//! Residuals of the selected candidate: one strip per coordinate (bar height = |O − C|, a sign row below
+//! it, `x` for rejected points, `│` between nights, `^` under the selected observation) and a sky-plane
+//! view of the track with the residual vectors exaggerated, so a bad night, a trend or one wild point
+//! shows at a glance.
+
+use super::Theme;
+use crate::console::state::App;
+use crate::fitting::fit::ResidualOut;
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Direction, Layout, Rect};
+use ratatui::style::Color;
+use ratatui::text::Line;
+use ratatui::widgets::canvas::{Canvas, Line as CLine, Points};
+use ratatui::widgets::{Block, Borders, Paragraph};
+
+const BARS: [char; 9] = [' ', '▁', '▂', '▃', '▄', '▅', '▆', '▇', '█'];
+
+/// The strip lines for one coordinate: (bars, signs), with night separators.
+pub fn strip(
+    res: &[ResidualOut],
+    dec: bool,
+    width: usize,
+    cursor: usize,
+) -> (String, String, String) {
+    let vals: Vec<f64> = res
+        .iter()
+        .map(|r| if dec { r.dec_arcsec } else { r.ra_arcsec })
+        .collect();
+    let scale = vals
+        .iter()
+        .filter(|v| v.is_finite())
+        .fold(0.5f64, |m, v| m.max(v.abs()));
+    let (mut bars, mut signs, mut marks) = (String::new(), String::new(), String::new());
+    for (k, r) in res.iter().enumerate() {
+        if k > 0 && res[k - 1].night != r.night {
+            bars.push('│');
+            signs.push('│');
+            marks.push(' ');
+        }
+        let v = vals[k];
+        let level = if v.is_finite() {
+            ((v.abs() / scale) * 8.0).round().clamp(1.0, 8.0) as usize
+        } else {
+            0
+        };
+        bars.push(BARS[level]);
+        signs.push(if !r.used {
+            'x'
+        } else if v >= 0.0 {
+            '+'
+        } else {
+            '-'
+        });
+        marks.push(if k == cursor { '^' } else { ' ' });
+        if bars.chars().count() >= width {
+            break;
+        }
+    }
+    (bars, signs, marks)
+}
+
+pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
+    let block = Block::default()
+        .borders(Borders::ALL)
+        .title(" residuals (O−C) ")
+        .border_style(theme.fg(Color::Cyan));
+    let inner = block.inner(area);
+    f.render_widget(block, area);
+    let Some(c) = app.selected_candidate() else {
+        return;
+    };
+    let res = &c.fit.residuals;
+    let parts = Layout::default()
+        .direction(Direction::Vertical)
+        .constraints([Constraint::Length(7), Constraint::Min(3)])
+        .split(inner);
+    let w = inner.width.saturating_sub(9) as usize;
+    let (ra_b, ra_s, marks) = strip(res, false, w, app.obs_cursor);
+    let (de_b, de_s, _) = strip(res, true, w, app.obs_cursor);
+    let max = |dec: bool| {
+        res.iter()
+            .map(|r| if dec { r.dec_arcsec } else { r.ra_arcsec })
+            .filter(|v| v.is_finite())
+            .fold(0.0f64, |m, v| m.max(v.abs()))
+    };
+    let labels = app.observation_labels();
+    let sel = labels.get(app.obs_cursor).map(|(l, fitted)| {
+        let r = res.get(app.obs_cursor);
+        match (r, fitted) {
+            (Some(r), true) => format!(
+                "obs {}/{} {} O−C {:+.2}\" {:+.2}\" χ² {:.1}{}",
+                app.obs_cursor + 1,
+                labels.len(),
+                l,
+                r.ra_arcsec,
+                r.dec_arcsec,
+                r.chi2,
+                if r.used { "" } else { " REJECTED" }
+            ),
+            _ => format!(
+                "obs {}/{} {} EXCLUDED by you",
+                app.obs_cursor + 1,
+                labels.len(),
+                l
+            ),
+        }
+    });
+    let text = vec![
+        Line::from(format!("RA cosδ  {ra_b}  max {:.2}\"", max(false))),
+        Line::from(format!("         {ra_s}")),
+        Line::from(format!("Dec      {de_b}  max {:.2}\"", max(true))),
+        Line::from(format!("         {de_s}")),
+        Line::from(format!("         {marks}")),
+        Line::from(sel.unwrap_or_default()),
+    ];
+    f.render_widget(Paragraph::new(text), parts[0]);
+    // Sky-plane track: offsets from the first position in arcmin, east to the left as on the sky.
+    if res.is_empty() || parts[1].height < 3 {
+        return;
+    }
+    let (ra0, dec0) = (res[0].ra_deg, res[0].dec_deg);
+    let cosd = dec0.to_radians().cos();
+    let pts: Vec<(f64, f64)> = res
+        .iter()
+        .map(|r| {
+            (
+                -((r.ra_deg - ra0 + 540.0) % 360.0 - 180.0) * cosd * 60.0,
+                (r.dec_deg - dec0) * 60.0,
+            )
+        })
+        .collect();
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for (x, y) in &pts {
+        x0 = x0.min(*x);
+        x1 = x1.max(*x);
+        y0 = y0.min(*y);
+        y1 = y1.max(*y);
+    }
+    let span = (x1 - x0).max(y1 - y0).max(1e-3) * 1.2;
+    let (cx, cy) = ((x0 + x1) / 2.0, (y0 + y1) / 2.0);
+    let rmax = res
+        .iter()
+        .map(|r| r.ra_arcsec.hypot(r.dec_arcsec))
+        .filter(|v| v.is_finite())
+        .fold(1e-6, f64::max);
+    let exaggerate = 0.15 * span / rmax;
+    let used: Vec<(f64, f64)> = pts
+        .iter()
+        .zip(res)
+        .filter(|(_, r)| r.used)
+        .map(|(p, _)| *p)
+        .collect();
+    let rejected: Vec<(f64, f64)> = pts
+        .iter()
+        .zip(res)
+        .filter(|(_, r)| !r.used)
+        .map(|(p, _)| *p)
+        .collect();
+    let canvas = Canvas::default()
+        .x_bounds([cx - span / 2.0, cx + span / 2.0])
+        .y_bounds([cy - span / 2.0, cy + span / 2.0])
+        .paint(move |ctx| {
+            for ((x, y), r) in pts.iter().zip(res) {
+                ctx.draw(&CLine {
+                    x1: *x,
+                    y1: *y,
+                    x2: x - r.ra_arcsec * exaggerate,
+                    y2: y + r.dec_arcsec * exaggerate,
+                    color: Color::Cyan,
+                });
+            }
+            ctx.draw(&Points {
+                coords: &used,
+                color: Color::White,
+            });
+            for (x, y) in &rejected {
+                ctx.print(*x, *y, "x");
+            }
+        });
+    f.render_widget(canvas, parts[1]);
+}

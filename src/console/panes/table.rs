@@ -1,0 +1,159 @@
+//! The candidate list, ranked by the hyperbolicity score. Only the visible rows are built, so a list of
+//! ten thousand costs no more to draw than a screenful.
+
+use super::{Theme, num};
+use crate::console::state::{App, Candidate};
+use crate::feed::sanitize::clean;
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Rect};
+use ratatui::style::Color;
+use ratatui::widgets::{Block, Borders, Cell, Row, Table};
+
+fn score_text(c: &Candidate) -> String {
+    let f = &c.fit;
+    match f.z_hyperbolic {
+        Some(z) => {
+            let mark = if f.z_is_bound {
+                if z > 0.0 { "≥" } else { "≤" }
+            } else {
+                ""
+            };
+            let flag = if z >= 3.0 && f.status == "ok" {
+                "▲"
+            } else {
+                " "
+            };
+            format!("{flag}{mark}{z:+.1}")
+        }
+        None => " -".into(),
+    }
+}
+
+fn decision_text(c: &Candidate) -> String {
+    match (&c.decision, c.saving) {
+        (_, true) => "saving…".into(),
+        (Some(d), _) if d.n_obs < c.fit.n_obs => format!("{}*", d.verdict.label()),
+        (Some(d), _) => d.verdict.label().into(),
+        (None, _) => "".into(),
+    }
+}
+
+pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
+    let wide = area.width >= 120;
+    let header_cells: Vec<&str> = if wide {
+        vec![
+            "object",
+            "score",
+            "P(e>1)",
+            "e ± σ",
+            "q ± σ AU",
+            "i°",
+            "arc d",
+            "nts",
+            "obs",
+            "rms\"",
+            "method",
+            "status",
+            "decision",
+        ]
+    } else {
+        vec![
+            "object", "score", "P(e>1)", "e ± σ", "q AU", "arc", "obs", "status", "decision",
+        ]
+    };
+    let widths: Vec<Constraint> = if wide {
+        [12, 7, 6, 16, 14, 6, 6, 4, 7, 6, 8, 9, 15]
+            .map(Constraint::Length)
+            .to_vec()
+    } else {
+        [10, 7, 6, 13, 5, 4, 6, 6, 12]
+            .map(Constraint::Length)
+            .to_vec()
+    };
+    let inner_h = area.height.saturating_sub(3) as usize;
+    let sel = app.selected_row().unwrap_or(0);
+    let offset = sel
+        .saturating_sub(inner_h.saturating_sub(1))
+        .min(app.view.len().saturating_sub(inner_h.max(1)));
+    let rows = app
+        .view
+        .iter()
+        .skip(offset)
+        .take(inner_h.max(1))
+        .enumerate()
+        .map(|(k, &i)| {
+            let c = &app.candidates[i];
+            let fit = &c.fit;
+            let status = match fit.status {
+                "ok" => "ok",
+                "poor-fit" => "POOR",
+                _ => "FAIL",
+            };
+            let e = match (fit.e, fit.e_sigma) {
+                (Some(e), Some(s)) => format!("{e:.4}±{s:.4}"),
+                (Some(e), None) => format!("{e:.3} (rng)"),
+                _ => "-".into(),
+            };
+            let mut cells = vec![
+                Cell::from(clean(&fit.object)),
+                Cell::from(score_text(c)).style(
+                    if fit.z_hyperbolic.unwrap_or(0.0) >= 3.0 && fit.status == "ok" {
+                        theme.fg(Color::Yellow).patch(theme.strong())
+                    } else {
+                        theme.fg(Color::Reset)
+                    },
+                ),
+                Cell::from(num(fit.p_hyperbolic, 3)),
+                Cell::from(e),
+            ];
+            if wide {
+                cells.push(Cell::from(match (fit.q_au, fit.q_sigma) {
+                    (Some(q), Some(s)) => format!("{q:.3}±{s:.3}"),
+                    (q, _) => num(q, 3),
+                }));
+                cells.push(Cell::from(num(fit.i_deg, 1)));
+                cells.push(Cell::from(format!("{:.2}", fit.arc_days)));
+                cells.push(Cell::from(fit.n_nights.to_string()));
+            } else {
+                cells.push(Cell::from(num(fit.q_au, 2)));
+                cells.push(Cell::from(format!("{:.1}", fit.arc_days)));
+            }
+            cells.push(Cell::from(format!("{}/{}", fit.n_used, fit.n_obs)));
+            if wide {
+                cells.push(Cell::from(num(fit.rms_arcsec, 2)));
+                cells.push(Cell::from(if fit.method == "ranging" {
+                    "ranging"
+                } else {
+                    "lsq"
+                }));
+            }
+            cells.push(Cell::from(status).style(match fit.status {
+                "ok" => theme.fg(Color::Green),
+                "poor-fit" => theme.fg(Color::Magenta),
+                _ => theme.fg(Color::Red),
+            }));
+            cells.push(Cell::from(decision_text(c)));
+            let row = Row::new(cells);
+            if offset + k == sel {
+                row.style(theme.selected())
+            } else {
+                row
+            }
+        });
+    let title = format!(
+        " candidates {} of {} · sort {}{}{} ",
+        app.view.len(),
+        app.candidates.len(),
+        app.sort.label(),
+        if app.reverse { " (reversed)" } else { "" },
+        if app.filter.is_empty() {
+            String::new()
+        } else {
+            format!(" · filter \"{}\"", clean(&app.filter))
+        }
+    );
+    let table = Table::new(rows, widths)
+        .header(Row::new(header_cells).style(theme.strong()))
+        .block(Block::default().borders(Borders::ALL).title(title));
+    f.render_widget(table, area);
+}

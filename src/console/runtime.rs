@@ -1,0 +1,381 @@
+//! The console's event loop. One channel carries every event (keys, watcher, fit results, journal
+//! acknowledgements, ephemerides, ticks); the loop drains it, lets the state react, carries out the
+//! effects on other threads, and draws at most once per frame, only when something changed. The loop
+//! never waits on a fit, a file or the journal.
+
+use super::keymap::Keymap;
+use super::panes::Theme;
+use super::state::{App, Effect, Overrides};
+use super::view;
+use crate::feed::journal::{Decision, Journal};
+use crate::feed::sites::SiteTable;
+use crate::feed::store::Store;
+use crate::feed::tracklets::Limits;
+use crate::feed::watcher::{self, WatchEvent, WatchOptions};
+use crate::fitting::batch::{FitPool, PoolResult};
+use crate::fitting::ephemeris::{EphemerisPoint, point};
+use crate::fitting::fit::{FitOptions, FitResult};
+use crate::physics::observe::ObserverModel;
+use crate::physics::time::{UtcTime, tt_to_utc};
+use ratatui::Terminal;
+use ratatui::backend::Backend;
+use ratatui::crossterm::event::KeyEvent;
+use std::collections::HashMap;
+use std::path::PathBuf;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender, channel};
+use std::time::{Duration, Instant};
+
+/// Everything that can happen to the console.
+#[derive(Debug)]
+pub enum AppEvent {
+    Key(KeyEvent),
+    Resize,
+    Watch(WatchEvent),
+    Fit(Box<PoolResult>),
+    Journal(Result<Decision, String>),
+    Ephemeris(String, Vec<EphemerisPoint>),
+    Tick,
+}
+
+/// Frame cap: at most this many draws per second (high-latency links get no redraw storms).
+pub const MAX_FPS: u64 = 30;
+
+pub struct Runtime {
+    pub tx: Sender<AppEvent>,
+    store: Store,
+    pool: FitPool,
+    journal: Sender<Decision>,
+    sites: Arc<SiteTable>,
+    limits: Limits,
+    generation: HashMap<String, u64>,
+    overrides: HashMap<String, Overrides>,
+    pending_decisions: HashMap<String, Decision>,
+}
+
+/// Start the feed, fit workers and journal for a watched directory; events go to `tx`.
+pub fn start(
+    dir: PathBuf,
+    sites: SiteTable,
+    state_dir: PathBuf,
+    watch: WatchOptions,
+    threads: usize,
+    stop: Arc<AtomicBool>,
+    tx: Sender<AppEvent>,
+) -> anyhow::Result<(Runtime, Vec<Decision>, Vec<String>)> {
+    let (journal, replay) = Journal::open(&state_dir)?;
+    let standing: Vec<Decision> = replay.standing().into_values().collect();
+    let warnings = replay.warnings.clone();
+    let (jtx, jrx) = channel::<Decision>();
+    let tx_j = tx.clone();
+    std::thread::spawn(move || {
+        let mut journal = journal;
+        for d in jrx {
+            let r = journal.append(d).map_err(|e| e.to_string());
+            if tx_j.send(AppEvent::Journal(r)).is_err() {
+                return;
+            }
+        }
+    });
+    let events = watcher::spawn(dir, watch, stop.clone());
+    let tx_w = tx.clone();
+    std::thread::spawn(move || {
+        for ev in events {
+            if tx_w.send(AppEvent::Watch(ev)).is_err() {
+                return;
+            }
+        }
+    });
+    let (rtx, rrx) = channel::<PoolResult>();
+    let tx_f = tx.clone();
+    std::thread::spawn(move || {
+        for r in rrx {
+            if tx_f.send(AppEvent::Fit(Box::new(r))).is_err() {
+                return;
+            }
+        }
+    });
+    let tx_t = tx.clone();
+    let stop_t = stop.clone();
+    std::thread::spawn(move || {
+        while !stop_t.load(Ordering::Relaxed) {
+            std::thread::sleep(Duration::from_millis(500));
+            if tx_t.send(AppEvent::Tick).is_err() {
+                return;
+            }
+        }
+    });
+    Ok((
+        Runtime {
+            tx,
+            store: Store::new(),
+            pool: FitPool::new(threads, rtx),
+            journal: jtx,
+            sites: Arc::new(sites),
+            limits: Limits::default(),
+            generation: HashMap::new(),
+            overrides: HashMap::new(),
+            pending_decisions: HashMap::new(),
+        },
+        standing,
+        warnings,
+    ))
+}
+
+fn label_of(o: &crate::fitting::input::Observation) -> String {
+    format!("{}@{}", tt_to_utc(o.time.tt), o.site_code)
+}
+
+impl Runtime {
+    fn submit(&mut self, object: &str) {
+        let Some(mut t) = self.store.tracklet(object) else {
+            return;
+        };
+        let ov = self.overrides.get(object).cloned().unwrap_or_default();
+        t.obs.retain(|o| !ov.excluded.contains(&label_of(o)));
+        let t = crate::fitting::input::Tracklet::new(t.object, t.source, t.obs);
+        let g = self.generation.entry(object.to_string()).or_insert(0);
+        *g += 1;
+        let opts = FitOptions {
+            method: ov.method,
+            perturbations: ov.perturbations,
+            ..FitOptions::default()
+        };
+        self.pool.submit(*g, t, opts);
+    }
+
+    fn known(&self, object: &str) -> usize {
+        self.store.tracklet(object).map_or(0, |t| t.obs.len())
+    }
+
+    /// React to one event; returns false to stop.
+    pub fn handle(&mut self, app: &mut App, ev: AppEvent) -> bool {
+        match ev {
+            AppEvent::Key(k) => {
+                app.message = None;
+                for e in app.on_key(k) {
+                    if !self.effect(app, e) {
+                        return false;
+                    }
+                }
+            }
+            AppEvent::Resize | AppEvent::Tick => {
+                let (w, r) = self.pool.load();
+                if (w, r) != (app.status.waiting, app.status.fitting)
+                    || matches!(ev, AppEvent::Resize)
+                {
+                    app.status.waiting = w;
+                    app.status.fitting = r;
+                    app.dirty = true;
+                }
+            }
+            AppEvent::Watch(WatchEvent::Ready {
+                path,
+                bytes,
+                arrived,
+            }) => {
+                app.status.files_seen += 1;
+                app.status.last_arrival = Some(
+                    chrono::DateTime::<chrono::Utc>::from(arrived)
+                        .format("%H:%M:%SZ")
+                        .to_string(),
+                );
+                let ing = self.store.ingest(
+                    &path.display().to_string(),
+                    &bytes,
+                    &self.sites,
+                    &self.limits,
+                );
+                for e in ing.errors {
+                    app.on_rejected(e);
+                }
+                for (obj, _) in ing.changed {
+                    self.submit(&obj);
+                }
+                app.dirty = true;
+            }
+            AppEvent::Watch(WatchEvent::Refused { path, reason, .. }) => {
+                app.on_rejected(crate::feed::InputError {
+                    file: crate::feed::sanitize::clean(&path.display().to_string()),
+                    line: 0,
+                    column: None,
+                    reason,
+                })
+            }
+            AppEvent::Watch(WatchEvent::Failed(m)) => app.message = Some(m),
+            AppEvent::Fit(boxed) => {
+                let (obj, version, fit) = *boxed;
+                if self.generation.get(&obj).is_some_and(|g| *g > version) {
+                    return true; // a newer fit of this object is on its way
+                }
+                if fit.status == "failed" {
+                    app.status.failed += 1;
+                }
+                let known = self.known(&obj);
+                app.on_fit(version, fit, known);
+                if let Some(d) = self.pending_decisions.remove(&obj) {
+                    app.on_decision(d);
+                }
+            }
+            AppEvent::Journal(Ok(d)) => {
+                app.message = Some(format!("{}: {} saved", d.object, d.verdict.label()));
+                app.on_decision(d);
+            }
+            AppEvent::Journal(Err(e)) => app.message = Some(format!("DECISION NOT SAVED: {e}")),
+            AppEvent::Ephemeris(obj, pts) => {
+                app.ephemeris = Some((obj, pts));
+                app.dirty = true;
+            }
+        }
+        true
+    }
+
+    /// Decisions replayed from the journal wait here until their candidates appear.
+    pub fn replayed(&mut self, app: &mut App, decisions: Vec<Decision>) {
+        for d in decisions {
+            if app.candidates.iter().any(|c| c.fit.object == d.object) {
+                app.on_decision(d);
+            } else {
+                self.pending_decisions.insert(d.object.clone(), d);
+            }
+        }
+    }
+
+    fn effect(&mut self, app: &mut App, e: Effect) -> bool {
+        match e {
+            Effect::Quit => return false,
+            Effect::Journal(d) => {
+                if self.journal.send(d).is_err() {
+                    app.message = Some("DECISION NOT SAVED: the journal writer stopped".into());
+                }
+            }
+            Effect::Refit { object, overrides } => {
+                self.overrides.insert(object.clone(), overrides);
+                self.submit(&object);
+            }
+            Effect::Ephemeris(object) => {
+                if let Some(c) = app.candidates.iter().find(|c| c.fit.object == object) {
+                    spawn_ephemeris(c.fit.clone(), self.sites.clone(), self.tx.clone());
+                }
+            }
+        }
+        true
+    }
+
+    pub fn shutdown(self) {
+        self.pool.shutdown();
+    }
+}
+
+/// Hourly ephemeris for 24 hours after the last observation, from the site of that observation.
+fn spawn_ephemeris(fit: FitResult, sites: Arc<SiteTable>, tx: Sender<AppEvent>) {
+    std::thread::spawn(move || {
+        let model = ObserverModel::new();
+        let mut pts = Vec::new();
+        if let Some(last) = fit.residuals.last() {
+            if let (Some(site), Ok(t0)) = (
+                sites.get(&last.site),
+                UtcTime::parse(&last.time_utc).and_then(|u| u.instant()),
+            ) {
+                for k in 1..=24 {
+                    let d = f64::from(k) / 24.0;
+                    let inst = crate::physics::time::Instant {
+                        tai: t0.tai.plus_days(d),
+                        tt: t0.tt.plus_days(d),
+                        tdb: t0.tdb.plus_days(d),
+                        ut1: t0.ut1.plus_days(d),
+                        status: t0.status,
+                    };
+                    if let Some(p) = point(
+                        &fit,
+                        &inst,
+                        tt_to_utc(inst.tt).to_string(),
+                        &site.position,
+                        &model,
+                        None,
+                        20.0,
+                    ) {
+                        pts.push(p);
+                    }
+                }
+            }
+        }
+        let _ = tx.send(AppEvent::Ephemeris(fit.object.clone(), pts));
+    });
+}
+
+/// Run the loop on any backend until quit or `stop`. Draws only when the state changed, at most
+/// MAX_FPS times a second. `on_frame` is called after each draw (tests and benchmarks listen there).
+pub fn run_loop<B: Backend>(
+    terminal: &mut Terminal<B>,
+    app: &mut App,
+    rt: &mut Runtime,
+    rx: &Receiver<AppEvent>,
+    stop: &AtomicBool,
+    theme: Theme,
+    mut on_frame: impl FnMut(&App),
+) -> anyhow::Result<()> {
+    let frame = Duration::from_millis(1000 / MAX_FPS);
+    let mut last_draw = Instant::now() - frame;
+    loop {
+        if stop.load(Ordering::Relaxed) {
+            return Ok(());
+        }
+        let wait = frame
+            .saturating_sub(last_draw.elapsed())
+            .max(Duration::from_millis(1));
+        match rx.recv_timeout(if app.dirty {
+            wait
+        } else {
+            Duration::from_millis(200)
+        }) {
+            Ok(ev) => {
+                if !rt.handle(app, ev) {
+                    return Ok(());
+                }
+                // Drain whatever else is waiting before drawing once.
+                while let Ok(ev) = rx.try_recv() {
+                    if !rt.handle(app, ev) {
+                        return Ok(());
+                    }
+                }
+            }
+            Err(RecvTimeoutError::Timeout) => {}
+            Err(RecvTimeoutError::Disconnected) => return Ok(()),
+        }
+        if app.dirty && last_draw.elapsed() >= frame {
+            terminal
+                .draw(|f| view::draw(f, app, theme))
+                .map_err(|e| anyhow::anyhow!("{e}"))?;
+            app.dirty = false;
+            last_draw = Instant::now();
+            on_frame(app);
+        }
+    }
+}
+
+/// The keymap to use: `--keymap FILE`, else the user's config file if there is one, over the built-in
+/// map; a bad file falls back to the built-in map with a message saying why.
+pub fn keymap_for(path: Option<&std::path::Path>) -> (Keymap, Option<String>) {
+    let user = path.map(PathBuf::from).or_else(|| {
+        let base = std::env::var_os("XDG_CONFIG_HOME")
+            .filter(|v| !v.is_empty())
+            .map(PathBuf::from)
+            .or_else(|| std::env::var_os("HOME").map(|h| PathBuf::from(h).join(".config")))?;
+        Some(base.join("interloper/keymap.toml")).filter(|p| p.exists())
+    });
+    let Some(p) = user else {
+        return (Keymap::builtin(), None);
+    };
+    match std::fs::read_to_string(&p) {
+        Ok(text) => {
+            let (map, err) = super::keymap::load(Some((&p.display().to_string(), &text)));
+            (map, err.map(|e| format!("{e} — using the default keys")))
+        }
+        Err(e) => (
+            Keymap::builtin(),
+            Some(format!("{}: {e} — using the default keys", p.display())),
+        ),
+    }
+}

@@ -1,0 +1,567 @@
+//! Console state and what every action does to it. No I/O here: actions return effects (refit, journal,
+//! ephemeris) that the runtime carries out off the UI thread, and results come back as events.
+
+use super::actions::Action;
+use super::keymap::{Context, Key, Keymap};
+use crate::feed::InputError;
+use crate::feed::journal::{Decision, Verdict};
+use crate::fitting::ephemeris::EphemerisPoint;
+use crate::fitting::fit::{FitResult, MethodChoice, PerturbChoice};
+use ratatui::crossterm::event::{Event, KeyEvent};
+use std::collections::{BTreeSet, HashMap};
+use tui_input::Input;
+use tui_input::backend::crossterm::EventHandler;
+
+/// Per-candidate choices that change how it is fitted.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Overrides {
+    pub method: MethodChoice,
+    pub perturbations: PerturbChoice,
+    /// Observations left out of the fit, by their UTC time and site ("time@site").
+    pub excluded: BTreeSet<String>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Candidate {
+    pub fit: FitResult,
+    pub version: u64,
+    pub decision: Option<Decision>,
+    /// Waiting for the journal to confirm this decision.
+    pub saving: bool,
+    pub overrides: Overrides,
+    /// Observations currently known for the object (a decision on fewer is flagged).
+    pub n_known: usize,
+}
+
+/// Columns the list can be sorted by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SortKey {
+    Rank,
+    Score,
+    Probability,
+    Eccentricity,
+    Perihelion,
+    Arc,
+    Rms,
+    Object,
+    Decision,
+}
+
+impl SortKey {
+    pub const ALL: [SortKey; 9] = [
+        SortKey::Rank,
+        SortKey::Score,
+        SortKey::Probability,
+        SortKey::Eccentricity,
+        SortKey::Perihelion,
+        SortKey::Arc,
+        SortKey::Rms,
+        SortKey::Object,
+        SortKey::Decision,
+    ];
+    pub fn label(self) -> &'static str {
+        match self {
+            SortKey::Rank => "rank",
+            SortKey::Score => "score",
+            SortKey::Probability => "P(e>1)",
+            SortKey::Eccentricity => "e",
+            SortKey::Perihelion => "q",
+            SortKey::Arc => "arc",
+            SortKey::Rms => "rms",
+            SortKey::Object => "object",
+            SortKey::Decision => "decision",
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mode {
+    List,
+    Filter,
+    Note,
+    Help,
+    Rejected,
+    Ephemeris,
+}
+
+/// Feed counters for the status line.
+#[derive(Debug, Clone, Default)]
+pub struct FeedStatus {
+    pub files_seen: usize,
+    pub waiting: usize,
+    pub fitting: usize,
+    pub failed: usize,
+    pub last_arrival: Option<String>,
+}
+
+/// What the runtime must do after an action.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Effect {
+    Refit {
+        object: String,
+        overrides: Overrides,
+    },
+    Journal(Decision),
+    Ephemeris(String),
+    Quit,
+}
+
+pub struct App {
+    pub candidates: Vec<Candidate>,
+    index: HashMap<String, usize>,
+    /// Indices into `candidates`, sorted and filtered.
+    pub view: Vec<usize>,
+    pub selected: Option<String>,
+    pub sort: SortKey,
+    pub reverse: bool,
+    pub filter: String,
+    pub mode: Mode,
+    pub input: Input,
+    pub keymap: Keymap,
+    pub status: FeedStatus,
+    pub rejected: Vec<InputError>,
+    pub message: Option<String>,
+    pub obs_cursor: usize,
+    pub overlay_scroll: usize,
+    pub ephemeris: Option<(String, Vec<EphemerisPoint>)>,
+    pub page: usize,
+    pub dirty: bool,
+    pub clock: fn() -> String,
+}
+
+fn now_utc() -> String {
+    chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+}
+
+impl App {
+    pub fn new(keymap: Keymap) -> App {
+        App {
+            candidates: Vec::new(),
+            index: HashMap::new(),
+            view: Vec::new(),
+            selected: None,
+            sort: SortKey::Rank,
+            reverse: false,
+            filter: String::new(),
+            mode: Mode::List,
+            input: Input::default(),
+            keymap,
+            status: FeedStatus::default(),
+            rejected: Vec::new(),
+            message: None,
+            obs_cursor: 0,
+            overlay_scroll: 0,
+            ephemeris: None,
+            page: 10,
+            dirty: true,
+            clock: now_utc,
+        }
+    }
+
+    pub fn selected_candidate(&self) -> Option<&Candidate> {
+        self.selected
+            .as_ref()
+            .and_then(|o| self.index.get(o))
+            .map(|&i| &self.candidates[i])
+    }
+
+    /// A fit arrived: insert or replace (older versions are ignored), keep the cursor on its candidate.
+    pub fn on_fit(&mut self, version: u64, fit: FitResult, n_known: usize) {
+        match self.index.get(&fit.object).copied() {
+            Some(i) => {
+                let c = &mut self.candidates[i];
+                if version < c.version {
+                    return;
+                }
+                c.fit = fit;
+                c.version = version;
+                c.n_known = n_known;
+            }
+            None => {
+                self.index.insert(fit.object.clone(), self.candidates.len());
+                self.candidates.push(Candidate {
+                    fit,
+                    version,
+                    decision: None,
+                    saving: false,
+                    overrides: Overrides::default(),
+                    n_known,
+                });
+            }
+        }
+        self.refresh_view();
+    }
+
+    /// A decision replayed from the journal (or confirmed by it).
+    pub fn on_decision(&mut self, d: Decision) {
+        if let Some(&i) = self.index.get(&d.object) {
+            let c = &mut self.candidates[i];
+            c.saving = false;
+            c.decision = if d.verdict == Verdict::Undo {
+                None
+            } else {
+                Some(d)
+            };
+            self.dirty = true;
+        }
+    }
+
+    pub fn on_rejected(&mut self, e: InputError) {
+        self.rejected.push(e);
+        self.dirty = true;
+    }
+
+    fn sort_value(&self, c: &Candidate) -> (f64, String) {
+        let f = &c.fit;
+        let v = match self.sort {
+            SortKey::Rank => {
+                let (tier, z) = f.rank_key();
+                -(f64::from(tier) * 100.0 + z.max(-50.0))
+            }
+            SortKey::Score => -f.z_hyperbolic.unwrap_or(f64::NEG_INFINITY),
+            SortKey::Probability => -f.p_hyperbolic.unwrap_or(-1.0),
+            SortKey::Eccentricity => -f.e.unwrap_or(-1.0),
+            SortKey::Perihelion => f.q_au.unwrap_or(f64::INFINITY),
+            SortKey::Arc => -f.arc_days,
+            SortKey::Rms => f.rms_arcsec.unwrap_or(f64::INFINITY),
+            SortKey::Object | SortKey::Decision => 0.0,
+        };
+        let s = match self.sort {
+            SortKey::Decision => c
+                .decision
+                .as_ref()
+                .map_or("~".into(), |d| d.verdict.label().to_string()),
+            _ => f.object.clone(),
+        };
+        (v, s)
+    }
+
+    fn matches(&self, c: &Candidate) -> bool {
+        if self.filter.is_empty() {
+            return true;
+        }
+        let needle = self.filter.to_lowercase();
+        let f = &c.fit;
+        let decision = c
+            .decision
+            .as_ref()
+            .map_or("undecided", |d| d.verdict.label());
+        [f.object.as_str(), f.status, f.method, decision]
+            .iter()
+            .any(|h| h.to_lowercase().contains(&needle))
+    }
+
+    /// Re-sort and re-filter; the selected candidate stays selected if it is still shown.
+    pub fn refresh_view(&mut self) {
+        let mut view: Vec<usize> = (0..self.candidates.len())
+            .filter(|&i| self.matches(&self.candidates[i]))
+            .collect();
+        view.sort_by(|&a, &b| {
+            let (va, sa) = self.sort_value(&self.candidates[a]);
+            let (vb, sb) = self.sort_value(&self.candidates[b]);
+            va.total_cmp(&vb).then(sa.cmp(&sb))
+        });
+        if self.reverse {
+            view.reverse();
+        }
+        self.view = view;
+        let still = self.selected.as_ref().is_some_and(|s| {
+            self.view
+                .iter()
+                .any(|&i| &self.candidates[i].fit.object == s)
+        });
+        if !still {
+            self.selected = self
+                .view
+                .first()
+                .map(|&i| self.candidates[i].fit.object.clone());
+            self.obs_cursor = 0;
+        }
+        self.dirty = true;
+    }
+
+    pub fn selected_row(&self) -> Option<usize> {
+        let s = self.selected.as_ref()?;
+        self.view
+            .iter()
+            .position(|&i| &self.candidates[i].fit.object == s)
+    }
+
+    fn select_row(&mut self, row: usize) {
+        if let Some(&i) = self.view.get(row) {
+            let obj = self.candidates[i].fit.object.clone();
+            if self.selected.as_ref() != Some(&obj) {
+                self.obs_cursor = 0;
+            }
+            self.selected = Some(obj);
+        }
+    }
+
+    fn decide(&mut self, verdict: Verdict, note: Option<String>) -> Vec<Effect> {
+        let clock = self.clock;
+        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
+            return Vec::new();
+        };
+        let c = &mut self.candidates[i];
+        let mut keys: Vec<String> = c
+            .fit
+            .residuals
+            .iter()
+            .map(|r| format!("{}@{}", r.time_utc, r.site))
+            .collect();
+        let d = Decision {
+            seq: 0,
+            time_utc: clock(),
+            object: c.fit.object.clone(),
+            verdict,
+            note,
+            n_obs: c.fit.n_obs,
+            obs_digest: crate::feed::journal::digest(&mut keys),
+        };
+        c.saving = true;
+        self.message = Some(format!("{}: {} (saving…)", c.fit.object, verdict.label()));
+        vec![Effect::Journal(d)]
+    }
+
+    fn context(&self) -> Context {
+        match self.mode {
+            Mode::List => Context::List,
+            Mode::Filter | Mode::Note => Context::Input,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris => Context::Overlay,
+        }
+    }
+
+    /// One key press.
+    pub fn on_key(&mut self, ev: KeyEvent) -> Vec<Effect> {
+        self.dirty = true;
+        let ctx = self.context();
+        let action = Key::from_event(&ev).and_then(|k| self.keymap.action(ctx, &k));
+        if ctx == Context::Input {
+            return match action {
+                Some(Action::Accept) => self.accept_input(),
+                Some(Action::Cancel) => {
+                    self.mode = Mode::List;
+                    self.input.reset();
+                    Vec::new()
+                }
+                _ => {
+                    self.input.handle_event(&Event::Key(ev));
+                    if self.mode == Mode::Filter {
+                        self.filter = self.input.value().to_string();
+                        self.refresh_view();
+                    }
+                    Vec::new()
+                }
+            };
+        }
+        match action {
+            Some(a) => self.act(a),
+            None => Vec::new(),
+        }
+    }
+
+    fn accept_input(&mut self) -> Vec<Effect> {
+        let text = crate::feed::sanitize::clean(self.input.value().trim());
+        let mode = self.mode;
+        self.mode = Mode::List;
+        match mode {
+            Mode::Filter => {
+                self.filter = text;
+                self.refresh_view();
+                Vec::new()
+            }
+            Mode::Note => {
+                self.input.reset();
+                let verdict = self
+                    .selected_candidate()
+                    .and_then(|c| c.decision.as_ref().map(|d| d.verdict))
+                    .unwrap_or(Verdict::KeepWatching);
+                if text.is_empty() {
+                    Vec::new()
+                } else {
+                    self.decide(verdict, Some(text))
+                }
+            }
+            _ => Vec::new(),
+        }
+    }
+
+    /// Carry out one action.
+    pub fn act(&mut self, a: Action) -> Vec<Effect> {
+        let rows = self.view.len();
+        let row = self.selected_row().unwrap_or(0);
+        if matches!(self.mode, Mode::Help | Mode::Rejected | Mode::Ephemeris) {
+            match a {
+                Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
+                Action::MoveDown => self.overlay_scroll += 1,
+                Action::MoveUp => self.overlay_scroll = self.overlay_scroll.saturating_sub(1),
+                _ => {}
+            }
+            return Vec::new();
+        }
+        match a {
+            Action::MoveDown => self.select_row((row + 1).min(rows.saturating_sub(1))),
+            Action::MoveUp => self.select_row(row.saturating_sub(1)),
+            Action::PageDown => self.select_row((row + self.page).min(rows.saturating_sub(1))),
+            Action::PageUp => self.select_row(row.saturating_sub(self.page)),
+            Action::First => self.select_row(0),
+            Action::Last => self.select_row(rows.saturating_sub(1)),
+            Action::NextUndecided => {
+                let next = (1..=rows).map(|k| (row + k) % rows.max(1)).find(|&r| {
+                    self.view
+                        .get(r)
+                        .is_some_and(|&i| self.candidates[i].decision.is_none())
+                });
+                match next {
+                    Some(r) => self.select_row(r),
+                    None => self.message = Some("every shown candidate has a decision".into()),
+                }
+            }
+            Action::SortNext => {
+                let k = SortKey::ALL
+                    .iter()
+                    .position(|s| *s == self.sort)
+                    .unwrap_or(0);
+                self.sort = SortKey::ALL[(k + 1) % SortKey::ALL.len()];
+                self.refresh_view();
+            }
+            Action::SortReverse => {
+                self.reverse = !self.reverse;
+                self.refresh_view();
+            }
+            Action::Filter => {
+                self.mode = Mode::Filter;
+                self.input = Input::new(self.filter.clone());
+            }
+            Action::ClearFilter => {
+                self.filter.clear();
+                self.refresh_view();
+            }
+            Action::Pursue => return self.decide(Verdict::Pursue, None),
+            Action::SetAside => return self.decide(Verdict::SetAside, None),
+            Action::KeepWatching => return self.decide(Verdict::KeepWatching, None),
+            Action::Undo => {
+                if self
+                    .selected_candidate()
+                    .is_some_and(|c| c.decision.is_some())
+                {
+                    return self.decide(Verdict::Undo, None);
+                }
+                self.message = Some("no decision to withdraw".into());
+            }
+            Action::Note => {
+                if self.selected.is_some() {
+                    self.mode = Mode::Note;
+                    self.input = Input::default();
+                }
+            }
+            Action::ObsNext => {
+                let n = self
+                    .selected_candidate()
+                    .map_or(0, |c| c.fit.residuals.len() + c.overrides.excluded.len());
+                self.obs_cursor = (self.obs_cursor + 1).min(n.saturating_sub(1));
+            }
+            Action::ObsPrev => self.obs_cursor = self.obs_cursor.saturating_sub(1),
+            Action::ToggleObs => return self.toggle_obs(),
+            Action::ForceRanging | Action::ForcePerturbations => return self.force(a),
+            Action::Ephemeris => {
+                if let Some(o) = self.selected.clone() {
+                    self.mode = Mode::Ephemeris;
+                    self.overlay_scroll = 0;
+                    if self.ephemeris.as_ref().is_none_or(|(obj, _)| *obj != o) {
+                        self.ephemeris = None;
+                    }
+                    return vec![Effect::Ephemeris(o)];
+                }
+            }
+            Action::RejectedFiles => {
+                self.mode = Mode::Rejected;
+                self.overlay_scroll = 0;
+            }
+            Action::Help => {
+                self.mode = Mode::Help;
+                self.overlay_scroll = 0;
+            }
+            Action::Quit => return vec![Effect::Quit],
+            Action::Accept | Action::Cancel => {}
+        }
+        Vec::new()
+    }
+
+    /// Observation labels of the selected candidate: fitted ones, then excluded ones.
+    pub fn observation_labels(&self) -> Vec<(String, bool)> {
+        let Some(c) = self.selected_candidate() else {
+            return Vec::new();
+        };
+        let mut v: Vec<(String, bool)> = c
+            .fit
+            .residuals
+            .iter()
+            .map(|r| (format!("{}@{}", r.time_utc, r.site), true))
+            .collect();
+        v.extend(c.overrides.excluded.iter().map(|k| (k.clone(), false)));
+        v
+    }
+
+    fn toggle_obs(&mut self) -> Vec<Effect> {
+        let labels = self.observation_labels();
+        let Some((label, fitted)) = labels.get(self.obs_cursor).cloned() else {
+            return Vec::new();
+        };
+        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
+            return Vec::new();
+        };
+        let c = &mut self.candidates[i];
+        if fitted {
+            c.overrides.excluded.insert(label.clone());
+            self.message = Some(format!("excluded {label}; refitting"));
+        } else {
+            c.overrides.excluded.remove(&label);
+            self.message = Some(format!("restored {label}; refitting"));
+        }
+        vec![Effect::Refit {
+            object: c.fit.object.clone(),
+            overrides: c.overrides.clone(),
+        }]
+    }
+
+    fn force(&mut self, a: Action) -> Vec<Effect> {
+        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
+            return Vec::new();
+        };
+        let c = &mut self.candidates[i];
+        if a == Action::ForceRanging {
+            c.overrides.method = match c.overrides.method {
+                MethodChoice::Auto => MethodChoice::Ranging,
+                MethodChoice::Ranging => MethodChoice::Auto,
+            };
+            self.message = Some(format!(
+                "{}: method {:?}; refitting",
+                c.fit.object, c.overrides.method
+            ));
+        } else {
+            c.overrides.perturbations = match c.overrides.perturbations {
+                PerturbChoice::On => PerturbChoice::Auto,
+                _ => PerturbChoice::On,
+            };
+            self.message = Some(format!(
+                "{}: perturbations {:?}; refitting",
+                c.fit.object, c.overrides.perturbations
+            ));
+        }
+        vec![Effect::Refit {
+            object: c.fit.object.clone(),
+            overrides: c.overrides.clone(),
+        }]
+    }
+
+    /// The key labels bound to an action in the list context ("p", "x"…), for hints.
+    pub fn keys(&self, a: Action) -> String {
+        self.keymap
+            .keys_for(Context::List, a)
+            .iter()
+            .map(Key::label)
+            .collect::<Vec<_>>()
+            .join("/")
+    }
+}

@@ -1,0 +1,155 @@
+//! End to end: the console's event loop runs on a TestBackend against a temporary watched directory into
+//! which demo files are written while it runs. Scripted keys then decide and exclude; the test checks
+//! that the candidates appear ranked, the decision reaches the journal on disk, and an excluded
+//! observation changes the fit.
+
+use interloper::console::keymap::Keymap;
+use interloper::console::panes::Theme;
+use interloper::console::runtime::{self, AppEvent};
+use interloper::console::state::App;
+use interloper::feed::sites::SiteTable;
+use interloper::feed::watcher::WatchOptions;
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+#[derive(Default, Clone, Debug)]
+struct Seen {
+    order: Vec<String>,
+    used: Vec<(String, usize, Option<f64>)>,
+    decided: Vec<(String, String)>,
+}
+
+fn wait_for(seen: &Arc<Mutex<Seen>>, what: &str, f: impl Fn(&Seen) -> bool) -> Seen {
+    let deadline = Instant::now() + Duration::from_secs(60);
+    loop {
+        let s = seen.lock().unwrap().clone();
+        if f(&s) {
+            return s;
+        }
+        assert!(
+            Instant::now() < deadline,
+            "timed out waiting for {what}: {s:?}"
+        );
+        std::thread::sleep(Duration::from_millis(50));
+    }
+}
+
+#[test]
+fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
+    let watched = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    let stop = Arc::new(AtomicBool::new(false));
+    let (tx, rx) = std::sync::mpsc::channel();
+    let opts = WatchOptions {
+        settle: Duration::from_millis(200),
+        scan_interval: Duration::from_millis(50),
+        ..WatchOptions::default()
+    };
+    let (mut rt, decisions, _) = runtime::start(
+        watched.path().to_path_buf(),
+        SiteTable::builtin(),
+        state.path().to_path_buf(),
+        opts,
+        2,
+        stop.clone(),
+        tx.clone(),
+    )
+    .unwrap();
+    let seen = Arc::new(Mutex::new(Seen::default()));
+    let seen_loop = seen.clone();
+    let stop_loop = stop.clone();
+    let ui = std::thread::spawn(move || {
+        let mut app = App::new(Keymap::builtin());
+        rt.replayed(&mut app, decisions);
+        let mut terminal = Terminal::new(TestBackend::new(120, 36)).unwrap();
+        runtime::run_loop(
+            &mut terminal,
+            &mut app,
+            &mut rt,
+            &rx,
+            &stop_loop,
+            Theme { color: false },
+            |a| {
+                let mut s = seen_loop.lock().unwrap();
+                s.order = a
+                    .view
+                    .iter()
+                    .map(|&i| a.candidates[i].fit.object.clone())
+                    .collect();
+                s.used = a
+                    .candidates
+                    .iter()
+                    .map(|c| (c.fit.object.clone(), c.fit.n_used, c.fit.e))
+                    .collect();
+                s.decided = a
+                    .candidates
+                    .iter()
+                    .filter_map(|c| {
+                        c.decision
+                            .as_ref()
+                            .map(|d| (c.fit.object.clone(), d.verdict.label().to_string()))
+                    })
+                    .collect();
+            },
+        )
+        .unwrap();
+        rt.shutdown();
+    });
+    // Files arrive while the console runs: a main-belt object first, then the hyperbolic one.
+    let demo = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&demo)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    for who in ["K27Db01", "K27Dx09"] {
+        for f in files.iter().filter(|f| f.to_string_lossy().contains(who)) {
+            std::fs::copy(f, watched.path().join(f.file_name().unwrap())).unwrap();
+            std::thread::sleep(Duration::from_millis(100));
+        }
+    }
+    let s = wait_for(&seen, "both candidates, fully fitted", |s| {
+        s.used.iter().any(|(o, n, _)| o == "K27Dx09" && *n == 15)
+            && s.used.iter().any(|(o, n, _)| o == "K27Db01" && *n == 12)
+    });
+    assert_eq!(
+        s.order.first().map(String::as_str),
+        Some("K27Dx09"),
+        "ranked first: {:?}",
+        s.order
+    );
+    let key = |c: KeyCode| {
+        tx.send(AppEvent::Key(KeyEvent::new(c, KeyModifiers::NONE)))
+            .unwrap()
+    };
+    key(KeyCode::Char('g'));
+    key(KeyCode::Char('p'));
+    wait_for(&seen, "the decision", |s| {
+        s.decided
+            .iter()
+            .any(|(o, v)| o == "K27Dx09" && v == "pursue")
+    });
+    let journal = std::fs::read_to_string(state.path().join("decisions.jsonl")).unwrap();
+    assert!(
+        journal.contains("\"object\":\"K27Dx09\"") && journal.contains("\"verdict\":\"pursue\""),
+        "{journal}"
+    );
+    let e_before = s.used.iter().find(|u| u.0 == "K27Dx09").unwrap().2;
+    key(KeyCode::Char(' '));
+    let s = wait_for(&seen, "the refit without one observation", |s| {
+        s.used.iter().any(|(o, n, _)| o == "K27Dx09" && *n == 14)
+    });
+    let e_after = s.used.iter().find(|u| u.0 == "K27Dx09").unwrap().2;
+    assert_ne!(
+        e_before, e_after,
+        "excluding an observation changed nothing"
+    );
+    key(KeyCode::Char('q'));
+    ui.join().unwrap();
+    stop.store(true, std::sync::atomic::Ordering::Relaxed);
+}

@@ -1,0 +1,210 @@
+//! Snapshots of every screen and pane through ratatui's TestBackend at 80×24 and 160×48, from the demo
+//! night's real fits (fixed clock and status so nothing volatile reaches the files). A missing or
+//! changed snapshot fails; UPDATE_SNAPSHOTS=1 rewrites them (review the diff before committing).
+
+use interloper::console::keymap::Keymap;
+use interloper::console::panes::{Theme, elements, residuals, status, table};
+use interloper::console::state::{App, Mode};
+use interloper::console::view;
+use interloper::feed::sites::SiteTable;
+use interloper::feed::tracklets::{Limits, merge, read_bytes};
+use interloper::fitting::batch::fit_all;
+use interloper::fitting::ephemeris::point;
+use interloper::fitting::fit::FitOptions;
+use interloper::physics::observe::ObserverModel;
+use interloper::physics::time::{UtcTime, tt_to_utc};
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+use std::path::PathBuf;
+
+fn fixed_clock() -> String {
+    "2027-02-26T12:00:00Z".into()
+}
+
+fn demo_app() -> App {
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&root)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    let sites = SiteTable::builtin();
+    let mut tracklets = Vec::new();
+    let mut app = App::new(Keymap::builtin());
+    app.clock = fixed_clock;
+    for f in &files {
+        let name = f.file_name().unwrap().to_string_lossy().to_string();
+        let intake = read_bytes(
+            &name,
+            &std::fs::read(f).unwrap(),
+            &sites,
+            &Limits::default(),
+        );
+        for e in intake.errors {
+            app.on_rejected(e);
+        }
+        tracklets.extend(intake.tracklets);
+    }
+    let tracklets = merge(tracklets);
+    for r in fit_all(tracklets, &FitOptions::default(), 2) {
+        let n = r.n_obs;
+        app.on_fit(1, r, n);
+    }
+    app.status.files_seen = files.len();
+    app.status.last_arrival = Some("03:12:55Z".into());
+    app.message = None;
+    app
+}
+
+fn key(c: char) -> KeyEvent {
+    KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE)
+}
+
+fn text(t: &Terminal<TestBackend>) -> String {
+    let b = t.backend().buffer();
+    let mut s = String::new();
+    for y in 0..b.area.height {
+        let mut line = String::new();
+        for x in 0..b.area.width {
+            line.push_str(b.cell((x, y)).map_or(" ", |c| c.symbol()));
+        }
+        s.push_str(line.trim_end());
+        s.push('\n');
+    }
+    s
+}
+
+fn check(name: &str, got: &str) {
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/snapshots")
+        .join(format!("{name}.txt"));
+    if std::env::var_os("UPDATE_SNAPSHOTS").is_some() {
+        std::fs::write(&path, got).unwrap();
+        return;
+    }
+    let want = std::fs::read_to_string(&path).unwrap_or_else(|_| {
+        panic!(
+            "missing snapshot {}; run with UPDATE_SNAPSHOTS=1",
+            path.display()
+        )
+    });
+    assert_eq!(
+        got, want,
+        "snapshot {name} differs (UPDATE_SNAPSHOTS=1 to accept)"
+    );
+}
+
+fn screen(app: &mut App, w: u16, h: u16) -> String {
+    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+    t.draw(|f| view::draw(f, app, Theme { color: false }))
+        .unwrap();
+    text(&t)
+}
+
+#[test]
+fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
+    for (w, h) in [(80u16, 24u16), (160, 48)] {
+        let mut app = demo_app();
+        app.on_key(key('g'));
+        app.message = None;
+        check(&format!("main_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(key('?'));
+        check(&format!("help_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.on_key(key('f'));
+        check(&format!("rejected_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        // The ephemeris panel, with points computed here as the runtime's worker would.
+        let fit = app.selected_candidate().unwrap().fit.clone();
+        let model = ObserverModel::new();
+        let site = SiteTable::builtin().get("TV1").unwrap().position;
+        let t0 = UtcTime::parse("2027-02-27T04:00:00Z")
+            .unwrap()
+            .instant()
+            .unwrap();
+        let pts = (0..6)
+            .filter_map(|k| {
+                let d = f64::from(k) / 12.0;
+                let inst = interloper::physics::time::Instant {
+                    tai: t0.tai.plus_days(d),
+                    tt: t0.tt.plus_days(d),
+                    tdb: t0.tdb.plus_days(d),
+                    ut1: t0.ut1.plus_days(d),
+                    status: t0.status,
+                };
+                point(
+                    &fit,
+                    &inst,
+                    tt_to_utc(inst.tt).to_string(),
+                    &site,
+                    &model,
+                    Some(18.0),
+                    20.0,
+                )
+            })
+            .collect();
+        app.ephemeris = Some((fit.object.clone(), pts));
+        app.mode = Mode::Ephemeris;
+        check(&format!("ephemeris_{w}x{h}"), &screen(&mut app, w, h));
+        app.mode = Mode::List;
+        app.on_key(key('/'));
+        for c in "K27Db".chars() {
+            app.on_key(key(c));
+        }
+        check(&format!("filter_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.on_key(key('m'));
+        for c in "fast, bright".chars() {
+            app.on_key(key(c));
+        }
+        check(&format!("note_{w}x{h}"), &screen(&mut app, w, h));
+    }
+}
+
+#[test]
+fn each_pane_alone_matches_its_snapshot() {
+    let mut app = demo_app();
+    app.on_key(key('g'));
+    app.message = None;
+    let theme = Theme { color: false };
+    for (w, h) in [(80u16, 12u16), (160, 24)] {
+        let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+        t.draw(|f| table::draw(f, f.area(), &app, theme)).unwrap();
+        check(&format!("pane_table_{w}x{h}"), &text(&t));
+        t.draw(|f| elements::draw(f, f.area(), &app, theme))
+            .unwrap();
+        check(&format!("pane_orbit_{w}x{h}"), &text(&t));
+        t.draw(|f| residuals::draw(f, f.area(), &app, theme))
+            .unwrap();
+        check(&format!("pane_residuals_{w}x{h}"), &text(&t));
+        t.draw(|f| {
+            status::draw_status(f, ratatui::layout::Rect::new(0, 0, w, 1), &app, theme);
+            status::draw_hints(f, ratatui::layout::Rect::new(0, 1, w, 1), &app, theme);
+        })
+        .unwrap();
+        check(&format!("pane_status_{w}x{h}"), &text(&t));
+    }
+}
+
+#[test]
+fn the_cursor_stays_on_its_candidate_when_results_stream_in() {
+    let mut app = demo_app();
+    app.on_key(key('G')); // the last row
+    let chosen = app.selected.clone().unwrap();
+    let mut extra = app.candidates[0].fit.clone();
+    extra.object = "K27Dzz99".into();
+    extra.z_hyperbolic = Some(8.0);
+    app.on_fit(1, extra, 5);
+    assert_eq!(app.selected.as_deref(), Some(chosen.as_str()));
+    let top_two: Vec<&str> = app
+        .view
+        .iter()
+        .take(2)
+        .map(|&i| app.candidates[i].fit.object.as_str())
+        .collect();
+    assert!(
+        top_two.contains(&"K27Dzz99"),
+        "the new +8 candidate ranks at the top: {top_two:?}"
+    );
+}

@@ -1,0 +1,45 @@
+#!/usr/bin/env bash
+# A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
+# capture-pane. Checks that the ranked list appears, a decision reaches the journal, the help overlay
+# opens, and quitting ends the program. CI runs it when tmux is installed; it skips (exit 0, saying so)
+# otherwise.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+if ! command -v tmux >/dev/null; then
+    echo "tmux session test: skipped (no tmux)"
+    exit 0
+fi
+bin=target/release/interloper
+[ -x "$bin" ] || cargo build --release --quiet
+state=$(mktemp -d)
+sock="interloper-test-$$"
+trap 'tmux -L "$sock" kill-server 2>/dev/null || true; rm -rf "$state"' EXIT
+tmux -L "$sock" new-session -d -s demo -x 100 -y 30 "$bin demo --speed 10 --state $state; echo EXITED; sleep 5"
+fail() { echo "tmux session test: FAILED: $1"; tmux -L "$sock" capture-pane -p -t demo; exit 1; }
+for _ in $(seq 1 60); do
+    screen=$(tmux -L "$sock" capture-pane -p -t demo)
+    if grep -q "K27Dx09" <<<"$screen" && grep -q "K27Dq11" <<<"$screen"; then break; fi
+    sleep 0.5
+done
+grep -q "K27Dx09" <<<"$screen" || fail "the candidates never appeared"
+sleep 2
+tmux -L "$sock" send-keys -t demo g
+sleep 0.3
+tmux -L "$sock" send-keys -t demo p
+for _ in $(seq 1 20); do
+    [ -s "$state/decisions.jsonl" ] && grep -q '"verdict":"pursue"' "$state/decisions.jsonl" && break
+    sleep 0.25
+done
+grep -q '"object":"K27Dx09"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
+tmux -L "$sock" send-keys -t demo '?'
+sleep 0.5
+tmux -L "$sock" capture-pane -p -t demo | grep -q "next-undecided" || fail "no help overlay"
+tmux -L "$sock" send-keys -t demo Escape
+sleep 0.2
+tmux -L "$sock" send-keys -t demo q
+for _ in $(seq 1 20); do
+    tmux -L "$sock" capture-pane -p -t demo | grep -q "EXITED" && break
+    sleep 0.25
+done
+tmux -L "$sock" capture-pane -p -t demo | grep -q "EXITED" || fail "q did not quit"
+echo "tmux session test: passed"
