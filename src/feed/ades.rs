@@ -57,7 +57,7 @@ pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
         file: file.clone(),
         line,
         column: column.map(clean),
-        reason,
+        reason: clean(&reason),
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let mut header: Option<Vec<String>> = None;

@@ -64,7 +64,7 @@ pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
         file: file.clone(),
         line,
         column: Some(column.into()),
-        reason,
+        reason: clean(&reason),
     };
     let lines: Vec<&str> = text.lines().map(|l| l.trim_end_matches('\r')).collect();
     let mut k = 0;

@@ -77,7 +77,7 @@ impl SiteTable {
             file: clean(file),
             line,
             column: None,
-            reason,
+            reason: clean(&reason),
         };
         let parsed: SiteFile = toml::from_str(text).map_err(|e| {
             let line = e

@@ -42,7 +42,7 @@ fn whole_file(file: &str, reason: String) -> FileIntake {
             file: clean(file),
             line: 0,
             column: None,
-            reason,
+            reason: clean(&reason),
         }],
         rejected: true,
     }
@@ -164,7 +164,7 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         file: clean(file),
         line: r.line,
         column: Some(column.into()),
-        reason,
+        reason: clean(&reason),
     };
     let time = r
         .time

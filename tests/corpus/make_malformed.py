@@ -41,6 +41,9 @@ CASES = [
     ("slashes.psv", (H + row(obsTime="2027/02/26 03:00")).encode(), 3, "obsTime", "is not an ISO 8601 UTC time"),
     ("time_garbage.psv", (H + row(obsTime="2027-02-26T03:00:00Zxyz")).encode(), 3, "obsTime", "is not an ISO 8601"),
     ("time_empty.psv", (H + row(obsTime="")).encode(), 3, "obsTime", "missing time"),
+    ("escape_in_time.psv", (H + row(obsTime="2027-02-26\tT03\x1b[31m:00Z")).encode(), 3, "obsTime", "is not an ISO 8601"),
+    # Found by the fuzzer: a tab inside obsTime once reached the error text unsanitised.
+    ("fuzz_tab_in_time.psv", b'trkSub|stn|obsTime|ra|dec|sys|ctr\nK|TV97220|-02-26TIIIIIIIIIIIIIIIIIIIIIIIIIIIIII\tno oIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIIII03:00:00Z|1|2|ICRF_KM|399\n', 2, "obsTime", "is not an ISO 8601"),
     ("before_1972.psv", (H + row(obsTime="1969-07-20T20:17:00Z")).encode(), 3, "obsTime", "before 1972-01-01"),
     ("ra360.psv", (H + row(ra="360.0")).encode(), 3, "ra", "outside 0 ≤ RA < 360°"),
     ("ra_negative.psv", (H + row(ra="-0.5")).encode(), 3, "ra", "outside 0 ≤ RA < 360°"),
