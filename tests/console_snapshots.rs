@@ -126,13 +126,7 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
         let pts = (0..6)
             .filter_map(|k| {
                 let d = f64::from(k) / 12.0;
-                let inst = interloper::physics::time::Instant {
-                    tai: t0.tai.plus_days(d),
-                    tt: t0.tt.plus_days(d),
-                    tdb: t0.tdb.plus_days(d),
-                    ut1: t0.ut1.plus_days(d),
-                    status: t0.status,
-                };
+                let inst = t0.plus_days(d);
                 point(
                     &fit,
                     &inst,

@@ -9,10 +9,9 @@ use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, read_bytes};
 use interloper::fitting::ephemeris::{EphemerisPoint, point};
 use interloper::fitting::fit::{FitOptions, FitResult, fit_tracklet};
-use interloper::fitting::input::{Observation, Tracklet};
 use interloper::fitting::ranging::SplitMix;
 use interloper::physics::constants::DEG;
-use interloper::physics::observe::{ObserverLocation, ObserverModel};
+use interloper::physics::observe::ObserverModel;
 use interloper::physics::time::parse_utc;
 use serde_json::Value;
 
@@ -87,38 +86,6 @@ fn positions_1_to_10_days_ahead_fall_inside_their_3_sigma_regions() {
     assert!(worst_10n < 5.0, "10-night predictions off by {worst_10n}″");
 }
 
-fn noisy(t: &Value, rng: &mut SplitMix, sigma: f64) -> Tracklet {
-    let sites = SiteTable::builtin();
-    let obs = t["clean"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|c| {
-            let dec = c["dec"].as_f64().unwrap();
-            let code = c["stn"].as_str().unwrap().to_string();
-            Observation {
-                time: parse_utc(c["time"].as_str().unwrap()).unwrap(),
-                ra: (c["ra"].as_f64().unwrap() + rng.normal() * sigma / 3600.0 / (dec * DEG).cos())
-                    * DEG,
-                dec: (dec + rng.normal() * sigma / 3600.0) * DEG,
-                sigma_ra_arcsec: Some(sigma),
-                sigma_dec_arcsec: Some(sigma),
-                correlation: None,
-                location: ObserverLocation::Ground(sites.get(&code).unwrap().position),
-                site_code: code,
-                mag: None,
-                band: None,
-                origin: "synthetic".into(),
-            }
-        })
-        .collect();
-    Tracklet::new(
-        t["object"].as_str().unwrap().into(),
-        "synthetic".into(),
-        obs,
-    )
-}
-
 fn coverage(object: &str, day: usize, runs: usize, method: &str) -> f64 {
     let t = truth().into_iter().find(|t| t["object"] == object).unwrap();
     let f = &t["future"][day - 1];
@@ -126,7 +93,11 @@ fn coverage(object: &str, day: usize, runs: usize, method: &str) -> f64 {
     let mut rng = SplitMix::new(77);
     let (mut n, mut hits) = (0, 0);
     for _ in 0..runs {
-        let fit = fit_tracklet(&noisy(&t, &mut rng, 0.2), &model, &FitOptions::default());
+        let fit = fit_tracklet(
+            &util::noisy(&t, &mut rng, 0.2),
+            &model,
+            &FitOptions::default(),
+        );
         assert_eq!(fit.method, method);
         let p = predict(&fit, f, &model);
         let (ok, _) = inside(&p, f["ra"].as_f64().unwrap(), f["dec"].as_f64().unwrap());

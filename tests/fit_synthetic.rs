@@ -8,11 +8,8 @@ mod util;
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, read_bytes};
 use interloper::fitting::fit::{FitOptions, FitResult, fit_tracklet};
-use interloper::fitting::input::{Observation, Tracklet};
 use interloper::fitting::ranging::SplitMix;
-use interloper::physics::constants::DEG;
-use interloper::physics::observe::{ObserverLocation, ObserverModel};
-use interloper::physics::time::parse_utc;
+use interloper::physics::observe::ObserverModel;
 use serde_json::Value;
 
 fn truth() -> Vec<Value> {
@@ -114,40 +111,6 @@ fn a_false_linkage_is_a_poor_fit_and_never_a_confident_candidate() {
     assert_eq!(results.last().unwrap().object, "false_link_3n");
 }
 
-/// Tracklets made from the reference's noiseless positions plus our own Gaussian noise.
-fn noisy(t: &Value, rng: &mut SplitMix, sigma: f64) -> Tracklet {
-    let sites = SiteTable::builtin();
-    let obs = t["clean"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|c| {
-            let dec = c["dec"].as_f64().unwrap();
-            let ra = c["ra"].as_f64().unwrap() + rng.normal() * sigma / 3600.0 / (dec * DEG).cos();
-            let dec = dec + rng.normal() * sigma / 3600.0;
-            let code = c["stn"].as_str().unwrap().to_string();
-            Observation {
-                time: parse_utc(c["time"].as_str().unwrap()).unwrap(),
-                ra: ra * DEG,
-                dec: dec * DEG,
-                sigma_ra_arcsec: Some(sigma),
-                sigma_dec_arcsec: Some(sigma),
-                correlation: None,
-                location: ObserverLocation::Ground(sites.get(&code).unwrap().position),
-                site_code: code,
-                mag: None,
-                band: None,
-                origin: "synthetic".into(),
-            }
-        })
-        .collect();
-    Tracklet::new(
-        t["object"].as_str().unwrap().into(),
-        "synthetic".into(),
-        obs,
-    )
-}
-
 #[test]
 fn eccentricity_pulls_are_calibrated_over_300_noise_realisations() {
     let t = truth()
@@ -159,7 +122,7 @@ fn eccentricity_pulls_are_calibrated_over_300_noise_realisations() {
     let mut rng = SplitMix::new(300);
     let mut pulls = Vec::new();
     for _ in 0..300 {
-        let tr = noisy(&t, &mut rng, 0.2);
+        let tr = util::noisy(&t, &mut rng, 0.2);
         let r = fit_tracklet(&tr, &model, &FitOptions::default());
         if r.method != "least-squares" || r.e_sigma.is_none() {
             continue;
@@ -185,7 +148,11 @@ fn one_night_main_belt_tracklets_stay_low_in_p_hyperbolic() {
     let mut rng = SplitMix::new(1);
     let mut ps = Vec::new();
     for _ in 0..40 {
-        let r = fit_tracklet(&noisy(&t, &mut rng, 0.2), &model, &FitOptions::default());
+        let r = fit_tracklet(
+            &util::noisy(&t, &mut rng, 0.2),
+            &model,
+            &FitOptions::default(),
+        );
         assert_eq!(r.method, "ranging");
         ps.push(r.p_hyperbolic.unwrap());
     }

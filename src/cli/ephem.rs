@@ -190,15 +190,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
         let h = fitted_h(fit, &mags, &obs);
         let mut points = Vec::with_capacity(n);
         for k in 0..n {
-            let tt = from.tt.plus_days(k as f64 * step);
-            let shift = k as f64 * step;
-            let inst = interloper::physics::time::Instant {
-                tai: from.tai.plus_days(shift),
-                tt,
-                tdb: from.tdb.plus_days(shift),
-                ut1: from.ut1.plus_days(shift),
-                status: from.status,
-            };
+            let inst = from.plus_days(k as f64 * step);
+            let tt = inst.tt;
             if let Some(p) = point(
                 fit,
                 &inst,

@@ -280,13 +280,7 @@ fn spawn_ephemeris(fit: FitResult, sites: Arc<SiteTable>, tx: Sender<AppEvent>) 
             ) {
                 for k in 1..=24 {
                     let d = f64::from(k) / 24.0;
-                    let inst = crate::physics::time::Instant {
-                        tai: t0.tai.plus_days(d),
-                        tt: t0.tt.plus_days(d),
-                        tdb: t0.tdb.plus_days(d),
-                        ut1: t0.ut1.plus_days(d),
-                        status: t0.status,
-                    };
+                    let inst = t0.plus_days(d);
                     if let Some(p) = point(
                         &fit,
                         &inst,

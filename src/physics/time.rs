@@ -118,6 +118,20 @@ pub struct Instant {
     pub status: TableStatus,
 }
 
+impl Instant {
+    /// The same instant moved by `days` on every scale (leap seconds inside the shift are not
+    /// re-examined: fine for ephemeris grids of hours to days).
+    pub fn plus_days(&self, days: f64) -> Instant {
+        Instant {
+            tai: self.tai.plus_days(days),
+            tt: self.tt.plus_days(days),
+            tdb: self.tdb.plus_days(days),
+            ut1: self.ut1.plus_days(days),
+            status: self.status,
+        }
+    }
+}
+
 fn is_leap_year(y: i32) -> bool {
     (y % 4 == 0 && y % 100 != 0) || y % 400 == 0
 }

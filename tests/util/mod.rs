@@ -37,3 +37,47 @@ pub fn f(row: &HashMap<String, String>, key: &str) -> f64 {
         .parse()
         .unwrap_or_else(|_| panic!("{key} = {}", row[key]))
 }
+
+/// A tracklet from the reference's noiseless positions (`clean` in truth.json) plus our own Gaussian
+/// noise of `sigma` arcsec per coordinate.
+pub fn noisy(
+    t: &serde_json::Value,
+    rng: &mut interloper::fitting::ranging::SplitMix,
+    sigma: f64,
+) -> interloper::fitting::input::Tracklet {
+    use interloper::fitting::input::{Observation, Tracklet};
+    use interloper::physics::constants::DEG;
+    let sites = interloper::feed::sites::SiteTable::builtin();
+    let obs = t["clean"]
+        .as_array()
+        .expect("clean positions")
+        .iter()
+        .map(|c| {
+            let dec = c["dec"].as_f64().expect("dec");
+            let code = c["stn"].as_str().expect("stn").to_string();
+            Observation {
+                time: interloper::physics::time::parse_utc(c["time"].as_str().expect("time"))
+                    .expect("utc"),
+                ra: (c["ra"].as_f64().expect("ra")
+                    + rng.normal() * sigma / 3600.0 / (dec * DEG).cos())
+                    * DEG,
+                dec: (dec + rng.normal() * sigma / 3600.0) * DEG,
+                sigma_ra_arcsec: Some(sigma),
+                sigma_dec_arcsec: Some(sigma),
+                correlation: None,
+                location: interloper::physics::observe::ObserverLocation::Ground(
+                    sites.get(&code).expect("site").position,
+                ),
+                site_code: code,
+                mag: None,
+                band: None,
+                origin: "synthetic".into(),
+            }
+        })
+        .collect();
+    Tracklet::new(
+        t["object"].as_str().expect("object").into(),
+        "synthetic".into(),
+        obs,
+    )
+}
