@@ -202,3 +202,39 @@ fn the_cursor_stays_on_its_candidate_when_results_stream_in() {
         "the new +8 candidate ranks at the top: {top_two:?}"
     );
 }
+
+#[test]
+fn sorting_cycles_through_every_column_and_keeps_the_selection() {
+    let mut app = demo_app();
+    app.on_key(key('G'));
+    let chosen = app.selected.clone();
+    let mut labels = Vec::new();
+    for _ in 0..interloper::console::state::SortKey::ALL.len() {
+        app.on_key(key('s'));
+        labels.push(app.sort.label());
+        assert_eq!(
+            app.selected,
+            chosen,
+            "sorting by {} moved the cursor",
+            app.sort.label()
+        );
+        assert_eq!(app.view.len(), app.candidates.len());
+    }
+    assert_eq!(
+        labels.last(),
+        Some(&"rank"),
+        "the cycle returns to the ranking: {labels:?}"
+    );
+    app.on_key(key('s')); // score
+    let scores: Vec<f64> = app
+        .view
+        .iter()
+        .map(|&i| {
+            app.candidates[i]
+                .fit
+                .z_hyperbolic
+                .unwrap_or(f64::NEG_INFINITY)
+        })
+        .collect();
+    assert!(scores.windows(2).all(|w| w[0] >= w[1]), "{scores:?}");
+}

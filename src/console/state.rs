@@ -41,21 +41,31 @@ pub enum SortKey {
     Probability,
     Eccentricity,
     Perihelion,
+    Inclination,
     Arc,
+    Nights,
+    Observations,
     Rms,
+    Method,
+    Status,
     Object,
     Decision,
 }
 
 impl SortKey {
-    pub const ALL: [SortKey; 9] = [
+    pub const ALL: [SortKey; 14] = [
         SortKey::Rank,
         SortKey::Score,
         SortKey::Probability,
         SortKey::Eccentricity,
         SortKey::Perihelion,
+        SortKey::Inclination,
         SortKey::Arc,
+        SortKey::Nights,
+        SortKey::Observations,
         SortKey::Rms,
+        SortKey::Method,
+        SortKey::Status,
         SortKey::Object,
         SortKey::Decision,
     ];
@@ -66,8 +76,13 @@ impl SortKey {
             SortKey::Probability => "P(e>1)",
             SortKey::Eccentricity => "e",
             SortKey::Perihelion => "q",
+            SortKey::Inclination => "i",
             SortKey::Arc => "arc",
+            SortKey::Nights => "nights",
+            SortKey::Observations => "obs",
             SortKey::Rms => "rms",
+            SortKey::Method => "method",
+            SortKey::Status => "status",
             SortKey::Object => "object",
             SortKey::Decision => "decision",
         }
@@ -222,15 +237,20 @@ impl App {
             SortKey::Probability => -f.p_hyperbolic.unwrap_or(-1.0),
             SortKey::Eccentricity => -f.e.unwrap_or(-1.0),
             SortKey::Perihelion => f.q_au.unwrap_or(f64::INFINITY),
+            SortKey::Inclination => f.i_deg.unwrap_or(f64::INFINITY),
             SortKey::Arc => -f.arc_days,
+            SortKey::Nights => -(f.n_nights as f64),
+            SortKey::Observations => -(f.n_used as f64),
             SortKey::Rms => f.rms_arcsec.unwrap_or(f64::INFINITY),
-            SortKey::Object | SortKey::Decision => 0.0,
+            SortKey::Object | SortKey::Decision | SortKey::Method | SortKey::Status => 0.0,
         };
         let s = match self.sort {
             SortKey::Decision => c
                 .decision
                 .as_ref()
                 .map_or("~".into(), |d| d.verdict.label().to_string()),
+            SortKey::Method => format!("{} {}", f.method, f.object),
+            SortKey::Status => format!("{} {}", f.status, f.object),
             _ => f.object.clone(),
         };
         (v, s)
