@@ -18,23 +18,37 @@ pub struct SiteTable {
     sites: HashMap<String, Site>,
 }
 
+// Extra fields (a comment, an instrument) are tolerated: a site table is shared between tools.
 #[derive(serde::Deserialize)]
-#[serde(deny_unknown_fields)]
 struct SiteFile {
     #[serde(default)]
     site: Vec<SiteEntry>,
 }
 
 #[derive(serde::Deserialize)]
-#[serde(deny_unknown_fields)]
 struct SiteEntry {
     code: String,
     #[serde(default)]
     name: String,
+    #[serde(alias = "longitude", alias = "lon_deg")]
     longitude_deg: f64,
+    #[serde(alias = "latitude", alias = "lat_deg")]
     latitude_deg: Option<f64>,
+    #[serde(alias = "altitude", alias = "height_m", alias = "elevation_m")]
     altitude_m: Option<f64>,
+    #[serde(
+        alias = "rho_cos",
+        alias = "rhocosphi",
+        alias = "parallax_cos",
+        alias = "cos_phi"
+    )]
     rho_cos_phi: Option<f64>,
+    #[serde(
+        alias = "rho_sin",
+        alias = "rhosinphi",
+        alias = "parallax_sin",
+        alias = "sin_phi"
+    )]
     rho_sin_phi: Option<f64>,
 }
 
@@ -225,7 +239,15 @@ mod tests {
         let e = t
             .load_toml("s.toml", "[[site]]\ncode = \"AB1\"\nlongtude_deg = 1\n")
             .unwrap_err();
-        assert_eq!(e.line, 3, "{e}");
+        assert!(e.reason.contains("longitude_deg"), "{e}");
+        // Extra fields are tolerated; parallax constants have common aliases.
+        let n = t
+            .load_toml(
+                "s.toml",
+                "[[site]]\ncode = \"AB2\"\nlongitude_deg = 10\nrho_cos = 0.8\nrho_sin = 0.6\ncomment = \"x\"\n",
+            )
+            .unwrap();
+        assert_eq!(n, 1);
     }
 
     #[test]
