@@ -3,10 +3,9 @@
 
 use super::stats::normal_quantile;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_BARY_OVER_SUN, MU_SUN};
-use crate::physics::earth::{EarthState, EphemerisError, earth_state};
+use crate::physics::earth::EarthState;
 use crate::physics::frames::{equatorial_to_galactic, radec_from_vector};
-use crate::physics::time::Jd2;
-use crate::physics::{M6, S6, V3};
+use crate::physics::{S6, V3};
 
 /// Scores are clipped here: beyond ±8σ the number carries no further meaning for triage.
 pub const SCORE_CLIP: f64 = 8.0;
@@ -27,21 +26,6 @@ pub fn barycentric_with(x_helio: &S6, e: &EarthState) -> S6 {
         x_helio[4] + sv.y,
         x_helio[5] + sv.z,
     )
-}
-
-/// Barycentric state of an object from its heliocentric state (ICRF) at a TDB date.
-pub fn barycentric(x_helio: &S6, epoch: Jd2) -> Result<S6, EphemerisError> {
-    let e = earth_state(epoch)?;
-    let sp = e.sun_bary_pos();
-    let sv = e.sun_bary_vel();
-    Ok(S6::new(
-        x_helio[0] + sp.x,
-        x_helio[1] + sp.y,
-        x_helio[2] + sp.z,
-        x_helio[3] + sv.x,
-        x_helio[4] + sv.y,
-        x_helio[5] + sv.z,
-    ))
 }
 
 /// Score of a linear fit: (e − 1)/σ_e, clipped.
@@ -114,11 +98,6 @@ pub fn incoming(x: &S6, mu: f64, sigma_inv_a: Option<f64>) -> Option<Incoming> {
         radiant_b_deg: b.to_degrees(),
         uvw_km_s: [uvw.x, uvw.y, uvw.z],
     })
-}
-
-/// Covariance of the barycentric state equals the heliocentric one (the shift is known exactly).
-pub fn barycentric_covariance(cov: &M6) -> M6 {
-    *cov
 }
 
 #[cfg(test)]
