@@ -62,7 +62,7 @@ fn benches(c: &mut Criterion) {
     // radial velocity under the speed cap are not trials, so the grid is widened until 10⁴ are).
     let (_, one) = load("hyp_strong_1n.psv");
     let mut ropts = opts;
-    ropts.ranging.n_rho = 141;
+    ropts.ranging.n_rho = 150;
     let trials = fit_tracklet(&one, &model, &ropts)
         .ranging
         .map_or(0, |r| r.trials);

@@ -233,6 +233,7 @@ pub fn range(
         }
     }
     let ata_inv = (a.transpose() * &a).try_inverse()?;
+    let ata4: nalgebra::Matrix4<f64> = nalgebra::Matrix4::from_fn(|i, j| ata_inv[(i, j)]);
     let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
     let ecl = equatorial_to_ecliptic();
     let mut rng = SplitMix::new(opts.seed);
@@ -315,8 +316,14 @@ pub fn range(
                 }
                 (u, udot, probe.norm_squared())
             } else {
-                let atx = a.transpose() * &xi;
-                let c = &ata_inv * &atx;
+                // Aᵀξ and the profiled correction in fixed-size arithmetic (no allocation per trial).
+                let mut atx = nalgebra::Vector4::zeros();
+                for (r, x) in a.row_iter().zip(xi.iter()) {
+                    for k in 0..4 {
+                        atx[k] += r[k] * x;
+                    }
+                }
+                let c = ata4 * atx;
                 let chi2 = (xi.norm_squared() - atx.dot(&c)).max(0.0);
                 // Apply the profiled attributable correction to the node's orbit.
                 let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
@@ -325,14 +332,10 @@ pub fn range(
             };
             let rr = obs0.helio_pos + rho * u;
             let vv = obs0.helio_vel + rho * udot + rhodot * u;
-            let el = CometaryElements::from_state(&(ecl * rr), &(ecl * vv), epoch.value(), MU_SUN);
-            let eb = CometaryElements::from_state(
-                &(rr + sun_bary.0),
-                &(vv + sun_bary.1),
-                epoch.value(),
-                super::significance::MU_BARY,
-            );
-            let unbound = eb.e > 1.0;
+            // Bound or not from the barycentric energy (e > 1 exactly when it is positive); the full
+            // elements are computed below, only for nodes that carry weight.
+            let (rb, vb) = (rr + sun_bary.0, vv + sun_bary.1);
+            let unbound = vb.norm_squared() > 2.0 * super::significance::MU_BARY / rb.norm();
             let area = rho * dln * drd;
             let prior_pop = dln * drd * if unbound { UNBOUND_DENSITY_FACTOR } else { 1.0 };
             nodes.push(Node {
@@ -341,10 +344,10 @@ pub fn range(
                     epoch,
                     chi2,
                     weight: 0.0,
-                    e: el.e,
-                    e_bary: eb.e,
-                    q: el.q,
-                    i: el.i,
+                    e: f64::NAN,
+                    e_bary: f64::NAN,
+                    q: f64::NAN,
+                    i: f64::NAN,
                     rho,
                 },
                 prior_pop,
@@ -355,6 +358,30 @@ pub fn range(
     }
     if nodes.is_empty() {
         return None;
+    }
+    // Elements only where the likelihood is not negligible (Δχ² > 60 is below e⁻³⁰ of the best).
+    let best_chi2 = nodes
+        .iter()
+        .map(|n| n.sample.chi2)
+        .fold(f64::INFINITY, f64::min);
+    for n in nodes
+        .iter_mut()
+        .filter(|n| n.sample.chi2 - best_chi2 <= 60.0)
+    {
+        let st = &n.sample.state;
+        let (rr, vv) = (V3::new(st[0], st[1], st[2]), V3::new(st[3], st[4], st[5]));
+        let t = n.sample.epoch.value();
+        let el = CometaryElements::from_state(&(ecl * rr), &(ecl * vv), t, MU_SUN);
+        let eb = CometaryElements::from_state(
+            &(rr + sun_bary.0),
+            &(vv + sun_bary.1),
+            t,
+            super::significance::MU_BARY,
+        );
+        n.sample.e = el.e;
+        n.sample.e_bary = eb.e;
+        n.sample.q = el.q;
+        n.sample.i = el.i;
     }
     let chi2_min = nodes
         .iter()

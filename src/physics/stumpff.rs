@@ -8,27 +8,28 @@ pub fn stumpff(z: f64) -> [f64; 6] {
     if z.abs() < 0.1 { series(z) } else { closed(z) }
 }
 
-fn series(z: f64) -> [f64; 6] {
-    {
-        // cₖ(z) = Σⱼ (−z)ʲ / (k + 2j)!; twelve terms leave < 1e-30 at |z| = 0.1.
-        let mut out = [0.0; 6];
-        for (k, slot) in out.iter_mut().enumerate() {
-            let mut fact = 1.0;
-            for n in 2..=k {
-                fact *= n as f64;
-            }
-            let mut term = 1.0 / fact;
-            let mut sum = term;
-            let mut n = k;
-            for _ in 0..12 {
-                term *= -z / (((n + 1) * (n + 2)) as f64);
-                n += 2;
-                sum += term;
-            }
-            *slot = sum;
-        }
-        out
+/// 1/n! for n = 0..=19, for the series below.
+const INV_FACT: [f64; 20] = {
+    let mut t = [1.0; 20];
+    let mut n = 1;
+    while n < 20 {
+        t[n] = t[n - 1] / n as f64;
+        n += 1;
     }
+    t
+};
+
+fn series(z: f64) -> [f64; 6] {
+    // cₖ(z) = Σⱼ (−z)ʲ/(k + 2j)!, eight terms: at |z| < 0.1 the next is below 1e-18 of the first.
+    let mut out = [0.0; 6];
+    for (k, slot) in out.iter_mut().enumerate() {
+        let mut sum = 0.0;
+        for j in (0..8).rev() {
+            sum = sum * -z + INV_FACT[k + 2 * j];
+        }
+        *slot = sum;
+    }
+    out
 }
 
 fn closed(z: f64) -> [f64; 6] {
