@@ -1,7 +1,7 @@
 //! Stumpff functions c₀…c₅ and the universal functions Uₖ(χ; α) = χᵏ cₖ(αχ²).
 //!
 //! Near z = 0 the closed forms cancel catastrophically (1 − cos √z over z), which stalls Newton near
-//! e = 1; there a 12-term series is used instead.
+//! e = 1; there an 8-term series is used instead.
 
 /// c₀(z)…c₅(z).
 pub fn stumpff(z: f64) -> [f64; 6] {
