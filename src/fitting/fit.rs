@@ -20,7 +20,7 @@ use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
 use crate::physics::observe::{ObserverModel, ObserverState};
 use crate::physics::propagate::propagate;
 use crate::physics::time::{Jd2, tdb_to_tt, tt_to_utc};
-use crate::physics::{M3, S6, V3};
+use crate::physics::{M3, S6, V3, split_state};
 
 /// Which method to use.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
@@ -274,10 +274,6 @@ pub fn rank(results: &mut [FitResult]) {
     });
 }
 
-fn split(x: &S6) -> (V3, V3) {
-    (V3::new(x[0], x[1], x[2]), V3::new(x[3], x[4], x[5]))
-}
-
 /// Orbits kept per sampled fit for ephemerides: enough for 99 % regions, small enough that ten
 /// thousand candidates stay within a couple of hundred megabytes.
 pub const KEPT_SAMPLES: usize = 200;
@@ -334,6 +330,8 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     if opts.method == MethodChoice::Ranging || !multi_night || tr.obs.len() < 3 {
         return ranging_result(tr, model, &observers, &cov, &shift, opts, None);
     }
+    // Every later way out of least squares is the same: answer by ranging and say why.
+    let fallback = |why: &str| ranging_result(tr, model, &observers, &cov, &shift, opts, Some(why));
     let two_body = TwoBody;
     let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
     // Short multi-night arcs have several minima: ranging over all nights finds the right basin.
@@ -343,15 +341,7 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         Vec::new()
     };
     let Some((mut fit, alternatives)) = least_squares(&problem, opts, extra_seeds) else {
-        return ranging_result(
-            tr,
-            model,
-            &observers,
-            &cov,
-            &shift,
-            opts,
-            Some("no initial orbit converged"),
-        );
+        return fallback("no initial orbit converged");
     };
     // Perturbations, by arc length or a close approach to Earth.
     let nbody = NBody::new();
@@ -377,15 +367,7 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         }
     }
     if fit.cov.is_none() {
-        return ranging_result(
-            tr,
-            model,
-            &observers,
-            &cov,
-            &shift,
-            opts,
-            Some("degenerate least squares"),
-        );
+        return fallback("degenerate least squares");
     }
     // A range known to worse than this is a nearly degenerate problem: its minimum means little and
     // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
@@ -395,7 +377,7 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
                 "least squares nearly degenerate (range known to {:.0} %)",
                 100.0 * rel
             );
-            return ranging_result(tr, model, &observers, &cov, &shift, opts, Some(&why));
+            return fallback(&why);
         }
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
@@ -607,7 +589,7 @@ fn lsq_result(
     );
     let xb = fit.state + shift;
     let (elb, sigb) = elements_with_sigmas(&xb, fit.cov.as_ref(), fit.epoch.value(), MU_BARY, &ecl);
-    let (rb, vb) = split(&xb);
+    let (rb, vb) = split_state(&xb);
     let sigma_eb = fit.cov.map(|c| {
         let g = eccentricity_gradient(&rb, &vb, MU_BARY);
         (g * c * g.transpose())[0].max(0.0).sqrt()
@@ -648,7 +630,7 @@ fn lsq_result(
     out.alternatives = alternatives
         .iter()
         .map(|a| {
-            let (r, v) = split(&a.state);
+            let (r, v) = split_state(&a.state);
             let el = CometaryElements::from_state(
                 &(ecl_alt * r),
                 &(ecl_alt * v),
@@ -701,7 +683,7 @@ fn lsq_result(
             .states
             .iter()
             .map(|x| {
-                let (r, v) = split(x);
+                let (r, v) = split_state(x);
                 CometaryElements::from_state(&(ecl_s * r), &(ecl_s * v), fit.epoch.value(), MU_SUN)
             })
             .collect();
@@ -802,7 +784,7 @@ fn ranging_seeds(
     best.iter()
         .flatten()
         .filter_map(|s| {
-            let (r, v) = split(&s.state);
+            let (r, v) = split_state(&s.state);
             propagate(&r, &v, epoch.minus(s.epoch), MU_SUN)
                 .ok()
                 .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
@@ -865,7 +847,7 @@ fn fill_ranging(
     let b = rr.best.state;
     out.state = Some([b[0], b[1], b[2], b[3], b[4], b[5]]);
     let ecl = equatorial_to_ecliptic();
-    let (r, v) = split(&b);
+    let (r, v) = split_state(&b);
     let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), rr.best.epoch.value(), MU_SUN);
     out.elements = Some(elements_out(&el, None, MU_SUN));
     // Residuals of the most probable orbit.

@@ -11,7 +11,7 @@ use crate::physics::constants::MU_SUN;
 use crate::physics::earth::{earth_state, hermite};
 use crate::physics::propagate::{PropagationError, propagate_with_stm};
 use crate::physics::time::Jd2;
-use crate::physics::{M3, M6, S6, V3};
+use crate::physics::{M3, M6, S6, V3, split_state};
 use nalgebra::Matrix3x6;
 use std::cell::RefCell;
 use std::collections::HashMap;
@@ -50,16 +50,9 @@ pub trait Dynamics {
 /// Keplerian motion about the Sun.
 pub struct TwoBody;
 
-fn split(x: &S6) -> (V3, V3) {
-    (
-        x.fixed_rows::<3>(0).into_owned(),
-        x.fixed_rows::<3>(3).into_owned(),
-    )
-}
-
 impl Dynamics for TwoBody {
     fn state_and_stm(&self, x0: &S6, epoch: Jd2, t: Jd2) -> Result<(V3, V3, M6), PropagationError> {
-        let (r, v) = split(x0);
+        let (r, v) = split_state(x0);
         propagate_with_stm(&r, &v, t.minus(epoch), MU_SUN)
     }
     fn positions(
@@ -68,7 +61,7 @@ impl Dynamics for TwoBody {
         epoch: Jd2,
         times: &[Jd2],
     ) -> Result<Vec<(V3, V3)>, PropagationError> {
-        let (r, v) = split(x0);
+        let (r, v) = split_state(x0);
         times
             .iter()
             .map(|t| crate::physics::propagate::propagate(&r, &v, t.minus(epoch), MU_SUN))
@@ -294,7 +287,7 @@ impl Dynamics for NBody {
         epoch: Jd2,
         times: &[Jd2],
     ) -> Result<Vec<(V3, V3, M6)>, PropagationError> {
-        let xs = split(x0);
+        let xs = split_state(x0);
         let mut devs: Vec<Option<Dev>> = vec![None; times.len()];
         for forward in [true, false] {
             let mut idx: Vec<usize> = (0..times.len())

@@ -19,3 +19,11 @@ pub type M3 = nalgebra::Matrix3<f64>;
 pub type M6 = nalgebra::Matrix6<f64>;
 /// Cartesian state (position AU, velocity AU/day).
 pub type S6 = nalgebra::Vector6<f64>;
+
+/// Position and velocity of a Cartesian state.
+pub fn split_state(x: &S6) -> (V3, V3) {
+    (
+        x.fixed_rows::<3>(0).into_owned(),
+        x.fixed_rows::<3>(3).into_owned(),
+    )
+}
