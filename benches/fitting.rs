@@ -61,7 +61,7 @@ fn benches(c: &mut Criterion) {
     // One-night ranging with at least 10⁴ evaluated trial orbits (grid nodes with no admissible
     // radial velocity under the speed cap are not trials, so the grid is widened until 10⁴ are).
     let (_, one) = load("hyp_strong_1n.psv");
-    let mut ropts = opts;
+    let mut ropts = opts.clone();
     ropts.ranging.n_rho = 150;
     let trials = fit_tracklet(&one, &model, &ropts)
         .ranging

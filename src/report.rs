@@ -10,15 +10,31 @@ fn opt(x: Option<f64>, prec: usize) -> String {
     }
 }
 
+/// log₁₀ of the posterior odds unbound : bound as shown in tables: signed, one decimal, written as a
+/// bound past ±999 and as ±∞ when one class has no weight at all.
+pub fn odds_text(r: &FitResult) -> String {
+    match r.log10_odds {
+        Some(z) if z > 999.0 => ">+999".into(),
+        Some(z) if z < -999.0 => "<-999".into(),
+        Some(z) => format!("{z:+.1}"),
+        None if r.z_is_bound => match r.p_hyperbolic {
+            Some(p) if p >= 0.5 => "+∞".into(),
+            Some(_) => "-∞".into(),
+            None => "-".into(),
+        },
+        None => "-".into(),
+    }
+}
+
 /// The ranked table printed by `fit` without `--json`.
 pub fn ranked_table(results: &[FitResult]) -> String {
     let mut s = String::new();
     s.push_str(&format!(
-        "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<9} {:<9} {}\n",
+        "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<9} {}\n",
         "rank",
         "object",
-        "score",
-        "P(e>1)",
+        "odds",
+        "P(unb)",
         "e",
         "±e",
         "q AU",
@@ -36,25 +52,17 @@ pub fn ranked_table(results: &[FitResult]) -> String {
         } else if !r.poor_fit.is_empty() {
             clean(&r.poor_fit.join("; "))
         } else if r.prior_dominated {
-            "answer set by the prior".into()
+            "set by the population model, not the data".into()
         } else if !r.distrust_linear.is_empty() {
-            format!("sampled: {}", clean(&r.distrust_linear.join(", ")))
+            format!("not linear: {}", clean(&r.distrust_linear.join(", ")))
         } else {
             String::new()
         };
-        let z = r.z_hyperbolic.map(|z| {
-            let mark = match (r.z_is_bound, z > 0.0) {
-                (true, true) => "≥",
-                (true, false) => "≤",
-                _ => "",
-            };
-            format!("{mark}{z:+.1}")
-        });
         s.push_str(&format!(
-            "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<9} {:<9} {}\n",
+            "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<9} {}\n",
             k + 1,
             clean(&r.object).chars().take(14).collect::<String>(),
-            z.unwrap_or_else(|| "-".into()),
+            odds_text(r),
             opt(r.p_hyperbolic, 3),
             opt(r.e, 5),
             opt(r.e_sigma, 5),
@@ -63,15 +71,14 @@ pub fn ranked_table(results: &[FitResult]) -> String {
             format!("{:.2}", r.arc_days),
             format!("{}/{}", r.n_used, r.n_obs),
             opt(r.rms_arcsec, 2),
-            if r.method == "ranging" {
-                "ranging"
-            } else {
-                "lsq"
-            },
+            r.method,
             r.status,
             note
         ));
     }
-    s.push_str("score = Φ⁻¹(P(e_bary > 1)), clipped to ±8; a high score is a reason for follow-up, not a discovery.\n");
+    s.push_str(
+        "odds = log10 of the posterior odds unbound : bound under the population model; P(unb) the \
+         probability. A high value is a reason for follow-up, not a discovery.\n",
+    );
     s
 }

@@ -189,6 +189,7 @@ fn the_cursor_stays_on_its_candidate_when_results_stream_in() {
     let mut extra = app.candidates[0].fit.clone();
     extra.object = "K27Dzz99".into();
     extra.z_hyperbolic = Some(8.0);
+    extra.log10_odds = Some(400.0);
     app.on_fit(1, extra, 5);
     assert_eq!(app.selected.as_deref(), Some(chosen.as_str()));
     let top_two: Vec<&str> = app
@@ -199,7 +200,7 @@ fn the_cursor_stays_on_its_candidate_when_results_stream_in() {
         .collect();
     assert!(
         top_two.contains(&"K27Dzz99"),
-        "the new +8 candidate ranks at the top: {top_two:?}"
+        "the new candidate with the highest odds ranks at the top: {top_two:?}"
     );
 }
 

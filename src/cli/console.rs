@@ -19,6 +19,7 @@ pub struct ConsoleConfig {
     pub keymap: Option<PathBuf>,
     pub watch: WatchOptions,
     pub threads: usize,
+    pub population: Arc<interloper::fitting::population::PopulationModel>,
 }
 
 pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
@@ -33,6 +34,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         stop.clone(),
         tx.clone(),
     )?;
+    rt.set_population(cfg.population.clone());
     log(
         &cfg.state,
         &format!("console opened on {}", cfg.dir.display()),

@@ -27,6 +27,8 @@ pub struct DemoArgs {
     pub headless: bool,
     #[arg(long)]
     pub json: bool,
+    #[command(flatten)]
+    pub population: super::inputs::PopulationArgs,
 }
 
 pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
@@ -89,6 +91,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
         args.json,
         args.keymap.clone(),
         40.0 / args.speed + 10.0,
+        args.population.clone(),
     );
     run_with(&watch, stop)
 }

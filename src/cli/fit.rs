@@ -1,6 +1,6 @@
 //! `interloper fit`: batch fit of files, ranked table or JSON lines.
 
-use super::inputs::{SiteArgs, expand, read_file};
+use super::inputs::{PopulationArgs, SiteArgs, expand, read_file};
 use interloper::feed::tracklets::Limits;
 use interloper::fitting::batch::fit_all;
 use interloper::fitting::fit::{FitOptions, MethodChoice, PerturbChoice, rank};
@@ -11,6 +11,8 @@ use std::path::PathBuf;
 pub struct FitArgs {
     #[command(flatten)]
     pub sites: SiteArgs,
+    #[command(flatten)]
+    pub population: PopulationArgs,
     /// One JSON object per tracklet per line instead of the table.
     #[arg(long)]
     pub json: bool,
@@ -51,13 +53,9 @@ pub enum Perturb {
 }
 
 impl FitArgs {
-    /// The fit options used when no flags are given (the watcher's).
-    pub fn default_options() -> FitOptions {
-        FitOptions::default()
-    }
-
-    pub fn options(&self) -> FitOptions {
+    pub fn options(&self) -> anyhow::Result<FitOptions> {
         let mut o = FitOptions {
+            population: self.population.load()?,
             method: match self.method {
                 Method::Auto => MethodChoice::Auto,
                 Method::Ranging => MethodChoice::Ranging,
@@ -73,7 +71,7 @@ impl FitArgs {
         };
         o.ranging.v_cap_km_s = self.v_cap;
         o.ranging.seed = self.seed;
-        o
+        Ok(o)
     }
 }
 
@@ -87,6 +85,7 @@ pub fn fit_all_default(
 
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
+    let options = args.options()?;
     let files = expand(&args.paths)?;
     let limits = Limits::default();
     let mut tracklets = Vec::new();
@@ -103,7 +102,7 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    let mut results = fit_all(tracklets, &args.options(), threads);
+    let mut results = fit_all(tracklets, &options, threads);
     rank(&mut results);
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());

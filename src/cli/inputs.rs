@@ -37,6 +37,31 @@ impl SiteArgs {
     }
 }
 
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct PopulationArgs {
+    /// Population model (TOML, the format of the built-in one shown in the README) that replaces the
+    /// built-in model behind every P(unbound).
+    #[arg(long, value_name = "FILE")]
+    pub population: Option<PathBuf>,
+}
+
+impl PopulationArgs {
+    /// The model to fit under: the file's, validated, or the built-in one.
+    pub fn load(
+        &self,
+    ) -> anyhow::Result<std::sync::Arc<interloper::fitting::population::PopulationModel>> {
+        use interloper::fitting::population::{ModelFile, PopulationModel};
+        let Some(p) = &self.population else {
+            return Ok(interloper::fitting::fit::builtin_population());
+        };
+        let text = std::fs::read_to_string(p)
+            .with_context(|| format!("reading the population model {}", p.display()))?;
+        let name = p.display().to_string();
+        let file = ModelFile::parse(&name, &text)?;
+        Ok(std::sync::Arc::new(PopulationModel::new(name, file)))
+    }
+}
+
 /// Expand directories into their visible regular files (sorted), keep files as given.
 pub fn expand(paths: &[PathBuf]) -> anyhow::Result<Vec<PathBuf>> {
     let mut out = Vec::new();

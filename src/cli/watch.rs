@@ -1,8 +1,7 @@
 //! `interloper watch`: take in every file that arrives in a directory, fit each changed object on
 //! worker threads, and report results as they come (JSON lines with `--json`).
 
-use super::fit::FitArgs;
-use super::inputs::SiteArgs;
+use super::inputs::{PopulationArgs, SiteArgs};
 use interloper::feed::InputError;
 use interloper::feed::store::Store;
 use interloper::feed::tracklets::Limits;
@@ -20,6 +19,8 @@ use std::time::{Duration, Instant, SystemTime};
 pub struct WatchArgs {
     #[command(flatten)]
     pub sites: SiteArgs,
+    #[command(flatten)]
+    pub population: PopulationArgs,
     /// Where the decision journal lives (default: the platform's state directory).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
@@ -83,12 +84,14 @@ impl WatchArgs {
         json: bool,
         keymap: Option<PathBuf>,
         idle: f64,
+        population: PopulationArgs,
     ) -> WatchArgs {
         WatchArgs {
             sites: SiteArgs {
                 sites: None,
                 site_codes: None,
             },
+            population,
             state: Some(state),
             headless,
             json,
@@ -135,6 +138,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 keymap: args.keymap.clone(),
                 watch: opts,
                 threads,
+                population: args.population.load()?,
             },
             stop,
         );
@@ -142,7 +146,10 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
     let (rtx, results) = std::sync::mpsc::channel();
     let pool = FitPool::new(threads, rtx);
-    let fit_opts: FitOptions = FitArgs::default_options();
+    let fit_opts = FitOptions {
+        population: args.population.load()?,
+        ..FitOptions::default()
+    };
     let limits = Limits::default();
     let mut store = Store::new();
     let mut arrived: HashMap<String, SystemTime> = HashMap::new();
@@ -179,7 +186,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 for (obj, version) in ing.changed {
                     if let Some(t) = store.tracklet(&obj) {
                         arrived.insert(obj, at);
-                        pool.submit(version, t, fit_opts);
+                        pool.submit(version, t, fit_opts.clone());
                     }
                 }
             }
@@ -216,10 +223,10 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 m.insert("arrived_utc".into(), utc(at).into());
             }
             let text = format!(
-                "{} {:<14} z {:>6} P(e>1) {:>6} e {:>9} {} ({} obs, {} nights) {}",
+                "{} {:<14} odds {:>6} P(unb) {:>6} e {:>9} {} ({} obs, {} nights) {}",
                 utc(at),
                 interloper::feed::sanitize::clean(&r.object),
-                r.z_hyperbolic.map_or("-".into(), |z| format!("{z:+.1}")),
+                interloper::report::odds_text(&r),
                 r.p_hyperbolic.map_or("-".into(), |p| format!("{p:.3}")),
                 r.e.map_or("-".into(), |e| format!("{e:.4}")),
                 r.status,

@@ -52,6 +52,7 @@ pub struct Runtime {
     generation: HashMap<String, u64>,
     overrides: HashMap<String, Overrides>,
     pending_decisions: HashMap<String, Decision>,
+    population: Arc<crate::fitting::population::PopulationModel>,
 }
 
 /// Start the feed, fit workers and journal for a watched directory; events go to `tx`.
@@ -117,6 +118,7 @@ pub fn start(
             generation: HashMap::new(),
             overrides: HashMap::new(),
             pending_decisions: HashMap::new(),
+            population: crate::fitting::fit::builtin_population(),
         },
         standing,
         warnings,
@@ -128,6 +130,11 @@ fn label_of(o: &crate::fitting::input::Observation) -> String {
 }
 
 impl Runtime {
+    /// Fit under this population model from now on.
+    pub fn set_population(&mut self, model: Arc<crate::fitting::population::PopulationModel>) {
+        self.population = model;
+    }
+
     fn submit(&mut self, object: &str) {
         let Some(mut t) = self.store.tracklet(object) else {
             return;
@@ -140,6 +147,7 @@ impl Runtime {
         let opts = FitOptions {
             method: ov.method,
             perturbations: ov.perturbations,
+            population: self.population.clone(),
             ..FitOptions::default()
         };
         self.pool.submit(*g, t, opts);

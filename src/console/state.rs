@@ -37,7 +37,7 @@ pub struct Candidate {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum SortKey {
     Rank,
-    Score,
+    Odds,
     Probability,
     Eccentricity,
     Perihelion,
@@ -55,7 +55,7 @@ pub enum SortKey {
 impl SortKey {
     pub const ALL: [SortKey; 14] = [
         SortKey::Rank,
-        SortKey::Score,
+        SortKey::Odds,
         SortKey::Probability,
         SortKey::Eccentricity,
         SortKey::Perihelion,
@@ -72,8 +72,8 @@ impl SortKey {
     pub fn label(self) -> &'static str {
         match self {
             SortKey::Rank => "rank",
-            SortKey::Score => "score",
-            SortKey::Probability => "P(e>1)",
+            SortKey::Odds => "odds",
+            SortKey::Probability => "P(unb)",
             SortKey::Eccentricity => "e",
             SortKey::Perihelion => "q",
             SortKey::Inclination => "i",
@@ -230,10 +230,11 @@ impl App {
         let f = &c.fit;
         let v = match self.sort {
             SortKey::Rank => {
+                // Tiers first; within a tier the posterior odds (any finite log-odds fits in ±1e5).
                 let (tier, z) = f.rank_key();
-                -(f64::from(tier) * 100.0 + z.max(-50.0))
+                -(f64::from(tier) * 1e6 + z.clamp(-1e5, 1e5))
             }
-            SortKey::Score => -f.z_hyperbolic.unwrap_or(f64::NEG_INFINITY),
+            SortKey::Odds => -f.log10_odds.unwrap_or(f64::NEG_INFINITY),
             SortKey::Probability => -f.p_hyperbolic.unwrap_or(-1.0),
             SortKey::Eccentricity => -f.e.unwrap_or(-1.0),
             SortKey::Perihelion => f.q_au.unwrap_or(f64::INFINITY),

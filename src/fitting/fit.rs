@@ -1,26 +1,35 @@
-//! One tracklet in, one answer out: chooses the method (least squares for multi-night arcs, ranging
-//! for one night or a degenerate problem), the dynamics, and how P(e > 1) is estimated, and gathers
-//! everything the console and the batch output show.
+//! One tracklet in, one answer out: chooses the method (the short-arc posterior for one night, least
+//! squares for multi-night arcs, ranging for a degenerate problem), the dynamics, and how P(unbound)
+//! under the population model is estimated, and gathers everything the console and the batch output
+//! show.
 
-use super::covariance::{ElementSigmas, eccentricity_gradient, elements_with_sigmas};
+use super::covariance::{eccentricity_gradient, elements_with_sigmas};
 use super::gauss::{Sight, gauss};
 use super::input::Tracklet;
+use super::linear::{LineContext, line_posterior};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::onenight::{fit_one_night, instant_at, night_v_mag};
 use super::perturb::{Dynamics, NBody, TwoBody};
-use super::quality::{NightMean, night_means, poor_fit_reasons};
+use super::population::PopulationModel;
+use super::quality::{night_means, poor_fit_reasons};
 use super::ranging::{RangingOptions, RangingResult, range};
-use super::sampling::{distrust_reasons, importance_sample};
-use super::significance::{
-    Incoming, MU_BARY, incoming, linear_score, probability_score, sampled_probability,
+use super::result::elements_out;
+pub use super::result::{
+    Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
-use super::stats::{normal_cdf, weighted_quantile};
+use super::sampling::PriorContext;
+use super::sampling::{distrust_reasons, importance_sample};
+use super::significance::{MU_BARY, incoming};
+use super::stats::weighted_quantile;
+use crate::physics::constants::AU_PER_DAY_TO_KM_S;
 use crate::physics::constants::{ARCSEC, C_AU_PER_DAY, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
 use crate::physics::observe::{ObserverModel, ObserverState};
 use crate::physics::propagate::propagate;
-use crate::physics::time::{Jd2, tdb_to_tt, tt_to_utc};
+use crate::physics::time::{Jd2, tt_to_utc};
 use crate::physics::{M3, S6, V3, split_state};
+use std::sync::{Arc, OnceLock};
 
 /// Which method to use.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
@@ -46,7 +55,7 @@ pub const PERTURB_ARC_DAYS: f64 = 10.0;
 /// ... and so are objects passing closer than this to Earth (AU).
 pub const PERTURB_EARTH_AU: f64 = 0.05;
 
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 pub struct FitOptions {
     pub method: MethodChoice,
     pub perturbations: PerturbChoice,
@@ -55,6 +64,16 @@ pub struct FitOptions {
     pub inflate_nights: bool,
     pub samples: usize,
     pub seed: u64,
+    /// The population model every probability is under.
+    pub population: Arc<PopulationModel>,
+}
+
+/// The compiled-in population model, built once per process.
+pub fn builtin_population() -> Arc<PopulationModel> {
+    static MODEL: OnceLock<Arc<PopulationModel>> = OnceLock::new();
+    MODEL
+        .get_or_init(|| Arc::new(PopulationModel::builtin()))
+        .clone()
 }
 
 impl Default for FitOptions {
@@ -67,242 +86,14 @@ impl Default for FitOptions {
             inflate_nights: true,
             samples: 2000,
             seed: 0x5EED,
+            population: builtin_population(),
         }
     }
 }
 
-/// Elements with 1σ, as printed.
-#[derive(Debug, Clone, serde::Serialize)]
-pub struct ElementsOut {
-    pub q_au: f64,
-    pub e: f64,
-    pub i_deg: f64,
-    pub node_deg: f64,
-    pub peri_deg: f64,
-    pub tp_jd_tdb: f64,
-    pub inv_a_per_au: f64,
-    pub a_au: Option<f64>,
-    pub mean_anomaly_deg: Option<f64>,
-    pub sigma: Option<ElementSigmas>,
-}
-
-fn elements_out(el: &CometaryElements, sigma: Option<ElementSigmas>, mu: f64) -> ElementsOut {
-    ElementsOut {
-        q_au: el.q,
-        e: el.e,
-        i_deg: el.i,
-        node_deg: el.node,
-        peri_deg: el.peri,
-        tp_jd_tdb: el.tp,
-        inv_a_per_au: el.inv_a,
-        a_au: el.a(),
-        mean_anomaly_deg: el.mean_anomaly(mu),
-        sigma,
-    }
-}
-
-/// The priors of the sampled answers, as printed.
-pub const RANGING_PRIOR: &str =
-    "population: log-uniform distance, uniform radial velocity, unbound density x0.01";
-pub const SAMPLING_PRIOR: &str = "population: flat in the state, unbound density x0.01";
-
-/// Ranging summary, as printed.
-#[derive(Debug, Clone, serde::Serialize)]
-pub struct RangingOut {
-    pub trials: usize,
-    pub n_eff: f64,
-    pub v_cap_km_s: f64,
-    pub e_interval: [f64; 3],
-    pub q_interval: [f64; 3],
-    pub i_interval: [f64; 3],
-}
-
-/// Another solution of a short arc.
-#[derive(Debug, Clone, serde::Serialize)]
-pub struct Alternative {
-    pub delta_chi2: f64,
-    pub e: f64,
-    pub q_au: f64,
-    pub i_deg: f64,
-}
-
-/// One observation's residual, as printed.
-#[derive(Debug, Clone, serde::Serialize)]
-pub struct ResidualOut {
-    pub time_utc: String,
-    pub site: String,
-    pub night: usize,
-    /// Observed position (degrees).
-    pub ra_deg: f64,
-    pub dec_deg: f64,
-    pub ra_arcsec: f64,
-    pub dec_arcsec: f64,
-    pub used: bool,
-    pub chi2: f64,
-}
-
-/// The answer for one tracklet (the `fit --json` record).
-#[derive(Debug, Clone, serde::Serialize)]
-pub struct FitResult {
-    pub source: String,
-    pub object: String,
-    pub n_obs: usize,
-    pub n_used: usize,
-    pub n_nights: usize,
-    pub arc_days: f64,
-    pub method: &'static str,
-    pub probability_from: &'static str,
-    pub dynamics: &'static str,
-    pub e: Option<f64>,
-    pub e_sigma: Option<f64>,
-    pub p_hyperbolic: Option<f64>,
-    pub z_hyperbolic: Option<f64>,
-    /// The score is only a bound (sampled, and no sample or every sample was unbound): read "≤" or "≥".
-    pub z_is_bound: bool,
-    /// For sampled answers: the prior, P under a flat prior, the Bayes factor of unbound vs bound and
-    /// whether the prior rather than the data decided (|log₁₀ K| < 0.5).
-    pub prior: Option<&'static str>,
-    pub p_hyperbolic_flat_prior: Option<f64>,
-    pub bayes_factor: Option<f64>,
-    pub prior_dominated: bool,
-    pub q_au: Option<f64>,
-    pub q_sigma: Option<f64>,
-    pub i_deg: Option<f64>,
-    pub i_sigma: Option<f64>,
-    pub rms_arcsec: Option<f64>,
-    pub chi2_per_dof: Option<f64>,
-    pub epoch_jd_tdb: Option<f64>,
-    pub status: &'static str,
-    pub error: Option<String>,
-    pub e_bary: Option<f64>,
-    pub e_bary_sigma: Option<f64>,
-    pub inv_a_bary: Option<f64>,
-    pub elements: Option<ElementsOut>,
-    pub barycentric: Option<ElementsOut>,
-    pub incoming: Option<Incoming>,
-    pub ranging: Option<RangingOut>,
-    pub n_eff: Option<f64>,
-    pub distrust_linear: Vec<String>,
-    /// Other least-squares minima that fit nearly as well (short arcs).
-    pub alternatives: Vec<Alternative>,
-    pub poor_fit: Vec<String>,
-    pub night_means: Vec<NightMean>,
-    pub residuals: Vec<ResidualOut>,
-    /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
-    pub state: Option<[f64; 6]>,
-    pub covariance: Option<Vec<[f64; 6]>>,
-    /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
-    #[serde(skip)]
-    pub samples: Vec<([f64; 6], f64, f64)>,
-}
-
-impl FitResult {
-    fn empty(tr: &Tracklet) -> FitResult {
-        FitResult {
-            source: tr.source.clone(),
-            object: tr.object.clone(),
-            n_obs: tr.obs.len(),
-            n_used: 0,
-            n_nights: tr.n_nights(),
-            arc_days: tr.arc_days(),
-            method: "least-squares",
-            probability_from: "none",
-            dynamics: "two-body",
-            e: None,
-            e_sigma: None,
-            p_hyperbolic: None,
-            z_hyperbolic: None,
-            z_is_bound: false,
-            prior: None,
-            p_hyperbolic_flat_prior: None,
-            bayes_factor: None,
-            prior_dominated: false,
-            q_au: None,
-            q_sigma: None,
-            i_deg: None,
-            i_sigma: None,
-            rms_arcsec: None,
-            chi2_per_dof: None,
-            epoch_jd_tdb: None,
-            status: "failed",
-            error: None,
-            e_bary: None,
-            e_bary_sigma: None,
-            inv_a_bary: None,
-            elements: None,
-            barycentric: None,
-            incoming: None,
-            ranging: None,
-            n_eff: None,
-            distrust_linear: Vec::new(),
-            alternatives: Vec::new(),
-            poor_fit: Vec::new(),
-            night_means: Vec::new(),
-            residuals: Vec::new(),
-            state: None,
-            covariance: None,
-            samples: Vec::new(),
-        }
-    }
-
-    /// A failed result with its reason.
-    pub fn failed(tr: &Tracklet, reason: impl Into<String>) -> FitResult {
-        let mut r = FitResult::empty(tr);
-        r.error = Some(reason.into());
-        r
-    }
-
-    /// Ranking order: usable fits before poor ones before failures, then by score.
-    pub fn rank_key(&self) -> (u8, f64) {
-        let tier = match self.status {
-            "ok" => 2,
-            "poor-fit" => 1,
-            _ => 0,
-        };
-        (tier, self.z_hyperbolic.unwrap_or(f64::NEG_INFINITY))
-    }
-}
-
-/// Sort results by rank, best first.
-pub fn rank(results: &mut [FitResult]) {
-    results.sort_by(|a, b| {
-        let (ta, za) = a.rank_key();
-        let (tb, zb) = b.rank_key();
-        tb.cmp(&ta)
-            .then(zb.total_cmp(&za))
-            .then(a.object.cmp(&b.object))
-    });
-}
-
-/// Orbits kept per sampled fit for ephemerides: enough for 99 % regions, small enough that ten
-/// thousand candidates stay within a couple of hundred megabytes.
-pub const KEPT_SAMPLES: usize = 200;
-
-/// Systematic resampling to `n` equally weighted orbits: unbiased, tails included (keeping only the
-/// heaviest would shrink the uncertainty region).
-pub fn resample(
-    samples: Vec<([f64; 6], f64, f64)>,
-    n: usize,
-    seed: u64,
-) -> Vec<([f64; 6], f64, f64)> {
-    let total: f64 = samples.iter().map(|s| s.2).sum();
-    if samples.len() <= n || total <= 0.0 {
-        return samples;
-    }
-    let mut rng = super::ranging::SplitMix::new(seed);
-    let step = total / n as f64;
-    let mut u = rng.uniform() * step;
-    let mut acc = 0.0;
-    let mut out = Vec::with_capacity(n);
-    for s in &samples {
-        acc += s.2;
-        while u < acc && out.len() < n {
-            out.push((s.0, s.1, 1.0 / n as f64));
-            u += step;
-        }
-    }
-    out
-}
+/// Arcs shorter than this (days) are one night's positions, whatever the sites: the short-arc
+/// posterior treats them.
+pub const SHORT_ARC_DAYS: f64 = 0.5;
 
 /// Fit one tracklet.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
@@ -326,9 +117,18 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
-    let multi_night = tr.n_nights() >= 2 && tr.arc_days() >= 0.5;
-    if opts.method == MethodChoice::Ranging || !multi_night || tr.obs.len() < 3 {
+    if tr.arc_days() < SHORT_ARC_DAYS || tr.n_nights() < 2 {
+        return fit_one_night(tr, model, &observers, &cov, &opts.population, opts.seed);
+    }
+    if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
         return ranging_result(tr, model, &observers, &cov, &shift, opts, None);
+    }
+    if tr.n_nights() == 2 {
+        if let Some(r) =
+            super::twonight::fit_two_nights(tr, model, &observers, &cov, &shift, epoch, opts)
+        {
+            return r;
+        }
     }
     // Every later way out of least squares is the same: answer by ranging and say why.
     let fallback = |why: &str| ranging_result(tr, model, &observers, &cov, &shift, opts, Some(why));
@@ -389,6 +189,7 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         &shift,
         opts,
         dynamics.name(),
+        None,
     )
 }
 
@@ -567,7 +368,16 @@ fn residual_list(tr: &Tracklet, res: &[[f64; 2]], used: &[bool], chi2: &[f64]) -
         .collect()
 }
 
-fn lsq_result(
+/// A probability worked out before the record (the range profile of a two-night arc): the posterior,
+/// its path and weighted states at the fit's epoch.
+pub struct Given {
+    pub posterior: super::posterior::Posterior,
+    pub from: &'static str,
+    pub states: Vec<S6>,
+    pub weights: Vec<f64>,
+}
+
+pub fn lsq_result(
     tr: &Tracklet,
     p: &Problem,
     fit: &LsqFit,
@@ -575,6 +385,7 @@ fn lsq_result(
     shift: &S6,
     opts: &FitOptions,
     dynamics: &'static str,
+    given: Option<Given>,
 ) -> FitResult {
     let mut out = FitResult::empty(tr);
     out.dynamics = dynamics;
@@ -651,63 +462,31 @@ fn lsq_result(
             alternatives.len()
         ));
     }
-    let z_linear = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
-    // Beyond ±6σ a nonlinearity of a fifth of σ (the trigger) cannot carry e across 1, and samples
-    // could not resolve so small a probability anyway: keep the linear answer there for ≥ 3 nights.
-    let decided = z_linear.abs() >= LINEAR_DECIDES && tr.n_nights() >= 3 && alternatives.is_empty();
-    if out.distrust_linear.is_empty() || decided {
-        let z = z_linear;
-        out.z_hyperbolic = Some(z);
-        out.p_hyperbolic = Some(sigma_eb.map_or(if elb.e > 1.0 { 1.0 } else { 0.0 }, |s| {
-            normal_cdf((elb.e - 1.0) / s.max(1e-300))
-        }));
-        out.probability_from = "linear";
-    } else if let Some(set) = {
-        let mut all: Vec<&LsqFit> = vec![fit];
-        all.extend(alternatives.iter());
-        importance_sample(p, &all, opts.samples, opts.seed, shift)
-    } {
-        let ph = sampled_probability(set.p_hyperbolic, set.n_eff);
-        out.p_hyperbolic = Some(ph);
-        out.z_hyperbolic = Some(probability_score(ph));
-        out.z_is_bound = set.p_hyperbolic <= 0.0 || set.p_hyperbolic >= 1.0;
-        out.prior = Some(SAMPLING_PRIOR);
-        out.p_hyperbolic_flat_prior = Some(set.p_hyperbolic_flat);
-        out.bayes_factor = Some(set.bayes_factor);
-        out.prior_dominated = set.bayes_factor.is_nan() || set.bayes_factor.log10().abs() < 0.5;
-        out.n_eff = Some(set.n_eff);
-        out.probability_from = "importance-sampling";
-        // Uncertainties from the samples, which follow the real (curved) distribution.
-        let ecl_s = equatorial_to_ecliptic();
-        let els: Vec<CometaryElements> = set
-            .states
-            .iter()
-            .map(|x| {
-                let (r, v) = split_state(x);
-                CometaryElements::from_state(&(ecl_s * r), &(ecl_s * v), fit.epoch.value(), MU_SUN)
-            })
-            .collect();
-        let spread = |f: &dyn Fn(&CometaryElements) -> f64| {
-            let v: Vec<f64> = els.iter().map(f).collect();
-            super::sampling::weighted_spread(&v, &set.weights).1
-        };
-        out.e_sigma = Some(spread(&|e| e.e));
-        out.q_sigma = Some(spread(&|e| e.q));
-        out.i_sigma = Some(spread(&|e| e.i));
-        out.samples = resample(
-            set.states
-                .iter()
-                .zip(&set.weights)
-                .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], fit.epoch.value(), *w))
-                .collect(),
-            KEPT_SAMPLES,
-            opts.seed,
-        );
-    } else {
-        let z = linear_score(elb.e, sigma_eb.unwrap_or(0.0));
-        out.z_hyperbolic = Some(z);
-        out.p_hyperbolic = Some(normal_cdf(z));
-        out.probability_from = "linear";
+    let z_linear = sigma_eb.filter(|s| *s > 0.0).map(|s| (elb.e - 1.0) / s);
+    // Beyond ±6σ a nonlinearity of a fifth of σ (the distrust trigger) cannot carry e across 1: keep
+    // the linear answer there for three nights or more.
+    let decided = z_linear.is_some_and(|z| z.abs() >= LINEAR_DECIDES)
+        && tr.n_nights() >= 3
+        && alternatives.is_empty();
+    let trusted = out.distrust_linear.is_empty() || decided;
+    match given {
+        Some(g) => {
+            let (v_mag, assumed) = night_v_mag(tr, &opts.population);
+            out.v_mag = Some(v_mag);
+            out.v_mag_assumed = assumed;
+            out.set_posterior(&g.posterior, g.from, &opts.population.source);
+            sample_spreads(
+                &mut out,
+                &g.states,
+                &g.weights,
+                fit.epoch.value(),
+                opts.seed,
+            );
+        }
+        None => lsq_probability(&mut out, p, fit, alternatives, shift, opts, trusted),
+    }
+    if trusted {
+        out.z_linear = z_linear;
     }
     out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {
@@ -716,6 +495,113 @@ fn lsq_result(
         "poor-fit"
     };
     out
+}
+
+/// P(unbound) of a least-squares fit under the population model: along the energy line where the
+/// linear fit is trusted, by importance sampling where it is not (with the line's answer when the
+/// samples leave one class empty, since they cannot weigh its tail).
+fn lsq_probability(
+    out: &mut FitResult,
+    p: &Problem,
+    fit: &LsqFit,
+    alternatives: &[LsqFit],
+    shift: &S6,
+    opts: &FitOptions,
+    trusted: bool,
+) {
+    let tr = p.tracklet;
+    let model = &opts.population;
+    let (v_mag, assumed) = night_v_mag(tr, model);
+    out.v_mag = Some(v_mag);
+    out.v_mag_assumed = assumed;
+    if assumed {
+        out.distrust_linear
+            .push(format!("no magnitude reported: V {v_mag:.1} assumed"));
+    }
+    let dt = |i: usize| tr.obs[i].time.tdb.minus(fit.epoch).abs();
+    let mid = (0..tr.obs.len())
+        .min_by(|&a, &b| dt(a).total_cmp(&dt(b)))
+        .unwrap_or(0);
+    let observer = p.observers[mid].helio_pos;
+    let line = fit.cov.and_then(|c| {
+        line_posterior(
+            &fit.state,
+            &c,
+            &LineContext {
+                model,
+                sun_bary: *shift,
+                observer,
+                v_mag,
+                v_cap_au_day: opts.ranging.v_cap_km_s / AU_PER_DAY_TO_KM_S,
+            },
+        )
+    });
+    if trusted {
+        match line {
+            Some(post) => out.set_posterior(&post, "linear", &model.source),
+            None => out.error = Some("the covariance gives no spread in energy".into()),
+        }
+        return;
+    }
+    let mut all: Vec<&LsqFit> = vec![fit];
+    all.extend(alternatives.iter());
+    let ctx = PriorContext {
+        model,
+        v_mag,
+        observer,
+    };
+    let Some(set) = importance_sample(p, &all, opts.samples, opts.seed, shift, &ctx) else {
+        if let Some(post) = line {
+            out.set_posterior(&post, "linear", &model.source);
+            out.distrust_linear
+                .push("sampling found no weight: answer from the linear fit".into());
+        }
+        return;
+    };
+    match (set.n_unbound == 0 || set.n_bound == 0, line) {
+        (true, Some(post)) => {
+            out.set_posterior(&post, "linear", &model.source);
+            out.distrust_linear.push(format!(
+                "no sampled orbit was {}: that tail is from the linear fit",
+                if set.n_unbound == 0 {
+                    "unbound"
+                } else {
+                    "bound"
+                }
+            ));
+        }
+        _ => out.set_posterior(&set.posterior, "importance-sampling", &model.source),
+    }
+    sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
+}
+
+/// Element uncertainties from weighted samples (which follow the real, curved distribution), and
+/// the orbits kept for ephemerides.
+fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f64, seed: u64) {
+    let ecl_s = equatorial_to_ecliptic();
+    let els: Vec<CometaryElements> = states
+        .iter()
+        .map(|x| {
+            let (r, v) = split_state(x);
+            CometaryElements::from_state(&(ecl_s * r), &(ecl_s * v), epoch, MU_SUN)
+        })
+        .collect();
+    let spread = |f: &dyn Fn(&CometaryElements) -> f64| {
+        let v: Vec<f64> = els.iter().map(f).collect();
+        super::sampling::weighted_spread(&v, weights).1
+    };
+    out.e_sigma = Some(spread(&|e| e.e));
+    out.q_sigma = Some(spread(&|e| e.q));
+    out.i_sigma = Some(spread(&|e| e.i));
+    out.samples = resample(
+        states
+            .iter()
+            .zip(weights)
+            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], epoch, *w))
+            .collect(),
+        KEPT_SAMPLES,
+        seed,
+    );
 }
 
 fn ranging_result(
@@ -733,7 +619,17 @@ fn ranging_result(
         V3::new(shift[0], shift[1], shift[2]),
         V3::new(shift[3], shift[4], shift[5]),
     );
-    let Some(rr) = range(tr, observers, cov, observer_at, sun, &opts.ranging) else {
+    let (v_mag, assumed) = night_v_mag(tr, &opts.population);
+    let Some(rr) = range(
+        tr,
+        observers,
+        cov,
+        observer_at,
+        sun,
+        &opts.ranging,
+        &opts.population,
+        v_mag,
+    ) else {
         let mut f = FitResult::failed(tr, "ranging found no admissible orbit");
         f.method = "ranging";
         return f;
@@ -741,6 +637,8 @@ fn ranging_result(
     let mut out = FitResult::empty(tr);
     out.method = "ranging";
     out.probability_from = "systematic-ranging";
+    out.v_mag = Some(v_mag);
+    out.v_mag_assumed = assumed;
     fill_ranging(&mut out, tr, observers, &rr, opts);
     if let Some(w) = why {
         out.distrust_linear.push(w.to_string());
@@ -767,7 +665,17 @@ fn ranging_seeds(
     let mut ropts = opts.ranging;
     ropts.n_rho = 60;
     ropts.n_rhodot = 60;
-    let Some(rr) = range(tr, observers, cov, observer_at, sun, &ropts) else {
+    let (v_mag, _) = night_v_mag(tr, &opts.population);
+    let Some(rr) = range(
+        tr,
+        observers,
+        cov,
+        observer_at,
+        sun,
+        &ropts,
+        &opts.population,
+        v_mag,
+    ) else {
         return Vec::new();
     };
     // The best node in each of eight distance bands: separate minima lie at separate distances.
@@ -792,23 +700,6 @@ fn ranging_seeds(
         .collect()
 }
 
-fn instant_at(tr: &Tracklet, t: Jd2) -> crate::physics::time::Instant {
-    crate::physics::time::Instant {
-        tai: t,
-        tt: tdb_to_tt(t),
-        tdb: t,
-        ut1: ut1_of(tr, t),
-        status: tr.obs[0].time.status,
-    }
-}
-
-/// UT1 (≈ UTC) at a TDB time, from the nearest observation's offset (constant within a night).
-fn ut1_of(tr: &Tracklet, t: Jd2) -> Jd2 {
-    let o = &tr.obs[0].time;
-    let offset = o.ut1.minus(o.tdb);
-    t.plus_days(offset)
-}
-
 fn fill_ranging(
     out: &mut FitResult,
     tr: &Tracklet,
@@ -816,14 +707,7 @@ fn fill_ranging(
     rr: &RangingResult,
     opts: &FitOptions,
 ) {
-    let ph = sampled_probability(rr.p_hyperbolic, rr.n_eff);
-    out.p_hyperbolic = Some(ph);
-    out.z_hyperbolic = Some(probability_score(ph));
-    out.z_is_bound = rr.p_hyperbolic <= 0.0 || rr.p_hyperbolic >= 1.0;
-    out.prior = Some(RANGING_PRIOR);
-    out.p_hyperbolic_flat_prior = Some(rr.p_hyperbolic_uniform);
-    out.bayes_factor = Some(rr.bayes_factor);
-    out.prior_dominated = rr.prior_dominated;
+    out.set_posterior(&rr.posterior, "systematic-ranging", &opts.population.source);
     out.n_eff = Some(rr.n_eff);
     out.e = Some(rr.e_interval[1]);
     out.q_au = Some(rr.q_interval[1]);

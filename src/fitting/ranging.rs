@@ -5,13 +5,14 @@
 //! projected off their linear span, which is what a per-node four-parameter fit converges to for a
 //! short arc, at the cost of one prediction per observation.
 //!
-//! Priors. `population` (the default): density ∝ 1/ρ in distance, uniform in ρ̇, and unbound nodes
-//! down-weighted by [`UNBOUND_DENSITY_FACTOR`], because unbound objects are rare among moving objects.
-//! `uniform`: uniform in (ρ, ρ̇) over the capped region, no class factor. Both are reported, with the
-//! Bayes factor K of unbound vs bound (posterior odds over prior odds, which cancels both class weight
-//! and volume); |log₁₀ K| < 0.5 marks a result decided by the prior rather than the data.
+//! Prior: the population model's phase-space density at each node's orbit (with the H its distance
+//! implies) times the Jacobian ρ⁴ of (direction, rate, ρ, ρ̇) → state and the cell's area in
+//! (ln ρ, ρ̇). Used for multi-night arcs whose least squares is degenerate; one night goes to the
+//! short-arc quadrature (`shortarc.rs`).
 
 use super::input::Tracklet;
+use super::population::PopulationModel;
+use super::posterior::{Masses, Posterior, sampled_ln_odds_error};
 use super::stats::{effective_sample_size, weighted_quantile};
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, C_AU_PER_DAY, MU_SUN};
 use crate::physics::elements::CometaryElements;
@@ -22,9 +23,6 @@ use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
 use nalgebra::{DMatrix, DVector, Matrix2};
 
-/// Relative prior density of unbound orbits in the population prior (our choice, no source: it
-/// encodes "rare" without pretending to know the real rate, which is orders of magnitude smaller).
-pub const UNBOUND_DENSITY_FACTOR: f64 = 0.01;
 /// Default speed cap at infinity (km/s).
 pub const DEFAULT_V_CAP_KM_S: f64 = 100.0;
 /// Nearest distance considered (AU): just beyond the Moon, so Earth satellites are not modelled.
@@ -66,11 +64,10 @@ pub struct RangingSample {
     pub rho: f64,
 }
 
-/// A grid node with its prior under both priors and its class.
+/// A grid node with its ln prior weight and its class.
 struct Node {
     sample: RangingSample,
-    prior_pop: f64,
-    prior_uni: f64,
+    ln_prior: f64,
     unbound: bool,
 }
 
@@ -78,10 +75,7 @@ struct Node {
 #[derive(Debug, Clone)]
 pub struct RangingResult {
     pub samples: Vec<RangingSample>,
-    pub p_hyperbolic: f64,
-    pub p_hyperbolic_uniform: f64,
-    pub bayes_factor: f64,
-    pub prior_dominated: bool,
+    pub posterior: Posterior,
     pub n_eff: f64,
     pub e_interval: [f64; 3],
     pub q_interval: [f64; 3],
@@ -205,7 +199,17 @@ pub fn range(
     observer_at_t0: impl Fn(Jd2) -> Option<ObserverState>,
     sun_bary: (V3, V3),
     opts: &RangingOptions,
+    model: &PopulationModel,
+    v_mag: f64,
 ) -> Option<RangingResult> {
+    let sun6 = S6::new(
+        sun_bary.0.x,
+        sun_bary.0.y,
+        sun_bary.0.z,
+        sun_bary.1.x,
+        sun_bary.1.y,
+        sun_bary.1.z,
+    );
     let n = tr.obs.len();
     if n < 2 {
         return None;
@@ -257,7 +261,6 @@ pub fn range(
         for j in 0..opts.n_rhodot {
             let rhodot = lo + drd * (j as f64 + rng.uniform());
             let epoch = att.t0.plus_days(-rho / C_AU_PER_DAY);
-            let v = w0 + rhodot * att.u;
             trials += 1;
             // Whitened O − C of the node's orbit built from a direction and its rate.
             let whitened = |u: &V3, udot: &V3, out: &mut DVector<f64>| -> bool {
@@ -275,7 +278,6 @@ pub fn range(
                 }
                 true
             };
-            let _ = &v;
             if !whitened(&att.u, &att.udot, &mut xi) {
                 continue;
             }
@@ -332,15 +334,17 @@ pub fn range(
             };
             let rr = obs0.helio_pos + rho * u;
             let vv = obs0.helio_vel + rho * udot + rhodot * u;
-            // Bound or not from the barycentric energy (e > 1 exactly when it is positive); the full
-            // elements are computed below, only for nodes that carry weight.
-            let (rb, vb) = (rr + sun_bary.0, vv + sun_bary.1);
-            let unbound = vb.norm_squared() > 2.0 * super::significance::MU_BARY / rb.norm();
-            let area = rho * dln * drd;
-            let prior_pop = dln * drd * if unbound { UNBOUND_DENSITY_FACTOR } else { 1.0 };
+            // Population density at the node's orbit, with the H its distance implies.
+            let x6 = S6::new(rr.x, rr.y, rr.z, vv.x, vv.y, vv.z);
+            let h = model.absolute_magnitude(v_mag, &rr, &obs0.helio_pos);
+            let dens = model.density(&x6, &sun6, h);
+            if dens.ln_f == f64::NEG_INFINITY {
+                continue;
+            }
+            let ln_prior = dens.ln_f + (dln * drd).ln() + 5.0 * rho.ln();
             nodes.push(Node {
                 sample: RangingSample {
-                    state: S6::new(rr.x, rr.y, rr.z, vv.x, vv.y, vv.z),
+                    state: x6,
                     epoch,
                     chi2,
                     weight: 0.0,
@@ -350,9 +354,8 @@ pub fn range(
                     i: f64::NAN,
                     rho,
                 },
-                prior_pop,
-                prior_uni: area,
-                unbound,
+                ln_prior,
+                unbound: dens.unbound,
             });
         }
     }
@@ -383,42 +386,31 @@ pub fn range(
         n.sample.q = el.q;
         n.sample.i = el.i;
     }
-    let chi2_min = nodes
+    let ln_w: Vec<f64> = nodes
         .iter()
-        .map(|n| n.sample.chi2)
-        .fold(f64::INFINITY, f64::min);
-    let like: Vec<f64> = nodes
-        .iter()
-        .map(|n| (-(n.sample.chi2 - chi2_min) / 2.0).exp())
+        .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
         .collect();
-    let sum_class = |prior: &dyn Fn(&Node) -> f64, with_like: bool, unb: bool| {
-        nodes
-            .iter()
-            .zip(&like)
-            .filter(|(n, _)| n.unbound == unb)
-            .map(|(n, l)| prior(n) * if with_like { *l } else { 1.0 })
-            .sum::<f64>()
-    };
-    let pop = |n: &Node| n.prior_pop;
-    let uni = |n: &Node| n.prior_uni;
-    let (pu, pb) = (sum_class(&pop, true, true), sum_class(&pop, true, false));
-    let (uu, ub) = (sum_class(&uni, true, true), sum_class(&uni, true, false));
-    let (qu, qb) = (sum_class(&pop, false, true), sum_class(&pop, false, false));
-    let p_hyp = pu / (pu + pb);
-    let p_uni = uu / (uu + ub);
-    let bayes = if qu > 0.0 && pb > 0.0 && qb > 0.0 {
-        (pu / pb) / (qu / qb)
-    } else if pu > 0.0 {
-        f64::INFINITY
-    } else {
-        0.0
-    };
-    let total = pu + pb;
+    let classes: Vec<bool> = nodes.iter().map(|n| n.unbound).collect();
+    let post = Masses::of(classes.iter().zip(ln_w.iter().copied()));
+    let prior = Masses::of(classes.iter().zip(nodes.iter().map(|n| n.ln_prior)));
+    let top = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if !top.is_finite() {
+        return None;
+    }
+    let raw: Vec<f64> = ln_w.iter().map(|l| (l - top).exp()).collect();
+    let total: f64 = raw.iter().sum();
+    let n_eff_all = effective_sample_size(&raw);
+    let posterior = Posterior::new(
+        post,
+        prior,
+        sampled_ln_odds_error(&ln_w, &classes),
+        Some(n_eff_all),
+    );
     let mut samples: Vec<RangingSample> = nodes
         .iter()
-        .zip(&like)
-        .map(|(n, l)| RangingSample {
-            weight: n.prior_pop * l / total,
+        .zip(&raw)
+        .map(|(n, w)| RangingSample {
+            weight: w / total,
             ..n.sample
         })
         .collect();
@@ -438,10 +430,7 @@ pub fn range(
     samples.retain(|s| s.weight > 1e-9 * wmax);
     Some(RangingResult {
         samples,
-        p_hyperbolic: p_hyp,
-        p_hyperbolic_uniform: p_uni,
-        bayes_factor: bayes,
-        prior_dominated: bayes.is_nan() || bayes.log10().abs() < 0.5,
+        posterior,
         n_eff,
         e_interval,
         q_interval,

@@ -78,19 +78,23 @@ pub fn lines(app: &App) -> Vec<Line<'static>> {
         )));
     }
     out.push(Line::from(format!(
-        "score {}  P(e>1) {}  rms {}\"  χ²/dof {}",
-        num(f.z_hyperbolic, 2),
+        "P(unbound) {}±{}  log₁₀ odds {}  z {}{}  rms {}\"  χ²/dof {}",
         num(f.p_hyperbolic, 4),
+        num(f.p_hyperbolic_error, 4),
+        num(f.log10_odds, 1),
+        num(f.z_hyperbolic, 2),
+        f.z_linear
+            .map_or(String::new(), |z| format!(" (linear {z:+.2})")),
         num(f.rms_arcsec, 2),
         num(f.chi2_per_dof, 2)
     )));
-    if let Some(p) = f.prior {
+    if let Some(p) = &f.prior {
         out.push(Line::from(format!(
-            "prior: {p}; flat-prior P {}; Bayes factor {}{}",
-            num(f.p_hyperbolic_flat_prior, 3),
-            num(f.bayes_factor, 2),
+            "under {}; evidence of the positions log₁₀K {}{}",
+            clean(p),
+            num(f.log10_bayes_factor, 1),
             if f.prior_dominated {
-                " — ANSWER SET BY THE PRIOR"
+                " — SET BY THE MODEL, NOT THE DATA"
             } else {
                 ""
             }

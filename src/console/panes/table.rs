@@ -9,24 +9,16 @@ use ratatui::layout::{Constraint, Rect};
 use ratatui::style::Color;
 use ratatui::widgets::{Block, Borders, Cell, Row, Table};
 
+/// The odds column: log₁₀ of the posterior odds, with ▲ where P ≥ 0.99 on a usable fit.
 fn score_text(c: &Candidate) -> String {
     let f = &c.fit;
-    match f.z_hyperbolic {
-        Some(z) => {
-            let mark = if f.z_is_bound {
-                if z > 0.0 { "≥" } else { "≤" }
-            } else {
-                ""
-            };
-            let flag = if z >= 3.0 && f.status == "ok" {
-                "▲"
-            } else {
-                " "
-            };
-            format!("{flag}{mark}{z:+.1}")
-        }
-        None => " -".into(),
-    }
+    let flag = if strong(f) { "▲" } else { " " };
+    format!("{flag}{}", crate::report::odds_text(f))
+}
+
+/// P(unbound) ≥ 0.99 on a fit without quality problems.
+fn strong(f: &crate::fitting::fit::FitResult) -> bool {
+    f.log10_odds.is_some_and(|z| z >= 2.0) && f.status == "ok"
 }
 
 fn decision_text(c: &Candidate) -> String {
@@ -43,8 +35,8 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     let header_cells: Vec<&str> = if wide {
         vec![
             "object",
-            "score",
-            "P(e>1)",
+            "odds",
+            "P(unb)",
             "e ± σ",
             "q ± σ AU",
             "i°",
@@ -58,7 +50,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         ]
     } else {
         vec![
-            "object", "score", "P(e>1)", "e ± σ", "q AU", "arc", "obs", "status", "decision",
+            "object", "odds", "P(unb)", "e ± σ", "q AU", "arc", "obs", "status", "decision",
         ]
     };
     let widths: Vec<Constraint> = if wide {
@@ -96,13 +88,11 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             };
             let mut cells = vec![
                 Cell::from(clean(&fit.object)),
-                Cell::from(score_text(c)).style(
-                    if fit.z_hyperbolic.unwrap_or(0.0) >= 3.0 && fit.status == "ok" {
-                        theme.fg(Color::Yellow).patch(theme.strong())
-                    } else {
-                        theme.fg(Color::Reset)
-                    },
-                ),
+                Cell::from(score_text(c)).style(if strong(fit) {
+                    theme.fg(Color::Yellow).patch(theme.strong())
+                } else {
+                    theme.fg(Color::Reset)
+                }),
                 Cell::from(num(fit.p_hyperbolic, 3)),
                 Cell::from(e),
             ];
@@ -121,10 +111,10 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             cells.push(Cell::from(format!("{}/{}", fit.n_used, fit.n_obs)));
             if wide {
                 cells.push(Cell::from(num(fit.rms_arcsec, 2)));
-                cells.push(Cell::from(if fit.method == "ranging" {
-                    "ranging"
-                } else {
-                    "lsq"
+                cells.push(Cell::from(match fit.method {
+                    "ranging" => "ranging",
+                    "short-arc" => "1 night",
+                    _ => "lsq",
                 }));
             }
             cells.push(Cell::from(status).style(match fit.status {

@@ -1,0 +1,277 @@
+//! One night of positions to one answer: the geometry the short-arc posterior needs (observer, its
+//! acceleration, the Sun's barycentric motion, the night's magnitude), a refinement loop that keeps
+//! the quadrature error small against the decision, and the record the console and `fit` show.
+
+use super::input::Tracklet;
+use super::population::PopulationModel;
+use super::result::{FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, elements_out};
+use super::shortarc::{Geometry, Node, ShortArc, ShortArcOptions, one_night};
+use super::stats::weighted_quantile;
+use crate::physics::constants::{ARCSEC, MU_SUN};
+use crate::physics::elements::CometaryElements;
+use crate::physics::frames::equatorial_to_ecliptic;
+use crate::physics::observe::{ObserverModel, ObserverState};
+use crate::physics::time::{Instant, Jd2, tdb_to_tt, tt_to_utc};
+use crate::physics::{S6, V3, split_state};
+
+/// Largest one-sigma error of ln(odds) accepted before the ln ρ rule is refined (a factor e^0.25 ≈ 1.3
+/// on the odds: well inside what changes a decision).
+pub const MAX_LN_ODDS_ERROR: f64 = 0.25;
+
+/// Mean V of the night from the reported magnitudes and bands, or the model's assumption.
+pub fn night_v_mag(tr: &Tracklet, model: &PopulationModel) -> (f64, bool) {
+    let v: Vec<f64> = tr
+        .obs
+        .iter()
+        .filter_map(|o| {
+            o.mag
+                .filter(|m| m.is_finite())
+                .map(|m| m + model.band_offset(o.band.as_deref()))
+        })
+        .collect();
+    if v.is_empty() {
+        (model.file.default_mag_v, true)
+    } else {
+        (v.iter().sum::<f64>() / v.len() as f64, false)
+    }
+}
+
+/// An instant at a TDB date, with UT1 offset taken from the tracklet's first observation.
+pub fn instant_at(tr: &Tracklet, t: Jd2) -> Instant {
+    let o = &tr.obs[0].time;
+    Instant {
+        tai: t,
+        tt: tdb_to_tt(t),
+        tdb: t,
+        ut1: t.plus_days(o.ut1.minus(o.tdb)),
+        status: o.status,
+    }
+}
+
+/// Observer state at `t` for the middle observation's site, and its heliocentric acceleration by
+/// central differences (diurnal rotation included).
+fn observer_with_acceleration(
+    tr: &Tracklet,
+    model: &ObserverModel,
+    t: Jd2,
+) -> Option<(ObserverState, V3)> {
+    let loc = tr.obs[tr.obs.len() / 2].location;
+    let h = 0.002;
+    let at = |dt: f64| model.observer(&loc, &instant_at(tr, t.plus_days(dt))).ok();
+    let (o, a, b) = (at(0.0)?, at(-h)?, at(h)?);
+    Some((o, (b.helio_vel - a.helio_vel) / (2.0 * h)))
+}
+
+/// Fit one night by the short-arc posterior.
+pub fn fit_one_night(
+    tr: &Tracklet,
+    model: &ObserverModel,
+    observers: &[ObserverState],
+    cov: &[nalgebra::Matrix2<f64>],
+    population: &PopulationModel,
+    seed: u64,
+) -> FitResult {
+    let fail = |why: String| {
+        let mut f = FitResult::failed(tr, why);
+        f.method = "short-arc";
+        f
+    };
+    let Some(att) = super::shortarc::attributable(tr, cov) else {
+        return fail("the positions do not define a direction and rate".into());
+    };
+    let Some((observer, observer_acc)) = observer_with_acceleration(tr, model, att.t0) else {
+        return fail("no observer position at the mean epoch".into());
+    };
+    let sun_bary = match model.earth(att.t0) {
+        Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
+        Err(e) => return fail(e.to_string()),
+    };
+    let (v_mag, assumed) = night_v_mag(tr, population);
+    let g = Geometry {
+        observer,
+        observer_acc,
+        sun_bary,
+        v_mag,
+    };
+    let mut opts = ShortArcOptions::default();
+    let mut arc = match one_night(tr, cov, &g, population, &opts) {
+        Ok(a) => a,
+        Err(e) => return fail(e.to_string()),
+    };
+    for _ in 0..2 {
+        if arc.posterior.ln_odds_error <= MAX_LN_ODDS_ERROR {
+            break;
+        }
+        opts.n_rho = 2 * opts.n_rho - 1;
+        match one_night(tr, cov, &g, population, &opts) {
+            Ok(a) => arc = a,
+            Err(e) => return fail(e.to_string()),
+        }
+    }
+    let mut out = FitResult::empty(tr);
+    out.method = "short-arc";
+    out.v_mag = Some(v_mag);
+    out.v_mag_assumed = assumed;
+    out.set_posterior(&arc.posterior, "short-arc-quadrature", &population.source);
+    if arc.posterior.ln_odds_error > MAX_LN_ODDS_ERROR {
+        out.distrust_linear.push(format!(
+            "probability uncertain by a factor {:.1} in the odds",
+            arc.posterior.ln_odds_error.exp()
+        ));
+    }
+    if assumed {
+        out.distrust_linear
+            .push(format!("no magnitude reported: V {v_mag:.1} assumed"));
+    }
+    summarise(&mut out, tr, observers, &arc, &g, seed);
+    out
+}
+
+/// Orbits, elements, residuals and quality from the weighted nodes.
+fn summarise(
+    out: &mut FitResult,
+    tr: &Tracklet,
+    observers: &[ObserverState],
+    arc: &ShortArc,
+    g: &Geometry,
+    seed: u64,
+) {
+    let top = arc
+        .nodes
+        .iter()
+        .map(|n| n.ln_w)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let weights: Vec<f64> = arc.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+    out.n_eff = Some(super::stats::effective_sample_size(&weights));
+    // Kept orbits: systematic resampling, each with the attributable drawn from its uncertainty.
+    let picks = systematic(&weights, KEPT_SAMPLES, seed);
+    let mut rng = super::ranging::SplitMix::new(seed ^ 0xA77);
+    let s = arc.attributable.sigma;
+    let ecl = equatorial_to_ecliptic();
+    let mut kept = Vec::with_capacity(picks.len());
+    let mut els = Vec::with_capacity(picks.len());
+    for &k in &picks {
+        let d = [
+            s[0] * rng.normal(),
+            s[1] * rng.normal(),
+            s[2] * rng.normal(),
+            s[3] * rng.normal(),
+        ];
+        let (x, t) = arc.state(g, &arc.nodes[k], d);
+        let (r, v) = split_state(&x);
+        els.push(CometaryElements::from_state(
+            &(ecl * r),
+            &(ecl * v),
+            t.value(),
+            MU_SUN,
+        ));
+        kept.push((
+            [x[0], x[1], x[2], x[3], x[4], x[5]],
+            t.value(),
+            1.0 / picks.len() as f64,
+        ));
+    }
+    let eq = vec![1.0; els.len()];
+    let q3 = |f: &dyn Fn(&CometaryElements) -> f64| {
+        let v: Vec<f64> = els.iter().map(f).collect();
+        [0.025, 0.1587, 0.5, 0.8413, 0.975]
+            .map(|q| weighted_quantile(&v, &eq, q).unwrap_or(f64::NAN))
+    };
+    let (qe, qq, qi) = (q3(&|e| e.e), q3(&|e| e.q), q3(&|e| e.i));
+    out.e = Some(qe[2]);
+    out.e_sigma = Some((qe[3] - qe[1]) / 2.0);
+    out.q_au = Some(qq[2]);
+    out.q_sigma = Some((qq[3] - qq[1]) / 2.0);
+    out.i_deg = Some(qi[2]);
+    out.i_sigma = Some((qi[3] - qi[1]) / 2.0);
+    out.ranging = Some(RangingOut {
+        trials: arc.evaluations,
+        n_eff: out.n_eff.unwrap_or(0.0),
+        v_cap_km_s: ShortArcOptions::default().v_cap_km_s,
+        e_interval: [qe[0], qe[2], qe[4]],
+        q_interval: [qq[0], qq[2], qq[4]],
+        i_interval: [qi[0], qi[2], qi[4]],
+    });
+    out.samples = kept;
+    // The most probable node stands for the orbit in the panes and residuals.
+    let best: &Node = arc
+        .nodes
+        .iter()
+        .max_by(|a, b| a.ln_w.total_cmp(&b.ln_w))
+        .unwrap_or(&arc.nodes[0]);
+    let (x, t) = arc.state(g, best, [0.0; 4]);
+    let (r, v) = split_state(&x);
+    let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), t.value(), MU_SUN);
+    let xb = x + g.sun_bary;
+    let (rb, vb) = split_state(&xb);
+    let elb = CometaryElements::from_state(&rb, &vb, t.value(), super::significance::MU_BARY);
+    out.e_bary = Some(elb.e);
+    out.inv_a_bary = Some(elb.inv_a);
+    out.epoch_jd_tdb = Some(t.value());
+    out.elements = Some(elements_out(&el, None, MU_SUN));
+    out.state = Some([x[0], x[1], x[2], x[3], x[4], x[5]]);
+    out.n_used = tr.obs.len();
+    let mut res = Vec::with_capacity(tr.obs.len());
+    for (i, o) in tr.obs.iter().enumerate() {
+        let p = super::ranging::quick_predict(&r, &v, t, o.time.tdb, &observers[i]);
+        res.push(p.map_or([f64::NAN; 2], |p| {
+            crate::physics::observe::residual(o.ra, o.dec, &p)
+        }));
+    }
+    let (mut ss, mut nn) = (0.0, 0usize);
+    for r in &res {
+        ss += r[0] * r[0] + r[1] * r[1];
+        nn += 2;
+    }
+    out.rms_arcsec = Some((ss / nn.max(1) as f64).sqrt() / ARCSEC);
+    let att = &arc.attributable;
+    let chi2_dof = att.chi2 / att.dof.max(1) as f64;
+    out.chi2_per_dof = Some(chi2_dof);
+    out.residuals = tr
+        .obs
+        .iter()
+        .enumerate()
+        .map(|(i, o)| ResidualOut {
+            time_utc: tt_to_utc(o.time.tt).to_string(),
+            site: o.site_code.clone(),
+            night: tr.night[i],
+            ra_deg: o.ra.to_degrees(),
+            dec_deg: o.dec.to_degrees(),
+            ra_arcsec: res[i][0] / ARCSEC,
+            dec_arcsec: res[i][1] / ARCSEC,
+            used: true,
+            chi2: f64::NAN,
+        })
+        .collect();
+    if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF {
+        out.poor_fit.push(format!(
+            "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"
+        ));
+    }
+    out.status = if out.poor_fit.is_empty() {
+        "ok"
+    } else {
+        "poor-fit"
+    };
+}
+
+/// Indices picked by systematic resampling of `n` from weights (deterministic for a seed).
+fn systematic(weights: &[f64], n: usize, seed: u64) -> Vec<usize> {
+    let total: f64 = weights.iter().sum();
+    if total <= 0.0 || weights.is_empty() {
+        return Vec::new();
+    }
+    let mut rng = super::ranging::SplitMix::new(seed);
+    let step = total / n as f64;
+    let mut u = rng.uniform() * step;
+    let mut acc = 0.0;
+    let mut out = Vec::with_capacity(n);
+    for (k, w) in weights.iter().enumerate() {
+        acc += w;
+        while u < acc && out.len() < n {
+            out.push(k);
+            u += step;
+        }
+    }
+    out
+}

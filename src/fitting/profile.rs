@@ -1,0 +1,486 @@
+//! The posterior of a short multi-night arc along its range profile: the state at the epoch is written
+//! as a direction and its rate (X, Y, Ẋ, Ẏ in a tangent plane), a distance ρ and a radial velocity ρ̇
+//! from a reference observer. For each ρ on a logarithmic grid the other five are fitted to every
+//! observation (a constrained least squares, continued from the neighbouring ρ), so the thin valley a
+//! second night leaves in (ρ, ρ̇) is followed exactly instead of being missed by a grid. Across the
+//! valley the fit is Gaussian in ρ̇ (and in the direction and rate, whose volume is kept); along ρ̇ the
+//! population density is integrated by Gauss–Legendre nodes between the energies where populations
+//! begin or end, as in the one-night quadrature. Weight of a node:
+//! exp(−χ²/2) · f(state) · ρ⁴ · √det Γ(X, Y, Ẋ, Ẏ | ρ, ρ̇) · cell.
+
+use super::lsq::Problem;
+use super::population::PopulationModel;
+use super::posterior::{Masses, Posterior};
+use super::shortarc::tangent_axes;
+use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_BARY_OVER_SUN, MU_SUN};
+use crate::physics::observe::ObserverState;
+use crate::physics::{S6, V3};
+use nalgebra::{SMatrix, SVector};
+
+const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
+type M5 = SMatrix<f64, 5, 5>;
+type V5 = SVector<f64, 5>;
+
+const GL_X: [f64; 4] = [
+    -0.861_136_311_594_052_6,
+    -0.339_981_043_584_856_3,
+    0.339_981_043_584_856_3,
+    0.861_136_311_594_052_6,
+];
+const GL_W: [f64; 4] = [
+    0.347_854_845_137_453_9,
+    0.652_145_154_862_546_1,
+    0.652_145_154_862_546_1,
+    0.347_854_845_137_453_9,
+];
+
+#[derive(Debug, Clone, Copy)]
+pub struct ProfileOptions {
+    pub n_rho: usize,
+    pub rho_min_au: f64,
+    pub rho_max_au: f64,
+    pub v_cap_km_s: f64,
+    /// Half-width of the ρ̇ window in standard deviations of the slice's fit.
+    pub window_sigma: f64,
+}
+
+impl Default for ProfileOptions {
+    fn default() -> Self {
+        ProfileOptions {
+            n_rho: 81,
+            rho_min_au: super::ranging::RHO_MIN_AU,
+            rho_max_au: super::ranging::RHO_MAX_AU,
+            v_cap_km_s: super::ranging::DEFAULT_V_CAP_KM_S,
+            window_sigma: 7.0,
+        }
+    }
+}
+
+/// The parametrisation: a reference observer and tangent plane at the problem's epoch.
+#[derive(Debug, Clone, Copy)]
+pub struct Frame {
+    pub observer: ObserverState,
+    pub u_ref: V3,
+    pub e_a: V3,
+    pub e_d: V3,
+}
+
+impl Frame {
+    pub fn new(observer: ObserverState, u_ref: V3) -> Frame {
+        let u = u_ref.normalize();
+        let (e_a, e_d) = tangent_axes(&u);
+        Frame {
+            observer,
+            u_ref: u,
+            e_a,
+            e_d,
+        }
+    }
+
+    /// State from (X, Y, Ẋ, Ẏ, ρ̇) at distance ρ.
+    pub fn state(&self, a: &V5, rho: f64) -> S6 {
+        let u = (self.u_ref + a[0] * self.e_a + a[1] * self.e_d).normalize();
+        let raw = a[2] * self.e_a + a[3] * self.e_d;
+        let udot = raw - u * u.dot(&raw);
+        let r = self.observer.helio_pos + rho * u;
+        let v = self.observer.helio_vel + rho * udot + a[4] * u;
+        S6::new(r.x, r.y, r.z, v.x, v.y, v.z)
+    }
+
+    /// (X, Y, Ẋ, Ẏ, ρ̇) and ρ of a state.
+    pub fn params(&self, x: &S6) -> (V5, f64) {
+        let r = V3::new(x[0], x[1], x[2]) - self.observer.helio_pos;
+        let v = V3::new(x[3], x[4], x[5]) - self.observer.helio_vel;
+        let rho = r.norm();
+        let u = r / rho;
+        let rhodot = v.dot(&u);
+        let udot = (v - rhodot * u) / rho;
+        let w = u.dot(&self.u_ref);
+        (
+            V5::new(
+                u.dot(&self.e_a) / w,
+                u.dot(&self.e_d) / w,
+                udot.dot(&self.e_a),
+                udot.dot(&self.e_d),
+                rhodot,
+            ),
+            rho,
+        )
+    }
+}
+
+/// The best fit on one ρ slice.
+#[derive(Debug, Clone, Copy)]
+pub struct Slice {
+    pub rho: f64,
+    pub a: V5,
+    pub chi2: f64,
+    /// Inverse of the slice's normal matrix (covariance of the five).
+    pub cov: M5,
+}
+
+/// Least squares of the five at fixed ρ, from `start` (Levenberg–Marquardt on whitened rows).
+pub fn solve_slice(
+    p: &Problem,
+    frame: &Frame,
+    rho: f64,
+    start: V5,
+    used: &[bool],
+) -> Option<Slice> {
+    let mut a = start;
+    let mut lambda = 1e-3;
+    let mut last: Option<(f64, M5, V5)> = None;
+    for _ in 0..30 {
+        let (chi2, n, g) = normal(p, frame, rho, &a, used)?;
+        if let Some((prev, _, _)) = last {
+            if (prev - chi2).abs() <= 1e-7 * chi2.max(1.0) {
+                last = Some((chi2, n, g));
+                break;
+            }
+        }
+        // Jacobi-scaled damped step; accept if χ² falls, else raise the damping.
+        let d = V5::from_fn(|i, _| n[(i, i)].sqrt().max(1e-300));
+        let mut accepted = false;
+        for _ in 0..8 {
+            let ns =
+                M5::from_fn(|i, j| n[(i, j)] / (d[i] * d[j]) + if i == j { lambda } else { 0.0 });
+            let Some(step) = ns.cholesky().map(|c| c.solve(&g.component_div(&d))) else {
+                lambda *= 10.0;
+                continue;
+            };
+            let trial = a + step.component_div(&d);
+            match chi2_at(p, frame, rho, &trial, used) {
+                Some(c) if c <= chi2 => {
+                    a = trial;
+                    lambda = (lambda / 10.0).max(1e-9);
+                    accepted = true;
+                    break;
+                }
+                _ => lambda *= 10.0,
+            }
+        }
+        last = Some((chi2, n, g));
+        if !accepted {
+            break;
+        }
+    }
+    let (chi2, n, _) = normal(p, frame, rho, &a, used)?;
+    let _ = last;
+    let cov = n.try_inverse()?;
+    Some(Slice { rho, a, chi2, cov })
+}
+
+fn chi2_at(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<f64> {
+    p.chi2(&frame.state(a, rho), used).ok()
+}
+
+/// χ², normal matrix and right-hand side of the five at (a, ρ).
+fn normal(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<(f64, M5, V5)> {
+    let x = frame.state(a, rho);
+    // ∂state/∂(five) by central differences of the (cheap, smooth) map.
+    let steps = [1e-7, 1e-7, 1e-6, 1e-6, 1e-7];
+    let mut jm = SMatrix::<f64, 6, 5>::zeros();
+    for k in 0..5 {
+        let mut ap = *a;
+        let mut am = *a;
+        ap[k] += steps[k];
+        am[k] -= steps[k];
+        let d = (frame.state(&ap, rho) - frame.state(&am, rho)) / (2.0 * steps[k]);
+        jm.set_column(k, &d);
+    }
+    let ev = p.evaluate_all(&x).ok()?;
+    let mut n = M5::zeros();
+    let mut g = V5::zeros();
+    let mut chi2 = 0.0;
+    for (i, (pred, res, jac)) in ev.iter().enumerate() {
+        if pred.obj_pos.norm() < 0.005 {
+            return None;
+        }
+        if !used[i] {
+            continue;
+        }
+        let w = &p.whiten[i];
+        let wr = w * nalgebra::Vector2::new(res[0], res[1]);
+        let wj = w * jac * jm;
+        chi2 += wr.norm_squared();
+        n += wj.transpose() * wj;
+        g += wj.transpose() * wr;
+    }
+    Some((chi2, n, g))
+}
+
+/// One weighted trial orbit of the profile.
+#[derive(Debug, Clone, Copy)]
+pub struct ProfileNode {
+    pub state: S6,
+    pub rho: f64,
+    pub unbound: bool,
+    pub ln_w: f64,
+    pub ln_prior: f64,
+    pub k_rho: usize,
+}
+
+/// The profile's answer.
+#[derive(Debug, Clone)]
+pub struct Profile {
+    pub slices: Vec<Slice>,
+    pub nodes: Vec<ProfileNode>,
+    pub posterior: Posterior,
+    pub best: Slice,
+}
+
+/// What the density needs besides the state.
+pub struct DensityContext<'a> {
+    pub model: &'a PopulationModel,
+    pub sun_bary: S6,
+    pub v_mag: f64,
+}
+
+/// Slices at the given distances (ascending), continued outwards from the one nearest `start`.
+fn slices_at(
+    p: &Problem,
+    frame: &Frame,
+    rhos: &[f64],
+    start: (V5, f64),
+    used: &[bool],
+) -> Vec<Slice> {
+    if rhos.is_empty() {
+        return Vec::new();
+    }
+    let k0 = (0..rhos.len())
+        .min_by(|&a, &b| {
+            (rhos[a] / start.1)
+                .ln()
+                .abs()
+                .total_cmp(&(rhos[b] / start.1).ln().abs())
+        })
+        .unwrap_or(0);
+    let mut out: Vec<Option<Slice>> = vec![None; rhos.len()];
+    out[k0] = solve_slice(p, frame, rhos[k0], start.0, used);
+    for dir in [1i64, -1] {
+        let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
+        let mut k = k0 as i64 + dir;
+        while k >= 0 && (k as usize) < rhos.len() {
+            let ku = k as usize;
+            out[ku] = solve_slice(p, frame, rhos[ku], prev, used);
+            if let Some(s) = out[ku] {
+                prev = s.a;
+            }
+            k += dir;
+        }
+    }
+    out.into_iter().flatten().collect()
+}
+
+/// Slices over the whole ρ grid, then a finer grid where χ² is within reach of its minimum (two
+/// nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ.
+pub fn slices(
+    p: &Problem,
+    frame: &Frame,
+    start: (V5, f64),
+    used: &[bool],
+    opts: &ProfileOptions,
+) -> Vec<Slice> {
+    let n = opts.n_rho.max(3);
+    let dln = (opts.rho_max_au / opts.rho_min_au).ln() / (n - 1) as f64;
+    let coarse: Vec<f64> = (0..n)
+        .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
+        .collect();
+    let mut all = slices_at(p, frame, &coarse, start, used);
+    let Some(best) = all.iter().min_by(|a, b| a.chi2.total_cmp(&b.chi2)).copied() else {
+        return all;
+    };
+    let near: Vec<f64> = all
+        .iter()
+        .filter(|s| s.chi2 - best.chi2 < 60.0)
+        .map(|s| s.rho.ln())
+        .collect();
+    let lo = near.iter().copied().fold(f64::INFINITY, f64::min) - dln;
+    let hi = near.iter().copied().fold(f64::NEG_INFINITY, f64::max) + dln;
+    let lo = lo.max(opts.rho_min_au.ln());
+    let hi = hi.min(opts.rho_max_au.ln());
+    let m = 48;
+    let fine: Vec<f64> = (1..m)
+        .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
+        .collect();
+    all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi);
+    all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used));
+    all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+    all
+}
+
+/// Trapezoid weights in ln ρ for nodes at arbitrary (sorted) distances.
+fn trapezoid(rhos: &[f64]) -> Vec<f64> {
+    let x: Vec<f64> = rhos.iter().map(|r| r.ln()).collect();
+    (0..x.len())
+        .map(|k| {
+            let left = if k > 0 { x[k] - x[k - 1] } else { 0.0 };
+            let right = if k + 1 < x.len() {
+                x[k + 1] - x[k]
+            } else {
+                0.0
+            };
+            0.5 * (left + right)
+        })
+        .collect()
+}
+
+/// The posterior along the profile.
+pub fn profile(
+    p: &Problem,
+    frame: &Frame,
+    start: (V5, f64),
+    used: &[bool],
+    ctx: &DensityContext,
+    opts: &ProfileOptions,
+) -> Option<Profile> {
+    let all = slices(p, frame, start, used, opts);
+    let best = all
+        .iter()
+        .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
+        .copied()?;
+    let rhos: Vec<f64> = all.iter().map(|s| s.rho).collect();
+    let cell = trapezoid(&rhos);
+    let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let breaks = ctx.model.inverse_a_breaks();
+    let sun_p = V3::new(ctx.sun_bary[0], ctx.sun_bary[1], ctx.sun_bary[2]);
+    let sun_v = V3::new(ctx.sun_bary[3], ctx.sun_bary[4], ctx.sun_bary[5]);
+    let mut nodes = Vec::new();
+    for (k, s) in all.iter().enumerate() {
+        // Slices far above the best cannot carry weight (e^-40 below it).
+        if s.chi2 - best.chi2 > 80.0 {
+            continue;
+        }
+        let var_rd = s.cov[(4, 4)];
+        if !(var_rd.is_finite() && var_rd > 0.0) {
+            continue;
+        }
+        let sd = var_rd.sqrt();
+        // Conditional shift of the direction and rate per unit ρ̇, and their conditional volume.
+        let shift = V5::from_fn(|i, _| s.cov[(i, 4)] / var_rd);
+        let cond = M5::from_fn(|i, j| s.cov[(i, j)] - s.cov[(i, 4)] * s.cov[(j, 4)] / var_rd);
+        let det4 = cond.fixed_view::<4, 4>(0, 0).determinant();
+        if !(det4.is_finite() && det4 > 0.0) {
+            continue;
+        }
+        let ln_cell = cell[k].ln() + 5.0 * s.rho.ln() + 0.5 * det4.ln();
+        // ρ̇ window, cut at the speed cap, with breaks where the energy crosses population edges.
+        let x0 = frame.state(&s.a, s.rho);
+        let r_b = V3::new(x0[0], x0[1], x0[2]) + sun_p;
+        let u = (r_b - sun_p - frame.observer.helio_pos).normalize();
+        let w_b = V3::new(x0[3], x0[4], x0[5]) + sun_v - s.a[4] * u;
+        let c1 = w_b.dot(&u);
+        let x_max = 2.0 / r_b.norm() - (w_b.norm_squared() - c1 * c1) / MU_BARY;
+        let y_cap = (MU_BARY * x_max + v_cap * v_cap).max(0.0).sqrt();
+        let (lo, hi) = (
+            (s.a[4] - opts.window_sigma * sd).max(-c1 - y_cap),
+            (s.a[4] + opts.window_sigma * sd).min(-c1 + y_cap),
+        );
+        if hi <= lo {
+            continue;
+        }
+        let mut edges = vec![lo, hi];
+        for c in [-3.0, -1.5, -0.5, 0.5, 1.5, 3.0] {
+            edges.push(s.a[4] + c * sd);
+        }
+        // A class boundary beyond the window still gets its Gaussian tail, which lies within a few
+        // σ²/distance of the boundary: without it the other class would have no weight at all.
+        let mut tails: Vec<(f64, f64)> = Vec::new();
+        if x_max > 0.0 {
+            let yb = (MU_BARY * x_max).sqrt();
+            for b in [-c1 - yb, -c1 + yb] {
+                let dist = (b - s.a[4]).abs();
+                let reach = 30.0 * sd * sd / dist.max(sd);
+                if b > hi && b < -c1 + y_cap {
+                    tails.push((b, (b + reach).min(-c1 + y_cap)));
+                } else if b < lo && b > -c1 - y_cap {
+                    tails.push(((b - reach).max(-c1 - y_cap), b));
+                }
+            }
+        }
+        for xb in &breaks {
+            if *xb < x_max {
+                let y = (MU_BARY * (x_max - xb)).sqrt();
+                edges.extend([-c1 - y, -c1 + y]);
+            }
+        }
+        edges.retain(|e| *e >= lo && *e <= hi);
+        edges.sort_by(f64::total_cmp);
+        edges.dedup();
+        let mut intervals: Vec<(f64, f64)> = edges.windows(2).map(|w| (w[0], w[1])).collect();
+        for (a, b) in tails {
+            // Geometric pieces from the boundary outwards.
+            let (near, far) = if (a - s.a[4]).abs() < (b - s.a[4]).abs() {
+                (a, b)
+            } else {
+                (b, a)
+            };
+            let mut prev = near;
+            for f in [0.01, 0.03, 0.1, 0.3, 1.0] {
+                let next = near + (far - near) * f;
+                intervals.push((prev.min(next), prev.max(next)));
+                prev = next;
+            }
+        }
+        for w in intervals.iter().map(|(a, b)| [*a, *b]) {
+            let half = 0.5 * (w[1] - w[0]);
+            if half <= 0.0 {
+                continue;
+            }
+            for (gx, gw) in GL_X.iter().zip(GL_W) {
+                let rd = 0.5 * (w[0] + w[1]) + half * gx;
+                let a = s.a + shift * (rd - s.a[4]);
+                let x = frame.state(&a, s.rho);
+                let r = V3::new(x[0], x[1], x[2]);
+                let h = ctx
+                    .model
+                    .absolute_magnitude(ctx.v_mag, &r, &frame.observer.helio_pos);
+                let d = ctx.model.density(&x, &ctx.sun_bary, h);
+                if d.ln_f == f64::NEG_INFINITY {
+                    continue;
+                }
+                let ln_prior = d.ln_f + ln_cell + (gw * half).ln();
+                let dchi2 = s.chi2 - best.chi2 + ((rd - s.a[4]) / sd).powi(2);
+                nodes.push(ProfileNode {
+                    state: x,
+                    rho: s.rho,
+                    unbound: d.unbound,
+                    ln_w: ln_prior - 0.5 * dchi2,
+                    ln_prior,
+                    k_rho: k,
+                });
+            }
+        }
+    }
+    if nodes.is_empty() {
+        return None;
+    }
+    let post = Masses::of(nodes.iter().map(|n| (&n.unbound, n.ln_w)));
+    let prior = Masses::of(nodes.iter().map(|n| (&n.unbound, n.ln_prior)));
+    // The half rule: every other slice with its own trapezoid weights.
+    let even: Vec<f64> = rhos.iter().step_by(2).copied().collect();
+    let cell_half = trapezoid(&even);
+    let half: Vec<(bool, f64)> = nodes
+        .iter()
+        .filter(|n| n.k_rho % 2 == 0)
+        .map(|n| {
+            (
+                n.unbound,
+                n.ln_w - cell[n.k_rho].ln() + cell_half[n.k_rho / 2].ln(),
+            )
+        })
+        .collect();
+    let post_half = Masses::of(half.iter().map(|(u, w)| (u, *w)));
+    let err = (post.ln_odds() - post_half.ln_odds()).abs();
+    Some(Profile {
+        slices: all,
+        posterior: Posterior::new(
+            post,
+            prior,
+            if err.is_finite() { err } else { f64::INFINITY },
+            None,
+        ),
+        nodes,
+        best,
+    })
+}

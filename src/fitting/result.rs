@@ -1,0 +1,275 @@
+//! What a fit answers, as one record: the `fit --json` object, the console's row and the ephemeris's
+//! input. Built by the paths in `fit.rs`, `onenight.rs` and `linear.rs`; ranked by `rank`.
+
+use super::covariance::ElementSigmas;
+use super::input::Tracklet;
+use super::posterior::Posterior;
+use super::quality::NightMean;
+use super::significance::Incoming;
+use crate::physics::elements::CometaryElements;
+
+/// Elements with 1σ, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ElementsOut {
+    pub q_au: f64,
+    pub e: f64,
+    pub i_deg: f64,
+    pub node_deg: f64,
+    pub peri_deg: f64,
+    pub tp_jd_tdb: f64,
+    pub inv_a_per_au: f64,
+    pub a_au: Option<f64>,
+    pub mean_anomaly_deg: Option<f64>,
+    pub sigma: Option<ElementSigmas>,
+}
+
+pub fn elements_out(el: &CometaryElements, sigma: Option<ElementSigmas>, mu: f64) -> ElementsOut {
+    ElementsOut {
+        q_au: el.q,
+        e: el.e,
+        i_deg: el.i,
+        node_deg: el.node,
+        peri_deg: el.peri,
+        tp_jd_tdb: el.tp,
+        inv_a_per_au: el.inv_a,
+        a_au: el.a(),
+        mean_anomaly_deg: el.mean_anomaly(mu),
+        sigma,
+    }
+}
+
+/// Ranging summary, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct RangingOut {
+    pub trials: usize,
+    pub n_eff: f64,
+    pub v_cap_km_s: f64,
+    pub e_interval: [f64; 3],
+    pub q_interval: [f64; 3],
+    pub i_interval: [f64; 3],
+}
+
+/// Another solution of a short arc.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Alternative {
+    pub delta_chi2: f64,
+    pub e: f64,
+    pub q_au: f64,
+    pub i_deg: f64,
+}
+
+/// One observation's residual, as printed.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct ResidualOut {
+    pub time_utc: String,
+    pub site: String,
+    pub night: usize,
+    /// Observed position (degrees).
+    pub ra_deg: f64,
+    pub dec_deg: f64,
+    pub ra_arcsec: f64,
+    pub dec_arcsec: f64,
+    pub used: bool,
+    pub chi2: f64,
+}
+
+/// The answer for one tracklet (the `fit --json` record).
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct FitResult {
+    pub source: String,
+    pub object: String,
+    pub n_obs: usize,
+    pub n_used: usize,
+    pub n_nights: usize,
+    pub arc_days: f64,
+    pub method: &'static str,
+    pub probability_from: &'static str,
+    pub dynamics: &'static str,
+    pub e: Option<f64>,
+    pub e_sigma: Option<f64>,
+    /// Posterior probability that the barycentric orbit is unbound under the population model (the
+    /// same meaning on every path), its one-sigma numerical error, and Φ⁻¹ of it.
+    pub p_hyperbolic: Option<f64>,
+    pub p_hyperbolic_error: Option<f64>,
+    pub z_hyperbolic: Option<f64>,
+    /// log₁₀ of the posterior odds unbound : bound, the number the candidates are ranked by (it keeps
+    /// an order where P is within rounding of 0 or 1).
+    pub log10_odds: Option<f64>,
+    /// One class had no weight at all, so P is exactly 0 or 1 only as far as the trial orbits reach:
+    /// read the score as "≤" or "≥".
+    pub z_is_bound: bool,
+    /// (e_bary − 1)/σ where the linear fit is trusted: the data's own significance, without a prior.
+    pub z_linear: Option<f64>,
+    /// Which population model the probability is under.
+    pub prior: Option<String>,
+    /// Posterior odds ÷ the model's odds over the same trial orbits without the likelihood: what the
+    /// positions themselves say; |log₁₀ K| < 0.5 means the model rather than the data decided.
+    pub bayes_factor: Option<f64>,
+    pub log10_bayes_factor: Option<f64>,
+    pub prior_dominated: bool,
+    /// Mean V magnitude behind the absolute magnitudes of the trial orbits, and whether it was
+    /// assumed because the positions carried none.
+    pub v_mag: Option<f64>,
+    pub v_mag_assumed: bool,
+    pub q_au: Option<f64>,
+    pub q_sigma: Option<f64>,
+    pub i_deg: Option<f64>,
+    pub i_sigma: Option<f64>,
+    pub rms_arcsec: Option<f64>,
+    pub chi2_per_dof: Option<f64>,
+    pub epoch_jd_tdb: Option<f64>,
+    pub status: &'static str,
+    pub error: Option<String>,
+    pub e_bary: Option<f64>,
+    pub e_bary_sigma: Option<f64>,
+    pub inv_a_bary: Option<f64>,
+    pub elements: Option<ElementsOut>,
+    pub barycentric: Option<ElementsOut>,
+    pub incoming: Option<Incoming>,
+    pub ranging: Option<RangingOut>,
+    pub n_eff: Option<f64>,
+    pub distrust_linear: Vec<String>,
+    /// Other least-squares minima that fit nearly as well (short arcs).
+    pub alternatives: Vec<Alternative>,
+    pub poor_fit: Vec<String>,
+    pub night_means: Vec<NightMean>,
+    pub residuals: Vec<ResidualOut>,
+    /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
+    pub state: Option<[f64; 6]>,
+    pub covariance: Option<Vec<[f64; 6]>>,
+    /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
+    #[serde(skip)]
+    pub samples: Vec<([f64; 6], f64, f64)>,
+}
+
+impl FitResult {
+    pub fn empty(tr: &Tracklet) -> FitResult {
+        FitResult {
+            source: tr.source.clone(),
+            object: tr.object.clone(),
+            n_obs: tr.obs.len(),
+            n_used: 0,
+            n_nights: tr.n_nights(),
+            arc_days: tr.arc_days(),
+            method: "least-squares",
+            probability_from: "none",
+            dynamics: "two-body",
+            e: None,
+            e_sigma: None,
+            p_hyperbolic: None,
+            p_hyperbolic_error: None,
+            z_hyperbolic: None,
+            log10_odds: None,
+            z_is_bound: false,
+            z_linear: None,
+            prior: None,
+            bayes_factor: None,
+            log10_bayes_factor: None,
+            prior_dominated: false,
+            v_mag: None,
+            v_mag_assumed: false,
+            q_au: None,
+            q_sigma: None,
+            i_deg: None,
+            i_sigma: None,
+            rms_arcsec: None,
+            chi2_per_dof: None,
+            epoch_jd_tdb: None,
+            status: "failed",
+            error: None,
+            e_bary: None,
+            e_bary_sigma: None,
+            inv_a_bary: None,
+            elements: None,
+            barycentric: None,
+            incoming: None,
+            ranging: None,
+            n_eff: None,
+            distrust_linear: Vec::new(),
+            alternatives: Vec::new(),
+            poor_fit: Vec::new(),
+            night_means: Vec::new(),
+            residuals: Vec::new(),
+            state: None,
+            covariance: None,
+            samples: Vec::new(),
+        }
+    }
+
+    /// A failed result with its reason.
+    pub fn failed(tr: &Tracklet, reason: impl Into<String>) -> FitResult {
+        let mut r = FitResult::empty(tr);
+        r.error = Some(reason.into());
+        r
+    }
+
+    /// Ranking order: usable fits before poor ones before failures, then by posterior odds.
+    pub fn rank_key(&self) -> (u8, f64) {
+        let tier = match self.status {
+            "ok" => 2,
+            "poor-fit" => 1,
+            _ => 0,
+        };
+        (tier, self.log10_odds.unwrap_or(f64::NEG_INFINITY))
+    }
+
+    /// Record a posterior: P, its error, the score, the odds and the evidence.
+    pub fn set_posterior(&mut self, p: &Posterior, from: &'static str, model: &str) {
+        let finite = |x: f64| x.is_finite().then_some(x);
+        self.p_hyperbolic = Some(p.p());
+        self.p_hyperbolic_error = Some(p.p_error()).filter(|e| e.is_finite());
+        self.z_hyperbolic = finite(p.z());
+        self.log10_odds = Some(p.log10_odds()).filter(|x| !x.is_nan());
+        self.z_is_bound = !p.ln_odds.is_finite();
+        self.prior = Some(model.to_string());
+        let l10k = p.ln_bayes / std::f64::consts::LN_10;
+        self.log10_bayes_factor = finite(l10k);
+        self.bayes_factor = finite(l10k)
+            .map(|l| 10f64.powf(l))
+            .filter(|k| k.is_finite());
+        self.prior_dominated = !l10k.is_finite() || l10k.abs() < 0.5;
+        self.n_eff = p.n_eff;
+        self.probability_from = from;
+    }
+}
+
+/// Sort results by rank, best first.
+pub fn rank(results: &mut [FitResult]) {
+    results.sort_by(|a, b| {
+        let (ta, za) = a.rank_key();
+        let (tb, zb) = b.rank_key();
+        tb.cmp(&ta)
+            .then(zb.total_cmp(&za))
+            .then(a.object.cmp(&b.object))
+    });
+}
+
+/// Orbits kept per sampled fit for ephemerides: enough for 99 % regions, small enough that ten
+/// thousand candidates stay within a couple of hundred megabytes.
+pub const KEPT_SAMPLES: usize = 200;
+
+/// Systematic resampling to `n` equally weighted orbits: unbiased, tails included (keeping only the
+/// heaviest would shrink the uncertainty region).
+pub fn resample(
+    samples: Vec<([f64; 6], f64, f64)>,
+    n: usize,
+    seed: u64,
+) -> Vec<([f64; 6], f64, f64)> {
+    let total: f64 = samples.iter().map(|s| s.2).sum();
+    if samples.len() <= n || total <= 0.0 {
+        return samples;
+    }
+    let mut rng = super::ranging::SplitMix::new(seed);
+    let step = total / n as f64;
+    let mut u = rng.uniform() * step;
+    let mut acc = 0.0;
+    let mut out = Vec::with_capacity(n);
+    for s in &samples {
+        acc += s.2;
+        while u < acc && out.len() < n {
+            out.push((s.0, s.1, 1.0 / n as f64));
+            u += step;
+        }
+    }
+    out
+}

@@ -1,0 +1,118 @@
+//! Two nights of positions: the range profile gives the posterior (P, element spreads, orbits for the
+//! ephemeris) and its most probable slice starts the full least-squares fit that supplies residuals,
+//! outliers and the record's elements.
+
+use super::fit::{FitOptions, Given, lsq_result};
+use super::input::Tracklet;
+use super::lsq::{Problem, correct_with_outliers};
+use super::onenight::{instant_at, night_v_mag};
+use super::perturb::TwoBody;
+use super::profile::{DensityContext, Frame, ProfileOptions, profile};
+use super::result::FitResult;
+use crate::physics::constants::MU_SUN;
+use crate::physics::frames::unit_from_radec;
+use crate::physics::observe::{ObserverModel, ObserverState};
+use crate::physics::time::Jd2;
+use crate::physics::{S6, V3};
+use nalgebra::SVector;
+
+/// Fit a two-night arc by its range profile; None hands it back to the general path (long arcs that
+/// need planets, or a profile that found nothing).
+pub fn fit_two_nights(
+    tr: &Tracklet,
+    model: &ObserverModel,
+    observers: &[ObserverState],
+    cov: &[nalgebra::Matrix2<f64>],
+    shift: &S6,
+    epoch: Jd2,
+    opts: &FitOptions,
+) -> Option<FitResult> {
+    if tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
+        return None;
+    }
+    let two_body = TwoBody;
+    let p = Problem::new(
+        tr,
+        observers.to_vec(),
+        cov.to_vec(),
+        epoch,
+        MU_SUN,
+        &two_body,
+    );
+    let loc = tr.obs[tr.obs.len() / 2].location;
+    let observer = model.observer(&loc, &instant_at(tr, epoch)).ok()?;
+    let dirs: Vec<V3> = tr
+        .obs
+        .iter()
+        .map(|o| unit_from_radec(o.ra, o.dec))
+        .collect();
+    let frame = Frame::new(observer, dirs[0] + dirs[dirs.len() - 1]);
+    let start = straight_start(tr, &dirs, &frame, epoch);
+    let (v_mag, _) = night_v_mag(tr, &opts.population);
+    let ctx = DensityContext {
+        model: &opts.population,
+        sun_bary: *shift,
+        v_mag,
+    };
+    let used = vec![true; tr.obs.len()];
+    let popts = ProfileOptions {
+        v_cap_km_s: opts.ranging.v_cap_km_s,
+        ..ProfileOptions::default()
+    };
+    let prof = profile(&p, &frame, (start, 1.0), &used, &ctx, &popts)?;
+    let best_state = frame.state(&prof.best.a, prof.best.rho);
+    let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
+    let top = prof
+        .nodes
+        .iter()
+        .map(|n| n.ln_w)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+    let total: f64 = raw.iter().sum();
+    let given = Given {
+        posterior: prof.posterior,
+        from: "range-profile",
+        states: prof.nodes.iter().map(|n| n.state).collect(),
+        weights: raw.iter().map(|w| w / total).collect(),
+    };
+    Some(lsq_result(
+        tr,
+        &p,
+        &fit,
+        &[],
+        shift,
+        opts,
+        "two-body",
+        Some(given),
+    ))
+}
+
+/// Direction and rate at the epoch from a straight line through all positions in the frame's
+/// tangent plane (enough to start the first slice), with no radial motion.
+fn straight_start(tr: &Tracklet, dirs: &[V3], frame: &Frame, epoch: Jd2) -> SVector<f64, 5> {
+    let n = dirs.len() as f64;
+    let t: Vec<f64> = tr.obs.iter().map(|o| o.time.tdb.minus(epoch)).collect();
+    let gx: Vec<f64> = dirs
+        .iter()
+        .map(|d| d.dot(&frame.e_a) / d.dot(&frame.u_ref))
+        .collect();
+    let gy: Vec<f64> = dirs
+        .iter()
+        .map(|d| d.dot(&frame.e_d) / d.dot(&frame.u_ref))
+        .collect();
+    let tm = t.iter().sum::<f64>() / n;
+    let stt: f64 = t.iter().map(|x| (x - tm).powi(2)).sum::<f64>().max(1e-12);
+    let line = |g: &[f64]| {
+        let gm = g.iter().sum::<f64>() / n;
+        let slope = t
+            .iter()
+            .zip(g)
+            .map(|(x, y)| (x - tm) * (y - gm))
+            .sum::<f64>()
+            / stt;
+        (gm - slope * tm, slope)
+    };
+    let (x0, xd) = line(&gx);
+    let (y0, yd) = line(&gy);
+    SVector::<f64, 5>::new(x0, y0, xd, yd, 0.0)
+}
