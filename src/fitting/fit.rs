@@ -123,15 +123,30 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
         return ranging_result(tr, model, &observers, &cov, &shift, opts, None);
     }
+    let inputs = super::twonight::ArcInputs {
+        tr,
+        model,
+        observers: &observers,
+        cov: &cov,
+        shift,
+        epoch,
+        opts,
+    };
     if tr.n_nights() == 2 {
-        if let Some(r) =
-            super::twonight::fit_two_nights(tr, model, &observers, &cov, &shift, epoch, opts)
-        {
+        if let Some(r) = super::twonight::fit_two_nights(&inputs) {
             return r;
         }
     }
-    // Every later way out of least squares is the same: answer by ranging and say why.
-    let fallback = |why: &str| ranging_result(tr, model, &observers, &cov, &shift, opts, Some(why));
+    // Every later way out of least squares is the same: answer along the range profile (ranging if
+    // even that finds nothing) and say why.
+    let fallback = |why: &str| {
+        super::twonight::fit_by_profile(&inputs, None, &TwoBody)
+            .map(|mut r| {
+                r.distrust_linear.push(why.to_string());
+                r
+            })
+            .unwrap_or_else(|| ranging_result(tr, model, &observers, &cov, &shift, opts, Some(why)))
+    };
     let two_body = TwoBody;
     let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
     // Short multi-night arcs have several minima: ranging over all nights finds the right basin.
@@ -181,8 +196,19 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         }
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
+    // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
+    // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
+    let distrusted =
+        !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
+    let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
+        && tr.n_nights() >= 3
+        && alternatives.is_empty();
+    if distrusted && !decided {
+        if let Some(r) = super::twonight::fit_by_profile(&inputs, Some(fit.state), dynamics) {
+            return r;
+        }
+    }
     lsq_result(
-        tr,
         &problem,
         &fit,
         &alternatives,
@@ -191,6 +217,17 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         dynamics.name(),
         None,
     )
+}
+
+/// (e_bary − 1)/σ of a least-squares fit, where it has a covariance.
+fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
+    let cov = fit.cov?;
+    let xb = fit.state + shift;
+    let (rb, vb) = split_state(&xb);
+    let g = eccentricity_gradient(&rb, &vb, MU_BARY);
+    let s = (g * cov * g.transpose())[0].max(0.0).sqrt();
+    let e = CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e;
+    (s > 0.0).then(|| (e - 1.0) / s)
 }
 
 /// Initial orbits from Gauss's method on night triplets, each corrected; the best by χ², then
@@ -378,7 +415,6 @@ pub struct Given {
 }
 
 pub fn lsq_result(
-    tr: &Tracklet,
     p: &Problem,
     fit: &LsqFit,
     alternatives: &[LsqFit],
@@ -387,6 +423,7 @@ pub fn lsq_result(
     dynamics: &'static str,
     given: Option<Given>,
 ) -> FitResult {
+    let tr = p.tracklet;
     let mut out = FitResult::empty(tr);
     out.dynamics = dynamics;
     out.method = "least-squares";
@@ -627,8 +664,7 @@ fn ranging_result(
         observer_at,
         sun,
         &opts.ranging,
-        &opts.population,
-        v_mag,
+        (&opts.population, v_mag),
     ) else {
         let mut f = FitResult::failed(tr, "ranging found no admissible orbit");
         f.method = "ranging";
@@ -673,8 +709,7 @@ fn ranging_seeds(
         observer_at,
         sun,
         &ropts,
-        &opts.population,
-        v_mag,
+        (&opts.population, v_mag),
     ) else {
         return Vec::new();
     };

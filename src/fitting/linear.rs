@@ -5,7 +5,7 @@
 //! the other five the density changes little over a well-determined fit. Gauss–Legendre nodes go
 //! between the places where the density jumps (population edges in 1/a) and crowd the class boundary
 //! on the side it lies, so that tails of 10⁻³⁰⁰ still rank in the right order. The numerical error is
-//! the difference from a two-point rule on the same intervals.
+//! the difference between three- and two-point rules on the same intervals.
 
 use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior};
@@ -14,17 +14,11 @@ use crate::physics::{M6, S6, V3, split_state};
 
 const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
 
-const GL4_X: [f64; 4] = [
-    -0.861_136_311_594_052_6,
-    -0.339_981_043_584_856_3,
-    0.339_981_043_584_856_3,
-    0.861_136_311_594_052_6,
-];
-const GL4_W: [f64; 4] = [
-    0.347_854_845_137_453_9,
-    0.652_145_154_862_546_1,
-    0.652_145_154_862_546_1,
-    0.347_854_845_137_453_9,
+const GL3_X: [f64; 3] = [-0.774_596_669_241_483_4, 0.0, 0.774_596_669_241_483_4];
+const GL3_W: [f64; 3] = [
+    0.555_555_555_555_555_6,
+    0.888_888_888_888_889,
+    0.555_555_555_555_555_6,
 ];
 const GL2_X: [f64; 2] = [-0.577_350_269_189_625_8, 0.577_350_269_189_625_8];
 const GL2_W: [f64; 2] = [1.0, 1.0];
@@ -75,8 +69,8 @@ pub fn line_posterior(x: &S6, cov: &M6, ctx: &LineContext) -> Option<Posterior> 
     let s_lo = s_cap.max((-10.0_f64).min(s0 - 15.0 * scale));
     let s_hi = 10.0_f64.max(s0 + 15.0 * scale);
     let mut edges: Vec<f64> = vec![s_lo, s_hi, s0];
-    edges.extend((-20..=20).map(|k| 0.5 * k as f64));
-    for c in [0.01, 0.03, 0.1, 0.3, 1.0, 3.0, 10.0] {
+    edges.extend((-6..=6).map(f64::from));
+    for c in [0.03, 0.1, 0.3, 1.0, 3.0, 10.0] {
         edges.push(s0 - c * scale);
         edges.push(s0 + c * scale);
     }
@@ -122,7 +116,7 @@ pub fn line_posterior(x: &S6, cov: &M6, ctx: &LineContext) -> Option<Posterior> 
             Masses::of(prior.iter().map(|(u, w)| (u, *w))),
         )
     };
-    let (post, prior) = rule(&GL4_X, &GL4_W);
+    let (post, prior) = rule(&GL3_X, &GL3_W);
     let (post2, _) = rule(&GL2_X, &GL2_W);
     if !post.ln_unbound.is_finite() && !post.ln_bound.is_finite() {
         return None;

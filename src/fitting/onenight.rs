@@ -14,9 +14,15 @@ use crate::physics::observe::{ObserverModel, ObserverState};
 use crate::physics::time::{Instant, Jd2, tdb_to_tt, tt_to_utc};
 use crate::physics::{S6, V3, split_state};
 
-/// Largest one-sigma error of ln(odds) accepted before the ln ρ rule is refined (a factor e^0.25 ≈ 1.3
-/// on the odds: well inside what changes a decision).
-pub const MAX_LN_ODDS_ERROR: f64 = 0.25;
+/// The ln ρ rule is refined while the one-sigma error of P exceeds this (what could change a decision)
+/// ...
+pub const MAX_P_ERROR: f64 = 0.005;
+/// ... or the odds are uncertain by more than this factor in ln (what could change the ranking).
+pub const MAX_LN_ODDS_ERROR: f64 = 1.0;
+
+fn settled(p: &super::posterior::Posterior) -> bool {
+    p.p_error() <= MAX_P_ERROR && p.ln_odds_error <= MAX_LN_ODDS_ERROR
+}
 
 /// Mean V of the night from the reported magnitudes and bands, or the model's assumption.
 pub fn night_v_mag(tr: &Tracklet, model: &PopulationModel) -> (f64, bool) {
@@ -99,7 +105,7 @@ pub fn fit_one_night(
         Err(e) => return fail(e.to_string()),
     };
     for _ in 0..2 {
-        if arc.posterior.ln_odds_error <= MAX_LN_ODDS_ERROR {
+        if settled(&arc.posterior) {
             break;
         }
         opts.n_rho = 2 * opts.n_rho - 1;
@@ -113,7 +119,7 @@ pub fn fit_one_night(
     out.v_mag = Some(v_mag);
     out.v_mag_assumed = assumed;
     out.set_posterior(&arc.posterior, "short-arc-quadrature", &population.source);
-    if arc.posterior.ln_odds_error > MAX_LN_ODDS_ERROR {
+    if !settled(&arc.posterior) {
         out.distrust_linear.push(format!(
             "probability uncertain by a factor {:.1} in the odds",
             arc.posterior.ln_odds_error.exp()

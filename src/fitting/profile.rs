@@ -47,7 +47,7 @@ pub struct ProfileOptions {
 impl Default for ProfileOptions {
     fn default() -> Self {
         ProfileOptions {
-            n_rho: 81,
+            n_rho: 41,
             rho_min_au: super::ranging::RHO_MIN_AU,
             rho_max_au: super::ranging::RHO_MAX_AU,
             v_cap_km_s: super::ranging::DEFAULT_V_CAP_KM_S,
@@ -133,7 +133,7 @@ pub fn solve_slice(
     for _ in 0..30 {
         let (chi2, n, g) = normal(p, frame, rho, &a, used)?;
         if let Some((prev, _, _)) = last {
-            if (prev - chi2).abs() <= 1e-7 * chi2.max(1.0) {
+            if (prev - chi2).abs() <= 1e-5 * chi2.max(1.0) {
                 last = Some((chi2, n, g));
                 break;
             }
@@ -236,13 +236,21 @@ pub struct DensityContext<'a> {
     pub v_mag: f64,
 }
 
-/// Slices at the given distances (ascending), continued outwards from the one nearest `start`.
+/// A direction of the coarse pass stops after this many slices in a row each worse than the best so
+/// far by more than `GIVE_UP_DCHI2` and worse than the one before: beyond them the posterior is below
+/// e^-100 and χ² only grows (a second minimum lies within a factor of a few in ρ of the first).
+const GIVE_UP_RUN: usize = 4;
+const GIVE_UP_DCHI2: f64 = 200.0;
+
+/// Slices at the given distances (ascending), continued outwards from the one nearest `start`;
+/// with `prune`, a direction is abandoned once χ² has risen far above the best for a run of slices.
 fn slices_at(
     p: &Problem,
     frame: &Frame,
     rhos: &[f64],
     start: (V5, f64),
     used: &[bool],
+    prune: bool,
 ) -> Vec<Slice> {
     if rhos.is_empty() {
         return Vec::new();
@@ -257,14 +265,24 @@ fn slices_at(
         .unwrap_or(0);
     let mut out: Vec<Option<Slice>> = vec![None; rhos.len()];
     out[k0] = solve_slice(p, frame, rhos[k0], start.0, used);
+    let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
     for dir in [1i64, -1] {
         let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
+        let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
+        let mut run = 0;
         let mut k = k0 as i64 + dir;
         while k >= 0 && (k as usize) < rhos.len() {
             let ku = k as usize;
             out[ku] = solve_slice(p, frame, rhos[ku], prev, used);
             if let Some(s) = out[ku] {
                 prev = s.a;
+                best = best.min(s.chi2);
+                let rising = s.chi2 > last_chi2 && s.chi2 > best + GIVE_UP_DCHI2;
+                run = if rising { run + 1 } else { 0 };
+                last_chi2 = s.chi2;
+            }
+            if prune && run >= GIVE_UP_RUN {
+                break;
             }
             k += dir;
         }
@@ -286,7 +304,7 @@ pub fn slices(
     let coarse: Vec<f64> = (0..n)
         .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
         .collect();
-    let mut all = slices_at(p, frame, &coarse, start, used);
+    let mut all = slices_at(p, frame, &coarse, start, used, true);
     let Some(best) = all.iter().min_by(|a, b| a.chi2.total_cmp(&b.chi2)).copied() else {
         return all;
     };
@@ -299,12 +317,12 @@ pub fn slices(
     let hi = near.iter().copied().fold(f64::NEG_INFINITY, f64::max) + dln;
     let lo = lo.max(opts.rho_min_au.ln());
     let hi = hi.min(opts.rho_max_au.ln());
-    let m = 48;
+    let m = 24;
     let fine: Vec<f64> = (1..m)
         .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
         .collect();
     all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi);
-    all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used));
+    all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used, false));
     all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
     all
 }

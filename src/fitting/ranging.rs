@@ -199,9 +199,9 @@ pub fn range(
     observer_at_t0: impl Fn(Jd2) -> Option<ObserverState>,
     sun_bary: (V3, V3),
     opts: &RangingOptions,
-    model: &PopulationModel,
-    v_mag: f64,
+    prior: (&PopulationModel, f64),
 ) -> Option<RangingResult> {
+    let (model, v_mag) = prior;
     let sun6 = S6::new(
         sun_bary.0.x,
         sun_bary.0.y,

@@ -22,22 +22,16 @@ use nalgebra::{Matrix2, Matrix3, Vector3};
 
 const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
 
-/// Gauss–Legendre nodes and weights on [−1, 1], four points.
-const GL_X: [f64; 4] = [
-    -0.861_136_311_594_052_6,
-    -0.339_981_043_584_856_3,
-    0.339_981_043_584_856_3,
-    0.861_136_311_594_052_6,
-];
-const GL_W: [f64; 4] = [
-    0.347_854_845_137_453_9,
-    0.652_145_154_862_546_1,
-    0.652_145_154_862_546_1,
-    0.347_854_845_137_453_9,
+/// Gauss–Legendre nodes and weights on [−1, 1], three points.
+const GL_X: [f64; 3] = [-0.774_596_669_241_483_4, 0.0, 0.774_596_669_241_483_4];
+const GL_W: [f64; 3] = [
+    0.555_555_555_555_555_6,
+    0.888_888_888_888_889,
+    0.555_555_555_555_555_6,
 ];
 
 /// Speeds at infinity (km/s) where extra quadrature breaks go on the unbound side.
-const V_INF_BREAKS_KM_S: [f64; 6] = [3.0, 10.0, 20.0, 35.0, 55.0, 80.0];
+const V_INF_BREAKS_KM_S: [f64; 3] = [12.0, 30.0, 60.0];
 
 #[derive(Debug, Clone, Copy)]
 pub struct ShortArcOptions {
@@ -52,7 +46,7 @@ impl Default for ShortArcOptions {
     fn default() -> Self {
         ShortArcOptions {
             v_cap_km_s: super::ranging::DEFAULT_V_CAP_KM_S,
-            n_rho: 97,
+            n_rho: 61,
             rho_min_au: super::ranging::RHO_MIN_AU,
             rho_max_au: super::ranging::RHO_MAX_AU,
         }
@@ -231,14 +225,6 @@ pub enum ShortArcError {
     NoWeight,
 }
 
-/// ln of the population density at a state, given the geometry (H from the magnitude).
-fn ln_density(model: &PopulationModel, g: &Geometry, x: &S6) -> (bool, f64) {
-    let r = V3::new(x[0], x[1], x[2]);
-    let h = model.absolute_magnitude(g.v_mag, &r, &g.observer.helio_pos);
-    let d = model.density(x, &g.sun_bary, h);
-    (d.unbound, d.ln_f)
-}
-
 /// Posterior over (ρ, ρ̇) for one night.
 pub fn one_night(
     tr: &Tracklet,
@@ -269,6 +255,8 @@ pub fn one_night(
         let end = if k == 0 || k == n_rho - 1 { 0.5 } else { 1.0 };
         let ln_cell = (end * dln).ln() + 5.0 * rho.ln();
         let r_h = g.observer.helio_pos + rho * att.u;
+        // The absolute magnitude depends on the position only: once per distance.
+        let h = model.absolute_magnitude(g.v_mag, &r_h, &g.observer.helio_pos);
         let w_h = g.observer.helio_vel + rho * att.udot;
         let (r_b, w_b) = (r_h + sun_p, w_h + sun_v);
         let c1 = w_b.dot(&att.u);
@@ -316,7 +304,8 @@ pub fn one_night(
                     let v_h = w_h + rhodot * att.u;
                     let x = S6::new(r_h.x, r_h.y, r_h.z, v_h.x, v_h.y, v_h.z);
                     evaluations += 1;
-                    let (unbound, ln_f) = ln_density(model, g, &x);
+                    let d = model.density(&x, &g.sun_bary, h);
+                    let (unbound, ln_f) = (d.unbound, d.ln_f);
                     if ln_f == f64::NEG_INFINITY {
                         continue;
                     }

@@ -6,7 +6,7 @@ use super::fit::{FitOptions, Given, lsq_result};
 use super::input::Tracklet;
 use super::lsq::{Problem, correct_with_outliers};
 use super::onenight::{instant_at, night_v_mag};
-use super::perturb::TwoBody;
+use super::perturb::{Dynamics, TwoBody};
 use super::profile::{DensityContext, Frame, ProfileOptions, profile};
 use super::result::FitResult;
 use crate::physics::constants::MU_SUN;
@@ -16,28 +16,43 @@ use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
 use nalgebra::SVector;
 
+/// What every multi-night path shares about one tracklet.
+pub struct ArcInputs<'a> {
+    pub tr: &'a Tracklet,
+    pub model: &'a ObserverModel,
+    pub observers: &'a [ObserverState],
+    pub cov: &'a [nalgebra::Matrix2<f64>],
+    pub shift: S6,
+    pub epoch: Jd2,
+    pub opts: &'a FitOptions,
+}
+
 /// Fit a two-night arc by its range profile; None hands it back to the general path (long arcs that
 /// need planets, or a profile that found nothing).
-pub fn fit_two_nights(
-    tr: &Tracklet,
-    model: &ObserverModel,
-    observers: &[ObserverState],
-    cov: &[nalgebra::Matrix2<f64>],
-    shift: &S6,
-    epoch: Jd2,
-    opts: &FitOptions,
-) -> Option<FitResult> {
-    if tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
+pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
+    if inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
         return None;
     }
-    let two_body = TwoBody;
+    fit_by_profile(inp, None, &TwoBody)
+}
+
+/// Any multi-night arc along its range profile (the answer for two nights, for arcs whose linear
+/// answer cannot be trusted, and the way out when least squares finds no orbit), from `start` or a
+/// straight line through the positions.
+pub fn fit_by_profile(
+    inp: &ArcInputs,
+    start: Option<S6>,
+    dynamics: &dyn Dynamics,
+) -> Option<FitResult> {
+    let (tr, model, opts, epoch) = (inp.tr, inp.model, inp.opts, inp.epoch);
+    let shift = &inp.shift;
     let p = Problem::new(
         tr,
-        observers.to_vec(),
-        cov.to_vec(),
+        inp.observers.to_vec(),
+        inp.cov.to_vec(),
         epoch,
         MU_SUN,
-        &two_body,
+        dynamics,
     );
     let loc = tr.obs[tr.obs.len() / 2].location;
     let observer = model.observer(&loc, &instant_at(tr, epoch)).ok()?;
@@ -47,7 +62,10 @@ pub fn fit_two_nights(
         .map(|o| unit_from_radec(o.ra, o.dec))
         .collect();
     let frame = Frame::new(observer, dirs[0] + dirs[dirs.len() - 1]);
-    let start = straight_start(tr, &dirs, &frame, epoch);
+    let start = match start {
+        Some(x) => frame.params(&x),
+        None => (straight_start(tr, &dirs, &frame, epoch), 1.0),
+    };
     let (v_mag, _) = night_v_mag(tr, &opts.population);
     let ctx = DensityContext {
         model: &opts.population,
@@ -59,7 +77,7 @@ pub fn fit_two_nights(
         v_cap_km_s: opts.ranging.v_cap_km_s,
         ..ProfileOptions::default()
     };
-    let prof = profile(&p, &frame, (start, 1.0), &used, &ctx, &popts)?;
+    let prof = profile(&p, &frame, start, &used, &ctx, &popts)?;
     let best_state = frame.state(&prof.best.a, prof.best.rho);
     let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
     let top = prof
@@ -76,13 +94,12 @@ pub fn fit_two_nights(
         weights: raw.iter().map(|w| w / total).collect(),
     };
     Some(lsq_result(
-        tr,
         &p,
         &fit,
         &[],
         shift,
         opts,
-        "two-body",
+        dynamics.name(),
         Some(given),
     ))
 }

@@ -602,17 +602,14 @@ class Tally:
             return np.sqrt(var) / self.w
 
 
-def finish_chunk(tally, base, rh, vh, h, w, plan, extra=None):
+def finish_chunk(tally, rh, vh, h, w, plan):
     det, site, start, nr0 = survey(rh, vh, h, plan)
     tally.add(w, det, nr0)
     keep = np.nonzero(det[:, 0])[0]
-    rec = {"draw": base + keep, "w": w[keep], "h": h[keep], "rh": rh[keep], "vh": vh[keep],
+    rec = {"draw": keep, "w": w[keep], "h": h[keep], "rh": rh[keep], "vh": vh[keep],
            "det": det[keep], "site": site[keep], "start": start[keep]}
     for k in ("j", "days", "nobs", "dur", "u_thin", "sigma"):
         rec[k] = plan[k][keep]
-    if extra is not None:
-        for k, v in extra.items():
-            rec[k] = v[keep]
     tally.records.append(rec)
 
 
@@ -654,7 +651,7 @@ def draw_bound(pop, seed):
         w[live] = span / n_all
         idx = np.nonzero(live)[0]
         sub = {k: v[idx] for k, v in plan.items()}
-        finish_chunk(t, 0, rh[idx], vh[idx], h[idx], w[idx], sub)
+        finish_chunk(t, rh[idx], vh[idx], h[idx], w[idx], sub)
         t.records[-1]["draw"] = base + idx[t.records[-1]["draw"]]
     return t
 
@@ -700,7 +697,7 @@ def draw_perihelion(pop, seed):
         w[ok] = span / 365.25 / (N_PERIHELION * prop[idx][ok])
         sel = np.nonzero(ok)[0]
         sub2 = {k: v[sel] for k, v in sub.items()}
-        finish_chunk(t, 0, rh[sel], vh[sel], h[sel], w[sel], sub2)
+        finish_chunk(t, rh[sel], vh[sel], h[sel], w[sel], sub2)
         t.records[-1]["draw"] = base + idx[sel[t.records[-1]["draw"]]]
     return t
 
@@ -732,6 +729,12 @@ class PositionProposal:
 
 
 def draw_interstellar(ist, vel, seed):
+    """Interstellar objects present at the snapshot. Each proposal is a barycentric position x from
+    PositionProposal and one velocity v from the VelocityModel proposal q; it is accepted with probability
+    g(v_inf_in(x, v)) / (M(r) q(v)) <= 1, so that the target phase-space density n(H) g(v_inf_in) is
+    sampled exactly up to the known factor M(r) / p(x). H is then drawn from the size law below the
+    brightest-possible bound of the night, and an accepted draw stands for
+    (n(<H_hi) - n(<H_min)) M(r) / (p(x) N_proposals) objects (an unbiased estimate)."""
     rng = np.random.default_rng(seed)
     law = SizeLaw(ist["density_per_au3"], ist["h_ref"], ist["size_slope"])
     h_min = ist["h_ref"] - 17.0
@@ -763,7 +766,7 @@ def draw_interstellar(ist, vel, seed):
         w[ok] = span * m[idx][ok] / px[idx][ok] / N_INTERSTELLAR
         sel = np.nonzero(ok)[0]
         sub2 = {k: vv[sel] for k, vv in sub.items()}
-        finish_chunk(t, 0, rh[sel], vh[sel], h[sel], w[sel], sub2)
+        finish_chunk(t, rh[sel], vh[sel], h[sel], w[sel], sub2)
         t.records[-1]["draw"] = base + idx[sel[t.records[-1]["draw"]]]
     t.max_ratio = max_ratio
     t.n_accepted = n_acc

@@ -458,13 +458,19 @@ impl PopulationModel {
         for p in &self.file.perihelion {
             edges_of(&p.inv_a_per_au, &mut out);
         }
+        // The element populations only where they begin and end: their inner steps are mild and
+        // heliocentric, so nodes placed on them in barycentric 1/a would buy little.
         for p in &self.file.bound {
             let mut a = Vec::new();
             edges_of(&p.a_au, &mut a);
-            out.extend(a.into_iter().filter(|x| *x > 0.0).map(|x| 1.0 / x));
+            let lo = a.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = a.iter().copied().fold(0.0_f64, f64::max);
+            if lo > 0.0 && hi.is_finite() {
+                out.extend([1.0 / hi, 1.0 / lo]);
+            }
         }
         out.sort_by(f64::total_cmp);
-        out.dedup();
+        out.dedup_by(|a, b| (*a - *b).abs() <= 1e-12 * b.abs().max(1e-300));
         out
     }
 }
