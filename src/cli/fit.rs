@@ -66,6 +66,7 @@ impl FitArgs {
                 Perturb::Off => PerturbChoice::Off,
             },
             inflate_nights: !self.no_night_inflation,
+            keep_samples: false,
             seed: self.seed,
             ..FitOptions::default()
         };

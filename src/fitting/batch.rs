@@ -19,7 +19,10 @@ pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> V
                 loop {
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     let Some(t) = tracklets.get(i) else { break };
-                    let r = fit_tracklet(t, &model, opts);
+                    let mut r = fit_tracklet(t, &model, opts);
+                    if !opts.keep_samples {
+                        r.samples = Vec::new();
+                    }
                     if let Ok(mut g) = results.lock() {
                         g[i] = Some(r);
                     }

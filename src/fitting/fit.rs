@@ -66,6 +66,9 @@ pub struct FitOptions {
     pub seed: u64,
     /// The population model every probability is under.
     pub population: Arc<PopulationModel>,
+    /// Keep the weighted orbits of sampled answers (for ephemerides); a batch that only prints
+    /// records drops them to stay small.
+    pub keep_samples: bool,
 }
 
 /// The compiled-in population model, built once per process.
@@ -87,6 +90,7 @@ impl Default for FitOptions {
             samples: 2000,
             seed: 0x5EED,
             population: builtin_population(),
+            keep_samples: true,
         }
     }
 }
@@ -145,17 +149,18 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
                 r.distrust_linear.push(why.to_string());
                 r
             })
-            .unwrap_or_else(|| ranging_result(tr, model, &observers, &cov, &shift, opts, Some(why)))
+            .unwrap_or_else(|| {
+                FitResult::failed(
+                    tr,
+                    format!(
+                        "{why}; no orbit fits all positions (a false linkage or a bad position?)"
+                    ),
+                )
+            })
     };
     let two_body = TwoBody;
     let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
-    // Short multi-night arcs have several minima: ranging over all nights finds the right basin.
-    let extra_seeds = if tr.n_nights() < 3 {
-        ranging_seeds(tr, model, &observers, &cov, &shift, opts, epoch)
-    } else {
-        Vec::new()
-    };
-    let Some((mut fit, alternatives)) = least_squares(&problem, opts, extra_seeds) else {
+    let Some((mut fit, alternatives)) = least_squares(&problem, opts, Vec::new()) else {
         return fallback("no initial orbit converged");
     };
     // Perturbations, by arc length or a close approach to Earth.
@@ -238,6 +243,9 @@ pub const DEGENERATE_RANGE: f64 = 0.3;
 /// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
 pub const LINEAR_DECIDES: f64 = 6.0;
 
+/// At most this many initial orbits are corrected for one tracklet.
+pub const MAX_CORRECTIONS: usize = 12;
+
 /// Distinct minima within this Δχ² of the best are kept as alternative solutions.
 pub const ALTERNATIVE_DCHI2: f64 = 9.0;
 
@@ -258,7 +266,11 @@ fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqF
     };
     let mut pending = triplets.into_iter();
     let mut extra = Some(extra);
+    let mut corrections = 0;
     loop {
+        if corrections >= MAX_CORRECTIONS {
+            break;
+        }
         // With three nights or more a statistically good minimum settles it; shorter arcs look at
         // every seed for other solutions.
         if settle && good(&minima) {
@@ -275,6 +287,11 @@ fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqF
             if settle && good(&minima) {
                 break;
             }
+            // Real arcs settle within the first few seeds; a false linkage would try them all.
+            if corrections >= MAX_CORRECTIONS {
+                break;
+            }
+            corrections += 1;
             let Ok(f) = correct(p, &s, &used, &opts.lsq) else {
                 continue;
             };
@@ -680,59 +697,6 @@ fn ranging_result(
         out.distrust_linear.push(w.to_string());
     }
     out
-}
-
-/// The best nodes of a ranging run over all observations, propagated to the epoch.
-fn ranging_seeds(
-    tr: &Tracklet,
-    model: &ObserverModel,
-    observers: &[ObserverState],
-    cov: &[nalgebra::Matrix2<f64>],
-    shift: &S6,
-    opts: &FitOptions,
-    epoch: Jd2,
-) -> Vec<S6> {
-    let location = tr.obs[tr.obs.len() / 2].location;
-    let observer_at = |t: Jd2| model.observer(&location, &instant_at(tr, t)).ok();
-    let sun = (
-        V3::new(shift[0], shift[1], shift[2]),
-        V3::new(shift[3], shift[4], shift[5]),
-    );
-    let mut ropts = opts.ranging;
-    ropts.n_rho = 60;
-    ropts.n_rhodot = 60;
-    let (v_mag, _) = night_v_mag(tr, &opts.population);
-    let Some(rr) = range(
-        tr,
-        observers,
-        cov,
-        observer_at,
-        sun,
-        &ropts,
-        (&opts.population, v_mag),
-    ) else {
-        return Vec::new();
-    };
-    // The best node in each of eight distance bands: separate minima lie at separate distances.
-    let bands = 8usize;
-    let span = (super::ranging::RHO_MAX_AU / super::ranging::RHO_MIN_AU).ln();
-    let mut best: Vec<Option<&super::ranging::RangingSample>> = vec![None; bands];
-    for smp in &rr.samples {
-        let b = (((smp.rho / super::ranging::RHO_MIN_AU).ln() / span * bands as f64) as usize)
-            .min(bands - 1);
-        if best[b].is_none_or(|x| smp.chi2 < x.chi2) {
-            best[b] = Some(smp);
-        }
-    }
-    best.iter()
-        .flatten()
-        .filter_map(|s| {
-            let (r, v) = split_state(&s.state);
-            propagate(&r, &v, epoch.minus(s.epoch), MU_SUN)
-                .ok()
-                .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
-        })
-        .collect()
 }
 
 fn fill_ranging(

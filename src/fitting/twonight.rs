@@ -27,11 +27,11 @@ pub struct ArcInputs<'a> {
     pub opts: &'a FitOptions,
 }
 
-/// Fit a two-night arc by its range profile; None hands it back to the general path (long arcs that
-/// need planets, or a profile that found nothing).
+/// Fit a two-night arc by its range profile (with the planets beyond ten days of arc); None hands it
+/// back to the general path (a profile that found nothing).
 pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
     if inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
-        return None;
+        return fit_by_profile(inp, None, &super::perturb::NBody::new());
     }
     fit_by_profile(inp, None, &TwoBody)
 }

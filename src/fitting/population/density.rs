@@ -163,6 +163,8 @@ struct ElementPop {
     q_max: f64,
     /// 1 / (fraction of p(a) p(e) inside the q limits · 8π³ · ½ μ^{3/2}).
     scale: f64,
+    /// Heliocentric 1/a where the population has objects.
+    inv_a_range: (f64, f64),
 }
 
 impl ElementPop {
@@ -183,7 +185,16 @@ impl ElementPop {
             })
             .sum();
         let vol = 8.0 * PI.powi(3) * 0.5 * MU_SUN.powf(1.5);
+        let mut edges = Vec::new();
+        edges_of(&p.a_au, &mut edges);
+        let a_lo = edges
+            .iter()
+            .copied()
+            .fold(f64::INFINITY, f64::min)
+            .max(1e-6);
+        let a_hi = edges.iter().copied().fold(0.0_f64, f64::max);
         ElementPop {
+            inv_a_range: (1.0 / a_hi, 1.0 / a_lo),
             size: SizeLaw::new(p.count, p.h_ref, p.size_slope, mag_sigma),
             a,
             e,
@@ -218,11 +229,18 @@ struct PerihelionPop {
     i: Pdf,
     /// 1 / (4π² · ½ μ²), per day.
     scale: f64,
+    /// Barycentric 1/a where the population has objects.
+    inv_a_range: (f64, f64),
 }
 
 impl PerihelionPop {
     fn new(p: &PerihelionPopulation, mag_sigma: f64) -> PerihelionPop {
+        let mut edges = Vec::new();
+        edges_of(&p.inv_a_per_au, &mut edges);
+        let lo = edges.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = edges.iter().copied().fold(f64::NEG_INFINITY, f64::max);
         PerihelionPop {
+            inv_a_range: (lo, hi),
             size: SizeLaw::new(
                 p.passages_per_year / 365.25,
                 p.h_ref,
@@ -438,13 +456,29 @@ impl PopulationModel {
                 self.interstellar.size.ln_dn_dh(h) + self.interstellar.ln_velocity_density(&uvw);
             return Density { unbound, ln_f };
         }
-        let se = shape(&(self.ecl * r), &(self.ecl * v), MU_SUN).0;
-        let sb = shape(&(self.ecl * rb), &(self.ecl * vb), MU_BARY).0;
+        // Each family's orbital elements only where its 1/a range could hold the state.
+        let inv_a_h = 2.0 / r.norm() - v.norm_squared() / MU_SUN;
+        let inv_a_b = 2.0 / rb.norm() - vb.norm_squared() / MU_BARY;
+        let in_range = |(lo, hi): (f64, f64), x: f64| x >= lo && x <= hi;
+        let se = (self
+            .elements
+            .iter()
+            .any(|p| in_range(p.inv_a_range, inv_a_h)))
+        .then(|| shape(&(self.ecl * r), &(self.ecl * v), MU_SUN).0);
+        let sb = (self
+            .perihelion
+            .iter()
+            .any(|p| in_range(p.inv_a_range, inv_a_b)))
+        .then(|| shape(&(self.ecl * rb), &(self.ecl * vb), MU_BARY).0);
         let terms = self
             .elements
             .iter()
-            .map(move |p| p.ln_density(&se, h))
-            .chain(self.perihelion.iter().map(move |p| p.ln_density(&sb, h)));
+            .filter_map(move |p| se.map(|se| p.ln_density(&se, h)))
+            .chain(
+                self.perihelion
+                    .iter()
+                    .filter_map(move |p| sb.map(|sb| p.ln_density(&sb, h))),
+            );
         Density {
             unbound,
             ln_f: log_sum_exp(terms),
