@@ -548,7 +548,28 @@ pub fn lsq_result(
     } else {
         "poor-fit"
     };
+    if fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
+        withhold_probability(&mut out);
+    }
     out
+}
+
+/// χ²/dof beyond which no orbit fits the positions at all (a false linkage or a broken position):
+/// the probability of such a "fit" being unbound means nothing and is not shown.
+pub const NO_ORBIT_CHI2_PER_DOF: f64 = 100.0;
+
+fn withhold_probability(out: &mut FitResult) {
+    out.p_hyperbolic = None;
+    out.p_hyperbolic_error = None;
+    out.z_hyperbolic = None;
+    out.log10_odds = None;
+    out.z_linear = None;
+    out.bayes_factor = None;
+    out.log10_bayes_factor = None;
+    out.z_is_bound = false;
+    out.probability_from = "none";
+    out.poor_fit
+        .push("no probability: no orbit fits these positions".into());
 }
 
 /// P(unbound) of a least-squares fit under the population model: along the energy line where the

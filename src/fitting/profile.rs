@@ -225,7 +225,8 @@ pub struct ProfileNode {
 pub struct Profile {
     pub slices: Vec<Slice>,
     pub nodes: Vec<ProfileNode>,
-    pub posterior: Posterior,
+    /// None when no slice could carry a posterior (a gross misfit: the slices exist, the valley not).
+    pub posterior: Option<Posterior>,
     pub best: Slice,
 }
 
@@ -305,26 +306,57 @@ pub fn slices(
         .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
         .collect();
     let mut all = slices_at(p, frame, &coarse, start, used, true);
-    let Some(best) = all.iter().min_by(|a, b| a.chi2.total_cmp(&b.chi2)).copied() else {
-        return all;
-    };
-    let near: Vec<f64> = all
-        .iter()
-        .filter(|s| s.chi2 - best.chi2 < 60.0)
-        .map(|s| s.rho.ln())
-        .collect();
-    let lo = near.iter().copied().fold(f64::INFINITY, f64::min) - dln;
-    let hi = near.iter().copied().fold(f64::NEG_INFINITY, f64::max) + dln;
-    let lo = lo.max(opts.rho_min_au.ln());
-    let hi = hi.min(opts.rho_max_au.ln());
-    let m = 24;
-    let fine: Vec<f64> = (1..m)
-        .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
-        .collect();
-    all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi);
-    all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used, false));
-    all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+    // Twice: refine where χ² is within reach of its minimum; the second pass zooms in on the valley
+    // when the first shows it narrower than its own spacing (two nights pin ρ to a fraction of a per
+    // cent when they are far apart).
+    for _ in 0..2 {
+        let Some(best) = all.iter().min_by(|a, b| a.chi2.total_cmp(&b.chi2)).copied() else {
+            return all;
+        };
+        let (lo, hi) = refine_range(&all, &best, opts);
+        let m = 24;
+        let fine: Vec<f64> = (1..m)
+            .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
+            .collect();
+        all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi);
+        all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used, false));
+        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+    }
     all
+}
+
+/// The ln ρ range to refine: where χ² is within 60 of the best, bounded by the neighbouring slices,
+/// and no wider than ±8 σ of a parabola through the best slice and its neighbours when that is
+/// narrower.
+fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions) -> (f64, f64) {
+    let k = all.iter().position(|s| s.rho == best.rho).unwrap_or(0);
+    let x = |i: usize| all[i].rho.ln();
+    let lo_n = all
+        .iter()
+        .rposition(|s| s.rho < best.rho && s.chi2 - best.chi2 >= 60.0)
+        .map_or(opts.rho_min_au.ln(), x);
+    let hi_n = all
+        .iter()
+        .position(|s| s.rho > best.rho && s.chi2 - best.chi2 >= 60.0)
+        .map_or(opts.rho_max_au.ln(), x);
+    if k == 0 || k + 1 >= all.len() {
+        return (lo_n, hi_n);
+    }
+    let (x0, x1, x2) = (x(k - 1), x(k), x(k + 1));
+    let (y0, y1, y2) = (all[k - 1].chi2, all[k].chi2, all[k + 1].chi2);
+    // Second derivative of the parabola through the three points; χ² ≈ c (x − v)² near the bottom.
+    let d = (y2 - y1) / (x2 - x1) - (y1 - y0) / (x1 - x0);
+    let curv = d / (0.5 * (x2 - x0));
+    if !(curv.is_finite() && curv > 0.0) {
+        return (lo_n, hi_n);
+    }
+    let sigma = (2.0 / curv).sqrt();
+    let slope_mid = (y2 - y0) / (x2 - x0);
+    let vertex = (x1 - slope_mid / curv).clamp(x0, x2);
+    (
+        (vertex - 8.0 * sigma).max(lo_n),
+        (vertex + 8.0 * sigma).min(hi_n),
+    )
 }
 
 /// Trapezoid weights in ln ρ for nodes at arbitrary (sorted) distances.
@@ -365,10 +397,6 @@ pub fn profile(
     let sun_v = V3::new(ctx.sun_bary[3], ctx.sun_bary[4], ctx.sun_bary[5]);
     let mut nodes = Vec::new();
     for (k, s) in all.iter().enumerate() {
-        // Slices far above the best cannot carry weight (e^-40 below it).
-        if s.chi2 - best.chi2 > 80.0 {
-            continue;
-        }
         let var_rd = s.cov[(4, 4)];
         if !(var_rd.is_finite() && var_rd > 0.0) {
             continue;
@@ -471,7 +499,12 @@ pub fn profile(
         }
     }
     if nodes.is_empty() {
-        return None;
+        return Some(Profile {
+            slices: all,
+            nodes,
+            posterior: None,
+            best,
+        });
     }
     let post = Masses::of(nodes.iter().map(|n| (&n.unbound, n.ln_w)));
     let prior = Masses::of(nodes.iter().map(|n| (&n.unbound, n.ln_prior)));
@@ -492,12 +525,12 @@ pub fn profile(
     let err = (post.ln_odds() - post_half.ln_odds()).abs();
     Some(Profile {
         slices: all,
-        posterior: Posterior::new(
+        posterior: Some(Posterior::new(
             post,
             prior,
             if err.is_finite() { err } else { f64::INFINITY },
             None,
-        ),
+        )),
         nodes,
         best,
     })

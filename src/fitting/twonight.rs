@@ -80,6 +80,19 @@ pub fn fit_by_profile(
     let prof = profile(&p, &frame, start, &used, &ctx, &popts)?;
     let best_state = frame.state(&prof.best.a, prof.best.rho);
     let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
+    // A profile without a posterior is a gross misfit: the record still shows the best attempt and
+    // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
+    let Some(posterior) = prof.posterior else {
+        return Some(lsq_result(
+            &p,
+            &fit,
+            &[],
+            shift,
+            opts,
+            dynamics.name(),
+            None,
+        ));
+    };
     let top = prof
         .nodes
         .iter()
@@ -88,7 +101,7 @@ pub fn fit_by_profile(
     let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
     let total: f64 = raw.iter().sum();
     let given = Given {
-        posterior: prof.posterior,
+        posterior,
         from: "range-profile",
         states: prof.nodes.iter().map(|n| n.state).collect(),
         weights: raw.iter().map(|w| w / total).collect(),
