@@ -1,0 +1,71 @@
+//! The same files give the same numbers through `fit --json` and through the headless watcher: the
+//! probability, its error and odds, and the elements with their uncertainties, for every object.
+
+use std::collections::HashMap;
+use std::process::Command;
+
+fn records(out: &[u8]) -> HashMap<String, serde_json::Value> {
+    // The watcher refits as files arrive; the last record of each object is the one that stands.
+    let mut m = HashMap::new();
+    for line in String::from_utf8_lossy(out).lines() {
+        let Ok(v) = serde_json::from_str::<serde_json::Value>(line) else {
+            continue;
+        };
+        if v.get("kind").is_some_and(|k| k != "fit") {
+            continue;
+        }
+        if let Some(o) = v["object"].as_str() {
+            m.insert(o.to_string(), v);
+        }
+    }
+    m
+}
+
+#[test]
+fn fit_and_the_headless_watcher_report_identical_numbers() {
+    let feed = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let dir = tempfile::tempdir().unwrap();
+    for e in std::fs::read_dir(&feed).unwrap() {
+        let p = e.unwrap().path();
+        std::fs::copy(&p, dir.path().join(p.file_name().unwrap())).unwrap();
+    }
+    let state = tempfile::tempdir().unwrap();
+    let exe = env!("CARGO_BIN_EXE_interloper");
+    let fit = Command::new(exe)
+        .args(["fit", "--json"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let watch = Command::new(exe)
+        .args(["watch", "--headless", "--json", "--stop-after-idle", "2", "--state"])
+        .arg(state.path())
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let (a, b) = (records(&fit.stdout), records(&watch.stdout));
+    assert!(a.len() >= 10, "{} fits", a.len());
+    assert_eq!(a.len(), b.len());
+    let keys = [
+        "p_hyperbolic",
+        "p_hyperbolic_error",
+        "log10_odds",
+        "z_hyperbolic",
+        "z_linear",
+        "bayes_factor",
+        "e",
+        "e_sigma",
+        "q_au",
+        "q_sigma",
+        "i_deg",
+        "n_used",
+        "status",
+        "method",
+        "probability_from",
+    ];
+    for (obj, ra) in &a {
+        let rb = &b[obj];
+        for k in keys {
+            assert_eq!(ra[k], rb[k], "{obj}: {k} differs between fit and watch");
+        }
+    }
+}
