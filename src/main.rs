@@ -16,9 +16,21 @@ fn main() {
     };
     match code {
         Ok(c) => std::process::exit(c),
+        // The reader of our output went away (`| head`): nothing is wrong and nothing more to say.
+        Err(e) if broken_pipe(&e) => std::process::exit(0),
         Err(e) => {
             eprintln!("error: {e:#}");
             std::process::exit(1);
         }
     }
+}
+
+fn broken_pipe(e: &anyhow::Error) -> bool {
+    e.chain().any(|c| {
+        c.downcast_ref::<std::io::Error>()
+            .is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe)
+            || c.downcast_ref::<serde_json::Error>()
+                .and_then(|j| j.io_error_kind())
+                .is_some_and(|k| k == std::io::ErrorKind::BrokenPipe)
+    })
 }

@@ -37,7 +37,14 @@ fn fit_and_the_headless_watcher_report_identical_numbers() {
         .output()
         .unwrap();
     let watch = Command::new(exe)
-        .args(["watch", "--headless", "--json", "--stop-after-idle", "2", "--state"])
+        .args([
+            "watch",
+            "--headless",
+            "--json",
+            "--stop-after-idle",
+            "2",
+            "--state",
+        ])
         .arg(state.path())
         .arg(dir.path())
         .output()

@@ -57,13 +57,19 @@ fn utc(t: SystemTime) -> String {
 struct Out {
     json: bool,
     w: std::io::BufWriter<std::io::Stdout>,
+    /// The reader went away (a closed pipe): the run ends quietly.
+    closed: bool,
 }
 
 impl Out {
     fn emit(&mut self, value: serde_json::Value, text: String) {
         let line = if self.json { value.to_string() } else { text };
         // A closed pipe ends the run like a signal would: nothing to report to any more.
-        let _ = writeln!(self.w, "{line}").and_then(|_| self.w.flush());
+        if let Err(e) = writeln!(self.w, "{line}").and_then(|_| self.w.flush()) {
+            if e.kind() == std::io::ErrorKind::BrokenPipe {
+                self.closed = true;
+            }
+        }
     }
 
     fn input_error(&mut self, e: &InputError, kind: &str, arrived: SystemTime) {
@@ -155,11 +161,12 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     let mut arrived: HashMap<String, SystemTime> = HashMap::new();
     let mut out = Out {
         json: args.json,
+        closed: false,
         w: std::io::BufWriter::new(std::io::stdout()),
     };
     let mut last_activity = Instant::now();
     let (mut files, mut fits, mut rejected) = (0usize, 0usize, 0usize);
-    while !stop.load(Ordering::Relaxed) {
+    while !stop.load(Ordering::Relaxed) && !out.closed {
         let mut busy = false;
         match events.recv_timeout(Duration::from_millis(20)) {
             Ok(WatchEvent::Ready {

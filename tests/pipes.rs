@@ -1,0 +1,84 @@
+//! A reader that goes away (`| head -1`) ends `fit`, `ephem` and the headless watcher quietly with exit
+//! code 0: no "Broken pipe" error, no process left running.
+
+use std::io::{BufRead, BufReader};
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+fn first_line_then_close(args: &[&str]) -> (Option<i32>, String) {
+    let mut child = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    {
+        let stdout = child.stdout.take().unwrap();
+        let mut line = String::new();
+        BufReader::new(stdout).read_line(&mut line).unwrap();
+        assert!(!line.is_empty(), "no output from {args:?}");
+    } // the read end closes here
+    let start = Instant::now();
+    loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            let mut err = String::new();
+            if let Some(mut e) = child.stderr.take() {
+                std::io::Read::read_to_string(&mut e, &mut err).unwrap();
+            }
+            return (status.code(), err);
+        }
+        if start.elapsed() > Duration::from_secs(30) {
+            let _ = child.kill();
+            panic!("{args:?} kept running after its reader went away");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    }
+}
+
+fn feed() -> String {
+    format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"))
+}
+
+#[test]
+fn fit_json_into_a_closed_pipe_exits_zero_quietly() {
+    let f = feed();
+    let (code, err) = first_line_then_close(&["fit", "--json", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    assert!(!err.contains("Broken pipe"), "{err}");
+}
+
+#[test]
+fn ephem_into_a_closed_pipe_exits_zero_quietly() {
+    let f = feed();
+    let (code, err) = first_line_then_close(&[
+        "ephem",
+        "--site",
+        "TV1",
+        "--from",
+        "2027-02-26T00:00:00Z",
+        "--to",
+        "2027-03-26T00:00:00Z",
+        "--step",
+        "1m",
+        "--json",
+        &f,
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    assert!(!err.contains("Broken pipe"), "{err}");
+}
+
+#[test]
+fn headless_watch_into_a_closed_pipe_stops_with_exit_zero() {
+    let dir = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    for e in std::fs::read_dir(feed()).unwrap() {
+        let p = e.unwrap().path();
+        std::fs::copy(&p, dir.path().join(p.file_name().unwrap())).unwrap();
+    }
+    let (d, s) = (
+        dir.path().display().to_string(),
+        state.path().display().to_string(),
+    );
+    let (code, err) = first_line_then_close(&["watch", "--headless", "--json", "--state", &s, &d]);
+    assert_eq!(code, Some(0), "{err}");
+}
