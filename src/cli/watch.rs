@@ -65,10 +65,10 @@ impl Out {
     fn emit(&mut self, value: serde_json::Value, text: String) {
         let line = if self.json { value.to_string() } else { text };
         // A closed pipe ends the run like a signal would: nothing to report to any more.
-        if let Err(e) = writeln!(self.w, "{line}").and_then(|_| self.w.flush()) {
-            if e.kind() == std::io::ErrorKind::BrokenPipe {
-                self.closed = true;
-            }
+        if let Err(e) = writeln!(self.w, "{line}").and_then(|_| self.w.flush())
+            && e.kind() == std::io::ErrorKind::BrokenPipe
+        {
+            self.closed = true;
         }
     }
 

@@ -299,10 +299,10 @@ impl Keymap {
 /// map and returns the reason to show.
 pub fn load(user: Option<(&str, &str)>) -> (Keymap, Option<KeymapError>) {
     let mut map = Keymap::builtin();
-    if let Some((file, text)) = user {
-        if let Err(e) = map.overlay(file, text) {
-            return (Keymap::builtin(), Some(e));
-        }
+    if let Some((file, text)) = user
+        && let Err(e) = map.overlay(file, text)
+    {
+        return (Keymap::builtin(), Some(e));
     }
     (map, None)
 }

@@ -281,25 +281,25 @@ fn spawn_ephemeris(fit: FitResult, sites: Arc<SiteTable>, tx: Sender<AppEvent>) 
     std::thread::spawn(move || {
         let model = ObserverModel::new();
         let mut pts = Vec::new();
-        if let Some(last) = fit.residuals.last() {
-            if let (Some(site), Ok(t0)) = (
+        if let Some(last) = fit.residuals.last()
+            && let (Some(site), Ok(t0)) = (
                 sites.get(&last.site),
                 UtcTime::parse(&last.time_utc).and_then(|u| u.instant()),
-            ) {
-                for k in 1..=24 {
-                    let d = f64::from(k) / 24.0;
-                    let inst = t0.plus_days(d);
-                    if let Some(p) = point(
-                        &fit,
-                        &inst,
-                        tt_to_utc(inst.tt).to_string(),
-                        &site.position,
-                        &model,
-                        None,
-                        20.0,
-                    ) {
-                        pts.push(p);
-                    }
+            )
+        {
+            for k in 1..=24 {
+                let d = f64::from(k) / 24.0;
+                let inst = t0.plus_days(d);
+                if let Some(p) = point(
+                    &fit,
+                    &inst,
+                    tt_to_utc(inst.tt).to_string(),
+                    &site.position,
+                    &model,
+                    None,
+                    20.0,
+                ) {
+                    pts.push(p);
                 }
             }
         }

@@ -136,10 +136,10 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         epoch,
         opts,
     };
-    if tr.n_nights() == 2 {
-        if let Some(r) = super::twonight::fit_two_nights(&inputs) {
-            return r;
-        }
+    if tr.n_nights() == 2
+        && let Some(r) = super::twonight::fit_two_nights(&inputs)
+    {
+        return r;
     }
     // Every later way out of least squares is the same: answer along the range profile (ranging if
     // even that finds nothing) and say why.
@@ -191,14 +191,15 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     }
     // A range known to worse than this is a nearly degenerate problem: its minimum means little and
     // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
-    if let Some(rel) = super::sampling::relative_range_sigma(&problem, &fit) {
-        if rel > DEGENERATE_RANGE && tr.n_nights() < 3 {
-            let why = format!(
-                "least squares nearly degenerate (range known to {:.0} %)",
-                100.0 * rel
-            );
-            return fallback(&why);
-        }
+    if let Some(rel) = super::sampling::relative_range_sigma(&problem, &fit)
+        && rel > DEGENERATE_RANGE
+        && tr.n_nights() < 3
+    {
+        let why = format!(
+            "least squares nearly degenerate (range known to {:.0} %)",
+            100.0 * rel
+        );
+        return fallback(&why);
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
@@ -208,10 +209,11 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty();
-    if distrusted && !decided {
-        if let Some(r) = super::twonight::fit_by_profile(&inputs, Some(fit.state), dynamics) {
-            return r;
-        }
+    if distrusted
+        && !decided
+        && let Some(r) = super::twonight::fit_by_profile(&inputs, Some(fit.state), dynamics)
+    {
+        return r;
     }
     lsq_result(
         &problem,

@@ -277,11 +277,11 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
     while iterations < opts.max_iterations {
         iterations += 1;
         // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6).
-        if let Some(gn) = lm_step(&lin, 0.0) {
-            if (&lin.rows * &gn).norm_squared() / 6.0 < 1e-6 {
-                converged = true;
-                break;
-            }
+        if let Some(gn) = lm_step(&lin, 0.0)
+            && (&lin.rows * &gn).norm_squared() / 6.0 < 1e-6
+        {
+            converged = true;
+            break;
         }
         let Some(dp) = lm_step(&lin, lambda) else {
             break;

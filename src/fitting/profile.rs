@@ -132,11 +132,11 @@ pub fn solve_slice(
     let mut last: Option<(f64, M5, V5)> = None;
     for _ in 0..30 {
         let (chi2, n, g) = normal(p, frame, rho, &a, used)?;
-        if let Some((prev, _, _)) = last {
-            if (prev - chi2).abs() <= 1e-5 * chi2.max(1.0) {
-                last = Some((chi2, n, g));
-                break;
-            }
+        if let Some((prev, _, _)) = last
+            && (prev - chi2).abs() <= 1e-5 * chi2.max(1.0)
+        {
+            last = Some((chi2, n, g));
+            break;
         }
         // Jacobi-scaled damped step; accept if χ² falls, else raise the damping.
         let d = V5::from_fn(|i, _| n[(i, i)].sqrt().max(1e-300));

@@ -50,10 +50,10 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
         why.push("singular normal matrix".into());
         return why;
     };
-    if let Some(rel) = relative_range_sigma(p, fit) {
-        if rel > 0.1 {
-            why.push(format!("range known to {:.0} %", 100.0 * rel));
-        }
+    if let Some(rel) = relative_range_sigma(p, fit)
+        && rel > 0.1
+    {
+        why.push(format!("range known to {:.0} %", 100.0 * rel));
     }
     if fit.lambda > 1e-2 {
         why.push("damping still large at convergence".into());

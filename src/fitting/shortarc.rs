@@ -334,7 +334,7 @@ pub fn one_night(
     }
     // The half rule: every other ln ρ node, with doubled trapezoid weights (ends keep their half).
     // (Every even node, ends included, carries twice its full-rule weight.)
-    let half_w = |n: &Node| (n.k_rho % 2 == 0).then(|| n.ln_w + 2f64.ln());
+    let half_w = |n: &Node| n.k_rho.is_multiple_of(2).then(|| n.ln_w + 2f64.ln());
     let halves: Vec<(bool, f64)> = nodes
         .iter()
         .filter_map(|n| half_w(n).map(|w| (n.unbound, w)))

@@ -105,10 +105,10 @@ pub struct ModelError {
 fn line_of_key(text: &str, from: usize, key: &str) -> usize {
     for (k, l) in text.lines().enumerate().skip(from.saturating_sub(1)) {
         let t = l.trim_start();
-        if let Some(rest) = t.strip_prefix(key) {
-            if rest.trim_start().starts_with('=') {
-                return k + 1;
-            }
+        if let Some(rest) = t.strip_prefix(key)
+            && rest.trim_start().starts_with('=')
+        {
+            return k + 1;
         }
     }
     from.max(1)
@@ -290,13 +290,13 @@ impl ModelFile {
             check_dist(&p.a_au, Quantity::Positive).map_err(|r| err(key("a_au"), r))?;
             check_dist(&p.e, Quantity::Eccentricity).map_err(|r| err(key("e"), r))?;
             check_dist(&p.i_deg, Quantity::Inclination).map_err(|r| err(key("i_deg"), r))?;
-            if let (Some(lo), Some(hi)) = (p.q_min_au, p.q_max_au) {
-                if lo >= hi {
-                    return Err(err(
-                        key("q_max_au"),
-                        "q_min_au must be below q_max_au".into(),
-                    ));
-                }
+            if let (Some(lo), Some(hi)) = (p.q_min_au, p.q_max_au)
+                && lo >= hi
+            {
+                return Err(err(
+                    key("q_max_au"),
+                    "q_min_au must be below q_max_au".into(),
+                ));
             }
             for (k, v) in [("q_min_au", p.q_min_au), ("q_max_au", p.q_max_au)] {
                 if v.is_some_and(|x| !x.is_finite() || x < 0.0) {
