@@ -151,9 +151,10 @@ fn record(line: usize, cols: &[String], cells: &[&str]) -> Result<AdesRecord, (S
             },
         }
     };
-    let object = text("permID")
-        .or_else(|| text("provID"))
-        .or_else(|| text("trkSub"))
+    let id = |name: &str| get(name).map(crate::feed::sanitize::clean_id);
+    let object = id("permID")
+        .or_else(|| id("provID"))
+        .or_else(|| id("trkSub"))
         .ok_or_else(|| {
             (
                 "trkSub".to_string(),

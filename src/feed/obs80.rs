@@ -101,7 +101,7 @@ pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
             ));
             continue;
         }
-        let id = clean(field(&c, 1, 12).trim());
+        let id = crate::feed::sanitize::clean_id(field(&c, 1, 12).trim());
         if id.is_empty() {
             bad.push(err(line_no, "1-12", "no designation".into()));
             continue;

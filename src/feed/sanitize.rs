@@ -17,10 +17,42 @@ pub fn clean(s: &str) -> String {
             c if c.is_control() => {}
             // Bidirectional overrides can make text read differently from what it is.
             '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}' => {}
+            // Invisible format characters (zero-width spaces and joiners, soft hyphen, word joiners,
+            // marks and tags) make two ids that look alike differ, or one look like another.
+            c if invisible(c) => {}
             c => out.push(c),
         }
     }
     out
+}
+
+/// Unicode format characters (general category Cf) and the other invisible fillers.
+fn invisible(c: char) -> bool {
+    matches!(c,
+        '\u{00ad}' | '\u{034f}' | '\u{061c}' | '\u{115f}' | '\u{1160}' | '\u{17b4}' | '\u{17b5}'
+        | '\u{180b}'..='\u{180f}' | '\u{200b}'..='\u{200f}' | '\u{2028}' | '\u{2029}'
+        | '\u{2060}'..='\u{206f}' | '\u{3164}' | '\u{fe00}'..='\u{fe0f}' | '\u{feff}'
+        | '\u{ffa0}' | '\u{fff0}'..='\u{fffb}' | '\u{0600}'..='\u{0605}' | '\u{06dd}'
+        | '\u{070f}' | '\u{0890}' | '\u{0891}' | '\u{08e2}' | '\u{110bd}' | '\u{110cd}'
+        | '\u{13430}'..='\u{1343f}' | '\u{1bca0}'..='\u{1bca3}' | '\u{1d173}'..='\u{1d17a}'
+        | '\u{e0000}'..='\u{e0fff}')
+}
+
+/// An object id from a file: cleaned like any text, and when cleaning changed it, followed by `~` and
+/// six hex digits of a fingerprint of the raw bytes, so that ids which differ only in what was removed
+/// stay distinct objects (and visibly altered) instead of merging into one.
+pub fn clean_id(raw: &str) -> String {
+    let c = clean(raw);
+    if c == raw {
+        return c;
+    }
+    // FNV-1a, 32 bits: stable across runs and machines.
+    let mut h: u32 = 0x811c_9dc5;
+    for b in raw.as_bytes() {
+        h ^= u32::from(*b);
+        h = h.wrapping_mul(0x0100_0193);
+    }
+    format!("{c}~{:06x}", h & 0xff_ffff)
 }
 
 fn skip_escape(chars: &mut std::iter::Peekable<std::str::Chars>) {
@@ -72,5 +104,31 @@ mod tests {
         assert_eq!(clean("tab\there"), "tab here");
         assert_eq!(clean("\u{202e}evil"), "evil");
         assert_eq!(clean("plain K26-ab.01 ü"), "plain K26-ab.01 ü");
+    }
+
+    #[test]
+    fn invisible_format_characters_are_removed() {
+        assert_eq!(clean("K27D\u{200b}x09"), "K27Dx09");
+        assert_eq!(
+            clean("a\u{00ad}b\u{2060}c\u{feff}d\u{2067}e\u{e0041}f"),
+            "abcdef"
+        );
+    }
+
+    #[test]
+    fn ids_that_differ_only_in_removed_characters_stay_distinct() {
+        use super::clean_id;
+        assert_eq!(clean_id("K27Dx09"), "K27Dx09");
+        let a = clean_id("K27D\u{200b}x09");
+        let b = clean_id("K27Dx\u{200b}09");
+        assert!(
+            a.starts_with("K27Dx09~") && b.starts_with("K27Dx09~"),
+            "{a} {b}"
+        );
+        assert_ne!(a, b);
+        let escapes: std::collections::BTreeSet<String> = (0..8)
+            .map(|k| clean_id(&format!("X\u{1b}[{k}mY")))
+            .collect();
+        assert_eq!(escapes.len(), 8, "{escapes:?}");
     }
 }
