@@ -125,6 +125,22 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
 
 /// Merge tracklets of the same object (from several files) into one, duplicates removed. The merged
 /// tracklet's source lists the files it came from, separated by "; ", in order of first appearance.
+/// Roving observers: altitudes accepted (m), from below the lowest land to above the highest
+/// observing aircraft (common practice, no source).
+pub const MIN_ALT_M: f64 = -500.0;
+pub const MAX_ALT_M: f64 = 20_000.0;
+/// Space-based observers given about the geocentre: outside the Earth and within 10 million km
+/// (well beyond the Sun–Earth L2 point; farther spacecraft are given about the Sun).
+pub const MIN_GEOCENTRIC_KM: f64 = 6_300.0;
+pub const MAX_GEOCENTRIC_KM: f64 = 1.0e7;
+/// Observers given about the Sun (au).
+pub const MIN_HELIOCENTRIC_AU: f64 = 0.05;
+pub const MAX_HELIOCENTRIC_AU: f64 = 100.0;
+/// Reported position uncertainties accepted (arcsec): below the best astrometry by far and above a
+/// degree nothing is a position any more. The fit also floors σ at 0.1″.
+pub const MIN_RMS_ARCSEC: f64 = 1e-3;
+pub const MAX_RMS_ARCSEC: f64 = 3600.0;
+
 pub fn merge(tracklets: Vec<Tracklet>) -> Vec<Tracklet> {
     let mut order: Vec<String> = Vec::new();
     let mut by_object: BTreeMap<String, (Vec<String>, Vec<Observation>)> = BTreeMap::new();
@@ -166,6 +182,16 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         column: Some(column.into()),
         reason: clean(&reason),
     };
+    for (name, v) in [("rmsRA", r.rms_ra), ("rmsDec", r.rms_dec)] {
+        if let Some(x) = v {
+            if !(MIN_RMS_ARCSEC..=MAX_RMS_ARCSEC).contains(&x) {
+                return Err(err(
+                    name,
+                    format!("{x}\" is outside the accepted {MIN_RMS_ARCSEC}..{MAX_RMS_ARCSEC}\""),
+                ));
+            }
+        }
+    }
     let time = r
         .time
         .instant()
@@ -173,6 +199,18 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
     let location = match &r.observer_pos {
         // A roving observer: the ground point is given on the record itself.
         Some((sys, _, p)) if sys == "WGS84" => {
+            if !(-90.0..=90.0).contains(&p[1]) {
+                return Err(err("pos2", format!("latitude {} is outside ±90°", p[1])));
+            }
+            if !(MIN_ALT_M..=MAX_ALT_M).contains(&p[2]) {
+                return Err(err(
+                    "pos3",
+                    format!(
+                        "altitude {} m is outside {MIN_ALT_M}..{MAX_ALT_M} m (a ground or airborne observer)",
+                        p[2]
+                    ),
+                ));
+            }
             ObserverLocation::Ground(crate::physics::site::GroundPosition::Geodetic {
                 lon_deg: p[0],
                 lat_deg: p[1],
@@ -190,7 +228,28 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
                     ));
                 }
             };
+            let dist_km = (p[0] * p[0] + p[1] * p[1] + p[2] * p[2]).sqrt() * scale;
             match ctr {
+                399 if !(MIN_GEOCENTRIC_KM..=MAX_GEOCENTRIC_KM).contains(&dist_km) => {
+                    return Err(err(
+                        "pos1",
+                        format!(
+                            "a geocentric observer {dist_km:.0} km from the geocentre is outside \
+                             {MIN_GEOCENTRIC_KM:.0}..{MAX_GEOCENTRIC_KM:.0} km (farther ones are given \
+                             about the Sun, ctr 10)"
+                        ),
+                    ));
+                }
+                10 if !(MIN_HELIOCENTRIC_AU..=MAX_HELIOCENTRIC_AU).contains(&(dist_km / AU_KM)) => {
+                    return Err(err(
+                        "pos1",
+                        format!(
+                            "a heliocentric observer at {:.4} au is outside \
+                             {MIN_HELIOCENTRIC_AU}..{MAX_HELIOCENTRIC_AU} au",
+                            dist_km / AU_KM
+                        ),
+                    ));
+                }
                 399 => ObserverLocation::Geocentric {
                     pos_km: [p[0] * scale, p[1] * scale, p[2] * scale],
                 },

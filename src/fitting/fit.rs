@@ -95,6 +95,9 @@ impl Default for FitOptions {
     }
 }
 
+/// Positions that all lie within this (arcsec) of the first do not describe a moving object.
+pub const MIN_MOTION_ARCSEC: f64 = 0.01;
+
 /// Arcs shorter than this (days) are one night's positions, whatever the sites: the short-arc
 /// posterior treats them.
 pub const SHORT_ARC_DAYS: f64 = 0.5;
@@ -105,6 +108,22 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         return FitResult::failed(
             tr,
             format!("{} observation(s): at least 2 are needed", tr.obs.len()),
+        );
+    }
+    // A tracklet that does not move at all is a star, a defect or a repeated line, not an orbit.
+    let first = unit_from_radec(tr.obs[0].ra, tr.obs[0].dec);
+    let spread = tr
+        .obs
+        .iter()
+        .map(|o| unit_from_radec(o.ra, o.dec).angle(&first))
+        .fold(0.0, f64::max);
+    if spread < MIN_MOTION_ARCSEC * ARCSEC {
+        return FitResult::failed(
+            tr,
+            format!(
+                "the {} positions do not move (all within {MIN_MOTION_ARCSEC}\"): a star, a defect or a repeated line",
+                tr.obs.len()
+            ),
         );
     }
     let mut observers = Vec::with_capacity(tr.obs.len());

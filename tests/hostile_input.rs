@@ -1,0 +1,27 @@
+//! Input that parses but cannot be an observation of a moving object is refused with its reason
+//! instead of being fitted and scored (the per-line refusals are in the malformed corpus).
+
+use interloper::feed::sites::SiteTable;
+use interloper::feed::tracklets::{Limits, read_bytes};
+use interloper::fitting::fit::{FitOptions, fit_tracklet};
+use interloper::physics::observe::ObserverModel;
+
+#[test]
+fn three_identical_positions_at_the_pole_are_refused_not_scored() {
+    let text = "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|mag|band\n\
+                P1|CCD|TV1|2027-02-26T03:00:00Z|120.0|+89.99999|0.2|0.2|20|G\n\
+                P1|CCD|TV1|2027-02-26T03:20:00Z|120.0|+89.99999|0.2|0.2|20|G\n\
+                P1|CCD|TV1|2027-02-26T03:40:00Z|120.0|+89.99999|0.2|0.2|20|G\n";
+    let t = read_bytes(
+        "pole.psv",
+        text.as_bytes(),
+        &SiteTable::builtin(),
+        &Limits::default(),
+    )
+    .tracklets
+    .remove(0);
+    let r = fit_tracklet(&t, &ObserverModel::new(), &FitOptions::default());
+    assert_eq!(r.status, "failed");
+    assert!(r.p_hyperbolic.is_none());
+    assert!(r.error.unwrap().contains("do not move"));
+}
