@@ -239,3 +239,25 @@ fn sorting_cycles_through_every_column_and_keeps_the_selection() {
         .collect();
     assert!(scores.windows(2).all(|w| w[0] >= w[1]), "{scores:?}");
 }
+
+#[test]
+fn a_decision_the_journal_could_not_save_stops_saying_saving() {
+    let mut app = demo_app();
+    let object = app.selected.clone().unwrap();
+    app.on_key(key('p'));
+    let i = app
+        .candidates
+        .iter()
+        .position(|c| c.fit.object == object)
+        .unwrap();
+    assert!(app.candidates[i].saving);
+    app.on_save_failed(&object, "No space left on device");
+    assert!(!app.candidates[i].saving);
+    assert!(
+        app.message
+            .as_deref()
+            .is_some_and(|m| m.contains("NOT SAVED") && m.contains("No space left")),
+        "{:?}",
+        app.message
+    );
+}

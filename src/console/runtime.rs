@@ -34,7 +34,8 @@ pub enum AppEvent {
     Resize,
     Watch(WatchEvent),
     Fit(Box<PoolResult>),
-    Journal(Result<Decision, String>),
+    /// A decision saved, or (object, reason) when it could not be.
+    Journal(Result<Decision, (String, String)>),
     Ephemeris(String, Vec<EphemerisPoint>),
     Tick,
 }
@@ -73,7 +74,8 @@ pub fn start(
     std::thread::spawn(move || {
         let mut journal = journal;
         for d in jrx {
-            let r = journal.append(d).map_err(|e| e.to_string());
+            let object = d.object.clone();
+            let r = journal.append(d).map_err(|e| (object, e.to_string()));
             if tx_j.send(AppEvent::Journal(r)).is_err() {
                 return;
             }
@@ -230,7 +232,7 @@ impl Runtime {
                 app.message = Some(format!("{}: {} saved", d.object, d.verdict.label()));
                 app.on_decision(d);
             }
-            AppEvent::Journal(Err(e)) => app.message = Some(format!("DECISION NOT SAVED: {e}")),
+            AppEvent::Journal(Err((object, e))) => app.on_save_failed(&object, &e),
             AppEvent::Ephemeris(obj, pts) => {
                 app.ephemeris = Some((obj, pts));
                 app.dirty = true;

@@ -5,6 +5,7 @@ use super::actions::Action;
 use super::keymap::{Context, Key, Keymap};
 use crate::feed::InputError;
 use crate::feed::journal::{Decision, Verdict};
+use crate::feed::sanitize::clean;
 use crate::fitting::ephemeris::EphemerisPoint;
 use crate::fitting::fit::{FitResult, MethodChoice, PerturbChoice};
 use ratatui::crossterm::event::{Event, KeyEvent};
@@ -205,6 +206,19 @@ impl App {
             }
         }
         self.refresh_view();
+    }
+
+    /// A decision the journal could not save: the row stops saying "saving…" and keeps what it had.
+    pub fn on_save_failed(&mut self, object: &str, reason: &str) {
+        if let Some(&i) = self.index.get(object) {
+            self.candidates[i].saving = false;
+        }
+        self.message = Some(format!(
+            "DECISION NOT SAVED for {}: {}",
+            clean(object),
+            clean(reason)
+        ));
+        self.dirty = true;
     }
 
     /// A decision replayed from the journal (or confirmed by it).

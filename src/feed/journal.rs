@@ -48,6 +48,10 @@ pub struct Decision {
 
 /// The journal file, open for appending.
 pub struct Journal {
+    /// Length of the file up to its last whole line: a failed append is truncated back to it.
+    good_len: u64,
+    /// Set when a failed append could not be undone: nothing more is written.
+    broken: Option<String>,
     file: File,
     path: PathBuf,
     next_seq: u64,
@@ -131,11 +135,14 @@ impl Journal {
             .map(|d| d.seq + 1)
             .max()
             .unwrap_or(1);
+        let good_len = file.metadata()?.len();
         Ok((
             Journal {
                 file,
                 path,
                 next_seq,
+                good_len,
+                broken: None,
             },
             replay,
         ))
@@ -145,14 +152,36 @@ impl Journal {
         &self.path
     }
 
-    /// Append a decision; returns only after the line is on disk (write, flush, fsync).
+    /// Append a decision; returns only after the line is on disk (write, flush, fsync). A failed
+    /// write (a full disk) is cut back to the last whole line, so no torn fragment is left for the
+    /// next decision to be glued onto; if even that fails, the journal refuses every later decision
+    /// until it is reopened, rather than report one as saved that could not be read back.
     pub fn append(&mut self, mut d: Decision) -> std::io::Result<Decision> {
+        if let Some(why) = &self.broken {
+            return Err(std::io::Error::other(format!(
+                "the journal {} needs attention ({why}); restart to repair it",
+                self.path.display()
+            )));
+        }
         d.seq = self.next_seq;
         let mut line = serde_json::to_vec(&d).map_err(std::io::Error::other)?;
         line.push(b'\n');
-        self.file.write_all(&line)?;
-        self.file.flush()?;
-        self.file.sync_data()?;
+        let written = self
+            .file
+            .write_all(&line)
+            .and_then(|_| self.file.flush())
+            .and_then(|_| self.file.sync_data());
+        if let Err(e) = written {
+            let repaired = self
+                .file
+                .set_len(self.good_len)
+                .and_then(|_| self.file.sync_data());
+            if let Err(r) = repaired {
+                self.broken = Some(format!("a failed write could not be undone: {r}"));
+            }
+            return Err(e);
+        }
+        self.good_len += line.len() as u64;
         self.next_seq += 1;
         Ok(d)
     }
