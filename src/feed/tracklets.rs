@@ -183,13 +183,13 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         reason: clean(&reason),
     };
     for (name, v) in [("rmsRA", r.rms_ra), ("rmsDec", r.rms_dec)] {
-        if let Some(x) = v {
-            if !(MIN_RMS_ARCSEC..=MAX_RMS_ARCSEC).contains(&x) {
-                return Err(err(
-                    name,
-                    format!("{x}\" is outside the accepted {MIN_RMS_ARCSEC}..{MAX_RMS_ARCSEC}\""),
-                ));
-            }
+        if let Some(x) = v
+            && !(MIN_RMS_ARCSEC..=MAX_RMS_ARCSEC).contains(&x)
+        {
+            return Err(err(
+                name,
+                format!("{x}\" is outside the accepted {MIN_RMS_ARCSEC}..{MAX_RMS_ARCSEC}\""),
+            ));
         }
     }
     let time = r
