@@ -3,7 +3,7 @@
 //!
 //! One `epv00` call costs tens of microseconds, far too much per observation inside a fit, so
 //! [`crate::physics::observe::ObserverModel`] samples it at whole days and interpolates with
-//! [`hermite`] polynomials (position and velocity at both nodes).
+//! `hermite` polynomials (position and velocity at both nodes).
 
 use super::V3;
 use super::time::Jd2;

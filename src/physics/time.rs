@@ -92,7 +92,7 @@ const LEAP_TABLE: &[(i32, u32, f64)] = &[
 
 /// First UTC date (year, month, day) for which no leap-second decision is known here. From memory:
 /// IERS Bulletin C 70 (July 2025) announced no leap second at the end of December 2025, so the offset
-/// is known through 2026-06-30. Update together with [`LEAP_TABLE`].
+/// is known through 2026-06-30. Update together with `LEAP_TABLE`.
 pub const LEAP_TABLE_VALID_BEFORE: (i32, u32, u32) = (2026, 7, 1);
 
 /// A validated UTC calendar time.
