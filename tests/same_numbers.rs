@@ -76,3 +76,24 @@ fn fit_and_the_headless_watcher_report_identical_numbers() {
         }
     }
 }
+
+#[test]
+fn each_element_has_one_sigma_in_the_record_and_its_elements() {
+    let feed = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(["fit", "--json"])
+        .arg(&feed)
+        .output()
+        .unwrap();
+    let recs = records(&out.stdout);
+    assert!(recs.len() >= 10);
+    for (obj, r) in &recs {
+        let s = &r["elements"]["sigma"];
+        for (top, inner) in [("e_sigma", "e"), ("q_sigma", "q"), ("i_sigma", "i")] {
+            assert_eq!(
+                r[top], s[inner],
+                "{obj}: {top} and elements.sigma.{inner} differ"
+            );
+        }
+    }
+}

@@ -671,6 +671,32 @@ fn lsq_probability(
     sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
 }
 
+/// Weighted spread of an angle (degrees) about its circular mean, so that 359° and 1° are 2° apart.
+fn angular_spread(
+    els: &[CometaryElements],
+    w: &[f64],
+    f: impl Fn(&CometaryElements) -> f64,
+) -> f64 {
+    let (s, c) = els.iter().zip(w).fold((0.0, 0.0), |(s, c), (e, w)| {
+        let a = f(e).to_radians();
+        (s + w * a.sin(), c + w * a.cos())
+    });
+    let mean = s.atan2(c);
+    let total: f64 = w.iter().sum::<f64>().max(1e-300);
+    let var = els
+        .iter()
+        .zip(w)
+        .map(|(e, w)| {
+            let d = (f(e).to_radians() - mean + std::f64::consts::PI)
+                .rem_euclid(std::f64::consts::TAU)
+                - std::f64::consts::PI;
+            w * d * d
+        })
+        .sum::<f64>()
+        / total;
+    var.sqrt().to_degrees()
+}
+
 /// Element uncertainties from weighted samples (which follow the real, curved distribution), and
 /// the orbits kept for ephemerides.
 fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f64, seed: u64) {
@@ -686,9 +712,22 @@ fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f6
         let v: Vec<f64> = els.iter().map(f).collect();
         super::sampling::weighted_spread(&v, weights).1
     };
-    out.e_sigma = Some(spread(&|e| e.e));
-    out.q_sigma = Some(spread(&|e| e.q));
-    out.i_sigma = Some(spread(&|e| e.i));
+    // One σ per quantity: the samples' spreads stand in the table, the orbit pane and the JSON alike.
+    let sig = super::covariance::ElementSigmas {
+        q: spread(&|e| e.q),
+        e: spread(&|e| e.e),
+        i: spread(&|e| e.i),
+        node: angular_spread(&els, weights, |e| e.node),
+        peri: angular_spread(&els, weights, |e| e.peri),
+        tp: spread(&|e| e.tp),
+        inv_a: spread(&|e| e.inv_a),
+    };
+    out.e_sigma = Some(sig.e);
+    out.q_sigma = Some(sig.q);
+    out.i_sigma = Some(sig.i);
+    if let Some(el) = out.elements.as_mut() {
+        el.sigma = Some(sig);
+    }
     out.samples = resample(
         states
             .iter()

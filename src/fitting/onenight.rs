@@ -214,7 +214,25 @@ fn summarise(
     out.e_bary = Some(elb.e);
     out.inv_a_bary = Some(elb.inv_a);
     out.epoch_jd_tdb = Some(t.value());
-    out.elements = Some(elements_out(&el, None, MU_SUN));
+    // One σ per quantity: half the central 68 % of the kept orbits, the same in every view.
+    let half68 = |f: &dyn Fn(&CometaryElements) -> f64| {
+        let v: Vec<f64> = els.iter().map(f).collect();
+        let (a, b) = (
+            weighted_quantile(&v, &eq, 0.1587).unwrap_or(f64::NAN),
+            weighted_quantile(&v, &eq, 0.8413).unwrap_or(f64::NAN),
+        );
+        (b - a) / 2.0
+    };
+    let sig = super::covariance::ElementSigmas {
+        q: (qq[3] - qq[1]) / 2.0,
+        e: (qe[3] - qe[1]) / 2.0,
+        i: (qi[3] - qi[1]) / 2.0,
+        node: half68(&|e| e.node),
+        peri: half68(&|e| e.peri),
+        tp: half68(&|e| e.tp),
+        inv_a: half68(&|e| e.inv_a),
+    };
+    out.elements = Some(elements_out(&el, Some(sig), MU_SUN));
     out.state = Some([x[0], x[1], x[2], x[3], x[4], x[5]]);
     out.n_used = tr.obs.len();
     let mut res = Vec::with_capacity(tr.obs.len());
