@@ -147,7 +147,7 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
             app.on_key(key(c));
         }
         check(&format!("filter_{w}x{h}"), &screen(&mut app, w, h));
-        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.on_key(KeyEvent::new(KeyCode::Enter, KeyModifiers::NONE));
         app.on_key(key('m'));
         for c in "fast, bright".chars() {
             app.on_key(key(c));
@@ -260,4 +260,23 @@ fn a_decision_the_journal_could_not_save_stops_saying_saving() {
         "{:?}",
         app.message
     );
+}
+
+#[test]
+fn escape_in_the_filter_prompt_drops_the_filter() {
+    let mut app = demo_app();
+    let all = app.view.len();
+    app.on_key(key('/'));
+    for c in "zzz".chars() {
+        app.on_key(key(c));
+    }
+    assert_eq!(app.view.len(), 0, "the filter applies while typed");
+    let pane: Vec<String> = interloper::console::panes::elements::lines(&app)
+        .iter()
+        .map(|l| l.to_string())
+        .collect();
+    assert!(pane[0].contains("no candidate matches"), "{pane:?}");
+    app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+    assert_eq!(app.view.len(), all);
+    assert!(app.filter.is_empty());
 }

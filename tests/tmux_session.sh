@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
-# capture-pane. Checks that the ranked list appears, a decision reaches the journal, the help overlay
-# opens, and quitting ends the program. CI runs it when tmux is installed; it skips (exit 0, saying so)
+# capture-pane. Checks that the ranked list appears, a decision reaches the journal, Esc drops a filter
+# being typed, the help overlay opens, and quitting ends the program. CI runs it when tmux is installed; it skips (exit 0, saying so)
 # otherwise.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -31,6 +31,14 @@ for _ in $(seq 1 20); do
     sleep 0.25
 done
 grep -q '"object":"K27Dx09"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
+tmux -L "$sock" send-keys -t demo /
+sleep 0.2
+tmux -L "$sock" send-keys -t demo z z z
+sleep 0.4
+tmux -L "$sock" capture-pane -p -t demo | grep -q "candidates 0 of" || fail "the filter did not apply"
+tmux -L "$sock" send-keys -t demo Escape
+sleep 0.4
+tmux -L "$sock" capture-pane -p -t demo | grep -q "candidates 0 of" && fail "Esc did not clear the filter"
 tmux -L "$sock" send-keys -t demo '?'
 sleep 0.5
 tmux -L "$sock" capture-pane -p -t demo | grep -q "next-undecided" || fail "no help overlay"

@@ -375,6 +375,11 @@ impl App {
             return match action {
                 Some(Action::Accept) => self.accept_input(),
                 Some(Action::Cancel) => {
+                    // Cancelling the filter prompt drops the filter it was typing.
+                    if self.mode == Mode::Filter {
+                        self.filter.clear();
+                        self.refresh_view();
+                    }
                     self.mode = Mode::List;
                     self.input.reset();
                     Vec::new()

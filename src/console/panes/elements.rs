@@ -19,7 +19,15 @@ fn pm(v: Option<f64>, s: Option<f64>, prec: usize) -> String {
 
 pub fn lines(app: &App) -> Vec<Line<'static>> {
     let Some(c) = app.selected_candidate() else {
-        return vec![Line::from("no candidate yet: waiting for files")];
+        return vec![Line::from(if app.candidates.is_empty() {
+            "no candidate yet: waiting for files".to_string()
+        } else {
+            format!(
+                "no candidate matches the filter '{}' ({} hidden); clear it to see them",
+                clean(&app.filter),
+                app.candidates.len()
+            )
+        })];
     };
     let f = &c.fit;
     let mut out = Vec::new();
