@@ -125,8 +125,15 @@ fn benches(c: &mut Criterion) {
         });
     }
 
+    // Two objects first seen the same night under one id, as a linking step would join them.
     let two = population_sky("two_night.psv");
-    let linked = false_linkage(&two[0], &two[1]);
+    let night = |t: &Tracklet| t.obs[0].time.tdb.value().floor();
+    let partner = two
+        .iter()
+        .skip(1)
+        .find(|t| night(t) == night(&two[0]))
+        .expect("a second object of the same night");
+    let linked = false_linkage(&two[0], partner);
     let r = fit_tracklet(&linked, &model, &opts);
     eprintln!(
         "false linkage: {} nights, status {}, {:?}",
