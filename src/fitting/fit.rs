@@ -725,8 +725,25 @@ fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f6
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);
     out.i_sigma = Some(sig.i);
-    if let Some(el) = out.elements.as_mut() {
-        el.sigma = Some(sig);
+    // The values beside those σ: the most probable sampled orbit (one consistent set of elements),
+    // not the least-squares minimum, which the posterior may not favour.
+    let best = weights
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.total_cmp(b.1))
+        .map(|(k, _)| k);
+    match best.and_then(|k| els.get(k)) {
+        Some(el) => {
+            out.e = Some(el.e);
+            out.q_au = Some(el.q);
+            out.i_deg = Some(el.i);
+            out.elements = Some(elements_out(el, Some(sig), MU_SUN));
+        }
+        None => {
+            if let Some(el) = out.elements.as_mut() {
+                el.sigma = Some(sig);
+            }
+        }
     }
     out.samples = resample(
         states
