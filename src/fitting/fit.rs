@@ -425,7 +425,13 @@ fn rms(fit_res: &[[f64; 2]], used: &[bool]) -> f64 {
     (s / n.max(1) as f64).sqrt() / ARCSEC
 }
 
-fn residual_list(tr: &Tracklet, res: &[[f64; 2]], used: &[bool], chi2: &[f64]) -> Vec<ResidualOut> {
+/// Every observation's residual as printed (chi2 NaN where the path has none).
+pub fn residual_list(
+    tr: &Tracklet,
+    res: &[[f64; 2]],
+    used: &[bool],
+    chi2: &[f64],
+) -> Vec<ResidualOut> {
     tr.obs
         .iter()
         .enumerate()

@@ -4,14 +4,14 @@
 
 use super::input::Tracklet;
 use super::population::PopulationModel;
-use super::result::{FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, elements_out};
+use super::result::{FitResult, KEPT_SAMPLES, RangingOut, elements_out};
 use super::shortarc::{Geometry, Node, ShortArc, ShortArcOptions, one_night};
 use super::stats::weighted_quantile;
 use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
 use crate::physics::observe::{ObserverModel, ObserverState};
-use crate::physics::time::{Instant, Jd2, tdb_to_tt, tt_to_utc};
+use crate::physics::time::{Instant, Jd2, tdb_to_tt};
 use crate::physics::{S6, V3, split_state};
 
 /// The ln ρ rule is refined while the one-sigma error of P exceeds this (what could change a decision)
@@ -251,22 +251,7 @@ fn summarise(
     let att = &arc.attributable;
     let chi2_dof = att.chi2 / att.dof.max(1) as f64;
     out.chi2_per_dof = Some(chi2_dof);
-    out.residuals = tr
-        .obs
-        .iter()
-        .enumerate()
-        .map(|(i, o)| ResidualOut {
-            time_utc: tt_to_utc(o.time.tt).to_string(),
-            site: o.site_code.clone(),
-            night: tr.night[i],
-            ra_deg: o.ra.to_degrees(),
-            dec_deg: o.dec.to_degrees(),
-            ra_arcsec: res[i][0] / ARCSEC,
-            dec_arcsec: res[i][1] / ARCSEC,
-            used: true,
-            chi2: f64::NAN,
-        })
-        .collect();
+    out.residuals = super::fit::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
     if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF {
         out.poor_fit.push(format!(
             "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"

@@ -132,15 +132,7 @@ struct Attributable {
     e_d: V3,
 }
 
-fn tangent_axes(u: &V3) -> (V3, V3) {
-    let e_a = V3::new(-u.y, u.x, 0.0);
-    let e_a = if e_a.norm() > 1e-12 {
-        e_a.normalize()
-    } else {
-        V3::x()
-    };
-    (e_a, u.cross(&e_a))
-}
+use super::shortarc::tangent_axes;
 
 fn attributable(tr: &Tracklet) -> Attributable {
     let n = tr.obs.len();

@@ -82,30 +82,21 @@ pub fn fit_by_profile(
     let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
     // A profile without a posterior is a gross misfit: the record still shows the best attempt and
     // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
-    let Some(posterior) = prof.posterior else {
-        return Some(lsq_result(
-            &p,
-            &fit,
-            &[],
-            shift,
-            opts,
-            dynamics.name(),
-            None,
-        ));
-    };
-    let top = prof
-        .nodes
-        .iter()
-        .map(|n| n.ln_w)
-        .fold(f64::NEG_INFINITY, f64::max);
-    let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
-    let total: f64 = raw.iter().sum();
-    let given = Given {
-        posterior,
-        from: "range-profile",
-        states: prof.nodes.iter().map(|n| n.state).collect(),
-        weights: raw.iter().map(|w| w / total).collect(),
-    };
+    let given = prof.posterior.map(|posterior| {
+        let top = prof
+            .nodes
+            .iter()
+            .map(|n| n.ln_w)
+            .fold(f64::NEG_INFINITY, f64::max);
+        let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+        let total: f64 = raw.iter().sum();
+        Given {
+            posterior,
+            from: "range-profile",
+            states: prof.nodes.iter().map(|n| n.state).collect(),
+            weights: raw.iter().map(|w| w / total).collect(),
+        }
+    });
     Some(lsq_result(
         &p,
         &fit,
@@ -113,7 +104,7 @@ pub fn fit_by_profile(
         shift,
         opts,
         dynamics.name(),
-        Some(given),
+        given,
     ))
 }
 
