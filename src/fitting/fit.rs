@@ -672,7 +672,17 @@ fn lsq_probability(
                 }
             ));
         }
-        _ => out.set_posterior(&set.posterior, "importance-sampling", &model.source),
+        _ => {
+            out.set_posterior(&set.posterior, "importance-sampling", &model.source);
+            // The sampling budget ran out before the error was small: say how uncertain P is.
+            if set.posterior.ln_odds_error > super::sampling::TARGET_LN_ODDS_ERROR {
+                out.distrust_linear.push(format!(
+                    "probability uncertain by a factor {:.1} in the odds ({:.0} effective samples)",
+                    set.posterior.ln_odds_error.exp(),
+                    set.n_eff
+                ));
+            }
+        }
     }
     sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
 }
