@@ -228,8 +228,11 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty();
+    // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
+    let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
     if distrusted
         && !decided
+        && !hopeless
         && let Some(r) = super::twonight::fit_by_profile(&inputs, Some(fit.state), dynamics)
     {
         return r;
@@ -265,7 +268,7 @@ pub const DEGENERATE_RANGE: f64 = 0.3;
 pub const LINEAR_DECIDES: f64 = 6.0;
 
 /// At most this many initial orbits are corrected for one tracklet.
-pub const MAX_CORRECTIONS: usize = 12;
+pub const MAX_CORRECTIONS: usize = 8;
 
 /// Distinct minima within this Δχ² of the best are kept as alternative solutions.
 pub const ALTERNATIVE_DCHI2: f64 = 9.0;

@@ -306,6 +306,16 @@ pub fn slices(
         .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
         .collect();
     let mut all = slices_at(p, frame, &coarse, start, used, true);
+    // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
+    // its least bad distance would buy nothing.
+    let dof = (2 * used.iter().filter(|u| **u).count())
+        .saturating_sub(6)
+        .max(1) as f64;
+    if all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min)
+        > super::fit::NO_ORBIT_CHI2_PER_DOF * dof
+    {
+        return all;
+    }
     // Twice: refine where χ² is within reach of its minimum; the second pass zooms in on the valley
     // when the first shows it narrower than its own spacing (two nights pin ρ to a fraction of a per
     // cent when they are far apart).
