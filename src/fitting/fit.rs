@@ -267,6 +267,9 @@ pub const DEGENERATE_RANGE: f64 = 0.3;
 /// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
 pub const LINEAR_DECIDES: f64 = 6.0;
 
+/// Levenberg–Marquardt iterations allowed a seed before it is judged.
+pub const SEED_ITERATIONS: usize = 20;
+
 /// At most this many initial orbits are corrected for one tracklet.
 pub const MAX_CORRECTIONS: usize = 8;
 
@@ -311,12 +314,24 @@ fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqF
             if settle && good(&minima) {
                 break;
             }
-            // Real arcs settle within the first few seeds; a false linkage would try them all.
-            if corrections >= MAX_CORRECTIONS {
+            // Real arcs settle within the first few seeds; a false linkage would try them all. Half
+            // way through, if every minimum is still a gross misfit, more seeds will not help.
+            let hopeless = |m: &[LsqFit]| {
+                !m.is_empty() && m.iter().all(|f| f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF)
+            };
+            if corrections >= MAX_CORRECTIONS
+                || (corrections >= MAX_CORRECTIONS / 2 && hopeless(&minima))
+            {
+                corrections = MAX_CORRECTIONS;
                 break;
             }
             corrections += 1;
-            let Ok(f) = correct(p, &s, &used, &opts.lsq) else {
+            // A good seed converges in a handful of iterations; the winner is refined in full below.
+            let seed_opts = LsqOptions {
+                max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
+                ..opts.lsq
+            };
+            let Ok(f) = correct(p, &s, &used, &seed_opts) else {
                 continue;
             };
             if !f.chi2.is_finite() || !f.converged {
@@ -339,7 +354,12 @@ fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqF
     }
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     let best = minima.first()?.clone();
-    let best_fit = correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best);
+    // Outlier rejection cannot rescue a fit no orbit explains (every point looks like an outlier).
+    let best_fit = if best.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
+        best
+    } else {
+        correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best)
+    };
     let others = minima
         .into_iter()
         .skip(1)
@@ -567,6 +587,8 @@ pub fn lsq_result(
                 opts.seed,
             );
         }
+        // A fit no orbit explains gets no probability (withheld below): do not compute one.
+        None if fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF => {}
         None => lsq_probability(&mut out, p, fit, alternatives, shift, opts, trusted),
     }
     if trusted {

@@ -72,8 +72,9 @@ pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) ->
             }
         }
     }
-    // Leave one night out only where three or more remain: two nights alone do not fix e.
-    if p.tracklet.n_nights() >= 4 {
+    // Leave one night out only where three or more remain: two nights alone do not fix e; and not for
+    // a fit no orbit explains (refitting its pieces cannot make it more of a misfit).
+    if p.tracklet.n_nights() >= 4 && fit.chi2_per_dof() <= super::fit::NO_ORBIT_CHI2_PER_DOF {
         for k in 0..p.tracklet.n_nights() {
             let used: Vec<bool> = (0..p.len())
                 .map(|i| fit.used[i] && p.tracklet.night[i] != k)
