@@ -108,9 +108,33 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     if args.json {
-        for r in &results {
-            serde_json::to_writer(&mut out, r)?;
-            out.write_all(b"\n")?;
+        // Records are turned into text on every worker (a survey night is tens of thousands of them),
+        // in blocks, and written in rank order.
+        for block in results.chunks(4096) {
+            let per = block.len().div_ceil(threads.max(1)).max(1);
+            let texts: Vec<Vec<u8>> = std::thread::scope(|s| {
+                let handles: Vec<_> = block
+                    .chunks(per)
+                    .map(|part| {
+                        s.spawn(move || {
+                            let mut buf = Vec::with_capacity(part.len() * 4096);
+                            for r in part {
+                                if serde_json::to_writer(&mut buf, r).is_ok() {
+                                    buf.push(b'\n');
+                                }
+                            }
+                            buf
+                        })
+                    })
+                    .collect();
+                handles
+                    .into_iter()
+                    .map(|h| h.join().unwrap_or_default())
+                    .collect()
+            });
+            for t in texts {
+                out.write_all(&t)?;
+            }
         }
     } else {
         out.write_all(interloper::report::ranked_table(&results).as_bytes())?;
