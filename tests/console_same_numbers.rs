@@ -1,0 +1,125 @@
+//! The console's own fits of the demo night (its event loop on a TestBackend, fed by its watcher) carry
+//! the same probability, odds and elements as `fit` computes for the same files.
+
+use interloper::console::keymap::Keymap;
+use interloper::console::panes::Theme;
+use interloper::console::runtime;
+use interloper::console::state::App;
+use interloper::feed::sites::SiteTable;
+use interloper::feed::tracklets::{Limits, merge, read_bytes};
+use interloper::feed::watcher::WatchOptions;
+use interloper::fitting::batch::fit_all;
+use interloper::fitting::fit::FitOptions;
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use std::collections::HashMap;
+use std::path::PathBuf;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+type Numbers = (Option<f64>, Option<f64>, Option<f64>, Option<f64>, usize);
+
+#[test]
+fn the_console_and_fit_agree_on_every_number() {
+    let demo = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&demo)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    files.sort();
+    // What `fit` says.
+    let sites = SiteTable::builtin();
+    let tracklets: Vec<_> = files
+        .iter()
+        .flat_map(|f| {
+            let bytes = std::fs::read(f).unwrap();
+            read_bytes(&f.display().to_string(), &bytes, &sites, &Limits::default()).tracklets
+        })
+        .collect();
+    let batch: HashMap<String, Numbers> = fit_all(merge(tracklets), &FitOptions::default(), 2)
+        .into_iter()
+        .map(|r| {
+            (
+                r.object.clone(),
+                (r.p_hyperbolic, r.log10_odds, r.e, r.e_sigma, r.n_obs),
+            )
+        })
+        .collect();
+    // What the console shows, once every file is in and fitted.
+    let watched = tempfile::tempdir().unwrap();
+    for f in &files {
+        std::fs::copy(f, watched.path().join(f.file_name().unwrap())).unwrap();
+    }
+    let state = tempfile::tempdir().unwrap();
+    let stop = Arc::new(AtomicBool::new(false));
+    let (tx, rx) = std::sync::mpsc::channel();
+    let opts = WatchOptions {
+        settle: Duration::from_millis(200),
+        scan_interval: Duration::from_millis(50),
+        ..WatchOptions::default()
+    };
+    let (mut rt, decisions, _) = runtime::start(
+        watched.path().to_path_buf(),
+        SiteTable::builtin(),
+        state.path().to_path_buf(),
+        opts,
+        2,
+        stop.clone(),
+        tx,
+    )
+    .unwrap();
+    let seen: Arc<Mutex<HashMap<String, Numbers>>> = Arc::default();
+    let (seen_loop, stop_loop) = (seen.clone(), stop.clone());
+    let ui = std::thread::spawn(move || {
+        let mut app = App::new(Keymap::builtin());
+        rt.replayed(&mut app, decisions);
+        let mut terminal = Terminal::new(TestBackend::new(120, 36)).unwrap();
+        runtime::run_loop(
+            &mut terminal,
+            &mut app,
+            &mut rt,
+            &rx,
+            &stop_loop,
+            Theme { color: false },
+            |a| {
+                *seen_loop.lock().unwrap() = a
+                    .candidates
+                    .iter()
+                    .map(|c| {
+                        let f = &c.fit;
+                        (
+                            f.object.clone(),
+                            (f.p_hyperbolic, f.log10_odds, f.e, f.e_sigma, f.n_obs),
+                        )
+                    })
+                    .collect();
+            },
+        )
+        .unwrap();
+        rt.shutdown();
+    });
+    let deadline = Instant::now() + Duration::from_secs(90);
+    let shown = loop {
+        let s = seen.lock().unwrap().clone();
+        let complete = batch
+            .iter()
+            .all(|(k, v)| s.get(k).is_some_and(|c| c.4 == v.4));
+        if complete && s.len() == batch.len() {
+            // Let any refit in flight land, then take the final numbers.
+            std::thread::sleep(Duration::from_millis(500));
+            break seen.lock().unwrap().clone();
+        }
+        assert!(
+            Instant::now() < deadline,
+            "the console never showed every object: {s:?}"
+        );
+        std::thread::sleep(Duration::from_millis(50));
+    };
+    stop.store(true, Ordering::Relaxed);
+    ui.join().unwrap();
+    assert!(batch.len() >= 10);
+    for (obj, b) in &batch {
+        assert_eq!(&shown[obj], b, "{obj}: console and fit differ");
+    }
+}
