@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
 # capture-pane. Checks that the ranked list appears, a decision reaches the journal, Esc drops a filter
-# being typed, the help overlay opens, and quitting ends the program. CI runs it when tmux is installed; it skips (exit 0, saying so)
+# being typed, the help overlay opens, quitting ends the program, and a hang-up closes it cleanly. CI runs it when tmux is installed; it skips (exit 0, saying so)
 # otherwise.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -50,4 +50,20 @@ for _ in $(seq 1 20); do
     sleep 0.25
 done
 tmux -L "$sock" capture-pane -p -t demo | grep -q "EXITED" || fail "q did not quit"
+# A hang-up (the SSH link dropping) closes the console cleanly: it logs and exits.
+state2=$(mktemp -d)
+tmux -L "$sock" new-session -d -s hup -x 100 -y 30 "echo \$\$ > $state2/pid; exec $bin demo --speed 10 --state $state2"
+tmux -L "$sock" set-option -t hup remain-on-exit on >/dev/null
+for _ in $(seq 1 40); do
+    [ -s "$state2/console.log" ] && break
+    sleep 0.25
+done
+kill -HUP "$(cat "$state2/pid")"
+for _ in $(seq 1 40); do
+    [ "$(tmux -L "$sock" list-panes -t hup -F '#{pane_dead}')" = "1" ] && break
+    sleep 0.25
+done
+[ "$(tmux -L "$sock" list-panes -t hup -F '#{pane_dead}')" = "1" ] || fail "SIGHUP did not end the console"
+grep -q "console closed" "$state2/console.log" || fail "the console did not log its close after SIGHUP"
+rm -rf "$state2"
 echo "tmux session test: passed"

@@ -52,16 +52,31 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     });
     rt.replayed(&mut app, decisions);
     let stop_in = stop.clone();
+    let state_in = cfg.state.clone();
     std::thread::spawn(move || {
+        // The terminal going away (end of file, an error reading it) ends the console: looping on
+        // it would spin a core all night with nobody watching.
+        let gone = |why: String| {
+            log(&state_in, &format!("terminal input ended ({why}): closing"));
+            stop_in.store(true, Ordering::Relaxed);
+        };
         while !stop_in.load(Ordering::Relaxed) {
-            if !event::poll(Duration::from_millis(100)).unwrap_or(false) {
-                continue;
+            match event::poll(Duration::from_millis(100)) {
+                Ok(true) => {}
+                Ok(false) => continue,
+                Err(e) => {
+                    gone(e.to_string());
+                    break;
+                }
             }
             let ev = match event::read() {
                 Ok(Event::Key(k)) if k.kind != KeyEventKind::Release => AppEvent::Key(k),
                 Ok(Event::Resize(..)) => AppEvent::Resize,
                 Ok(_) => continue,
-                Err(_) => break,
+                Err(e) => {
+                    gone(e.to_string());
+                    break;
+                }
             };
             if tx.send(ev).is_err() {
                 break;

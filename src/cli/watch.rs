@@ -119,9 +119,27 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     if !args.dir.is_dir() {
         anyhow::bail!("{} is not a directory", args.dir.display());
     }
+    if !args.headless {
+        use std::io::IsTerminal;
+        if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
+            eprintln!(
+                "error: the console needs a terminal (standard input and output); for scripts and \
+                 pipelines use `interloper watch --headless {}`",
+                args.dir.display()
+            );
+            return Ok(2);
+        }
+    }
     let sites = args.sites.load()?;
-    signal_hook::flag::register(signal_hook::consts::SIGINT, stop.clone())?;
-    signal_hook::flag::register(signal_hook::consts::SIGTERM, stop.clone())?;
+    // A hang-up (the SSH link dropped) ends the run like an interrupt: the console restores the
+    // terminal, logs, and exits.
+    for sig in [
+        signal_hook::consts::SIGINT,
+        signal_hook::consts::SIGTERM,
+        signal_hook::consts::SIGHUP,
+    ] {
+        signal_hook::flag::register(sig, stop.clone())?;
+    }
     let opts = WatchOptions {
         settle: Duration::from_millis(args.settle_ms),
         poll: args.poll,
