@@ -9,7 +9,7 @@ use notify::{EventKind, RecursiveMode, Watcher as _};
 use std::collections::{HashMap, HashSet};
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender, channel};
 use std::time::{Duration, Instant, SystemTime};
 
@@ -83,12 +83,29 @@ struct FileState {
 
 /// Start watching `dir` on a thread of its own; events arrive on the returned channel until `stop`.
 pub fn spawn(dir: PathBuf, opts: WatchOptions, stop: Arc<AtomicBool>) -> Receiver<WatchEvent> {
-    let (tx, rx) = channel();
-    std::thread::spawn(move || run(&dir, &opts, &stop, &tx));
-    rx
+    spawn_counted(dir, opts, stop).0
 }
 
-fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEvent>) {
+/// As [`spawn`], with a counter of directory scans (how an idle watcher proves it sleeps).
+pub fn spawn_counted(
+    dir: PathBuf,
+    opts: WatchOptions,
+    stop: Arc<AtomicBool>,
+) -> (Receiver<WatchEvent>, Arc<AtomicU64>) {
+    let (tx, rx) = channel();
+    let scans = Arc::new(AtomicU64::new(0));
+    let counter = scans.clone();
+    std::thread::spawn(move || run(&dir, &opts, &stop, &tx, &counter));
+    (rx, scans)
+}
+
+fn run(
+    dir: &Path,
+    opts: &WatchOptions,
+    stop: &AtomicBool,
+    tx: &Sender<WatchEvent>,
+    scans: &AtomicU64,
+) {
     let (ntx, nrx) = channel::<notify::Result<notify::Event>>();
     let _keep = if opts.poll {
         None
@@ -112,21 +129,32 @@ fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEven
     let mut first = true;
     while !stop.load(Ordering::Relaxed) {
         if !first {
-            // Wait for an event or the next scan, collecting completion hints on the way.
-            match nrx.recv_timeout(opts.scan_interval) {
-                Ok(ev) => {
-                    collect_hint(ev, &mut hints);
-                    while let Ok(ev) = nrx.try_recv() {
-                        collect_hint(ev, &mut hints);
-                    }
+            // Sleep until the next scan is due, waking early only for an event that can complete a
+            // file (closed after writing, renamed into place). Everything else — including the
+            // access events the scan's own reading of the directory raises — is drained and ignored,
+            // so an idle watcher scans at its interval and no faster.
+            let deadline = Instant::now() + opts.scan_interval;
+            loop {
+                let left = deadline.saturating_duration_since(Instant::now());
+                if left.is_zero() || stop.load(Ordering::Relaxed) {
+                    break;
                 }
-                Err(RecvTimeoutError::Timeout) | Err(RecvTimeoutError::Disconnected) => {
-                    if opts.poll || _keep.is_none() {
-                        std::thread::sleep(Duration::ZERO);
+                match nrx.recv_timeout(left) {
+                    Ok(ev) => {
+                        if collect_hint(ev, &mut hints) {
+                            break;
+                        }
+                    }
+                    Err(RecvTimeoutError::Timeout) => break,
+                    // No event source (polling, or the watcher could not start): a plain sleep.
+                    Err(RecvTimeoutError::Disconnected) => {
+                        std::thread::sleep(left);
+                        break;
                     }
                 }
             }
         }
+        scans.fetch_add(1, Ordering::Relaxed);
         if scan(dir, opts, &mut files, &mut hints, tx).is_err() {
             return;
         }
@@ -134,9 +162,10 @@ fn run(dir: &Path, opts: &WatchOptions, stop: &AtomicBool, tx: &Sender<WatchEven
     }
 }
 
-fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>) {
+/// Record a completion hint; true when the event was one (worth scanning early for).
+fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>) -> bool {
     let Ok(ev) = ev else {
-        return; // an error or overflow: the next scan catches up
+        return false; // an error or overflow: the next scan catches up
     };
     let complete = matches!(
         ev.kind,
@@ -150,6 +179,7 @@ fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>)
             hints.insert(p.clone());
         }
     }
+    complete
 }
 
 fn stamp(meta: &std::fs::Metadata) -> Stamp {
@@ -182,7 +212,29 @@ fn scan(
         let Ok(meta) = std::fs::metadata(&path) else {
             continue;
         };
+        if meta.is_dir() {
+            continue;
+        }
         if !meta.is_file() {
+            // A FIFO, socket or device (or a link to one): reading it could block or never end.
+            // Said once, as long as it stays there.
+            if !files.contains_key(&path) {
+                files.insert(
+                    path.clone(),
+                    FileState {
+                        stamp: stamp(&meta),
+                        changed_at: now,
+                        hinted: false,
+                        delivered: Some(stamp(&meta)),
+                    },
+                );
+                tx.send(WatchEvent::Refused {
+                    path: path.clone(),
+                    reason: "not a regular file (a pipe, socket or device): not read".into(),
+                    arrived: SystemTime::now(),
+                })
+                .map_err(|_| ())?;
+            }
             continue;
         }
         let st = stamp(&meta);
@@ -228,7 +280,19 @@ fn scan(
         }
         let bytes = match std::fs::read(&path) {
             Ok(b) => b,
-            Err(_) => continue, // vanished or unreadable for now; try again next scan
+            // Gone between the listing and the read: nothing to say.
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => continue,
+            // Unreadable (permissions, an I/O error): said once; a changed file is tried again.
+            Err(e) => {
+                state.delivered = Some(st);
+                tx.send(WatchEvent::Refused {
+                    path: path.clone(),
+                    reason: format!("cannot be read: {e}"),
+                    arrived: SystemTime::now(),
+                })
+                .map_err(|_| ())?;
+                continue;
+            }
         };
         // Changed while we read it: not complete yet.
         match std::fs::metadata(&path) {

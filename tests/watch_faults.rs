@@ -1,0 +1,114 @@
+//! The watcher sleeps when nothing happens, and says once — never silently skips — what it cannot read:
+//! an idle directory is scanned at the set interval and no faster, in both modes (its own reading of
+//! the directory used to wake it); a FIFO is refused once; a file without read permission is reported
+//! once with its reason through `watch --headless --json` run as an unprivileged user (root reads
+//! everything, so that part needs root to drop privileges with setpriv; CI runs as root).
+
+use interloper::feed::watcher::{WatchEvent, WatchOptions, spawn_counted};
+use std::os::unix::fs::PermissionsExt;
+use std::process::Command;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
+
+fn idle_scans(poll: bool) -> u64 {
+    let dir = tempfile::tempdir().unwrap();
+    let stop = Arc::new(AtomicBool::new(false));
+    let opts = WatchOptions {
+        poll,
+        scan_interval: Duration::from_millis(100),
+        ..WatchOptions::default()
+    };
+    let (_rx, scans) = spawn_counted(dir.path().to_path_buf(), opts, stop.clone());
+    std::thread::sleep(Duration::from_secs(2));
+    stop.store(true, Ordering::Relaxed);
+    scans.load(Ordering::Relaxed)
+}
+
+#[test]
+fn an_idle_watcher_scans_at_its_interval_and_no_faster() {
+    for poll in [false, true] {
+        let n = idle_scans(poll);
+        eprintln!(
+            "idle for 2 s at a 100 ms interval ({}): {n} scans",
+            if poll { "polling" } else { "events" }
+        );
+        assert!((10..=25).contains(&n), "{n} scans in 2 s");
+    }
+}
+
+#[test]
+fn a_fifo_is_refused_once() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("pipe.psv");
+    assert!(
+        Command::new("mkfifo")
+            .arg(&fifo)
+            .status()
+            .unwrap()
+            .success()
+    );
+    let stop = Arc::new(AtomicBool::new(false));
+    let opts = WatchOptions {
+        scan_interval: Duration::from_millis(50),
+        ..WatchOptions::default()
+    };
+    let (rx, _) = spawn_counted(dir.path().to_path_buf(), opts, stop.clone());
+    let end = Instant::now() + Duration::from_millis(1500);
+    let mut refused = 0;
+    while Instant::now() < end {
+        if let Ok(WatchEvent::Refused { reason, .. }) = rx.recv_timeout(Duration::from_millis(50)) {
+            assert!(reason.contains("not a regular file"), "{reason}");
+            refused += 1;
+        }
+    }
+    stop.store(true, Ordering::Relaxed);
+    assert_eq!(refused, 1);
+}
+
+#[test]
+fn an_unreadable_file_is_reported_once_with_its_reason() {
+    let is_root = Command::new("id")
+        .arg("-u")
+        .output()
+        .is_ok_and(|o| String::from_utf8_lossy(&o.stdout).trim() == "0");
+    let has_setpriv = Command::new("setpriv").arg("--help").output().is_ok();
+    if !(is_root && has_setpriv) {
+        eprintln!(
+            "needs root and setpriv to drop privileges: unreadable-file case not exercised here"
+        );
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    std::fs::set_permissions(dir.path(), std::fs::Permissions::from_mode(0o755)).unwrap();
+    std::fs::set_permissions(state.path(), std::fs::Permissions::from_mode(0o777)).unwrap();
+    let secret = dir.path().join("secret.psv");
+    std::fs::write(&secret, "# version=2022\n").unwrap();
+    std::fs::set_permissions(&secret, std::fs::Permissions::from_mode(0o000)).unwrap();
+    let out = Command::new("setpriv")
+        .args(["--reuid=65534", "--regid=65534", "--clear-groups"])
+        .arg(env!("CARGO_BIN_EXE_interloper"))
+        .args([
+            "watch",
+            "--headless",
+            "--json",
+            "--stop-after-idle",
+            "2",
+            "--state",
+        ])
+        .arg(state.path())
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    let reports: Vec<&str> = text.lines().filter(|l| l.contains("secret.psv")).collect();
+    assert_eq!(
+        reports.len(),
+        1,
+        "stdout: {text}\nstderr: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(reports[0].contains("cannot be read"), "{}", reports[0]);
+    assert!(reports[0].contains("ermission denied"), "{}", reports[0]);
+}
