@@ -5,7 +5,7 @@ use super::InputError;
 use super::sites::SiteTable;
 use super::tracklets::{Limits, read_bytes};
 use crate::fitting::input::{Observation, Tracklet};
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 
 /// Identity of one observation: site, time (to 1e-8 day) and position (to 1e-9 rad).
 pub type ObsKey = (String, i64, i64, i64);
@@ -19,10 +19,10 @@ pub fn obs_key(o: &Observation) -> ObsKey {
     )
 }
 
+/// One object's observations, each with the files that report it.
 #[derive(Debug, Default)]
 struct Entry {
-    obs: Vec<Observation>,
-    keys: HashSet<ObsKey>,
+    obs: BTreeMap<ObsKey, (Observation, BTreeSet<String>)>,
     sources: Vec<String>,
     version: u64,
 }
@@ -30,9 +30,11 @@ struct Entry {
 /// What one file changed.
 #[derive(Debug, Default)]
 pub struct Ingest {
-    /// Objects with new observations, with their new version.
+    /// Objects whose observations changed, with their new version.
     pub changed: Vec<(String, u64)>,
     pub new_observations: usize,
+    /// Observations that left because the file that reported them was rewritten without them.
+    pub withdrawn_observations: usize,
     pub errors: Vec<InputError>,
     pub rejected: bool,
 }
@@ -40,6 +42,8 @@ pub struct Ingest {
 #[derive(Debug, Default)]
 pub struct Store {
     objects: BTreeMap<String, Entry>,
+    /// What each file's latest version contributed: a rewritten file replaces it, a grown one adds.
+    files: HashMap<String, HashSet<(String, ObsKey)>>,
 }
 
 impl Store {
@@ -47,7 +51,9 @@ impl Store {
         Store::default()
     }
 
-    /// Take in one file's bytes.
+    /// Take in one file's bytes (the whole file, also when it grew or was rewritten): observations it
+    /// no longer reports leave (unless another file reports them too), new ones join. A file refused
+    /// as a whole keeps what its earlier version contributed.
     pub fn ingest(
         &mut self,
         file: &str,
@@ -61,22 +67,55 @@ impl Store {
             rejected: intake.rejected,
             ..Ingest::default()
         };
+        if intake.rejected {
+            return out;
+        }
+        let mut incoming: Vec<(String, ObsKey, Observation, String)> = Vec::new();
         for t in intake.tracklets {
-            let e = self.objects.entry(t.object.clone()).or_default();
-            let mut added = 0;
             for o in t.obs {
-                if e.keys.insert(obs_key(&o)) {
-                    e.obs.push(o);
-                    added += 1;
+                incoming.push((t.object.clone(), obs_key(&o), o, t.source.clone()));
+            }
+        }
+        let new_set: HashSet<(String, ObsKey)> = incoming
+            .iter()
+            .map(|(obj, k, _, _)| (obj.clone(), k.clone()))
+            .collect();
+        let old_set = self.files.remove(file).unwrap_or_default();
+        let mut touched: BTreeSet<String> = BTreeSet::new();
+        for (obj, key) in old_set.difference(&new_set) {
+            let Some(e) = self.objects.get_mut(obj) else {
+                continue;
+            };
+            if let Some((_, owners)) = e.obs.get_mut(key) {
+                owners.remove(file);
+                if owners.is_empty() {
+                    e.obs.remove(key);
+                    out.withdrawn_observations += 1;
+                    touched.insert(obj.clone());
                 }
             }
-            if !e.sources.contains(&t.source) {
-                e.sources.push(t.source.clone());
+        }
+        for (obj, key, o, source) in incoming {
+            let e = self.objects.entry(obj.clone()).or_default();
+            if !e.sources.contains(&source) {
+                e.sources.push(source);
             }
-            if added > 0 {
+            match e.obs.get_mut(&key) {
+                Some((_, owners)) => {
+                    owners.insert(file.to_string());
+                }
+                None => {
+                    e.obs.insert(key, (o, BTreeSet::from([file.to_string()])));
+                    out.new_observations += 1;
+                    touched.insert(obj);
+                }
+            }
+        }
+        self.files.insert(file.to_string(), new_set);
+        for obj in touched {
+            if let Some(e) = self.objects.get_mut(&obj) {
                 e.version += 1;
-                out.new_observations += added;
-                out.changed.push((t.object.clone(), e.version));
+                out.changed.push((obj, e.version));
             }
         }
         out
@@ -88,7 +127,7 @@ impl Store {
         Some(Tracklet::new(
             object.to_string(),
             e.sources.join("; "),
-            e.obs.clone(),
+            e.obs.values().map(|(o, _)| o.clone()).collect(),
         ))
     }
 
@@ -102,5 +141,55 @@ impl Store {
 
     pub fn n_observations(&self) -> usize {
         self.objects.values().map(|e| e.obs.len()).sum()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn psv(rows: &[(&str, &str, f64)]) -> Vec<u8> {
+        let mut s = String::from("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec\n");
+        for (id, t, ra) in rows {
+            s.push_str(&format!(
+                "{id}|CCD|TV1|2027-02-26T{t}Z|{ra}|+10.0|0.2|0.2\n"
+            ));
+        }
+        s.into_bytes()
+    }
+
+    #[test]
+    fn a_rewritten_file_replaces_its_observations_and_a_grown_one_adds() {
+        let (sites, limits) = (SiteTable::builtin(), Limits::default());
+        let mut st = Store::new();
+        let times = ["03:00:00", "03:10:00", "03:20:00", "03:30:00", "03:40:00"];
+        let first: Vec<(&str, &str, f64)> = times
+            .iter()
+            .enumerate()
+            .map(|(k, t)| ("X1", *t, 120.0 + 0.01 * k as f64))
+            .collect();
+        st.ingest("a.psv", &psv(&first), &sites, &limits);
+        assert_eq!(st.tracklet("X1").unwrap().obs.len(), 5);
+        // The same file rewritten with corrected positions: still five, the new ones.
+        let fixed: Vec<(&str, &str, f64)> = times
+            .iter()
+            .enumerate()
+            .map(|(k, t)| ("X1", *t, 120.5 + 0.01 * k as f64))
+            .collect();
+        let ing = st.ingest("a.psv", &psv(&fixed), &sites, &limits);
+        assert_eq!(ing.withdrawn_observations, 5);
+        let t = st.tracklet("X1").unwrap();
+        assert_eq!(t.obs.len(), 5);
+        assert!(t.obs.iter().all(|o| o.ra.to_degrees() > 120.4));
+        // Grown: two lines appended add two.
+        let mut grown = fixed.clone();
+        grown.push(("X1", "03:50:00", 120.55));
+        grown.push(("X1", "04:00:00", 120.56));
+        st.ingest("a.psv", &psv(&grown), &sites, &limits);
+        assert_eq!(st.tracklet("X1").unwrap().obs.len(), 7);
+        // An observation another file also reports stays when this file drops it.
+        st.ingest("b.psv", &psv(&grown[..1]), &sites, &limits);
+        st.ingest("a.psv", &psv(&grown[1..]), &sites, &limits);
+        assert_eq!(st.tracklet("X1").unwrap().obs.len(), 7);
     }
 }
