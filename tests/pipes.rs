@@ -66,6 +66,8 @@ fn ephem_into_a_closed_pipe_exits_zero_quietly() {
         "--step",
         "1m",
         "--json",
+        "--object",
+        "K27Dx09",
         &f,
     ]);
     assert_eq!(code, Some(0), "{err}");

@@ -143,8 +143,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
         bail!("--to is before --from");
     }
     let n = (span / step + 1e-9).floor() as usize + 1;
-    if n > 200_000 {
-        bail!("{n} steps is too many (at most 200000)");
+    if n > MAX_ROWS {
+        bail!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
     }
     let limits = Limits::default();
     let mut tracklets = Vec::new();
@@ -161,7 +161,17 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     if !args.objects.is_empty() {
         tracklets.retain(|t| args.objects.contains(&t.object));
     }
+    // The cap is on the whole run, every object's rows together.
+    if n.saturating_mul(tracklets.len()) > MAX_ROWS {
+        bail!(
+            "{n} steps for {} objects is {} rows, more than the {MAX_ROWS} of one run: choose objects \
+             with --object, a shorter range or a longer step",
+            tracklets.len(),
+            n.saturating_mul(tracklets.len())
+        );
+    }
     let results = fit_all_default(tracklets.clone());
+    let mut uncomputable: Vec<String> = Vec::new();
     let model = ObserverModel::new();
     let mut out = std::io::BufWriter::new(std::io::stdout().lock());
     let mut all: Vec<EphemerisPoint> = Vec::new();
@@ -202,6 +212,10 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
                 args.min_alt,
             ) {
                 points.push(p);
+            } else if uncomputable.len() < 3 {
+                uncomputable.push(format!("{} at {}", clean(&fit.object), tt_to_utc(tt)));
+            } else {
+                uncomputable.push(String::new());
             }
         }
         if args.json {
@@ -267,5 +281,29 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             json.display()
         );
     }
-    Ok(if failed > 0 || input_errors > 0 { 1 } else { 0 })
+    // A time that cannot be computed is an error, not a silent gap in the table.
+    if !uncomputable.is_empty() {
+        let shown: Vec<&str> = uncomputable
+            .iter()
+            .filter(|u| !u.is_empty())
+            .map(String::as_str)
+            .collect();
+        eprintln!(
+            "error: {} time(s) could not be computed (outside the dates the Earth and time models \
+             cover?), e.g. {}",
+            uncomputable.len(),
+            shown.join("; ")
+        );
+    }
+    Ok(
+        if failed > 0 || input_errors > 0 || !uncomputable.is_empty() {
+            1
+        } else {
+            0
+        },
+    )
 }
+
+/// Rows one `ephem` run writes at most (all objects together): a month at one-minute steps for
+/// four objects.
+pub const MAX_ROWS: usize = 200_000;
