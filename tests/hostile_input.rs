@@ -25,3 +25,27 @@ fn three_identical_positions_at_the_pole_are_refused_not_scored() {
     assert!(r.p_hyperbolic.is_none());
     assert!(r.error.unwrap().contains("do not move"));
 }
+
+#[test]
+fn a_file_with_too_many_lines_is_refused_before_parsing() {
+    let mut text = String::from("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec\n");
+    for k in 0..450_000 {
+        text.push_str(&format!(
+            "B{:05}|CCD|TV1|2027-02-26T03:00:00Z|120.5|+10.25\n",
+            k % 1000
+        ));
+    }
+    let intake = read_bytes(
+        "big.psv",
+        text.as_bytes(),
+        &SiteTable::builtin(),
+        &Limits::default(),
+    );
+    assert!(intake.rejected);
+    assert!(intake.tracklets.is_empty());
+    assert!(
+        intake.errors[0].reason.contains("refused before parsing"),
+        "{}",
+        intake.errors[0].reason
+    );
+}

@@ -79,6 +79,29 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
         }
     };
     let body = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Bound the work (and memory) before parsing: a file with more data lines than the observation
+    // limit allows is refused from a count of its lines, without building a record for each.
+    let data_lines = body
+        .lines()
+        .filter(|l| {
+            let t = l.trim();
+            !t.is_empty() && !t.starts_with('#')
+        })
+        .count();
+    if data_lines
+        > limits
+            .max_observations
+            .saturating_mul(2)
+            .saturating_add(HEADER_ALLOWANCE)
+    {
+        return whole_file(
+            file,
+            format!(
+                "{data_lines} data lines is over the {}-observation limit (refused before parsing)",
+                limits.max_observations
+            ),
+        );
+    }
     let (records, mut errors) = if ades::looks_like_psv(body) {
         ades::parse(file, body)
     } else if super::obs80::looks_like_obs80(body) {
@@ -125,6 +148,10 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
 
 /// Merge tracklets of the same object (from several files) into one, duplicates removed. The merged
 /// tracklet's source lists the files it came from, separated by "; ", in order of first appearance.
+/// Lines beyond twice the observation limit (two-line records) plus this many header lines mean a
+/// file is refused before it is parsed.
+const HEADER_ALLOWANCE: usize = 1000;
+
 /// Roving observers: altitudes accepted (m), from below the lowest land to above the highest
 /// observing aircraft (common practice, no source).
 pub const MIN_ALT_M: f64 = -500.0;
