@@ -18,6 +18,10 @@ fn main() {
         Ok(c) => std::process::exit(c),
         // The reader of our output went away (`| head`): nothing is wrong and nothing more to say.
         Err(e) if broken_pipe(&e) => std::process::exit(0),
+        Err(e) if e.downcast_ref::<cli::Usage>().is_some() => {
+            eprintln!("error: {e:#}");
+            std::process::exit(2);
+        }
         Err(e) => {
             eprintln!("error: {e:#}");
             std::process::exit(1);

@@ -33,7 +33,7 @@ pub struct DemoArgs {
 
 pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
     if !(args.speed > 0.0 && args.speed.is_finite()) {
-        anyhow::bail!("--speed must be positive");
+        crate::usage!("--speed must be positive (1 is about a file a second)");
     }
     let mut files: Vec<PathBuf> = std::fs::read_dir(&args.feed)
         .with_context(|| format!("reading the demo feed {}", args.feed.display()))?

@@ -127,24 +127,49 @@ fn table(points: &[EphemerisPoint]) -> String {
 
 pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
-    let site = sites
-        .get(&args.site)
-        .with_context(|| format!("unknown site code '{}'", clean(&args.site)))?
-        .position;
-    let from = UtcTime::parse(&args.from)
-        .with_context(|| format!("--from {}", args.from))?
-        .instant()?;
-    let to = UtcTime::parse(&args.to)
-        .with_context(|| format!("--to {}", args.to))?
-        .instant()?;
-    let step = parse_step(&args.step)?;
+    let Some(site) = sites.get(&args.site) else {
+        let codes = sites.codes();
+        let wanted = args.site.to_uppercase();
+        let near: Vec<&str> = codes
+            .iter()
+            .copied()
+            .filter(|c| {
+                let c = c.to_uppercase();
+                c.chars()
+                    .zip(wanted.chars())
+                    .filter(|(a, b)| a == b)
+                    .count()
+                    + 1
+                    >= wanted.len()
+            })
+            .take(5)
+            .collect();
+        crate::usage!(
+            "unknown site code '{}'{}; the known codes are {} (add your own with --sites FILE)",
+            clean(&args.site),
+            if near.is_empty() {
+                String::new()
+            } else {
+                format!(" (did you mean {}?)", near.join(", "))
+            },
+            codes.join(", ")
+        );
+    };
+    let site = site.position;
+    let time = |flag: &str, v: &str| match UtcTime::parse(v).and_then(|u| u.instant()) {
+        Ok(t) => Ok(t),
+        Err(e) => Err(crate::cli::Usage(format!("{flag} {}: {e}", clean(v)))),
+    };
+    let from = time("--from", &args.from)?;
+    let to = time("--to", &args.to)?;
+    let step = parse_step(&args.step).map_err(|e| crate::cli::Usage(format!("--step {e:#}")))?;
     let span = to.tt.minus(from.tt);
     if span < 0.0 {
-        bail!("--to is before --from");
+        crate::usage!("--to is before --from");
     }
     let n = (span / step + 1e-9).floor() as usize + 1;
     if n > MAX_ROWS {
-        bail!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
+        crate::usage!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
     }
     let limits = Limits::default();
     let mut tracklets = Vec::new();
@@ -161,9 +186,19 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     if !args.objects.is_empty() {
         tracklets.retain(|t| args.objects.contains(&t.object));
     }
+    if !args.objects.is_empty() && tracklets.is_empty() {
+        crate::usage!(
+            "no tracklet has the object id(s) {}",
+            args.objects
+                .iter()
+                .map(|o| clean(o))
+                .collect::<Vec<_>>()
+                .join(", ")
+        );
+    }
     // The cap is on the whole run, every object's rows together.
     if n.saturating_mul(tracklets.len()) > MAX_ROWS {
-        bail!(
+        crate::usage!(
             "{n} steps for {} objects is {} rows, more than the {MAX_ROWS} of one run: choose objects \
              with --object, a shorter range or a longer step",
             tracklets.len(),

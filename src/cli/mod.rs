@@ -10,6 +10,26 @@ pub mod watch;
 
 use clap::{Parser, Subcommand};
 
+/// A mistake in how the command was called (exit code 2), as opposed to a failure of the work (1).
+#[derive(Debug)]
+pub struct Usage(pub String);
+
+impl std::fmt::Display for Usage {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for Usage {}
+
+/// Return early with a usage error.
+#[macro_export]
+macro_rules! usage {
+    ($($arg:tt)*) => {
+        return Err($crate::cli::Usage(format!($($arg)*)).into())
+    };
+}
+
 /// Triage console and batch tools for incoming tracklets: orbit fits, hyperbolicity score, follow-up.
 #[derive(Debug, Parser)]
 #[command(name = "interloper", version, about)]

@@ -117,7 +117,10 @@ pub fn run(args: &WatchArgs) -> anyhow::Result<i32> {
 
 pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     if !args.dir.is_dir() {
-        anyhow::bail!("{} is not a directory", args.dir.display());
+        crate::usage!(
+            "{} is not a directory (watch needs the folder the files arrive in)",
+            args.dir.display()
+        );
     }
     if !args.headless {
         use std::io::IsTerminal;

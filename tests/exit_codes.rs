@@ -1,0 +1,94 @@
+//! Usage mistakes exit with 2 and say how to put them right; 1 stays for failed fits and rejected input.
+
+use std::process::Command;
+
+fn run(args: &[&str]) -> (Option<i32>, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn feed() -> String {
+    format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"))
+}
+
+const RANGE: [&str; 6] = [
+    "--from",
+    "2027-02-27T00:00:00Z",
+    "--to",
+    "2027-02-27T06:00:00Z",
+    "--step",
+    "1h",
+];
+
+#[test]
+fn an_unknown_site_code_is_a_usage_error_that_lists_the_known_ones() {
+    let f = feed();
+    let mut a = vec!["ephem", "--site", "TV7"];
+    a.extend(RANGE);
+    a.push(&f);
+    let (code, err) = run(&a);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("did you mean") && err.contains("TV1"), "{err}");
+}
+
+#[test]
+fn bad_times_and_ranges_are_usage_errors() {
+    let f = feed();
+    for args in [
+        vec![
+            "--from",
+            "2027-02-30T00:00:00Z",
+            "--to",
+            "2027-03-01T00:00:00Z",
+            "--step",
+            "1h",
+        ],
+        vec![
+            "--from",
+            "2027-02-27T06:00:00Z",
+            "--to",
+            "2027-02-27T00:00:00Z",
+            "--step",
+            "1h",
+        ],
+        vec![
+            "--from",
+            "2027-02-27T00:00:00Z",
+            "--to",
+            "2027-02-27T06:00:00Z",
+            "--step",
+            "0h",
+        ],
+    ] {
+        let mut a = vec!["ephem", "--site", "TV1"];
+        a.extend(args.iter().copied());
+        a.push(&f);
+        let (code, err) = run(&a);
+        assert_eq!(code, Some(2), "{args:?}: {err}");
+    }
+}
+
+#[test]
+fn an_object_that_matches_nothing_is_a_usage_error() {
+    let f = feed();
+    let mut a = vec!["ephem", "--site", "TV1", "--object", "NOPE"];
+    a.extend(RANGE);
+    a.push(&f);
+    let (code, err) = run(&a);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("NOPE"), "{err}");
+}
+
+#[test]
+fn a_missing_watch_directory_and_a_zero_speed_are_usage_errors() {
+    let (code, err) = run(&["watch", "--headless", "/nonexistent/interloper-dir"]);
+    assert_eq!(code, Some(2), "{err}");
+    let (code, err) = run(&["demo", "--headless", "--speed", "0"]);
+    assert_eq!(code, Some(2), "{err}");
+}
