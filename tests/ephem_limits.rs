@@ -1,5 +1,6 @@
-//! `ephem` bounds a run, not a range: the row cap counts every object's rows together; and a time it
-//! cannot compute is an error with the time named, not a table that silently stops.
+//! `ephem` bounds a run, not a range: the row cap counts every object's rows together (asking for more
+//! is a usage error, exit 2); and a time it cannot compute is an error with the time named, not a table
+//! that silently stops.
 
 use std::process::Command;
 
@@ -28,7 +29,8 @@ fn the_row_cap_counts_all_objects_together() {
         "--step",
         "1m",
     ]);
-    assert_eq!(code, Some(1), "{err}");
+    // Asking for more rows than a run writes is a usage mistake: exit 2.
+    assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("more than the 200000 of one run"), "{err}");
     assert_eq!(rows, 0);
 }
