@@ -1,14 +1,10 @@
-//! From an orbit to the hyperbolicity score: barycentric elements, z = Φ⁻¹(P(e > 1)) clipped to ±8,
-//! v∞ and the incoming asymptote for unbound orbits.
+//! Barycentric states, v∞ and the incoming asymptote of unbound orbits (the probability itself is in
+//! `posterior.rs`).
 
-use super::stats::normal_quantile;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_BARY_OVER_SUN, MU_SUN};
 use crate::physics::earth::EarthState;
 use crate::physics::frames::{equatorial_to_galactic, radec_from_vector};
 use crate::physics::{S6, V3};
-
-/// Scores are clipped here: beyond ±8σ the number carries no further meaning for triage.
-pub const SCORE_CLIP: f64 = 8.0;
 
 /// Gravitational parameter for barycentric elements (Sun plus planets).
 pub const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
@@ -26,28 +22,6 @@ pub fn barycentric_with(x_helio: &S6, e: &EarthState) -> S6 {
         x_helio[4] + sv.y,
         x_helio[5] + sv.z,
     )
-}
-
-/// Score of a linear fit: (e − 1)/σ_e, clipped.
-pub fn linear_score(e: f64, sigma_e: f64) -> f64 {
-    if sigma_e > 0.0 {
-        ((e - 1.0) / sigma_e).clamp(-SCORE_CLIP, SCORE_CLIP)
-    } else if e > 1.0 {
-        SCORE_CLIP
-    } else {
-        -SCORE_CLIP
-    }
-}
-
-/// Score of a probability, clipped.
-pub fn probability_score(p: f64) -> f64 {
-    normal_quantile(p).clamp(-SCORE_CLIP, SCORE_CLIP)
-}
-
-/// Probability estimated from weighted samples with effective size n_eff, kept off 0 and 1 so the
-/// score says "at least" rather than infinity: P̂ = (k + ½)/(N_eff + 1).
-pub fn sampled_probability(p_weighted: f64, n_eff: f64) -> f64 {
-    (p_weighted * n_eff + 0.5) / (n_eff + 1.0)
 }
 
 /// What an unbound orbit says about where the object came from.
@@ -127,12 +101,5 @@ mod tests {
         let speed =
             (inc.uvw_km_s[0].powi(2) + inc.uvw_km_s[1].powi(2) + inc.uvw_km_s[2].powi(2)).sqrt();
         assert!((speed - inc.v_inf_km_s).abs() < 1e-9);
-    }
-
-    #[test]
-    fn sampled_probability_never_reaches_certainty() {
-        let p = sampled_probability(1.0, 1e4);
-        assert!(p < 1.0);
-        assert!((probability_score(p) - 3.89).abs() < 0.02);
     }
 }
