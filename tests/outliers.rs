@@ -1,0 +1,133 @@
+//! Outlier rejection against the synthetic reference arcs (tests/reference/make_synthetic.py: invented
+//! orbits integrated with scipy DOP853 on JPL DE421, observed with ERFA site vectors). Gaussian noise and
+//! wild points are drawn here on the reference's noiseless positions.
+//!
+//! The two rates below pull against each other: a point displaced by kσ in a random direction has a
+//! standardised χ² that is non-central χ²(2) with λ ≈ (1 − h)k², h its leverage (≈ 0.25 for 12 points and
+//! 6 parameters), so with a threshold that keeps clean tracklets under 1 % (about 16 for 12–20 points)
+//! a 4σ point can be caught only about one time in five, and a point beyond ~7σ almost always. The
+//! test prints the whole detection curve and asserts where the statistics allow it.
+
+mod util;
+
+use interloper::fitting::fit::{FitOptions, fit_tracklet};
+use interloper::fitting::input::Tracklet;
+use interloper::fitting::ranging::SplitMix;
+use interloper::physics::observe::ObserverModel;
+use serde_json::Value;
+
+const SIGMA_ARCSEC: f64 = 0.2;
+
+fn truth(name: &str) -> Value {
+    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
+    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
+    all.into_iter().find(|t| t["object"] == name).unwrap()
+}
+
+/// The reference arc with noise, cut to `keep` positions spread over every night when it has more.
+fn arc(t: &Value, rng: &mut SplitMix, keep: usize) -> Tracklet {
+    let tr = util::noisy(t, rng, SIGMA_ARCSEC);
+    if tr.obs.len() <= keep {
+        return tr;
+    }
+    let stride = tr.obs.len() as f64 / keep as f64;
+    let obs = (0..keep)
+        .map(|k| tr.obs[(k as f64 * stride) as usize].clone())
+        .collect();
+    Tracklet::new(tr.object.clone(), tr.source.clone(), obs)
+}
+
+/// Arcs of 12 (three nights) and 20 (ten nights, two a night) positions.
+const ARCS: [(&str, usize); 8] = [
+    ("mainbelt_3n", 12),
+    ("near_earth_3n", 12),
+    ("comet_like_3n", 12),
+    ("hyp_weak_3n", 12),
+    ("mainbelt_10n", 20),
+    ("near_earth_10n", 20),
+    ("comet_like_10n", 20),
+    ("hyp_strong_10n", 20),
+];
+
+#[test]
+fn clean_gaussian_tracklets_of_12_to_20_points_lose_a_point_less_than_one_time_in_a_hundred() {
+    let model = ObserverModel::new();
+    let opts = FitOptions::default();
+    let mut rng = SplitMix::new(2026);
+    let (mut fits, mut lost) = (0, 0);
+    for (name, keep) in ARCS {
+        let t = truth(name);
+        for _ in 0..200 {
+            let tr = arc(&t, &mut rng, keep);
+            let r = fit_tracklet(&tr, &model, &opts);
+            if r.residuals.is_empty() {
+                continue;
+            }
+            fits += 1;
+            if r.n_used < r.n_obs {
+                lost += 1;
+            }
+        }
+    }
+    let rate = lost as f64 / fits as f64;
+    eprintln!(
+        "false rejection: {lost} of {fits} clean tracklets lost a point ({:.2} %)",
+        100.0 * rate
+    );
+    assert!(fits >= 1500, "{fits} fits with residuals");
+    assert!(rate < 0.01, "{rate}");
+}
+
+#[test]
+fn a_wild_point_is_caught_as_often_as_the_threshold_allows_and_always_when_far_off() {
+    let model = ObserverModel::new();
+    let opts = FitOptions::default();
+    let mut rng = SplitMix::new(7);
+    let mut curve = Vec::new();
+    for k in [4.0, 5.0, 6.0, 8.0, 10.0, 20.0] {
+        let (mut tried, mut caught, mut wrong) = (0, 0, 0);
+        for (name, keep) in ARCS {
+            let t = truth(name);
+            for _ in 0..40 {
+                let mut tr = arc(&t, &mut rng, keep);
+                let w = (rng.uniform() * tr.obs.len() as f64) as usize % tr.obs.len();
+                let angle = std::f64::consts::TAU * rng.uniform();
+                let off = k * SIGMA_ARCSEC / 3600.0 * interloper::physics::constants::DEG;
+                let o = &mut tr.obs[w];
+                o.ra += off * angle.cos() / o.dec.cos();
+                o.dec += off * angle.sin();
+                let r = fit_tracklet(&tr, &model, &opts);
+                if r.residuals.len() != tr.obs.len() {
+                    continue;
+                }
+                tried += 1;
+                // Residuals are listed in the tracklet's (time) order.
+                let pos = w;
+                if !r.residuals[pos].used {
+                    caught += 1;
+                }
+                wrong += r
+                    .residuals
+                    .iter()
+                    .enumerate()
+                    .filter(|(i, x)| *i != pos && !x.used)
+                    .count();
+            }
+        }
+        let rate = caught as f64 / tried as f64;
+        eprintln!(
+            "wild point {k:>4}σ: caught {caught} of {tried} ({:.1} %), {wrong} good points rejected with it",
+            100.0 * rate
+        );
+        curve.push((k, rate, tried));
+    }
+    for (k, rate, tried) in curve {
+        assert!(tried >= 300, "{k}σ: {tried} usable fits");
+        if k >= 8.0 {
+            assert!(rate >= 0.95, "{k}σ caught {rate}");
+        }
+        if k >= 5.0 {
+            assert!(rate >= 0.5, "{k}σ caught {rate}");
+        }
+    }
+}
