@@ -4,10 +4,9 @@
 //! show.
 
 use super::covariance::{eccentricity_gradient, elements_with_sigmas};
-use super::gauss::{Sight, gauss};
 use super::input::Tracklet;
 use super::linear::{LineContext, line_posterior};
-use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::lsq::{LsqFit, LsqOptions, Problem, correct_with_outliers};
 use super::onenight::{fit_one_night, instant_at, night_v_mag};
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::population::PopulationModel;
@@ -22,11 +21,10 @@ use super::sampling::{distrust_reasons, importance_sample};
 use super::significance::{MU_BARY, incoming};
 use super::stats::weighted_quantile;
 use crate::physics::constants::AU_PER_DAY_TO_KM_S;
-use crate::physics::constants::{ARCSEC, C_AU_PER_DAY, MU_SUN};
+use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
 use crate::physics::observe::{ObserverModel, ObserverState};
-use crate::physics::propagate::propagate;
 use crate::physics::time::{Jd2, tt_to_utc};
 use crate::physics::{M3, S6, V3, split_state};
 use std::sync::{Arc, OnceLock};
@@ -179,7 +177,9 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     };
     let two_body = TwoBody;
     let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
-    let Some((mut fit, alternatives)) = least_squares(&problem, opts, Vec::new()) else {
+    let scan = super::twonight::scan_start(&inputs, None);
+    let Some((mut fit, alternatives)) = super::search::least_squares(&problem, opts, scan.as_ref())
+    else {
         return fallback("no initial orbit converged");
     };
     // Perturbations, by arc length or a close approach to Earth.
@@ -259,183 +259,11 @@ fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
     (s > 0.0).then(|| (e - 1.0) / s)
 }
 
-/// Initial orbits from Gauss's method on night triplets, each corrected; the best by χ², then
-/// corrected again with outlier handling.
 /// Relative range uncertainty beyond which a short arc is handed to ranging.
 pub const DEGENERATE_RANGE: f64 = 0.3;
 
 /// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
 pub const LINEAR_DECIDES: f64 = 6.0;
-
-/// Levenberg–Marquardt iterations allowed a seed before it is judged.
-pub const SEED_ITERATIONS: usize = 20;
-
-/// At most this many initial orbits are corrected for one tracklet.
-pub const MAX_CORRECTIONS: usize = 8;
-
-/// Distinct minima within this Δχ² of the best are kept as alternative solutions.
-pub const ALTERNATIVE_DCHI2: f64 = 9.0;
-
-fn least_squares(p: &Problem, opts: &FitOptions, extra: Vec<S6>) -> Option<(LsqFit, Vec<LsqFit>)> {
-    let tr = p.tracklet;
-    // Seeds are made lazily, triplet by triplet: most arcs settle on the first.
-    let triplets = night_triplets(p);
-    let used = vec![true; tr.obs.len()];
-    let mut minima: Vec<LsqFit> = Vec::new();
-    let settle = tr.n_nights() >= 3;
-    // "Good" means χ² consistent with the stated errors (3σ of the χ² distribution): a wrong basin can
-    // still fit loosely, so only a statistically acceptable fit stops the search.
-    let good = |minima: &[LsqFit]| {
-        minima.iter().any(|m| {
-            let dof = m.dof().max(1) as f64;
-            m.cov.is_some() && m.chi2_per_dof() < 1.0 + 3.0 * (2.0 / dof).sqrt()
-        })
-    };
-    let mut pending = triplets.into_iter();
-    let mut extra = Some(extra);
-    let mut corrections = 0;
-    loop {
-        if corrections >= MAX_CORRECTIONS {
-            break;
-        }
-        // With three nights or more a statistically good minimum settles it; shorter arcs look at
-        // every seed for other solutions.
-        if settle && good(&minima) {
-            break;
-        }
-        let group = match pending.next() {
-            Some(t) => gauss_seeds(p, t),
-            None => match extra.take() {
-                Some(e) => e,
-                None => break,
-            },
-        };
-        for s in group {
-            if settle && good(&minima) {
-                break;
-            }
-            // Real arcs settle within the first few seeds; a false linkage would try them all. Half
-            // way through, if every minimum is still a gross misfit, more seeds will not help.
-            let hopeless = |m: &[LsqFit]| {
-                !m.is_empty() && m.iter().all(|f| f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF)
-            };
-            if corrections >= MAX_CORRECTIONS
-                || (corrections >= MAX_CORRECTIONS / 2 && hopeless(&minima))
-            {
-                corrections = MAX_CORRECTIONS;
-                break;
-            }
-            corrections += 1;
-            // A good seed converges in a handful of iterations; the winner is refined in full below.
-            let seed_opts = LsqOptions {
-                max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
-                ..opts.lsq
-            };
-            let Ok(f) = correct(p, &s, &used, &seed_opts) else {
-                continue;
-            };
-            if !f.chi2.is_finite() || !f.converged {
-                continue;
-            }
-            // The same minimum if within 3σ (Mahalanobis) of one already found.
-            let same = minima.iter().position(|m| {
-                let d = m.state - f.state;
-                match m.cov.and_then(|c| c.try_inverse()) {
-                    Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
-                    None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
-                }
-            });
-            match same {
-                Some(k) if minima[k].chi2 <= f.chi2 => {}
-                Some(k) => minima[k] = f,
-                None => minima.push(f),
-            }
-        }
-    }
-    minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
-    let best = minima.first()?.clone();
-    // Outlier rejection cannot rescue a fit no orbit explains (every point looks like an outlier).
-    let best_fit = if best.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
-        best
-    } else {
-        correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best)
-    };
-    let others = minima
-        .into_iter()
-        .skip(1)
-        .filter(|m| m.chi2 - best_fit.chi2 < ALTERNATIVE_DCHI2 && m.cov.is_some())
-        .collect();
-    Some((best_fit, others))
-}
-
-fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
-    let o = &p.tracklet.obs[i];
-    Sight {
-        t: o.time.tdb.minus(t_ref),
-        dir: unit_from_radec(o.ra, o.dec),
-        observer: p.observers[i].helio_pos,
-    }
-}
-
-/// Triplets of observations for Gauss's method: the middle of the first, middle and last nights
-/// first, then other night triplets, then two points of one night with one of another.
-fn night_triplets(p: &Problem) -> Vec<[usize; 3]> {
-    let tr = p.tracklet;
-    let nights = tr.n_nights();
-    let members =
-        |k: usize| -> Vec<usize> { (0..tr.obs.len()).filter(|&i| tr.night[i] == k).collect() };
-    let mid = |k: usize| {
-        let m = members(k);
-        m[m.len() / 2]
-    };
-    let mut triplets: Vec<[usize; 3]> = Vec::new();
-    if nights >= 3 {
-        triplets.push([mid(0), mid(nights / 2), mid(nights - 1)]);
-        for a in 0..nights {
-            for b in a + 1..nights {
-                for c in b + 1..nights {
-                    let t = [mid(a), mid(b), mid(c)];
-                    if !triplets.contains(&t) && triplets.len() < 20 {
-                        triplets.push(t);
-                    }
-                }
-            }
-        }
-    }
-    for k in 0..nights {
-        let m = members(k);
-        if m.len() >= 2 {
-            let other = if k + 1 < nights {
-                mid(k + 1)
-            } else {
-                mid(k - 1)
-            };
-            let mut t = [m[0], m[m.len() - 1], other];
-            t.sort_unstable();
-            if !triplets.contains(&t) {
-                triplets.push(t);
-            }
-        }
-    }
-    triplets
-}
-
-/// Gauss solutions of one triplet, propagated to the epoch.
-fn gauss_seeds(p: &Problem, t: [usize; 3]) -> Vec<S6> {
-    let sights = [
-        sight(p, t[0], p.epoch),
-        sight(p, t[1], p.epoch),
-        sight(p, t[2], p.epoch),
-    ];
-    gauss(&sights, MU_SUN, Some(C_AU_PER_DAY), true)
-        .into_iter()
-        .filter_map(|sol| {
-            propagate(&sol.r2, &sol.v2, -sol.t2, MU_SUN)
-                .ok()
-                .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
-        })
-        .collect()
-}
 
 fn rms(fit_res: &[[f64; 2]], used: &[bool]) -> f64 {
     let (mut s, mut n) = (0.0, 0usize);
@@ -552,19 +380,32 @@ pub fn lsq_result(
                 a.epoch.value(),
                 MU_SUN,
             );
+            let (rb, vb) = split_state(&(a.state + shift));
             Alternative {
                 delta_chi2: a.chi2 - fit.chi2,
                 e: el.e,
                 q_au: el.q,
                 i_deg: el.i,
+                unbound: CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e >= 1.0,
+                probability: None,
             }
         })
         .collect();
     if !alternatives.is_empty() {
-        out.distrust_linear.push(format!(
-            "{} other solution(s) fit as well",
-            alternatives.len()
-        ));
+        let flips = out
+            .alternatives
+            .iter()
+            .filter(|a| a.unbound != (elb.e >= 1.0))
+            .count();
+        out.distrust_linear.push(if flips > 0 {
+            format!(
+                "{} other solution(s) fit as well, {flips} of them {}: P weighs them all",
+                alternatives.len(),
+                if elb.e >= 1.0 { "bound" } else { "unbound" }
+            )
+        } else {
+            format!("{} other solution(s) fit as well", alternatives.len())
+        });
     }
     let z_linear = sigma_eb.filter(|s| *s > 0.0).map(|s| (elb.e - 1.0) / s);
     // Beyond ±6σ a nonlinearity of a fifth of σ (the distrust trigger) cannot carry e across 1: keep
@@ -573,13 +414,14 @@ pub fn lsq_result(
         && tr.n_nights() >= 3
         && alternatives.is_empty();
     let trusted = out.distrust_linear.is_empty() || decided;
+    let sampled = given.is_some();
     match given {
         Some(g) => {
             let (v_mag, assumed) = night_v_mag(tr, &opts.population);
             out.v_mag = Some(v_mag);
             out.v_mag_assumed = assumed;
             out.set_posterior(&g.posterior, g.from, &opts.population.source);
-            sample_spreads(
+            super::spreads::sample_spreads(
                 &mut out,
                 &g.states,
                 &g.weights,
@@ -593,6 +435,15 @@ pub fn lsq_result(
     }
     if trusted {
         out.z_linear = z_linear;
+    }
+    // A linear answer that stands although the elements curve within 1σ: its σ come from draws.
+    if !sampled
+        && decided
+        && out.samples.is_empty()
+        && !distrust_reasons(p, fit, shift).is_empty()
+        && let Some(c) = fit.cov
+    {
+        super::spreads::gaussian_spreads(&mut out, p, fit, &c, opts.seed);
     }
     out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {
@@ -709,92 +560,7 @@ fn lsq_probability(
             }
         }
     }
-    sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
-}
-
-/// Weighted spread of an angle (degrees) about its circular mean, so that 359° and 1° are 2° apart.
-fn angular_spread(
-    els: &[CometaryElements],
-    w: &[f64],
-    f: impl Fn(&CometaryElements) -> f64,
-) -> f64 {
-    let (s, c) = els.iter().zip(w).fold((0.0, 0.0), |(s, c), (e, w)| {
-        let a = f(e).to_radians();
-        (s + w * a.sin(), c + w * a.cos())
-    });
-    let mean = s.atan2(c);
-    let total: f64 = w.iter().sum::<f64>().max(1e-300);
-    let var = els
-        .iter()
-        .zip(w)
-        .map(|(e, w)| {
-            let d = (f(e).to_radians() - mean + std::f64::consts::PI)
-                .rem_euclid(std::f64::consts::TAU)
-                - std::f64::consts::PI;
-            w * d * d
-        })
-        .sum::<f64>()
-        / total;
-    var.sqrt().to_degrees()
-}
-
-/// Element uncertainties from weighted samples (which follow the real, curved distribution), and
-/// the orbits kept for ephemerides.
-fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f64, seed: u64) {
-    let ecl_s = equatorial_to_ecliptic();
-    let els: Vec<CometaryElements> = states
-        .iter()
-        .map(|x| {
-            let (r, v) = split_state(x);
-            CometaryElements::from_state(&(ecl_s * r), &(ecl_s * v), epoch, MU_SUN)
-        })
-        .collect();
-    let spread = |f: &dyn Fn(&CometaryElements) -> f64| {
-        let v: Vec<f64> = els.iter().map(f).collect();
-        super::sampling::weighted_spread(&v, weights).1
-    };
-    // One σ per quantity: the samples' spreads stand in the table, the orbit pane and the JSON alike.
-    let sig = super::covariance::ElementSigmas {
-        q: spread(&|e| e.q),
-        e: spread(&|e| e.e),
-        i: spread(&|e| e.i),
-        node: angular_spread(&els, weights, |e| e.node),
-        peri: angular_spread(&els, weights, |e| e.peri),
-        tp: spread(&|e| e.tp),
-        inv_a: spread(&|e| e.inv_a),
-    };
-    out.e_sigma = Some(sig.e);
-    out.q_sigma = Some(sig.q);
-    out.i_sigma = Some(sig.i);
-    // The values beside those σ: the most probable sampled orbit (one consistent set of elements),
-    // not the least-squares minimum, which the posterior may not favour.
-    let best = weights
-        .iter()
-        .enumerate()
-        .max_by(|a, b| a.1.total_cmp(b.1))
-        .map(|(k, _)| k);
-    match best.and_then(|k| els.get(k)) {
-        Some(el) => {
-            out.e = Some(el.e);
-            out.q_au = Some(el.q);
-            out.i_deg = Some(el.i);
-            out.elements = Some(elements_out(el, Some(sig), MU_SUN));
-        }
-        None => {
-            if let Some(el) = out.elements.as_mut() {
-                el.sigma = Some(sig);
-            }
-        }
-    }
-    out.samples = resample(
-        states
-            .iter()
-            .zip(weights)
-            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], epoch, *w))
-            .collect(),
-        KEPT_SAMPLES,
-        seed,
-    );
+    super::spreads::sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
 }
 
 fn ranging_result(

@@ -18,8 +18,8 @@ use crate::physics::{S6, V3};
 use nalgebra::{SMatrix, SVector};
 
 const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
-type M5 = SMatrix<f64, 5, 5>;
-type V5 = SVector<f64, 5>;
+pub type M5 = SMatrix<f64, 5, 5>;
+pub type V5 = SVector<f64, 5>;
 
 const GL_X: [f64; 4] = [
     -0.861_136_311_594_052_6,
@@ -237,138 +237,6 @@ pub struct DensityContext<'a> {
     pub v_mag: f64,
 }
 
-/// A direction of the coarse pass stops after this many slices in a row each worse than the best so
-/// far by more than `GIVE_UP_DCHI2` and worse than the one before: beyond them the posterior is below
-/// e^-100 and χ² only grows (a second minimum lies within a factor of a few in ρ of the first).
-const GIVE_UP_RUN: usize = 4;
-const GIVE_UP_DCHI2: f64 = 200.0;
-
-/// Slices at the given distances (ascending), continued outwards from the one nearest `start`;
-/// with `prune`, a direction is abandoned once χ² has risen far above the best for a run of slices.
-fn slices_at(
-    p: &Problem,
-    frame: &Frame,
-    rhos: &[f64],
-    start: (V5, f64),
-    used: &[bool],
-    prune: bool,
-) -> Vec<Slice> {
-    if rhos.is_empty() {
-        return Vec::new();
-    }
-    let k0 = (0..rhos.len())
-        .min_by(|&a, &b| {
-            (rhos[a] / start.1)
-                .ln()
-                .abs()
-                .total_cmp(&(rhos[b] / start.1).ln().abs())
-        })
-        .unwrap_or(0);
-    let mut out: Vec<Option<Slice>> = vec![None; rhos.len()];
-    out[k0] = solve_slice(p, frame, rhos[k0], start.0, used);
-    let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
-    for dir in [1i64, -1] {
-        let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
-        let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
-        let mut run = 0;
-        let mut k = k0 as i64 + dir;
-        while k >= 0 && (k as usize) < rhos.len() {
-            let ku = k as usize;
-            out[ku] = solve_slice(p, frame, rhos[ku], prev, used);
-            if let Some(s) = out[ku] {
-                prev = s.a;
-                best = best.min(s.chi2);
-                let rising = s.chi2 > last_chi2 && s.chi2 > best + GIVE_UP_DCHI2;
-                run = if rising { run + 1 } else { 0 };
-                last_chi2 = s.chi2;
-            }
-            if prune && run >= GIVE_UP_RUN {
-                break;
-            }
-            k += dir;
-        }
-    }
-    out.into_iter().flatten().collect()
-}
-
-/// Slices over the whole ρ grid, then a finer grid where χ² is within reach of its minimum (two
-/// nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ.
-pub fn slices(
-    p: &Problem,
-    frame: &Frame,
-    start: (V5, f64),
-    used: &[bool],
-    opts: &ProfileOptions,
-) -> Vec<Slice> {
-    let n = opts.n_rho.max(3);
-    let dln = (opts.rho_max_au / opts.rho_min_au).ln() / (n - 1) as f64;
-    let coarse: Vec<f64> = (0..n)
-        .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
-        .collect();
-    let mut all = slices_at(p, frame, &coarse, start, used, true);
-    // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
-    // its least bad distance would buy nothing.
-    let dof = (2 * used.iter().filter(|u| **u).count())
-        .saturating_sub(6)
-        .max(1) as f64;
-    if all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min)
-        > super::fit::NO_ORBIT_CHI2_PER_DOF * dof
-    {
-        return all;
-    }
-    // Twice: refine where χ² is within reach of its minimum; the second pass zooms in on the valley
-    // when the first shows it narrower than its own spacing (two nights pin ρ to a fraction of a per
-    // cent when they are far apart).
-    for _ in 0..2 {
-        let Some(best) = all.iter().min_by(|a, b| a.chi2.total_cmp(&b.chi2)).copied() else {
-            return all;
-        };
-        let (lo, hi) = refine_range(&all, &best, opts);
-        let m = 24;
-        let fine: Vec<f64> = (1..m)
-            .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
-            .collect();
-        all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi);
-        all.extend(slices_at(p, frame, &fine, (best.a, best.rho), used, false));
-        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
-    }
-    all
-}
-
-/// The ln ρ range to refine: where χ² is within 60 of the best, bounded by the neighbouring slices,
-/// and no wider than ±8 σ of a parabola through the best slice and its neighbours when that is
-/// narrower.
-fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions) -> (f64, f64) {
-    let k = all.iter().position(|s| s.rho == best.rho).unwrap_or(0);
-    let x = |i: usize| all[i].rho.ln();
-    let lo_n = all
-        .iter()
-        .rposition(|s| s.rho < best.rho && s.chi2 - best.chi2 >= 60.0)
-        .map_or(opts.rho_min_au.ln(), x);
-    let hi_n = all
-        .iter()
-        .position(|s| s.rho > best.rho && s.chi2 - best.chi2 >= 60.0)
-        .map_or(opts.rho_max_au.ln(), x);
-    if k == 0 || k + 1 >= all.len() {
-        return (lo_n, hi_n);
-    }
-    let (x0, x1, x2) = (x(k - 1), x(k), x(k + 1));
-    let (y0, y1, y2) = (all[k - 1].chi2, all[k].chi2, all[k + 1].chi2);
-    // Second derivative of the parabola through the three points; χ² ≈ c (x − v)² near the bottom.
-    let d = (y2 - y1) / (x2 - x1) - (y1 - y0) / (x1 - x0);
-    let curv = d / (0.5 * (x2 - x0));
-    if !(curv.is_finite() && curv > 0.0) {
-        return (lo_n, hi_n);
-    }
-    let sigma = (2.0 / curv).sqrt();
-    let slope_mid = (y2 - y0) / (x2 - x0);
-    let vertex = (x1 - slope_mid / curv).clamp(x0, x2);
-    (
-        (vertex - 8.0 * sigma).max(lo_n),
-        (vertex + 8.0 * sigma).min(hi_n),
-    )
-}
-
 /// Trapezoid weights in ln ρ for nodes at arbitrary (sorted) distances.
 fn trapezoid(rhos: &[f64]) -> Vec<f64> {
     let x: Vec<f64> = rhos.iter().map(|r| r.ln()).collect();
@@ -394,7 +262,7 @@ pub fn profile(
     ctx: &DensityContext,
     opts: &ProfileOptions,
 ) -> Option<Profile> {
-    let all = slices(p, frame, start, used, opts);
+    let all = super::rangescan::slices(p, frame, start, used, opts);
     let best = all
         .iter()
         .min_by(|a, b| a.chi2.total_cmp(&b.chi2))

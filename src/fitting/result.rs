@@ -49,13 +49,19 @@ pub struct RangingOut {
     pub i_interval: [f64; 3],
 }
 
-/// Another solution of a short arc.
+/// Another least-squares minimum that fits nearly as well (a second valley of the search).
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct Alternative {
+    /// χ² of this solution minus that of the reported one.
     pub delta_chi2: f64,
     pub e: f64,
     pub q_au: f64,
     pub i_deg: f64,
+    /// Whether this solution's barycentric orbit is unbound.
+    pub unbound: bool,
+    /// Its share of the posterior where the probability came from the distance scan (which weighs
+    /// every valley); null otherwise.
+    pub probability: Option<f64>,
 }
 
 /// One observation's residual, as printed.

@@ -4,11 +4,14 @@
 
 use super::fit::{FitOptions, Given, lsq_result};
 use super::input::Tracklet;
-use super::lsq::{Problem, correct_with_outliers};
+use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
-use super::profile::{DensityContext, Frame, ProfileOptions, profile};
+use super::profile::{DensityContext, Frame, Profile, ProfileOptions, profile};
+use super::rangescan::valley_ids;
 use super::result::FitResult;
+use super::search::ALTERNATIVE_DCHI2;
+use super::search::ScanStart;
 use crate::physics::constants::MU_SUN;
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::{ObserverModel, ObserverState};
@@ -44,7 +47,7 @@ pub fn fit_by_profile(
     start: Option<S6>,
     dynamics: &dyn Dynamics,
 ) -> Option<FitResult> {
-    let (tr, model, opts, epoch) = (inp.tr, inp.model, inp.opts, inp.epoch);
+    let (tr, opts, epoch) = (inp.tr, inp.opts, inp.epoch);
     let shift = &inp.shift;
     let p = Problem::new(
         tr,
@@ -54,18 +57,7 @@ pub fn fit_by_profile(
         MU_SUN,
         dynamics,
     );
-    let loc = tr.obs[tr.obs.len() / 2].location;
-    let observer = model.observer(&loc, &instant_at(tr, epoch)).ok()?;
-    let dirs: Vec<V3> = tr
-        .obs
-        .iter()
-        .map(|o| unit_from_radec(o.ra, o.dec))
-        .collect();
-    let frame = Frame::new(observer, dirs[0] + dirs[dirs.len() - 1]);
-    let start = match start {
-        Some(x) => frame.params(&x),
-        None => (straight_start(tr, &dirs, &frame, epoch), 1.0),
-    };
+    let ScanStart { frame, start } = scan_start(inp, start)?;
     let (v_mag, _) = night_v_mag(tr, &opts.population);
     let ctx = DensityContext {
         model: &opts.population,
@@ -80,6 +72,7 @@ pub fn fit_by_profile(
     let prof = profile(&p, &frame, start, &used, &ctx, &popts)?;
     let best_state = frame.state(&prof.best.a, prof.best.rho);
     let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
+    let others = other_valleys(&p, &frame, &prof, &fit, opts);
     // A profile without a posterior is a gross misfit: the record still shows the best attempt and
     // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
     let given = prof.posterior.map(|posterior| {
@@ -97,15 +90,84 @@ pub fn fit_by_profile(
             weights: raw.iter().map(|w| w / total).collect(),
         }
     });
-    Some(lsq_result(
-        &p,
-        &fit,
-        &[],
-        shift,
-        opts,
-        dynamics.name(),
-        given,
-    ))
+    let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
+    let mut out = lsq_result(&p, &fit, &alternatives, shift, opts, dynamics.name(), given);
+    for (a, (_, share)) in out.alternatives.iter_mut().zip(&others) {
+        a.probability = Some(*share);
+    }
+    Some(out)
+}
+
+/// Posterior share below which another valley of the scan is not worth reporting.
+pub const MIN_VALLEY_SHARE: f64 = 1e-3;
+
+/// Least-squares minima of the scan's other valleys that hold at least `MIN_VALLEY_SHARE` of the
+/// posterior or fit within `ALTERNATIVE_DCHI2` of the best, each with its posterior share.
+fn other_valleys(
+    p: &Problem,
+    frame: &Frame,
+    prof: &Profile,
+    fit: &LsqFit,
+    opts: &FitOptions,
+) -> Vec<(LsqFit, f64)> {
+    let ids = valley_ids(&prof.slices);
+    let n = ids.last().map_or(0, |l| l + 1);
+    let top = prof
+        .nodes
+        .iter()
+        .map(|x| x.ln_w)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let mut share = vec![0.0; n];
+    for node in &prof.nodes {
+        share[ids[node.k_rho]] += (node.ln_w - top).exp();
+    }
+    let total: f64 = share.iter().sum::<f64>().max(1e-300);
+    let (_, rho_fit) = frame.params(&fit.state);
+    let home = prof
+        .slices
+        .iter()
+        .position(|s| s.rho >= rho_fit)
+        .map_or(n.saturating_sub(1), |k| ids[k]);
+    let used = vec![true; p.len()];
+    (0..n)
+        .filter(|&v| v != home)
+        .filter_map(|v| {
+            let floor = prof
+                .slices
+                .iter()
+                .zip(&ids)
+                .filter(|(_, id)| **id == v)
+                .map(|(s, _)| s)
+                .min_by(|a, b| a.chi2.total_cmp(&b.chi2))?;
+            let w = share[v] / total;
+            if w < MIN_VALLEY_SHARE && floor.chi2 - fit.chi2 >= ALTERNATIVE_DCHI2 {
+                return None;
+            }
+            let f = correct(p, &frame.state(&floor.a, floor.rho), &used, &opts.lsq).ok()?;
+            (f.converged && f.cov.is_some() && (f.state - fit.state).norm() > 1e-6)
+                .then_some((f, w))
+        })
+        .collect()
+}
+
+/// The arc's frame (the middle observer at the epoch, the mean direction of the first and last
+/// positions) and where a distance scan starts: at `start`, or on a straight line through the
+/// positions at 1 au.
+pub fn scan_start(inp: &ArcInputs, start: Option<S6>) -> Option<ScanStart> {
+    let (tr, epoch) = (inp.tr, inp.epoch);
+    let loc = tr.obs[tr.obs.len() / 2].location;
+    let observer = inp.model.observer(&loc, &instant_at(tr, epoch)).ok()?;
+    let dirs: Vec<V3> = tr
+        .obs
+        .iter()
+        .map(|o| unit_from_radec(o.ra, o.dec))
+        .collect();
+    let frame = Frame::new(observer, dirs[0] + dirs[dirs.len() - 1]);
+    let start = match start {
+        Some(x) => frame.params(&x),
+        None => (straight_start(tr, &dirs, &frame, epoch), 1.0),
+    };
+    Some(ScanStart { frame, start })
 }
 
 /// Direction and rate at the epoch from a straight line through all positions in the frame's

@@ -45,6 +45,18 @@ pub fn noisy(
     rng: &mut interloper::fitting::ranging::SplitMix,
     sigma: f64,
 ) -> interloper::fitting::input::Tracklet {
+    arc(t, rng, sigma, sigma)
+}
+
+/// The reference's noiseless positions with noise of `noise` arcsec per coordinate, reported with an
+/// uncertainty of `stated` arcsec.
+pub fn arc(
+    t: &serde_json::Value,
+    rng: &mut interloper::fitting::ranging::SplitMix,
+    stated: f64,
+    noise: f64,
+) -> interloper::fitting::input::Tracklet {
+    let sigma = noise;
     use interloper::fitting::input::{Observation, Tracklet};
     use interloper::physics::constants::DEG;
     let sites = interloper::feed::sites::SiteTable::builtin();
@@ -62,8 +74,8 @@ pub fn noisy(
                     + rng.normal() * sigma / 3600.0 / (dec * DEG).cos())
                     * DEG,
                 dec: (dec + rng.normal() * sigma / 3600.0) * DEG,
-                sigma_ra_arcsec: Some(sigma),
-                sigma_dec_arcsec: Some(sigma),
+                sigma_ra_arcsec: Some(stated),
+                sigma_dec_arcsec: Some(stated),
                 correlation: None,
                 location: interloper::physics::observe::ObserverLocation::Ground(
                     sites.get(&code).expect("site").position,

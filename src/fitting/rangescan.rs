@@ -1,0 +1,253 @@
+//! The scan of a multi-night arc over distance: slices (the best fit of the other five at fixed ρ) on
+//! a coarse logarithmic grid, then finer grids inside every valley that can matter. A valley narrower
+//! than the coarse spacing shows only as a coarse slice lower than both neighbours, however deep it
+//! really is, so every such local minimum is refined, not only the lowest.
+
+use super::lsq::Problem;
+use super::profile::{Frame, ProfileOptions, Slice, V5, solve_slice};
+
+/// A direction of the coarse pass stops after this many slices in a row each worse than the best so
+/// far by more than `GIVE_UP_DCHI2` and worse than the one before: beyond them the posterior is below
+/// e^-100 and χ² only grows (a second minimum lies within a factor of a few in ρ of the first).
+const GIVE_UP_RUN: usize = 4;
+const GIVE_UP_DCHI2: f64 = 200.0;
+
+/// Slices at the given distances (ascending), continued outwards from the one nearest `start`;
+/// with `prune`, a direction is abandoned once χ² has risen far above the best for a run of slices.
+pub fn slices_at(
+    p: &Problem,
+    frame: &Frame,
+    rhos: &[f64],
+    start: (V5, f64),
+    used: &[bool],
+    prune: bool,
+) -> Vec<Slice> {
+    if rhos.is_empty() {
+        return Vec::new();
+    }
+    let k0 = (0..rhos.len())
+        .min_by(|&a, &b| {
+            (rhos[a] / start.1)
+                .ln()
+                .abs()
+                .total_cmp(&(rhos[b] / start.1).ln().abs())
+        })
+        .unwrap_or(0);
+    let mut out: Vec<Option<Slice>> = vec![None; rhos.len()];
+    out[k0] = solve_slice(p, frame, rhos[k0], start.0, used);
+    let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
+    for dir in [1i64, -1] {
+        let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
+        let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
+        let mut run = 0;
+        let mut k = k0 as i64 + dir;
+        while k >= 0 && (k as usize) < rhos.len() {
+            let ku = k as usize;
+            out[ku] = solve_slice(p, frame, rhos[ku], prev, used);
+            if let Some(s) = out[ku] {
+                prev = s.a;
+                best = best.min(s.chi2);
+                let rising = s.chi2 > last_chi2 && s.chi2 > best + GIVE_UP_DCHI2;
+                run = if rising { run + 1 } else { 0 };
+                last_chi2 = s.chi2;
+            }
+            if prune && run >= GIVE_UP_RUN {
+                break;
+            }
+            k += dir;
+        }
+    }
+    out.into_iter().flatten().collect()
+}
+
+/// At most this many valleys of the coarse pass are refined (lowest first).
+pub const MAX_VALLEYS: usize = 3;
+
+/// Slices over the whole ρ grid (the coarse pass), sorted by ρ.
+pub fn coarse_slices(
+    p: &Problem,
+    frame: &Frame,
+    start: (V5, f64),
+    used: &[bool],
+    opts: &ProfileOptions,
+) -> Vec<Slice> {
+    let n = opts.n_rho.max(3);
+    let dln = (opts.rho_max_au / opts.rho_min_au).ln() / (n - 1) as f64;
+    let coarse: Vec<f64> = (0..n)
+        .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
+        .collect();
+    slices_at(p, frame, &coarse, start, used, true)
+}
+
+/// Indices of the slices lower than both neighbours (ends count when lower than their one
+/// neighbour), lowest χ² first, at most `MAX_VALLEYS`.
+pub fn valley_floors(all: &[Slice]) -> Vec<usize> {
+    let n = all.len();
+    let mut floors: Vec<usize> = (0..n)
+        .filter(|&k| {
+            let left = k == 0 || all[k].chi2 < all[k - 1].chi2;
+            let right = k + 1 == n || all[k].chi2 <= all[k + 1].chi2;
+            left && right
+        })
+        .collect();
+    floors.sort_by(|&a, &b| all[a].chi2.total_cmp(&all[b].chi2));
+    floors.truncate(MAX_VALLEYS);
+    floors
+}
+
+/// Slices over the whole ρ grid, then finer grids inside each of the lowest `MAX_VALLEYS` valleys
+/// (two nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ.
+pub fn slices(
+    p: &Problem,
+    frame: &Frame,
+    start: (V5, f64),
+    used: &[bool],
+    opts: &ProfileOptions,
+) -> Vec<Slice> {
+    let mut all = coarse_slices(p, frame, start, used, opts);
+    // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
+    // its least bad distance would buy nothing.
+    let dof = (2 * used.iter().filter(|u| **u).count())
+        .saturating_sub(6)
+        .max(1) as f64;
+    let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
+    if lowest > super::fit::NO_ORBIT_CHI2_PER_DOF * dof {
+        return all;
+    }
+    let floors: Vec<Slice> = valley_floors(&all).into_iter().map(|k| all[k]).collect();
+    for floor in floors {
+        // A neighbouring valley's refinement may have replaced this floor already.
+        if !all.iter().any(|s| s.rho == floor.rho) {
+            continue;
+        }
+        refine_valley(p, frame, &mut all, floor, used, opts);
+    }
+    all
+}
+
+/// Twice: refine about a valley's floor; the second pass zooms in when the first shows the valley
+/// narrower than its own spacing (two nights pin ρ to a fraction of a per cent when far apart).
+fn refine_valley(
+    p: &Problem,
+    frame: &Frame,
+    all: &mut Vec<Slice>,
+    floor: Slice,
+    used: &[bool],
+    opts: &ProfileOptions,
+) {
+    let mut best = floor;
+    for pass in 0..2 {
+        // The first pass spans the valley between its coarse walls: a parabola through coarse slices
+        // can put a narrow valley's floor a whole cell away from where it is.
+        let (lo, hi) = refine_range(all, &best, opts, pass > 0);
+        let m = 24;
+        let fine: Vec<f64> = (1..m)
+            .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
+            .collect();
+        all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi || s.rho == best.rho);
+        let new = slices_at(p, frame, &fine, (best.a, best.rho), used, false);
+        all.retain(|s| s.rho != best.rho || new.is_empty());
+        all.extend(new);
+        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+        match all
+            .iter()
+            .filter(|s| s.rho.ln() >= lo && s.rho.ln() <= hi)
+            .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
+        {
+            Some(b) => best = *b,
+            None => return,
+        }
+    }
+}
+
+/// The ln ρ range to refine about one valley's lowest slice: where χ² is within 60 of it, bounded by
+/// the neighbouring slices, and (with `parabola`) no wider than ±8 σ of a parabola through it and its
+/// neighbours when that is narrower.
+fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions, parabola: bool) -> (f64, f64) {
+    let k = all.iter().position(|s| s.rho == best.rho).unwrap_or(0);
+    let x = |i: usize| all[i].rho.ln();
+    let lo_n = all
+        .iter()
+        .rposition(|s| s.rho < best.rho && s.chi2 - best.chi2 >= 60.0)
+        .map_or(opts.rho_min_au.ln(), x);
+    let hi_n = all
+        .iter()
+        .position(|s| s.rho > best.rho && s.chi2 - best.chi2 >= 60.0)
+        .map_or(opts.rho_max_au.ln(), x);
+    if !parabola || k == 0 || k + 1 >= all.len() {
+        return (lo_n, hi_n);
+    }
+    let (x0, x1, x2) = (x(k - 1), x(k), x(k + 1));
+    let (y0, y1, y2) = (all[k - 1].chi2, all[k].chi2, all[k + 1].chi2);
+    // Second derivative of the parabola through the three points; χ² ≈ c (x − v)² near the bottom.
+    let d = (y2 - y1) / (x2 - x1) - (y1 - y0) / (x1 - x0);
+    let curv = d / (0.5 * (x2 - x0));
+    if !(curv.is_finite() && curv > 0.0) {
+        return (lo_n, hi_n);
+    }
+    let sigma = (2.0 / curv).sqrt();
+    let slope_mid = (y2 - y0) / (x2 - x0);
+    let vertex = (x1 - slope_mid / curv).clamp(x0, x2);
+    (
+        (vertex - 8.0 * sigma).max(lo_n),
+        (vertex + 8.0 * sigma).min(hi_n),
+    )
+}
+
+/// Valley number of each slice (sorted by ρ): a new valley begins after every local maximum of χ².
+pub fn valley_ids(all: &[Slice]) -> Vec<usize> {
+    let mut ids = Vec::with_capacity(all.len());
+    let mut id = 0;
+    for k in 0..all.len() {
+        if k > 0
+            && k + 1 < all.len()
+            && all[k].chi2 > all[k - 1].chi2
+            && all[k].chi2 >= all[k + 1].chi2
+        {
+            ids.push(id);
+            id += 1;
+            continue;
+        }
+        ids.push(id);
+    }
+    ids
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn slice(rho: f64, chi2: f64) -> Slice {
+        Slice {
+            rho,
+            a: V5::zeros(),
+            chi2,
+            cov: super::super::profile::M5::identity(),
+        }
+    }
+
+    #[test]
+    fn every_local_minimum_is_a_valley_floor_lowest_first() {
+        let all: Vec<Slice> = [
+            (1.0, 50.0),
+            (1.5, 9.0),
+            (2.0, 80.0),
+            (3.0, 2.0),
+            (4.0, 40.0),
+        ]
+        .iter()
+        .map(|&(r, c)| slice(r, c))
+        .collect();
+        assert_eq!(valley_floors(&all), vec![3, 1]);
+        assert_eq!(valley_ids(&all), vec![0, 0, 0, 1, 1]);
+    }
+
+    #[test]
+    fn a_falling_end_counts_as_a_floor() {
+        let all: Vec<Slice> = [(1.0, 5.0), (1.5, 9.0), (2.0, 80.0), (3.0, 70.0)]
+            .iter()
+            .map(|&(r, c)| slice(r, c))
+            .collect();
+        assert_eq!(valley_floors(&all), vec![0, 3]);
+    }
+}

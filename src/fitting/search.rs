@@ -1,0 +1,216 @@
+//! The global search of a multi-night arc: initial orbits from Gauss's method on night triplets and
+//! from every valley of a coarse scan over distance, each corrected by least squares; distinct minima
+//! are kept, the best is refined with outlier handling, and the others that fit nearly as well are
+//! returned as alternatives.
+
+use super::fit::{FitOptions, NO_ORBIT_CHI2_PER_DOF};
+use super::gauss::{Sight, gauss};
+use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::profile::{Frame, ProfileOptions, V5};
+use super::rangescan::{coarse_slices, valley_floors};
+use crate::physics::S6;
+use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
+use crate::physics::frames::unit_from_radec;
+use crate::physics::propagate::propagate;
+use crate::physics::time::Jd2;
+
+/// Levenberg–Marquardt iterations allowed a seed before it is judged.
+pub const SEED_ITERATIONS: usize = 20;
+
+/// At most this many initial orbits are corrected for one tracklet.
+pub const MAX_CORRECTIONS: usize = 8;
+
+/// Distinct minima within this Δχ² of the best are kept as alternative solutions.
+pub const ALTERNATIVE_DCHI2: f64 = 9.0;
+
+/// Where the distance scan starts: the arc's frame and a first guess of the five (and ρ).
+pub struct ScanStart {
+    pub frame: Frame,
+    pub start: (V5, f64),
+}
+
+/// The best least-squares orbit of the arc and the other distinct minima within `ALTERNATIVE_DCHI2`.
+pub fn least_squares(
+    p: &Problem,
+    opts: &FitOptions,
+    scan: Option<&ScanStart>,
+) -> Option<(LsqFit, Vec<LsqFit>)> {
+    let mut minima = gauss_minima(p, opts);
+    if let Some(scan) = scan {
+        valley_minima(p, opts, scan, &mut minima);
+    }
+    minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+    let best = minima.first()?.clone();
+    // Outlier rejection cannot rescue a fit no orbit explains (every point looks like an outlier).
+    let best_fit = if best.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
+        best
+    } else {
+        correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best)
+    };
+    let others = minima
+        .into_iter()
+        .skip(1)
+        .filter(|m| m.chi2 - best_fit.chi2 < ALTERNATIVE_DCHI2 && m.cov.is_some())
+        .collect();
+    Some((best_fit, others))
+}
+
+/// A seed corrected briefly: a good seed converges in a handful of iterations; the winner is
+/// refined in full afterwards.
+fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions) -> Option<LsqFit> {
+    let used = vec![true; p.len()];
+    let seed_opts = LsqOptions {
+        max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
+        ..opts.lsq
+    };
+    correct(p, seed, &used, &seed_opts)
+        .ok()
+        .filter(|f| f.chi2.is_finite() && f.converged)
+}
+
+/// Add a minimum unless one already found is the same (within 3σ, Mahalanobis); keep the lower.
+fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
+    let same = minima.iter().position(|m| {
+        let d = m.state - f.state;
+        match m.cov.and_then(|c| c.try_inverse()) {
+            Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
+            None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+        }
+    });
+    match same {
+        Some(k) if minima[k].chi2 <= f.chi2 => {}
+        Some(k) => minima[k] = f,
+        None => minima.push(f),
+    }
+}
+
+/// Minima from Gauss's method, triplet by triplet (seeds are made lazily: most arcs settle on the
+/// first).
+fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
+    let tr = p.tracklet;
+    let mut minima: Vec<LsqFit> = Vec::new();
+    let settle = tr.n_nights() >= 3;
+    // "Good" means χ² consistent with the stated errors (3σ of the χ² distribution). A wrong basin can
+    // still fit that well, which is why the distance scan follows.
+    let good = |minima: &[LsqFit]| {
+        minima.iter().any(|m| {
+            let dof = m.dof().max(1) as f64;
+            m.cov.is_some() && m.chi2_per_dof() < 1.0 + 3.0 * (2.0 / dof).sqrt()
+        })
+    };
+    // Real arcs settle within the first few seeds; a false linkage would try them all. Half way
+    // through, if every minimum is still a gross misfit, more seeds will not help.
+    let hopeless =
+        |m: &[LsqFit]| !m.is_empty() && m.iter().all(|f| f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF);
+    let mut corrections = 0;
+    'triplets: for t in night_triplets(p) {
+        for s in gauss_seeds(p, t) {
+            if (settle && good(&minima))
+                || corrections >= MAX_CORRECTIONS
+                || (corrections >= MAX_CORRECTIONS / 2 && hopeless(&minima))
+            {
+                break 'triplets;
+            }
+            corrections += 1;
+            if let Some(f) = correct_seed(p, &s, opts) {
+                merge(&mut minima, f);
+            }
+        }
+    }
+    minima
+}
+
+/// Minima from the valleys of a coarse scan over distance that no minimum found so far sits in: a
+/// valley narrower than the scan's spacing can hold the true orbit while Gauss's roots all lead to
+/// a wider, shallower one.
+fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut Vec<LsqFit>) {
+    let used = vec![true; p.len()];
+    let popts = ProfileOptions {
+        v_cap_km_s: opts.ranging.v_cap_km_s,
+        ..ProfileOptions::default()
+    };
+    let coarse = coarse_slices(p, &scan.frame, scan.start, &used, &popts);
+    let step = (popts.rho_max_au / popts.rho_min_au).ln() / (popts.n_rho.max(3) - 1) as f64;
+    let known: Vec<f64> = minima
+        .iter()
+        .map(|m| scan.frame.params(&m.state).1.ln())
+        .collect();
+    for k in valley_floors(&coarse) {
+        let s = coarse[k];
+        if known.iter().any(|r| (r - s.rho.ln()).abs() < step) {
+            continue;
+        }
+        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts) {
+            merge(minima, f);
+        }
+    }
+}
+
+fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
+    let o = &p.tracklet.obs[i];
+    Sight {
+        t: o.time.tdb.minus(t_ref),
+        dir: unit_from_radec(o.ra, o.dec),
+        observer: p.observers[i].helio_pos,
+    }
+}
+
+/// Triplets of observations for Gauss's method: the middle of the first, middle and last nights
+/// first, then other night triplets, then two points of one night with one of another.
+pub fn night_triplets(p: &Problem) -> Vec<[usize; 3]> {
+    let tr = p.tracklet;
+    let nights = tr.n_nights();
+    let members =
+        |k: usize| -> Vec<usize> { (0..tr.obs.len()).filter(|&i| tr.night[i] == k).collect() };
+    let mid = |k: usize| {
+        let m = members(k);
+        m[m.len() / 2]
+    };
+    let mut triplets: Vec<[usize; 3]> = Vec::new();
+    if nights >= 3 {
+        triplets.push([mid(0), mid(nights / 2), mid(nights - 1)]);
+        for a in 0..nights {
+            for b in a + 1..nights {
+                for c in b + 1..nights {
+                    let t = [mid(a), mid(b), mid(c)];
+                    if !triplets.contains(&t) && triplets.len() < 20 {
+                        triplets.push(t);
+                    }
+                }
+            }
+        }
+    }
+    for k in 0..nights {
+        let m = members(k);
+        if m.len() >= 2 {
+            let other = if k + 1 < nights {
+                mid(k + 1)
+            } else {
+                mid(k - 1)
+            };
+            let mut t = [m[0], m[m.len() - 1], other];
+            t.sort_unstable();
+            if !triplets.contains(&t) {
+                triplets.push(t);
+            }
+        }
+    }
+    triplets
+}
+
+/// Gauss solutions of one triplet, propagated to the epoch.
+pub fn gauss_seeds(p: &Problem, t: [usize; 3]) -> Vec<S6> {
+    let sights = [
+        sight(p, t[0], p.epoch),
+        sight(p, t[1], p.epoch),
+        sight(p, t[2], p.epoch),
+    ];
+    gauss(&sights, MU_SUN, Some(C_AU_PER_DAY), true)
+        .into_iter()
+        .filter_map(|sol| {
+            propagate(&sol.r2, &sol.v2, -sol.t2, MU_SUN)
+                .ok()
+                .map(|(r, v)| S6::new(r.x, r.y, r.z, v.x, v.y, v.z))
+        })
+        .collect()
+}

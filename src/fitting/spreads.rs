@@ -1,0 +1,156 @@
+//! Element uncertainties from orbits drawn from the posterior (or from the fit's Gaussian where the
+//! elements are nonlinear in the state): one σ per quantity, shown alike in the table, the orbit pane
+//! and the JSON, and the orbits kept for ephemerides.
+
+use super::covariance::ElementSigmas;
+use super::lsq::{LsqFit, Problem};
+use super::ranging::SplitMix;
+use super::result::{FitResult, KEPT_SAMPLES, elements_out, resample};
+use crate::physics::constants::MU_SUN;
+use crate::physics::elements::CometaryElements;
+use crate::physics::frames::equatorial_to_ecliptic;
+use crate::physics::{M6, S6, split_state};
+
+/// Orbits drawn from the fit's Gaussian when the elements are nonlinear in the state.
+pub const GAUSSIAN_DRAWS: usize = 200;
+
+/// Weighted spread of an angle (degrees) about its circular mean, so that 359° and 1° are 2° apart.
+fn angular_spread(
+    els: &[CometaryElements],
+    w: &[f64],
+    f: impl Fn(&CometaryElements) -> f64,
+) -> f64 {
+    let (s, c) = els.iter().zip(w).fold((0.0, 0.0), |(s, c), (e, w)| {
+        let a = f(e).to_radians();
+        (s + w * a.sin(), c + w * a.cos())
+    });
+    let mean = s.atan2(c);
+    let total: f64 = w.iter().sum::<f64>().max(1e-300);
+    let var = els
+        .iter()
+        .zip(w)
+        .map(|(e, w)| {
+            let d = (f(e).to_radians() - mean + std::f64::consts::PI)
+                .rem_euclid(std::f64::consts::TAU)
+                - std::f64::consts::PI;
+            w * d * d
+        })
+        .sum::<f64>()
+        / total;
+    var.sqrt().to_degrees()
+}
+
+/// Heliocentric ecliptic elements of equatorial states at `epoch`.
+fn elements_of(states: &[S6], epoch: f64) -> Vec<CometaryElements> {
+    let ecl = equatorial_to_ecliptic();
+    states
+        .iter()
+        .map(|x| {
+            let (r, v) = split_state(x);
+            CometaryElements::from_state(&(ecl * r), &(ecl * v), epoch, MU_SUN)
+        })
+        .collect()
+}
+
+/// Weighted spreads of every element (angles about their circular means).
+fn element_sigmas(els: &[CometaryElements], weights: &[f64]) -> ElementSigmas {
+    let spread = |f: &dyn Fn(&CometaryElements) -> f64| {
+        let v: Vec<f64> = els.iter().map(f).collect();
+        super::sampling::weighted_spread(&v, weights).1
+    };
+    ElementSigmas {
+        q: spread(&|e| e.q),
+        e: spread(&|e| e.e),
+        i: spread(&|e| e.i),
+        node: angular_spread(els, weights, |e| e.node),
+        peri: angular_spread(els, weights, |e| e.peri),
+        tp: spread(&|e| e.tp),
+        inv_a: spread(&|e| e.inv_a),
+    }
+}
+
+/// Element uncertainties from weighted samples (which follow the real, curved distribution), and
+/// the orbits kept for ephemerides. One σ per quantity: the samples' spreads stand in the table, the
+/// orbit pane and the JSON alike.
+pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f64, seed: u64) {
+    let els = elements_of(states, epoch);
+    let sig = element_sigmas(&els, weights);
+    out.e_sigma = Some(sig.e);
+    out.q_sigma = Some(sig.q);
+    out.i_sigma = Some(sig.i);
+    // The values beside those σ: the most probable sampled orbit (one consistent set of elements),
+    // not the least-squares minimum, which the posterior may not favour.
+    let best = weights
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.total_cmp(b.1))
+        .map(|(k, _)| k);
+    match best.and_then(|k| els.get(k)) {
+        Some(el) => {
+            out.e = Some(el.e);
+            out.q_au = Some(el.q);
+            out.i_deg = Some(el.i);
+            out.elements = Some(elements_out(el, Some(sig), MU_SUN));
+        }
+        None => {
+            if let Some(el) = out.elements.as_mut() {
+                el.sigma = Some(sig);
+            }
+        }
+    }
+    out.samples = resample(
+        states
+            .iter()
+            .zip(weights)
+            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], epoch, *w))
+            .collect(),
+        KEPT_SAMPLES,
+        seed,
+    );
+}
+
+/// Where the elements curve within the fit's 1σ (the linear σ of e can be several times too small at a
+/// low-e estimate), their σ come from orbits drawn from the fit's Gaussian N(x, C): the values stay
+/// the least-squares ones, only the spreads (and the orbits kept for ephemerides) change.
+pub fn gaussian_spreads(out: &mut FitResult, p: &Problem, fit: &LsqFit, cov: &M6, seed: u64) {
+    let Some(chol) = cov.cholesky() else {
+        return;
+    };
+    let (state, epoch) = (fit.state, fit.epoch.value());
+    let l = chol.l();
+    let mut rng = SplitMix::new(seed ^ 0x005e_ed0f_6a55);
+    let mut states = Vec::with_capacity(GAUSSIAN_DRAWS);
+    let mut ln_w = Vec::with_capacity(GAUSSIAN_DRAWS);
+    for _ in 0..GAUSSIAN_DRAWS {
+        let z = S6::from_fn(|_, _| rng.normal());
+        let x = state + l * z;
+        // Weight: the likelihood over the proposal density (a flat prior in the state).
+        if let Ok(c2) = p.chi2(&x, &fit.used) {
+            states.push(x);
+            ln_w.push(-(c2 - fit.chi2) / 2.0 + z.norm_squared() / 2.0);
+        }
+    }
+    let top = ln_w.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+    let raw: Vec<f64> = ln_w.iter().map(|l| (l - top).exp()).collect();
+    let total: f64 = raw.iter().sum();
+    if total.is_nan() || total <= 0.0 {
+        return;
+    }
+    let weights: Vec<f64> = raw.iter().map(|w| w / total).collect();
+    let sig = element_sigmas(&elements_of(&states, epoch), &weights);
+    out.e_sigma = Some(sig.e);
+    out.q_sigma = Some(sig.q);
+    out.i_sigma = Some(sig.i);
+    if let Some(el) = out.elements.as_mut() {
+        el.sigma = Some(sig);
+    }
+    out.samples = resample(
+        states
+            .iter()
+            .zip(&weights)
+            .map(|(s, w)| ([s[0], s[1], s[2], s[3], s[4], s[5]], epoch, *w))
+            .collect(),
+        KEPT_SAMPLES,
+        seed,
+    );
+}
