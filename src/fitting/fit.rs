@@ -443,7 +443,7 @@ pub fn lsq_result(
         && !distrust_reasons(p, fit, shift).is_empty()
         && let Some(c) = fit.cov
     {
-        super::spreads::gaussian_spreads(&mut out, p, fit, &c, opts.seed);
+        super::spreads::gaussian_spreads(&mut out, fit, &c, opts.seed);
     }
     out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {

@@ -117,20 +117,28 @@ pub struct Slice {
     pub chi2: f64,
     /// Inverse of the slice's normal matrix (covariance of the five).
     pub cov: M5,
+    /// ∂χ²/∂ln ρ at the slice's optimum (by the envelope theorem, the slope of the profile itself): a
+    /// change of sign between two slices marks a valley between them however narrow it is.
+    pub slope: f64,
 }
 
-/// Least squares of the five at fixed ρ, from `start` (Levenberg–Marquardt on whitened rows).
+/// Levenberg–Marquardt iterations a slice of the posterior's profile may take.
+pub const SLICE_ITERATIONS: usize = 30;
+
+/// Least squares of the five at fixed ρ, from `start` (Levenberg–Marquardt on whitened rows), in at
+/// most `iterations` steps.
 pub fn solve_slice(
     p: &Problem,
     frame: &Frame,
     rho: f64,
     start: V5,
     used: &[bool],
+    iterations: usize,
 ) -> Option<Slice> {
     let mut a = start;
     let mut lambda = 1e-3;
     let mut last: Option<(f64, M5, V5)> = None;
-    for _ in 0..30 {
+    for _ in 0..iterations {
         let (chi2, n, g) = normal(p, frame, rho, &a, used)?;
         if let Some((prev, _, _)) = last
             && (prev - chi2).abs() <= 1e-5 * chi2.max(1.0)
@@ -167,7 +175,21 @@ pub fn solve_slice(
     let (chi2, n, _) = normal(p, frame, rho, &a, used)?;
     let _ = last;
     let cov = n.try_inverse()?;
-    Some(Slice { rho, a, chi2, cov })
+    let h = 1e-4;
+    let slope = match (
+        chi2_at(p, frame, rho * (1.0 + h), &a, used),
+        chi2_at(p, frame, rho * (1.0 - h), &a, used),
+    ) {
+        (Some(up), Some(down)) => (up - down) / ((1.0 + h) / (1.0 - h)).ln(),
+        _ => 0.0,
+    };
+    Some(Slice {
+        rho,
+        a,
+        chi2,
+        cov,
+        slope,
+    })
 }
 
 fn chi2_at(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<f64> {

@@ -4,7 +4,7 @@
 //! really is, so every such local minimum is refined, not only the lowest.
 
 use super::lsq::Problem;
-use super::profile::{Frame, ProfileOptions, Slice, V5, solve_slice};
+use super::profile::{Frame, ProfileOptions, SLICE_ITERATIONS, Slice, V5, solve_slice};
 
 /// A direction of the coarse pass stops after this many slices in a row each worse than the best so
 /// far by more than `GIVE_UP_DCHI2` and worse than the one before: beyond them the posterior is below
@@ -21,6 +21,7 @@ pub fn slices_at(
     start: (V5, f64),
     used: &[bool],
     prune: bool,
+    iterations: usize,
 ) -> Vec<Slice> {
     if rhos.is_empty() {
         return Vec::new();
@@ -34,7 +35,7 @@ pub fn slices_at(
         })
         .unwrap_or(0);
     let mut out: Vec<Option<Slice>> = vec![None; rhos.len()];
-    out[k0] = solve_slice(p, frame, rhos[k0], start.0, used);
+    out[k0] = solve_slice(p, frame, rhos[k0], start.0, used, iterations);
     let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
     for dir in [1i64, -1] {
         let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
@@ -43,7 +44,7 @@ pub fn slices_at(
         let mut k = k0 as i64 + dir;
         while k >= 0 && (k as usize) < rhos.len() {
             let ku = k as usize;
-            out[ku] = solve_slice(p, frame, rhos[ku], prev, used);
+            out[ku] = solve_slice(p, frame, rhos[ku], prev, used, iterations);
             if let Some(s) = out[ku] {
                 prev = s.a;
                 best = best.min(s.chi2);
@@ -63,33 +64,80 @@ pub fn slices_at(
 /// At most this many valleys of the coarse pass are refined (lowest first).
 pub const MAX_VALLEYS: usize = 3;
 
-/// Slices over the whole ρ grid (the coarse pass), sorted by ρ.
+/// Slices over the whole ρ grid (the coarse pass), sorted by ρ, each in at most `iterations` steps
+/// (a search for seeds needs only the valleys' shape, the posterior every slice's minimum).
 pub fn coarse_slices(
     p: &Problem,
     frame: &Frame,
     start: (V5, f64),
     used: &[bool],
     opts: &ProfileOptions,
+    iterations: usize,
 ) -> Vec<Slice> {
     let n = opts.n_rho.max(3);
     let dln = (opts.rho_max_au / opts.rho_min_au).ln() / (n - 1) as f64;
     let coarse: Vec<f64> = (0..n)
         .map(|k| (opts.rho_min_au.ln() + dln * k as f64).exp())
         .collect();
-    slices_at(p, frame, &coarse, start, used, true)
+    slices_at(p, frame, &coarse, start, used, true, iterations)
 }
 
-/// Indices of the slices lower than both neighbours (ends count when lower than their one
-/// neighbour), lowest χ² first, at most `MAX_VALLEYS`.
-pub fn valley_floors(all: &[Slice]) -> Vec<usize> {
+/// A local minimum of χ²(ρ) must stand this far below the ridge to the next lower ground on each
+/// side to count as a valley of its own (slices converge to about this level; smaller bumps are
+/// noise within one valley).
+pub const MIN_PROMINENCE: f64 = 2.0;
+
+/// Indices of the valley floors, ascending in ρ: local minima that stand `MIN_PROMINENCE` above their
+/// ridges (the lowest slice always counts), and the lower slice of every pair whose slopes turn from
+/// falling to rising.
+fn floors_by_rho(all: &[Slice], slopes: bool) -> Vec<usize> {
     let n = all.len();
+    let lowest = (0..n).min_by(|&a, &b| all[a].chi2.total_cmp(&all[b].chi2));
+    let ridge = |k: usize, dir: i64| {
+        let mut j = k as i64 + dir;
+        // A floor at an end of the scan is open on that side.
+        if j < 0 || j as usize >= n {
+            return f64::INFINITY;
+        }
+        let mut peak = all[k].chi2;
+        while j >= 0 && (j as usize) < n && all[j as usize].chi2 >= all[k].chi2 {
+            peak = peak.max(all[j as usize].chi2);
+            j += dir;
+        }
+        peak
+    };
     let mut floors: Vec<usize> = (0..n)
         .filter(|&k| {
             let left = k == 0 || all[k].chi2 < all[k - 1].chi2;
             let right = k + 1 == n || all[k].chi2 <= all[k + 1].chi2;
             left && right
         })
+        .filter(|&k| {
+            Some(k) == lowest || ridge(k, -1).min(ridge(k, 1)) - all[k].chi2 >= MIN_PROMINENCE
+        })
         .collect();
+    // A valley narrower than the spacing can hide between a falling and a rising slice whose values
+    // show nothing (both on its walls, the farther one lower still): the slopes give it away.
+    for k in (1..n).filter(|_| slopes) {
+        if all[k - 1].slope < 0.0 && all[k].slope > 0.0 {
+            let f = if all[k - 1].chi2 <= all[k].chi2 {
+                k - 1
+            } else {
+                k
+            };
+            if !floors.contains(&f) {
+                floors.push(f);
+            }
+        }
+    }
+    floors.sort_unstable();
+    floors
+}
+
+/// Indices of the valley floors, lowest χ² first, at most `MAX_VALLEYS`; with `slopes`, also where
+/// the slopes turn (for seeds, whose least squares then finds the bottom itself).
+pub fn valley_floors(all: &[Slice], slopes: bool) -> Vec<usize> {
+    let mut floors = floors_by_rho(all, slopes);
     floors.sort_by(|&a, &b| all[a].chi2.total_cmp(&all[b].chi2));
     floors.truncate(MAX_VALLEYS);
     floors
@@ -104,7 +152,7 @@ pub fn slices(
     used: &[bool],
     opts: &ProfileOptions,
 ) -> Vec<Slice> {
-    let mut all = coarse_slices(p, frame, start, used, opts);
+    let mut all = coarse_slices(p, frame, start, used, opts, SLICE_ITERATIONS);
     // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
     // its least bad distance would buy nothing.
     let dof = (2 * used.iter().filter(|u| **u).count())
@@ -114,7 +162,10 @@ pub fn slices(
     if lowest > super::fit::NO_ORBIT_CHI2_PER_DOF * dof {
         return all;
     }
-    let floors: Vec<Slice> = valley_floors(&all).into_iter().map(|k| all[k]).collect();
+    let floors: Vec<Slice> = valley_floors(&all, false)
+        .into_iter()
+        .map(|k| all[k])
+        .collect();
     for floor in floors {
         // A neighbouring valley's refinement may have replaced this floor already.
         if !all.iter().any(|s| s.rho == floor.rho) {
@@ -145,7 +196,15 @@ fn refine_valley(
             .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
             .collect();
         all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi || s.rho == best.rho);
-        let new = slices_at(p, frame, &fine, (best.a, best.rho), used, false);
+        let new = slices_at(
+            p,
+            frame,
+            &fine,
+            (best.a, best.rho),
+            used,
+            false,
+            SLICE_ITERATIONS,
+        );
         all.retain(|s| s.rho != best.rho || new.is_empty());
         all.extend(new);
         all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
@@ -194,21 +253,22 @@ fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions, parabola: bo
     )
 }
 
-/// Valley number of each slice (sorted by ρ): a new valley begins after every local maximum of χ².
+/// Valley number of each slice (sorted by ρ): valleys meet at the highest slice between two floors.
 pub fn valley_ids(all: &[Slice]) -> Vec<usize> {
-    let mut ids = Vec::with_capacity(all.len());
-    let mut id = 0;
-    for k in 0..all.len() {
-        if k > 0
-            && k + 1 < all.len()
-            && all[k].chi2 > all[k - 1].chi2
-            && all[k].chi2 >= all[k + 1].chi2
-        {
-            ids.push(id);
-            id += 1;
-            continue;
+    let floors = floors_by_rho(all, false);
+    let mut ids = vec![0; all.len()];
+    let mut start = 0;
+    for (v, w) in floors.windows(2).enumerate() {
+        let ridge = (w[0]..=w[1])
+            .max_by(|&a, &b| all[a].chi2.total_cmp(&all[b].chi2))
+            .unwrap_or(w[1]);
+        for id in ids.iter_mut().take(ridge + 1).skip(start) {
+            *id = v;
         }
-        ids.push(id);
+        start = ridge + 1;
+    }
+    for id in ids.iter_mut().skip(start) {
+        *id = floors.len().saturating_sub(1);
     }
     ids
 }
@@ -219,6 +279,7 @@ mod tests {
 
     fn slice(rho: f64, chi2: f64) -> Slice {
         Slice {
+            slope: 0.0,
             rho,
             a: V5::zeros(),
             chi2,
@@ -238,8 +299,18 @@ mod tests {
         .iter()
         .map(|&(r, c)| slice(r, c))
         .collect();
-        assert_eq!(valley_floors(&all), vec![3, 1]);
+        assert_eq!(valley_floors(&all, false), vec![3, 1]);
         assert_eq!(valley_ids(&all), vec![0, 0, 0, 1, 1]);
+    }
+
+    #[test]
+    fn a_bump_smaller_than_the_slice_noise_does_not_split_a_valley() {
+        let all: Vec<Slice> = [(1.0, 50.0), (1.5, 9.0), (2.0, 9.5), (3.0, 8.8), (4.0, 40.0)]
+            .iter()
+            .map(|&(r, c)| slice(r, c))
+            .collect();
+        assert_eq!(valley_floors(&all, false), vec![3]);
+        assert_eq!(valley_ids(&all), vec![0, 0, 0, 0, 0]);
     }
 
     #[test]
@@ -248,6 +319,6 @@ mod tests {
             .iter()
             .map(|&(r, c)| slice(r, c))
             .collect();
-        assert_eq!(valley_floors(&all), vec![0, 3]);
+        assert_eq!(valley_floors(&all, false), vec![0, 3]);
     }
 }

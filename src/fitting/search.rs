@@ -20,6 +20,15 @@ pub const SEED_ITERATIONS: usize = 20;
 /// At most this many initial orbits are corrected for one tracklet.
 pub const MAX_CORRECTIONS: usize = 8;
 
+/// Levenberg–Marquardt steps per slice of the seed scan: enough to show where the valleys are.
+pub const SCAN_ITERATIONS: usize = 4;
+
+/// Arcs of up to this many nights get the distance scan and every Gauss seed.
+pub const MAX_SCAN_NIGHTS: usize = 4;
+
+/// Distances of the seed scan (logarithmic over the ranging interval, about a factor 1.6 apart).
+pub const SCAN_POINTS: usize = 41;
+
 /// Distinct minima within this Δχ² of the best are kept as alternative solutions.
 pub const ALTERNATIVE_DCHI2: f64 = 9.0;
 
@@ -36,7 +45,10 @@ pub fn least_squares(
     scan: Option<&ScanStart>,
 ) -> Option<(LsqFit, Vec<LsqFit>)> {
     let mut minima = gauss_minima(p, opts);
-    if let Some(scan) = scan {
+    // Arcs of many nights pin the distance with no second valley to fall into.
+    if let Some(scan) = scan
+        && p.tracklet.n_nights() <= MAX_SCAN_NIGHTS
+    {
         valley_minima(p, opts, scan, &mut minima);
     }
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
@@ -68,15 +80,18 @@ fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions) -> Option<LsqFit> {
         .filter(|f| f.chi2.is_finite() && f.converged)
 }
 
-/// Add a minimum unless one already found is the same (within 3σ, Mahalanobis); keep the lower.
+/// Whether two minima are the same (within 3σ of the first, Mahalanobis).
+pub fn same_minimum(m: &LsqFit, f: &LsqFit) -> bool {
+    let d = m.state - f.state;
+    match m.cov.and_then(|c| c.try_inverse()) {
+        Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
+        None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+    }
+}
+
+/// Add a minimum unless one already found is the same; keep the lower.
 fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
-    let same = minima.iter().position(|m| {
-        let d = m.state - f.state;
-        match m.cov.and_then(|c| c.try_inverse()) {
-            Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
-            None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
-        }
-    });
+    let same = minima.iter().position(|m| same_minimum(m, &f));
     match same {
         Some(k) if minima[k].chi2 <= f.chi2 => {}
         Some(k) => minima[k] = f,
@@ -89,7 +104,9 @@ fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
 fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
     let tr = p.tracklet;
     let mut minima: Vec<LsqFit> = Vec::new();
-    let settle = tr.n_nights() >= 3;
+    // Arcs of many nights settle on the first statistically good minimum; short ones try every seed
+    // (a wrong basin there can fit as well as the stated errors allow).
+    let settle = tr.n_nights() > MAX_SCAN_NIGHTS;
     // "Good" means χ² consistent with the stated errors (3σ of the χ² distribution). A wrong basin can
     // still fit that well, which is why the distance scan follows.
     let good = |minima: &[LsqFit]| {
@@ -127,19 +144,14 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
     let used = vec![true; p.len()];
     let popts = ProfileOptions {
         v_cap_km_s: opts.ranging.v_cap_km_s,
+        n_rho: SCAN_POINTS,
         ..ProfileOptions::default()
     };
-    let coarse = coarse_slices(p, &scan.frame, scan.start, &used, &popts);
-    let step = (popts.rho_max_au / popts.rho_min_au).ln() / (popts.n_rho.max(3) - 1) as f64;
-    let known: Vec<f64> = minima
-        .iter()
-        .map(|m| scan.frame.params(&m.state).1.ln())
-        .collect();
-    for k in valley_floors(&coarse) {
+    let coarse = coarse_slices(p, &scan.frame, scan.start, &used, &popts, SCAN_ITERATIONS);
+    // Every floor is corrected, even next to a minimum already found: two valleys can lie within
+    // one spacing of the scan (merge() keeps distinct minima only).
+    for k in valley_floors(&coarse, true) {
         let s = coarse[k];
-        if known.iter().any(|r| (r - s.rho.ln()).abs() < step) {
-            continue;
-        }
         if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts) {
             merge(minima, f);
         }

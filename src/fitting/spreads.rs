@@ -3,7 +3,7 @@
 //! and the JSON, and the orbits kept for ephemerides.
 
 use super::covariance::ElementSigmas;
-use super::lsq::{LsqFit, Problem};
+use super::lsq::LsqFit;
 use super::ranging::SplitMix;
 use super::result::{FitResult, KEPT_SAMPLES, elements_out, resample};
 use crate::physics::constants::MU_SUN;
@@ -112,31 +112,17 @@ pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch
 /// Where the elements curve within the fit's 1σ (the linear σ of e can be several times too small at a
 /// low-e estimate), their σ come from orbits drawn from the fit's Gaussian N(x, C): the values stay
 /// the least-squares ones, only the spreads (and the orbits kept for ephemerides) change.
-pub fn gaussian_spreads(out: &mut FitResult, p: &Problem, fit: &LsqFit, cov: &M6, seed: u64) {
+pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, seed: u64) {
     let Some(chol) = cov.cholesky() else {
         return;
     };
     let (state, epoch) = (fit.state, fit.epoch.value());
     let l = chol.l();
     let mut rng = SplitMix::new(seed ^ 0x005e_ed0f_6a55);
-    let mut states = Vec::with_capacity(GAUSSIAN_DRAWS);
-    let mut ln_w = Vec::with_capacity(GAUSSIAN_DRAWS);
-    for _ in 0..GAUSSIAN_DRAWS {
-        let z = S6::from_fn(|_, _| rng.normal());
-        let x = state + l * z;
-        // Weight: the likelihood over the proposal density (a flat prior in the state).
-        if let Ok(c2) = p.chi2(&x, &fit.used) {
-            states.push(x);
-            ln_w.push(-(c2 - fit.chi2) / 2.0 + z.norm_squared() / 2.0);
-        }
-    }
-    let top = ln_w.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
-    let raw: Vec<f64> = ln_w.iter().map(|l| (l - top).exp()).collect();
-    let total: f64 = raw.iter().sum();
-    if total.is_nan() || total <= 0.0 {
-        return;
-    }
-    let weights: Vec<f64> = raw.iter().map(|w| w / total).collect();
+    let states: Vec<S6> = (0..GAUSSIAN_DRAWS)
+        .map(|_| state + l * S6::from_fn(|_, _| rng.normal()))
+        .collect();
+    let weights = vec![1.0 / GAUSSIAN_DRAWS as f64; GAUSSIAN_DRAWS];
     let sig = element_sigmas(&elements_of(&states, epoch), &weights);
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);

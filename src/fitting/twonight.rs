@@ -10,8 +10,8 @@ use super::perturb::{Dynamics, TwoBody};
 use super::profile::{DensityContext, Frame, Profile, ProfileOptions, profile};
 use super::rangescan::valley_ids;
 use super::result::FitResult;
-use super::search::ALTERNATIVE_DCHI2;
 use super::search::ScanStart;
+use super::search::{ALTERNATIVE_DCHI2, same_minimum};
 use crate::physics::constants::MU_SUN;
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::{ObserverModel, ObserverState};
@@ -144,10 +144,15 @@ fn other_valleys(
                 return None;
             }
             let f = correct(p, &frame.state(&floor.a, floor.rho), &used, &opts.lsq).ok()?;
-            (f.converged && f.cov.is_some() && (f.state - fit.state).norm() > 1e-6)
-                .then_some((f, w))
+            (f.converged && f.cov.is_some() && !same_minimum(fit, &f)).then_some((f, w))
         })
-        .collect()
+        .fold(Vec::new(), |mut kept: Vec<(LsqFit, f64)>, (f, w)| {
+            match kept.iter_mut().find(|(k, _)| same_minimum(k, &f)) {
+                Some(k) => k.1 += w,
+                None => kept.push((f, w)),
+            }
+            kept
+        })
 }
 
 /// The arc's frame (the middle observer at the epoch, the mean direction of the first and last
