@@ -3,6 +3,7 @@
 //! onto the sky (Γ_sky = A Γ Aᵀ); sampled fits propagate every weighted orbit and describe the cloud by
 //! weighted quantiles along its principal axes, so a curved cloud is not squeezed into an ellipse.
 
+use super::conditions::{Capabilities, RowOptions, SkyFields, SkySlot, sky_fields};
 use super::fit::FitResult;
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::stats::weighted_quantile;
@@ -15,7 +16,8 @@ use crate::physics::{M6, S6, V3};
 
 /// Default lowest altitude for "observable" (degrees; common practice, no source).
 pub const DEFAULT_MIN_ALT_DEG: f64 = 20.0;
-/// The Sun must be below this altitude (degrees): nautical twilight has ended.
+/// The Sun must be below this altitude (degrees) by default: nautical twilight has ended (see
+/// [`crate::physics::sky::Twilight`] for the other choices).
 pub const SUN_MAX_ALT_DEG: f64 = -12.0;
 /// Closer than this to the Sun (degrees) a caution is raised (a common solar-avoidance scale, no source).
 pub const SUN_CAUTION_ELONG_DEG: f64 = 45.0;
@@ -52,6 +54,9 @@ pub struct EphemerisPoint {
     pub unc_from: &'static str,
     pub observable: bool,
     pub sun_caution: bool,
+    /// Sexagesimal position, airmass, the Moon, brightness against the site and trail length.
+    #[serde(flatten)]
+    pub sky: SkyFields,
 }
 
 /// H–G phase function (Bowell et al. 1989, Asteroids II, 524): 2.5 log₁₀[(1 − G)Φ₁ + GΦ₂] term.
@@ -134,7 +139,8 @@ fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
     Some((S6::from_column_slice(&s), epoch, d))
 }
 
-/// The ephemeris of one fit at one instant from one site.
+/// The ephemeris of one fit at one instant from one site, with the default sky options and the
+/// given altitude limit.
 pub fn point(
     fit: &FitResult,
     inst: &Instant,
@@ -143,6 +149,27 @@ pub fn point(
     model: &ObserverModel,
     h: Option<f64>,
     min_alt_deg: f64,
+) -> Option<EphemerisPoint> {
+    let opts = RowOptions {
+        caps: Capabilities {
+            min_alt_deg,
+            ..Capabilities::default()
+        },
+        ..RowOptions::default()
+    };
+    point_with(fit, inst, time_utc, site, model, h, &opts)
+}
+
+/// The ephemeris of one fit at one instant from one site, against the site's capabilities, the
+/// twilight and the exposure of `opts`.
+pub fn point_with(
+    fit: &FitResult,
+    inst: &Instant,
+    time_utc: String,
+    site: &GroundPosition,
+    model: &ObserverModel,
+    h: Option<f64>,
+    opts: &RowOptions,
 ) -> Option<EphemerisPoint> {
     let (x, epoch, dyn_) = fit_state(fit)?;
     let loc = ObserverLocation::Ground(*site);
@@ -181,6 +208,18 @@ pub fn point(
         (None, None, None, "none")
     };
     let v = h.map(|h| hg_magnitude(h, SLOPE_G, r, delta, beta));
+    let slot = SkySlot::new(site, inst, model).ok()?;
+    let dir = p.topo.normalize();
+    let rate = rate_e.hypot(rate_n);
+    let sky = sky_fields(
+        &slot,
+        &dir,
+        (p.ra / DEG, p.dec / DEG),
+        alt / DEG,
+        rate,
+        v,
+        opts,
+    );
     Some(EphemerisPoint {
         object: fit.object.clone(),
         time_utc,
@@ -201,8 +240,10 @@ pub fn point(
         unc_minor_arcsec: minor,
         unc_pa_deg: pa,
         unc_from: from,
-        observable: sun_alt / DEG < SUN_MAX_ALT_DEG && alt / DEG > min_alt_deg,
+        observable: sun_alt / DEG < opts.twilight.sun_limit_deg()
+            && alt / DEG > opts.caps.min_alt_deg,
         sun_caution: elong < SUN_CAUTION_ELONG_DEG,
+        sky,
     })
 }
 
