@@ -128,7 +128,7 @@ pub fn fitted_h(fit: &FitResult, mags: &[(Jd2, f64)], obs: &[ObserverState]) -> 
     Some(hs[hs.len() / 2])
 }
 
-fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
+pub(crate) fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
     let s = fit.state?;
     let epoch = Jd2::new(fit.epoch_jd_tdb?, 0.0);
     let d: Box<dyn Dynamics> = if fit.dynamics == "sun-planets-moon" {
