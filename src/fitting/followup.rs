@@ -157,14 +157,36 @@ pub fn p_unbound(mu: f64, sigma: f64) -> f64 {
 
 /// E|Φ(−m/σ₁) − Φ(−μ/σ₀)| with m ~ N(μ, σ₀² − σ₁²), by the trapezoid rule over ±6 standard deviations.
 pub fn expected_change(mu: f64, s0: f64, s1: f64) -> f64 {
-    let p0 = p_unbound(mu, s0);
+    expected_change_from(None, mu, s0, s1)
+}
+
+fn logit(p: f64) -> f64 {
+    let p = p.clamp(1e-300, 1.0 - 1e-16);
+    p.ln() - (1.0 - p).ln()
+}
+
+/// The reported posterior P moved by the change of the data's own Gaussian odds: the posterior log
+/// odds shift by logit P_data(after) − logit P_data(now).
+pub fn moved_posterior(p_post: f64, data_now: f64, data_after: f64) -> f64 {
+    let l = logit(p_post) + logit(data_after) - logit(data_now);
+    1.0 / (1.0 + (-l).exp())
+}
+
+/// Expected |ΔP| of one update: of the data-only P (`p_post` None), or of a posterior P moved by the
+/// data's odds ([`moved_posterior`]), so that a P the prior pins near 0 or 1 barely moves.
+pub fn expected_change_from(p_post: Option<f64>, mu: f64, s0: f64, s1: f64) -> f64 {
+    let d0 = p_unbound(mu, s0);
+    let p0 = p_post.unwrap_or(d0);
     let tau = (s0 * s0 - s1 * s1).max(0.0).sqrt();
-    const N: usize = 97;
+    // An even count keeps z = 0 off the nodes (a perfectly sharp update is discontinuous there).
+    const N: usize = 96;
     let (mut acc, mut norm) = (0.0, 0.0);
     for k in 0..N {
         let z = -6.0 + 12.0 * k as f64 / (N - 1) as f64;
         let w = (-0.5 * z * z).exp() * if k == 0 || k == N - 1 { 0.5 } else { 1.0 };
-        acc += w * (p_unbound(mu + tau * z, s1) - p0).abs();
+        let d1 = p_unbound(mu + tau * z, s1);
+        let p1 = p_post.map_or(d1, |p| moved_posterior(p, d0, d1));
+        acc += w * (p1 - p0).abs();
         norm += w;
     }
     acc / norm
@@ -182,5 +204,9 @@ mod tests {
         assert!((full - 0.5).abs() < 0.01, "{full}");
         let half = expected_change(0.0, 0.01, 0.005);
         assert!(half > 0.05 && half < full, "{half}");
+        // A posterior the prior pins near zero moves far less on the same data.
+        let pinned = expected_change_from(Some(1e-6), 0.0, 0.01, 0.005);
+        assert!(pinned > 0.0 && pinned < 0.1 * half, "{pinned} vs {half}");
+        assert!((moved_posterior(0.3, 0.5, 0.5) - 0.3).abs() < 1e-12);
     }
 }

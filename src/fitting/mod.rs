@@ -14,6 +14,8 @@ pub mod lsq;
 pub mod nextnight;
 pub mod onenight;
 pub mod perturb;
+pub mod plan;
+pub mod planeval;
 pub mod population;
 pub mod posterior;
 pub mod profile;

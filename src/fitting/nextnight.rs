@@ -5,7 +5,7 @@
 
 use super::conditions::{DEFAULT_SITE_MIN_ALT_DEG, SkySlot};
 use super::fit::FitResult;
-use super::followup::{Gain, Predictor, gain};
+use super::followup::{Gain, Predictor, expected_change_from, gain, moved_posterior};
 use super::input::{DEFAULT_SIGMA_ARCSEC, SIGMA_FLOOR_ARCSEC, Tracklet};
 use crate::physics::observe::{ObserverLocation, ObserverModel};
 use crate::physics::site::GroundPosition;
@@ -60,7 +60,7 @@ pub struct NextNight {
     pub inv_a_sigma: f64,
     /// P(unbound) expected after the night if the best orbit stays where it is.
     pub p_hyperbolic: f64,
-    /// Expected |ΔP| of the data-only probability.
+    /// Expected |ΔP(unbound)| before the night is observed.
     pub expected_change: f64,
     pub verdict: Verdict,
 }
@@ -159,11 +159,6 @@ pub fn night_gain(pred: &Predictor, night: &NightChoice, model: &ObserverModel) 
     gain(pred, &jacs?, night.accuracy_arcsec)
 }
 
-fn logit(p: f64) -> f64 {
-    let p = p.clamp(1e-300, 1.0 - 1e-16);
-    p.ln() - (1.0 - p).ln()
-}
-
 /// "What one more night buys" for a fit of a tracklet, where it matters: an arc of two nights or
 /// more with a covariance and P(unbound) still between 0.01 and 0.99. `None` otherwise.
 pub fn next_night(fit: &FitResult, tr: &Tracklet, model: &ObserverModel) -> Option<NextNight> {
@@ -176,8 +171,7 @@ pub fn next_night(fit: &FitResult, tr: &Tracklet, model: &ObserverModel) -> Opti
     let night = choose_night(&pred, tr, model, Twilight::default())?;
     let g = night_gain(&pred, &night, model)?;
     // The current posterior odds move by the change of the data's own odds.
-    let ln_odds = logit(p) + logit(g.p_data_after) - logit(g.p_data_now);
-    let p_after = 1.0 / (1.0 + (-ln_odds).exp());
+    let p_after = moved_posterior(p, g.p_data_now, g.p_data_after);
     let shrink = 1.0 - g.inv_a_sigma_after / g.inv_a_sigma_now.max(f64::MIN_POSITIVE);
     let verdict = if !(OPEN_P.0..=OPEN_P.1).contains(&p_after) {
         Verdict::Settles
@@ -198,7 +192,12 @@ pub fn next_night(fit: &FitResult, tr: &Tracklet, model: &ObserverModel) -> Opti
         inv_a_sigma_now: g.inv_a_sigma_now,
         inv_a_sigma: g.inv_a_sigma_after,
         p_hyperbolic: p_after,
-        expected_change: g.expected_dp,
+        expected_change: expected_change_from(
+            Some(p),
+            pred.inv_a,
+            g.inv_a_sigma_now,
+            g.inv_a_sigma_after,
+        ),
         verdict,
     })
 }
