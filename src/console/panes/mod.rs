@@ -3,6 +3,7 @@
 pub mod elements;
 pub mod nextnight;
 pub mod overlay;
+pub mod planview;
 pub mod residuals;
 pub mod status;
 pub mod table;
