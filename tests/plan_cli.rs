@@ -99,6 +99,7 @@ fn the_json_plan_has_its_documented_fields() {
             "ra_hms",
             "dec_dms",
             "rate_arcsec_min",
+            "v_mag",
             "alt_deg",
             "airmass",
             "moon_sep_deg",

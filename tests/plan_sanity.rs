@@ -178,3 +178,68 @@ fn a_small_field_needs_several_pointings_and_the_demo_night_plans() {
         assert!(i.duration_min + 1e-6 >= i.pointings as f64 * opts.visit_days * 1440.0);
     }
 }
+
+#[test]
+fn nothing_fainter_than_the_site_limit_is_scheduled() {
+    use interloper::fitting::ephemeris::tracklet_h;
+    use interloper::fitting::plan::plan_with_h;
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let table = SiteTable::builtin();
+    let mut trs = Vec::new();
+    let mut names: Vec<_> = std::fs::read_dir(&demo)
+        .unwrap()
+        .flatten()
+        .map(|e| e.path())
+        .collect();
+    names.sort();
+    for p in &names {
+        let b = std::fs::read(p).unwrap();
+        trs.extend(read_bytes(&p.display().to_string(), &b, &table, &Limits::default()).tracklets);
+    }
+    let trs = merge(trs);
+    let fits = fit_all(trs.clone(), &FitOptions::default(), 2);
+    let model = ObserverModel::new();
+    let h: Vec<Option<f64>> = trs
+        .iter()
+        .zip(&fits)
+        .map(|(t, f)| tracklet_h(f, t, &model))
+        .collect();
+    assert!(h.iter().filter(|h| h.is_some()).count() >= 5);
+    let limit = 20.0;
+    let mut sites = sites_for(&["TV1", "TV2"], "2027-02-24T18:00:00Z", 24.0);
+    for s in &mut sites {
+        s.caps.limiting_mag = limit;
+    }
+    let opts = PlanOptions::default();
+    let bright = plan_with_h(&fits, &h, &sites, &opts, &model);
+    let all = plan(&fits, &sites, &opts, &model);
+    check(&bright, &fits, &sites, opts.twilight);
+    for item in &bright.items {
+        let k = fits.iter().position(|f| f.object == item.object).unwrap();
+        let site = sites.iter().find(|s| s.code == item.site).unwrap();
+        let t = parse_utc(&item.start_utc).unwrap();
+        let p = point_with(
+            &fits[k],
+            &t,
+            String::new(),
+            &site.position,
+            &model,
+            h[k],
+            &RowOptions::default(),
+        )
+        .unwrap();
+        if let Some(v) = p.v_mag {
+            assert!(v <= limit + 0.01, "{} at V {v}", item.object);
+            assert!((item.v_mag.unwrap() - v).abs() < 0.01);
+        }
+    }
+    eprintln!(
+        "limit V {limit}: {} visits ({} without the limit)",
+        bright.items.len(),
+        all.items.len()
+    );
+    assert!(
+        bright.items.len() < all.items.len(),
+        "the limit changed nothing"
+    );
+}

@@ -7,7 +7,7 @@ use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
 use interloper::feed::tracklets::{Limits, merge};
 use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
-use interloper::fitting::ephemeris::{EphemerisPoint, fitted_h, point_with};
+use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::sky::Twilight;
 use interloper::physics::time::{UtcTime, tt_to_utc};
@@ -277,18 +277,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             failed += 1;
             continue;
         }
-        let mags: Vec<_> = t
-            .obs
-            .iter()
-            .filter_map(|o| o.mag.map(|m| (o.time.tdb, m)))
-            .collect();
-        let obs: Vec<_> = t
-            .obs
-            .iter()
-            .filter(|o| o.mag.is_some())
-            .filter_map(|o| model.observer(&o.location, &o.time).ok())
-            .collect();
-        let h = fitted_h(fit, &mags, &obs);
+        let h = tracklet_h(fit, t, &model);
         let mut points = Vec::with_capacity(n);
         for k in 0..n {
             let inst = from.plus_days(k as f64 * step);

@@ -7,7 +7,8 @@ use super::inputs::{SiteArgs, expand, read_file};
 use interloper::feed::sanitize::clean;
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, merge};
-use interloper::fitting::plan::{PlanOptions, PlanSite, plan};
+use interloper::fitting::ephemeris::tracklet_h;
+use interloper::fitting::plan::{PlanOptions, PlanSite, plan_with_h};
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::site::GroundPosition;
 use interloper::physics::sky::Twilight;
@@ -154,7 +155,13 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
             crate::usage!("no tracklet has the object id(s) given with --object");
         }
     }
-    let fits = fit_all_default(tracklets);
+    let fits = fit_all_default(tracklets.clone());
+    let model = ObserverModel::new();
+    let h: Vec<Option<f64>> = tracklets
+        .iter()
+        .zip(&fits)
+        .map(|(t, f)| tracklet_h(f, t, &model))
+        .collect();
     let failed = fits.iter().filter(|f| f.status == "failed").count();
     for f in fits.iter().filter(|f| f.status == "failed") {
         eprintln!(
@@ -163,7 +170,7 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
             clean(f.error.as_deref().unwrap_or(""))
         );
     }
-    let result = plan(&fits, &sites, &opts, &ObserverModel::new());
+    let result = plan_with_h(&fits, &h, &sites, &opts, &model);
     let mut out = std::io::BufWriter::new(std::io::stdout().lock());
     if args.json {
         serde_json::to_writer_pretty(&mut out, &result)?;

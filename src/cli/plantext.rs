@@ -28,10 +28,10 @@ pub fn table(p: &Plan) -> String {
             )),
         }
     }
-    s.push_str("start (UTC)               end (UTC)                 site object          RA h:m:s     Dec d:m:s     alt°  airm  moon° lit   3σ\"      ptg  E|ΔP|   σ(1/a) now → after   P(unb)  #  notes\n");
+    s.push_str("start (UTC)               end (UTC)                 site object          RA h:m:s     Dec d:m:s     alt°  airm  V     moon° lit   3σ\"      ptg  E|ΔP|   σ(1/a) now → after   P(unb)  #  notes\n");
     for i in &p.items {
         s.push_str(&format!(
-            "{:<25} {:<25} {:<4} {:<15} {:>12} {:>12} {:>5.1} {:>5} {:>5.0} {:>4.2} {:>8.1} {:>4} {:>7.4} {:>9.2e} → {:<9.2e} {:>6} {:>2}  {}\n",
+            "{:<25} {:<25} {:<4} {:<15} {:>12} {:>12} {:>5.1} {:>5} {:>5} {:>5.0} {:>4.2} {:>8.1} {:>4} {:>7.4} {:>9.2e} → {:<9.2e} {:>6} {:>2}  {}\n",
             i.start_utc,
             i.end_utc,
             clean(&i.site),
@@ -40,6 +40,7 @@ pub fn table(p: &Plan) -> String {
             i.dec_dms,
             i.alt_deg,
             i.airmass.map_or("-".into(), |x| format!("{x:.2}")),
+            i.v_mag.map_or("-".into(), |v| format!("{v:.1}")),
             i.moon_sep_deg,
             i.moon_illum,
             i.region_major_arcsec,

@@ -128,6 +128,24 @@ pub fn fitted_h(fit: &FitResult, mags: &[(Jd2, f64)], obs: &[ObserverState]) -> 
     Some(hs[hs.len() / 2])
 }
 
+/// Absolute magnitude of a fit from the magnitudes in its tracklet ([`fitted_h`]).
+pub fn tracklet_h(
+    fit: &FitResult,
+    tr: &super::input::Tracklet,
+    model: &ObserverModel,
+) -> Option<f64> {
+    let with_mag: Vec<_> = tr.obs.iter().filter(|o| o.mag.is_some()).collect();
+    let mut mags = Vec::with_capacity(with_mag.len());
+    let mut obs = Vec::with_capacity(with_mag.len());
+    for o in with_mag {
+        if let (Some(m), Ok(st)) = (o.mag, model.observer(&o.location, &o.time)) {
+            mags.push((o.time.tdb, m));
+            obs.push(st);
+        }
+    }
+    fitted_h(fit, &mags, &obs)
+}
+
 pub(crate) fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
     let s = fit.state?;
     let epoch = Jd2::new(fit.epoch_jd_tdb?, 0.0);

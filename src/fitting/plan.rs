@@ -79,6 +79,8 @@ pub struct PlanItem {
     pub ra_hms: String,
     pub dec_dms: String,
     pub rate_arcsec_min: f64,
+    /// Predicted V at the start (null when the positions carried no magnitudes).
+    pub v_mag: Option<f64>,
     /// Lowest altitude over the visit, and the airmass there.
     pub alt_deg: f64,
     pub airmass: Option<f64>,
@@ -106,7 +108,7 @@ pub struct PlanItem {
 pub enum Unplanned {
     /// The fit has no orbit or no uncertainty to plan from.
     NoOrbit,
-    /// Never dark and high enough at any of the sites.
+    /// Never dark, high and bright enough at any of the sites.
     NotObservable,
     /// Its 3σ region needs more pointings than the plan allows.
     RegionTooLarge,
@@ -118,7 +120,7 @@ impl Unplanned {
     pub fn text(self) -> &'static str {
         match self {
             Unplanned::NoOrbit => "no orbit or uncertainty to plan from",
-            Unplanned::NotObservable => "never dark and high enough at these sites",
+            Unplanned::NotObservable => "never dark, high and bright enough at these sites",
             Unplanned::RegionTooLarge => "3σ region needs more pointings than allowed",
             Unplanned::NoFreeTime => "every suitable stretch is taken by more valuable candidates",
         }
@@ -227,9 +229,21 @@ fn best_start(evals: &[Option<SlotEval>], busy: &[bool], len: usize) -> Option<u
     best.map(|b| b.0)
 }
 
-/// Make the plan for `fits` at `sites`.
+/// Make the plan for `fits` at `sites`, without brightness limits.
 pub fn plan(
     fits: &[FitResult],
+    sites: &[PlanSite],
+    opts: &PlanOptions,
+    model: &ObserverModel,
+) -> Plan {
+    plan_with_h(fits, &[], sites, opts, model)
+}
+
+/// Make the plan; `h[i]`, where given, is the absolute magnitude of `fits[i]`, and times when it is
+/// fainter than a site's limiting magnitude are not used.
+pub fn plan_with_h(
+    fits: &[FitResult],
+    h: &[Option<f64>],
     sites: &[PlanSite],
     opts: &PlanOptions,
     model: &ObserverModel,
@@ -239,7 +253,7 @@ pub fn plan(
     let mut evals: Vec<(usize, Evaluation)> = Vec::new();
     let mut unplanned = Vec::new();
     for (i, fit) in fits.iter().enumerate() {
-        match evaluate(fit, sites, &grids, opts, model) {
+        match evaluate(fit, h.get(i).copied().flatten(), sites, &grids, opts, model) {
             Some(e) => evals.push((i, e)),
             None => unplanned.push(Left {
                 object: fit.object.clone(),
@@ -375,6 +389,7 @@ fn item(
         ra_hms: ra_hms(first.ra_deg),
         dec_dms: dec_dms(first.dec_deg),
         rate_arcsec_min: first.rate_arcsec_min,
+        v_mag: first.v_mag,
         alt_deg: low.alt_deg,
         airmass: airmass(low.alt_deg),
         moon_sep_deg: stretch.iter().map(|e| e.moon_sep_deg).fold(180.0, f64::min),

@@ -2,7 +2,7 @@
 //! is above the site's altitude limit, how large its 3σ region is, and what a visit there is worth.
 
 use super::conditions::SkySlot;
-use super::ephemeris::REGION_SIGMA;
+use super::ephemeris::{REGION_SIGMA, SLOPE_G, hg_magnitude, phase_angle};
 use super::fit::FitResult;
 use super::followup::{Predictor, expected_change_from, gain};
 use super::plan::{PlanOptions, PlanSite};
@@ -19,6 +19,8 @@ pub struct SlotEval {
     pub elong_deg: f64,
     pub moon_sep_deg: f64,
     pub moon_caution: bool,
+    /// Predicted V (H–G) when the fit's absolute magnitude is known.
+    pub v_mag: Option<f64>,
     /// 3σ semi-axes of the sky region (arcsec).
     pub major_arcsec: f64,
     pub minor_arcsec: f64,
@@ -48,6 +50,7 @@ fn semi_axes(c: &nalgebra::Matrix2<f64>) -> (f64, f64) {
 
 fn at_slot(
     fit: &FitResult,
+    h: Option<f64>,
     pred: &Predictor,
     slot: &SkySlot,
     site: &PlanSite,
@@ -61,6 +64,13 @@ fn at_slot(
     let dir = p.topo / delta;
     let alt = slot.altitude_deg(&dir);
     if alt < site.caps.min_alt_deg {
+        return None;
+    }
+    let r = p.obj_pos.norm();
+    let beta = phase_angle(r, delta, slot.observer.helio_pos.norm());
+    let v_mag = h.map(|h| hg_magnitude(h, SLOPE_G, r, delta, beta));
+    // Too faint for the telescope: not a usable time.
+    if v_mag.is_some_and(|v| v > site.caps.limiting_mag) {
         return None;
     }
     // One visit: its positions taken together (they are minutes apart: the same partials).
@@ -77,6 +87,7 @@ fn at_slot(
         elong_deg: slot.sun_dir.angle(&dir) / DEG,
         moon_sep_deg: slot.moon_sep_deg(&dir),
         moon_caution: slot.moon_caution(&dir),
+        v_mag,
         major_arcsec: major,
         minor_arcsec: minor,
         value: expected_change_from(
@@ -90,9 +101,11 @@ fn at_slot(
     })
 }
 
-/// Evaluate one fit over every site's grid; None when it has no orbit or uncertainty to plan from.
+/// Evaluate one fit (of absolute magnitude `h`, when known) over every site's grid; None when it has
+/// no orbit or uncertainty to plan from.
 pub fn evaluate(
     fit: &FitResult,
+    h: Option<f64>,
     sites: &[PlanSite],
     grids: &[Vec<Option<SkySlot>>],
     opts: &PlanOptions,
@@ -115,7 +128,7 @@ pub fn evaluate(
         .map(|(site, grid)| {
             grid.iter()
                 .map(|slot| {
-                    let e = at_slot(fit, &pred, slot.as_ref()?, site, opts)?;
+                    let e = at_slot(fit, h, &pred, slot.as_ref()?, site, opts)?;
                     best = best.max(e.value);
                     if e.inv_a_sigma_now > 0.0 {
                         best_shrink =
