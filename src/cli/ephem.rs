@@ -6,8 +6,10 @@ use super::inputs::{SiteArgs, expand, read_file};
 use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
 use interloper::feed::tracklets::{Limits, merge};
-use interloper::fitting::ephemeris::{DEFAULT_MIN_ALT_DEG, EphemerisPoint, fitted_h, point};
+use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
+use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
 use interloper::physics::observe::ObserverModel;
+use interloper::physics::sky::Twilight;
 use interloper::physics::time::{UtcTime, tt_to_utc};
 use std::io::Write;
 use std::path::PathBuf;
@@ -31,9 +33,20 @@ pub struct EphemArgs {
     /// One JSON object per time step instead of the table.
     #[arg(long)]
     pub json: bool,
-    /// Lowest altitude counted as observable (degrees).
-    #[arg(long, default_value_t = DEFAULT_MIN_ALT_DEG)]
-    pub min_alt: f64,
+    /// Lowest altitude counted as observable (degrees); default the site's own limit (20° unless
+    /// the site table says otherwise).
+    #[arg(long)]
+    pub min_alt: Option<f64>,
+    /// How dark the sky must be: civil (Sun below −6°), nautical (−12°) or astronomical (−18°).
+    #[arg(
+        long,
+        default_value = "nautical",
+        value_name = "civil|nautical|astronomical"
+    )]
+    pub twilight: Twilight,
+    /// Exposure time for the trail length (seconds).
+    #[arg(long, default_value_t = DEFAULT_EXPOSURE_S, value_name = "SECONDS")]
+    pub exposure: f64,
     /// Only these objects (repeatable); default all.
     #[arg(long = "object")]
     pub objects: Vec<String>,
@@ -93,31 +106,55 @@ fn table(points: &[EphemerisPoint]) -> String {
         return s;
     };
     s.push_str(&format!("== {}\n", clean(&first.object)));
-    s.push_str("time (UTC)                  RA°        Dec°      \"/min E  \"/min N   alt°   elong°  V     3σ major\" minor\" PA°  obs\n");
+    s.push_str("time (UTC)                  RA°        Dec°      RA h:m:s     Dec d:m:s     \"/min E  \"/min N   alt°  airm  elong° moon° lit   V     trail\"  3σ major\" minor\" PA°  obs\n");
     for p in points {
+        let k = &p.sky;
         s.push_str(&format!(
-            "{:<26} {:>10.5} {:>+10.5} {:>8.3} {:>8.3} {:>6.1} {:>7.1} {:>5} {:>9} {:>7} {:>4} {}{}\n",
+            "{:<26} {:>10.5} {:>+10.5} {:>12} {:>12} {:>8.3} {:>8.3} {:>6.1} {:>5} {:>7.1} {:>5.0} {:>4.2} {:>5}{} {:>6.1} {:>9} {:>7} {:>4} {}{}{}\n",
             p.time_utc,
             p.ra_deg,
             p.dec_deg,
+            k.ra_hms,
+            k.dec_dms,
             p.ra_rate_arcsec_min,
             p.dec_rate_arcsec_min,
             p.alt_deg.unwrap_or(f64::NAN),
+            k.airmass.map_or("-".into(), |x| format!("{x:.2}")),
             p.elong_deg,
+            k.moon_sep_deg,
+            k.moon_illum,
             p.v_mag.map_or("-".into(), |v| format!("{v:.1}")),
+            if k.bright_enough == Some(false) { "!" } else { " " },
+            k.trail_arcsec,
             p.unc_major_arcsec.map_or("-".into(), |v| format!("{v:.1}")),
             p.unc_minor_arcsec.map_or("-".into(), |v| format!("{v:.1}")),
             p.unc_pa_deg.map_or("-".into(), |v| format!("{v:.0}")),
             if p.observable { "yes" } else { "no" },
-            if p.sun_caution { "  SUN" } else { "" }
+            if p.sun_caution { "  SUN" } else { "" },
+            if k.moon_caution { "  MOON" } else { "" }
         ));
     }
     let w = windows(points);
     if w.is_empty() {
-        s.push_str("not observable in this range (Sun below -12° and the object above the minimum altitude)\n");
+        s.push_str(
+            "not observable in this range (dark sky and the object above the minimum altitude)\n",
+        );
     }
     for (a, b) in w {
         s.push_str(&format!("observable {a} .. {b}\n"));
+    }
+    if let Some(k) = points.first().map(|p| &p.sky) {
+        s.push_str(&format!(
+            "dark = Sun below {}° ({} twilight); trail for {} s exposures; V marked ! is fainter than \
+             the site's limit {:.1}\n",
+            k.twilight.sun_limit_deg(),
+            k.twilight,
+            k.exposure_s,
+            k.limiting_mag
+        ));
+    }
+    if points.iter().any(|p| p.sky.moon_caution) {
+        s.push_str("CAUTION: a bright Moon is near the object at times marked MOON. Follow your site's own limits.\n");
     }
     if points.iter().any(|p| p.sun_caution) {
         s.push_str("CAUTION: within 45° of the Sun at times marked SUN. Check your site's own solar-avoidance limits and procedures before pointing.\n");
@@ -154,6 +191,25 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             },
             codes.join(", ")
         );
+    };
+    if !(args.exposure > 0.0 && args.exposure <= 86_400.0) {
+        crate::usage!(
+            "--exposure {} must be between 0 and 86400 seconds",
+            args.exposure
+        );
+    }
+    if let Some(a) = args.min_alt
+        && !(-90.0..90.0).contains(&a)
+    {
+        crate::usage!("--min-alt {a} is not an altitude");
+    }
+    let row_opts = RowOptions {
+        caps: Capabilities {
+            min_alt_deg: args.min_alt.unwrap_or(site.caps.min_alt_deg),
+            ..site.caps
+        },
+        twilight: args.twilight,
+        exposure_s: args.exposure,
     };
     let site = site.position;
     let time = |flag: &str, v: &str| match UtcTime::parse(v).and_then(|u| u.instant()) {
@@ -221,30 +277,19 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             failed += 1;
             continue;
         }
-        let mags: Vec<_> = t
-            .obs
-            .iter()
-            .filter_map(|o| o.mag.map(|m| (o.time.tdb, m)))
-            .collect();
-        let obs: Vec<_> = t
-            .obs
-            .iter()
-            .filter(|o| o.mag.is_some())
-            .filter_map(|o| model.observer(&o.location, &o.time).ok())
-            .collect();
-        let h = fitted_h(fit, &mags, &obs);
+        let h = tracklet_h(fit, t, &model);
         let mut points = Vec::with_capacity(n);
         for k in 0..n {
             let inst = from.plus_days(k as f64 * step);
             let tt = inst.tt;
-            if let Some(p) = point(
+            if let Some(p) = point_with(
                 fit,
                 &inst,
                 tt_to_utc(tt).to_string(),
                 &site,
                 &model,
                 h,
-                args.min_alt,
+                &row_opts,
             ) {
                 points.push(p);
             } else if uncomputable.len() < 3 {

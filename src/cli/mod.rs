@@ -6,6 +6,8 @@ pub mod ephem;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
+pub mod plan;
+pub mod plantext;
 pub mod watch;
 
 use clap::{Parser, Subcommand};
@@ -46,6 +48,8 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Follow-up ephemeris of fitted tracklets from a site over a time range.
     Ephem(ephem::EphemArgs),
+    /// Tonight's follow-up plan over the candidates at one or more telescopes.
+    Plan(plan::PlanArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
     /// Append test decisions to a journal, acknowledging each once synced (durability tests).

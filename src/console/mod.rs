@@ -4,6 +4,7 @@
 pub mod actions;
 pub mod keymap;
 pub mod panes;
+pub mod plantask;
 pub mod runtime;
 pub mod state;
 pub mod view;

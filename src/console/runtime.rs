@@ -37,6 +37,7 @@ pub enum AppEvent {
     /// A decision saved, or (object, reason) when it could not be.
     Journal(Result<Decision, (String, String)>),
     Ephemeris(String, Vec<EphemerisPoint>),
+    Plan(crate::fitting::plan::Plan),
     Tick,
 }
 
@@ -237,6 +238,10 @@ impl Runtime {
                 app.ephemeris = Some((obj, pts));
                 app.dirty = true;
             }
+            AppEvent::Plan(p) => {
+                app.plan = Some(p);
+                app.dirty = true;
+            }
         }
         true
     }
@@ -263,6 +268,10 @@ impl Runtime {
             Effect::Refit { object, overrides } => {
                 self.overrides.insert(object.clone(), overrides);
                 self.submit(&object);
+            }
+            Effect::Plan => {
+                let fits = app.candidates.iter().map(|c| c.fit.clone()).collect();
+                super::plantask::spawn(fits, self.sites.clone(), self.tx.clone());
             }
             Effect::Ephemeris(object) => {
                 if let Some(c) = app.candidates.iter().find(|c| c.fit.object == object) {

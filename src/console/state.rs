@@ -98,6 +98,7 @@ pub enum Mode {
     Help,
     Rejected,
     Ephemeris,
+    Plan,
 }
 
 /// Feed counters for the status line.
@@ -119,6 +120,8 @@ pub enum Effect {
     },
     Journal(Decision),
     Ephemeris(String),
+    /// Tonight's plan over every candidate.
+    Plan,
     Quit,
 }
 
@@ -140,6 +143,7 @@ pub struct App {
     pub obs_cursor: usize,
     pub overlay_scroll: usize,
     pub ephemeris: Option<(String, Vec<EphemerisPoint>)>,
+    pub plan: Option<crate::fitting::plan::Plan>,
     pub page: usize,
     pub dirty: bool,
     pub clock: fn() -> String,
@@ -168,6 +172,7 @@ impl App {
             obs_cursor: 0,
             overlay_scroll: 0,
             ephemeris: None,
+            plan: None,
             page: 10,
             dirty: true,
             clock: now_utc,
@@ -362,7 +367,7 @@ impl App {
         match self.mode {
             Mode::List => Context::List,
             Mode::Filter | Mode::Note => Context::Input,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris => Context::Overlay,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan => Context::Overlay,
         }
     }
 
@@ -430,7 +435,10 @@ impl App {
     pub fn act(&mut self, a: Action) -> Vec<Effect> {
         let rows = self.view.len();
         let row = self.selected_row().unwrap_or(0);
-        if matches!(self.mode, Mode::Help | Mode::Rejected | Mode::Ephemeris) {
+        if matches!(
+            self.mode,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan
+        ) {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
                 Action::MoveDown => self.overlay_scroll += 1,
@@ -513,6 +521,12 @@ impl App {
                     }
                     return vec![Effect::Ephemeris(o)];
                 }
+            }
+            Action::Plan => {
+                self.mode = Mode::Plan;
+                self.overlay_scroll = 0;
+                self.plan = None;
+                return vec![Effect::Plan];
             }
             Action::RejectedFiles => {
                 self.mode = Mode::Rejected;

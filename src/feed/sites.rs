@@ -3,6 +3,7 @@
 
 use super::InputError;
 use super::sanitize::clean;
+use crate::fitting::conditions::Capabilities;
 use crate::physics::site::GroundPosition;
 use std::collections::HashMap;
 
@@ -11,6 +12,9 @@ pub struct Site {
     pub code: String,
     pub name: String,
     pub position: GroundPosition,
+    /// Altitude limit, limiting magnitude, field of view and astrometric accuracy (defaults where
+    /// the table is silent).
+    pub caps: Capabilities,
 }
 
 #[derive(Debug, Clone, Default)]
@@ -50,6 +54,14 @@ struct SiteEntry {
         alias = "sin_phi"
     )]
     rho_sin_phi: Option<f64>,
+    /// Faintest V in a standard exposure.
+    limiting_mag: Option<f64>,
+    /// Field of view, degrees across.
+    fov_deg: Option<f64>,
+    /// Lowest altitude the telescope points at (degrees).
+    min_alt_deg: Option<f64>,
+    /// One-coordinate accuracy of one position (arcsec).
+    accuracy_arcsec: Option<f64>,
 }
 
 /// The invented demo network (no real site): codes of letter-letter-digit form, which the trade's
@@ -138,12 +150,14 @@ impl SiteTable {
                     format!("{what}: longitude {} is not an angle", s.longitude_deg),
                 ));
             }
+            let caps = capabilities(&s).map_err(|r| err(0, format!("{what}: {r}")))?;
             self.sites.insert(
                 code.clone(),
                 Site {
                     code,
                     name: clean(&s.name),
                     position,
+                    caps,
                 },
             );
             n += 1;
@@ -189,6 +203,7 @@ impl SiteTable {
                                 rho_cos_phi: c,
                                 rho_sin_phi: s,
                             },
+                            caps: Capabilities::default(),
                         },
                     );
                     n += 1;
@@ -209,6 +224,31 @@ impl SiteTable {
         }
         (n, bad)
     }
+}
+
+/// The optional capability fields of a site entry, checked, with defaults for the missing ones.
+fn capabilities(s: &SiteEntry) -> Result<Capabilities, String> {
+    let d = Capabilities::default();
+    let pick = |v: Option<f64>, def: f64, name: &str, ok: &dyn Fn(f64) -> bool| match v {
+        None => Ok(def),
+        Some(x) if x.is_finite() && ok(x) => Ok(x),
+        Some(x) => Err(format!("{name} {x} is out of range")),
+    };
+    Ok(Capabilities {
+        limiting_mag: pick(s.limiting_mag, d.limiting_mag, "limiting_mag", &|x| {
+            (5.0..=30.0).contains(&x)
+        })?,
+        fov_deg: pick(s.fov_deg, d.fov_deg, "fov_deg", &|x| x > 0.0 && x <= 60.0)?,
+        min_alt_deg: pick(s.min_alt_deg, d.min_alt_deg, "min_alt_deg", &|x| {
+            (0.0..90.0).contains(&x)
+        })?,
+        accuracy_arcsec: pick(
+            s.accuracy_arcsec,
+            d.accuracy_arcsec,
+            "accuracy_arcsec",
+            &|x| x > 0.0 && x <= 60.0,
+        )?,
+    })
 }
 
 #[cfg(test)]
@@ -248,6 +288,25 @@ mod tests {
             )
             .unwrap();
         assert_eq!(n, 1);
+    }
+
+    #[test]
+    fn capabilities_default_and_are_checked() {
+        let mut t = SiteTable::default();
+        let base = "[[site]]\ncode = \"AB3\"\nlongitude_deg = 10\nlatitude_deg = 20\n";
+        t.load_toml("s.toml", base).unwrap();
+        assert_eq!(t.get("AB3").unwrap().caps, Capabilities::default());
+        t.load_toml(
+            "s.toml",
+            &format!("{base}limiting_mag = 23.0\nfov_deg = 0.25\n"),
+        )
+        .unwrap();
+        let caps = t.get("AB3").unwrap().caps;
+        assert_eq!((caps.limiting_mag, caps.fov_deg), (23.0, 0.25));
+        let e = t
+            .load_toml("s.toml", &format!("{base}fov_deg = -1\n"))
+            .unwrap_err();
+        assert!(e.reason.contains("fov_deg"), "{e}");
     }
 
     #[test]

@@ -3,6 +3,7 @@
 
 use super::fit::{FitOptions, FitResult, fit_tracklet};
 use super::input::Tracklet;
+use super::nextnight::next_night;
 use crate::physics::observe::ObserverModel;
 use std::sync::Mutex;
 use std::sync::atomic::{AtomicUsize, Ordering};
@@ -20,6 +21,7 @@ pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> V
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     let Some(t) = tracklets.get(i) else { break };
                     let mut r = fit_tracklet(t, &model, opts);
+                    r.next_night = next_night(&r, t, &model);
                     if !opts.keep_samples {
                         r.samples = Vec::new();
                     }
@@ -90,7 +92,8 @@ impl FitPool {
                             }
                         };
                         let (obj, (version, tracklet, opts)) = job;
-                        let r = fit_tracklet(&tracklet, &model, &opts);
+                        let mut r = fit_tracklet(&tracklet, &model, &opts);
+                        r.next_night = next_night(&r, &tracklet, &model);
                         if let Ok(mut st) = shared.0.lock() {
                             st.running -= 1;
                         }

@@ -3,6 +3,7 @@
 //! onto the sky (Γ_sky = A Γ Aᵀ); sampled fits propagate every weighted orbit and describe the cloud by
 //! weighted quantiles along its principal axes, so a curved cloud is not squeezed into an ellipse.
 
+use super::conditions::{Capabilities, RowOptions, SkyFields, SkySlot, sky_fields};
 use super::fit::FitResult;
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::stats::weighted_quantile;
@@ -15,7 +16,8 @@ use crate::physics::{M6, S6, V3};
 
 /// Default lowest altitude for "observable" (degrees; common practice, no source).
 pub const DEFAULT_MIN_ALT_DEG: f64 = 20.0;
-/// The Sun must be below this altitude (degrees): nautical twilight has ended.
+/// The Sun must be below this altitude (degrees) by default: nautical twilight has ended (see
+/// [`crate::physics::sky::Twilight`] for the other choices).
 pub const SUN_MAX_ALT_DEG: f64 = -12.0;
 /// Closer than this to the Sun (degrees) a caution is raised (a common solar-avoidance scale, no source).
 pub const SUN_CAUTION_ELONG_DEG: f64 = 45.0;
@@ -52,6 +54,9 @@ pub struct EphemerisPoint {
     pub unc_from: &'static str,
     pub observable: bool,
     pub sun_caution: bool,
+    /// Sexagesimal position, airmass, the Moon, brightness against the site and trail length.
+    #[serde(flatten)]
+    pub sky: SkyFields,
 }
 
 /// H–G phase function (Bowell et al. 1989, Asteroids II, 524): 2.5 log₁₀[(1 − G)Φ₁ + GΦ₂] term.
@@ -123,7 +128,25 @@ pub fn fitted_h(fit: &FitResult, mags: &[(Jd2, f64)], obs: &[ObserverState]) -> 
     Some(hs[hs.len() / 2])
 }
 
-fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
+/// Absolute magnitude of a fit from the magnitudes in its tracklet ([`fitted_h`]).
+pub fn tracklet_h(
+    fit: &FitResult,
+    tr: &super::input::Tracklet,
+    model: &ObserverModel,
+) -> Option<f64> {
+    let with_mag: Vec<_> = tr.obs.iter().filter(|o| o.mag.is_some()).collect();
+    let mut mags = Vec::with_capacity(with_mag.len());
+    let mut obs = Vec::with_capacity(with_mag.len());
+    for o in with_mag {
+        if let (Some(m), Ok(st)) = (o.mag, model.observer(&o.location, &o.time)) {
+            mags.push((o.time.tdb, m));
+            obs.push(st);
+        }
+    }
+    fitted_h(fit, &mags, &obs)
+}
+
+pub(crate) fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
     let s = fit.state?;
     let epoch = Jd2::new(fit.epoch_jd_tdb?, 0.0);
     let d: Box<dyn Dynamics> = if fit.dynamics == "sun-planets-moon" {
@@ -134,7 +157,8 @@ fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
     Some((S6::from_column_slice(&s), epoch, d))
 }
 
-/// The ephemeris of one fit at one instant from one site.
+/// The ephemeris of one fit at one instant from one site, with the default sky options and the
+/// given altitude limit.
 pub fn point(
     fit: &FitResult,
     inst: &Instant,
@@ -143,6 +167,27 @@ pub fn point(
     model: &ObserverModel,
     h: Option<f64>,
     min_alt_deg: f64,
+) -> Option<EphemerisPoint> {
+    let opts = RowOptions {
+        caps: Capabilities {
+            min_alt_deg,
+            ..Capabilities::default()
+        },
+        ..RowOptions::default()
+    };
+    point_with(fit, inst, time_utc, site, model, h, &opts)
+}
+
+/// The ephemeris of one fit at one instant from one site, against the site's capabilities, the
+/// twilight and the exposure of `opts`.
+pub fn point_with(
+    fit: &FitResult,
+    inst: &Instant,
+    time_utc: String,
+    site: &GroundPosition,
+    model: &ObserverModel,
+    h: Option<f64>,
+    opts: &RowOptions,
 ) -> Option<EphemerisPoint> {
     let (x, epoch, dyn_) = fit_state(fit)?;
     let loc = ObserverLocation::Ground(*site);
@@ -165,22 +210,24 @@ pub fn point(
         let (a, b, c) = sample_region(fit, dyn_.as_ref(), inst, &obs, p.ra, p.dec)?;
         (Some(a), Some(b), Some(c), "samples")
     } else if let Some(cov) = fit.covariance.as_ref() {
-        let g = M6::from_fn(|i, j| cov[i][j]);
-        let sky = jac * g * jac.transpose();
-        let eig = sky.symmetric_eigen();
-        let (k_major, k_minor) = if eig.eigenvalues[0] >= eig.eigenvalues[1] {
-            (0, 1)
-        } else {
-            (1, 0)
-        };
-        let u = eig.eigenvectors.column(k_major);
-        let pa = u[0].atan2(u[1]).rem_euclid(std::f64::consts::PI) / DEG;
-        let s = |k: usize| REGION_SIGMA * eig.eigenvalues[k].max(0.0).sqrt() / ARCSEC;
-        (Some(s(k_major)), Some(s(k_minor)), Some(pa), "covariance")
+        let (a, b, c) = covariance_region(cov, &jac);
+        (Some(a), Some(b), Some(c), "covariance")
     } else {
         (None, None, None, "none")
     };
     let v = h.map(|h| hg_magnitude(h, SLOPE_G, r, delta, beta));
+    let slot = SkySlot::new(site, inst, model).ok()?;
+    let dir = p.topo.normalize();
+    let rate = rate_e.hypot(rate_n);
+    let sky = sky_fields(
+        &slot,
+        &dir,
+        (p.ra / DEG, p.dec / DEG),
+        alt / DEG,
+        rate,
+        v,
+        opts,
+    );
     Some(EphemerisPoint {
         object: fit.object.clone(),
         time_utc,
@@ -201,9 +248,28 @@ pub fn point(
         unc_minor_arcsec: minor,
         unc_pa_deg: pa,
         unc_from: from,
-        observable: sun_alt / DEG < SUN_MAX_ALT_DEG && alt / DEG > min_alt_deg,
+        observable: sun_alt / DEG < opts.twilight.sun_limit_deg()
+            && alt / DEG > opts.caps.min_alt_deg,
         sun_caution: elong < SUN_CAUTION_ELONG_DEG,
+        sky,
     })
+}
+
+/// 3σ semi-axes (arcsec) and position angle (degrees, north through east) of the sky ellipse of a
+/// state covariance under the partials `jac`.
+fn covariance_region(cov: &[[f64; 6]], jac: &nalgebra::Matrix2x6<f64>) -> (f64, f64, f64) {
+    let g = M6::from_fn(|i, j| cov[i][j]);
+    let sky = jac * g * jac.transpose();
+    let eig = sky.symmetric_eigen();
+    let (k_major, k_minor) = if eig.eigenvalues[0] >= eig.eigenvalues[1] {
+        (0, 1)
+    } else {
+        (1, 0)
+    };
+    let u = eig.eigenvectors.column(k_major);
+    let pa = u[0].atan2(u[1]).rem_euclid(std::f64::consts::PI) / DEG;
+    let s = |k: usize| REGION_SIGMA * eig.eigenvalues[k].max(0.0).sqrt() / ARCSEC;
+    (s(k_major), s(k_minor), pa)
 }
 
 /// Extents of the propagated sample cloud: principal direction from the weighted scatter, then the

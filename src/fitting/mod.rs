@@ -2,15 +2,20 @@
 //! hyperbolicity score. Depends on the physics layer only; no I/O.
 
 pub mod batch;
+pub mod conditions;
 pub mod covariance;
 pub mod ephemeris;
 pub mod fit;
+pub mod followup;
 pub mod gauss;
 pub mod input;
 pub mod linear;
 pub mod lsq;
+pub mod nextnight;
 pub mod onenight;
 pub mod perturb;
+pub mod plan;
+pub mod planeval;
 pub mod population;
 pub mod posterior;
 pub mod profile;

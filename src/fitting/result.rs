@@ -3,6 +3,7 @@
 
 use super::covariance::ElementSigmas;
 use super::input::Tracklet;
+use super::nextnight::NextNight;
 use super::posterior::Posterior;
 use super::quality::NightMean;
 use super::significance::Incoming;
@@ -143,6 +144,8 @@ pub struct FitResult {
     /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
     pub state: Option<[f64; 6]>,
     pub covariance: Option<Vec<[f64; 6]>>,
+    /// What one more night from the last site is expected to buy (open candidates of 2+ nights).
+    pub next_night: Option<NextNight>,
     /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
     #[serde(skip)]
     pub samples: Vec<([f64; 6], f64, f64)>,
@@ -198,6 +201,7 @@ impl FitResult {
             residuals: Vec::new(),
             state: None,
             covariance: None,
+            next_night: None,
             samples: Vec::new(),
         }
     }

@@ -7,7 +7,9 @@ pub mod elements;
 pub mod frames;
 pub mod observe;
 pub mod propagate;
+pub mod sexagesimal;
 pub mod site;
+pub mod sky;
 pub mod stumpff;
 pub mod time;
 

@@ -144,6 +144,11 @@ impl ObserverModel {
         Ok((earth, a.c2i * (1.0 - s) + b.c2i * s))
     }
 
+    /// The celestial-to-intermediate matrix at an instant, interpolated like the observer.
+    pub fn orientation(&self, tdb: Jd2) -> Result<M3, EphemerisError> {
+        Ok(self.interpolate(tdb)?.1)
+    }
+
     /// The observer at an instant.
     pub fn observer(
         &self,

@@ -120,6 +120,7 @@ pub fn lines(app: &App) -> Vec<Line<'static>> {
             clean(&f.poor_fit.join("; "))
         ))));
     }
+    out.extend(super::nextnight::line(f));
     if let Some(d) = &c.decision {
         let fewer = if d.n_obs < f.n_obs {
             format!(" — decided on {} of {} observations", d.n_obs, f.n_obs)

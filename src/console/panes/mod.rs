@@ -1,7 +1,9 @@
 //! The panes of the console, each drawn from state only (no I/O, no fitting in here).
 
 pub mod elements;
+pub mod nextnight;
 pub mod overlay;
+pub mod planview;
 pub mod residuals;
 pub mod status;
 pub mod table;

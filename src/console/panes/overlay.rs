@@ -1,5 +1,5 @@
 //! Panels drawn over the main screen: help (generated from the active keymap), rejected files and lines,
-//! the follow-up ephemeris, and the one-line prompt for a filter or a note.
+//! the follow-up ephemeris and plan, and the one-line prompt for a filter or a note.
 
 use super::{Theme, num};
 use crate::console::state::{App, Mode};
@@ -108,6 +108,19 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
                 }
             };
             panel(f, area, " follow-up ephemeris ", lines, app.overlay_scroll)
+        }
+        Mode::Plan => {
+            let lines = match &app.plan {
+                None => vec!["planning…".to_string()],
+                Some(p) => super::planview::lines(p),
+            };
+            panel(
+                f,
+                area,
+                " follow-up plan, next 24 h ",
+                lines,
+                app.overlay_scroll,
+            )
         }
         Mode::Filter | Mode::Note => {
             let r = Rect::new(

@@ -1,0 +1,212 @@
+//! What one more observation is worth: a fitted orbit prepared for many cheap predictions within a day
+//! or so of a reference time ([`Predictor`]), and the Fisher update of its covariance by simulated
+//! positions ([`Gain`]): how much σ(1/a) and σ(e) shrink, and how far P(unbound) is expected to move.
+//!
+//! The expected change of P uses a Gaussian in barycentric 1/a: now N(μ, σ₀²); after the positions,
+//! σ₁ < σ₀, and before they are taken the new best value is itself drawn from N(μ, σ₀² − σ₁²). The
+//! data-only probability Φ(−μ/σ) is what moves; the population prior is not re-weighed here.
+
+use super::covariance::{eccentricity_gradient, inverse_a_gradient};
+use super::ephemeris::fit_state;
+use super::fit::FitResult;
+use super::significance::{MU_BARY, barycentric_with};
+use super::stats::normal_cdf;
+use crate::physics::constants::{ARCSEC, MU_SUN};
+use crate::physics::observe::{ObserverModel, ObserverState, Prediction, project};
+use crate::physics::propagate::propagate_with_stm;
+use crate::physics::time::Jd2;
+use crate::physics::{M6, S6, V3, split_state};
+use nalgebra::{Matrix2, Matrix2x6, RowVector6};
+
+/// A fitted orbit with its covariance, ready for predictions near `t_ref`.
+#[derive(Debug, Clone)]
+pub struct Predictor {
+    t_ref: Jd2,
+    r: V3,
+    v: V3,
+    /// ∂x(t_ref)/∂x(epoch).
+    phi: M6,
+    /// Covariance of the state at the epoch.
+    pub cov: M6,
+    /// Gradients of barycentric 1/a and of heliocentric e with respect to the state at the epoch.
+    pub g_inv_a: RowVector6<f64>,
+    pub g_e: RowVector6<f64>,
+    /// Barycentric 1/a (per AU).
+    pub inv_a: f64,
+}
+
+/// Covariance of a sampled answer: the weighted scatter of its orbits, each carried to the epoch.
+fn sample_covariance(fit: &FitResult, epoch: Jd2) -> Option<M6> {
+    let mut xs = Vec::with_capacity(fit.samples.len());
+    let mut ws = Vec::with_capacity(fit.samples.len());
+    for (s, ep, w) in &fit.samples {
+        let x = S6::from_column_slice(s);
+        let (r, v) = split_state(&x);
+        let (r, v, _) = propagate_with_stm(&r, &v, epoch.minus(Jd2::new(*ep, 0.0)), MU_SUN).ok()?;
+        xs.push(S6::new(r.x, r.y, r.z, v.x, v.y, v.z));
+        ws.push(*w);
+    }
+    let total: f64 = ws.iter().sum();
+    if xs.len() < 7 || total <= 0.0 {
+        return None;
+    }
+    let mean = xs.iter().zip(&ws).map(|(x, w)| x * *w).sum::<S6>() / total;
+    let cov = xs
+        .iter()
+        .zip(&ws)
+        .map(|(x, w)| (x - mean) * (x - mean).transpose() * *w)
+        .sum::<M6>()
+        / total;
+    Some(cov)
+}
+
+impl Predictor {
+    /// Prepare a fit for predictions near `t_ref` (TDB). The uncertainty is its least-squares
+    /// covariance (what the positions alone say, so that new positions add to it as information),
+    /// or the scatter of its sampled orbits when it has none (one night). `None` without a state or
+    /// either.
+    pub fn new(fit: &FitResult, t_ref: Jd2, model: &ObserverModel) -> Option<Predictor> {
+        let (x, epoch, dynamics) = fit_state(fit)?;
+        let cov = match &fit.covariance {
+            Some(c) if c.len() == 6 => M6::from_fn(|i, j| c[i][j]),
+            _ => sample_covariance(fit, epoch)?,
+        };
+        let (r, v, phi) = dynamics.state_and_stm(&x, epoch, t_ref).ok()?;
+        let earth = model.earth(epoch).ok()?;
+        let xb = barycentric_with(&x, &earth);
+        let (rb, vb) = split_state(&xb);
+        let (rh, vh) = split_state(&x);
+        Some(Predictor {
+            t_ref,
+            r,
+            v,
+            phi,
+            cov,
+            g_inv_a: inverse_a_gradient(&rb, &vb, MU_BARY),
+            g_e: eccentricity_gradient(&rh, &vh, MU_SUN),
+            inv_a: 2.0 / rb.norm() - vb.norm_squared() / MU_BARY,
+        })
+    }
+
+    /// Where the object appears from `obs` at `t` (TDB), and ∂(RA·cos Dec, Dec)/∂x(epoch). Two-body
+    /// motion from `t_ref` (ample for planning within a day or two).
+    pub fn at(&self, t: Jd2, obs: &ObserverState) -> Option<(Prediction, Matrix2x6<f64>)> {
+        let (r, v, phi) = propagate_with_stm(&self.r, &self.v, t.minus(self.t_ref), MU_SUN).ok()?;
+        Some(project((r, v, phi * self.phi), obs, MU_SUN))
+    }
+
+    /// 1σ of a linear function of the epoch state under the current covariance.
+    pub fn sigma(&self, g: &RowVector6<f64>) -> f64 {
+        (g * self.cov * g.transpose())[0].max(0.0).sqrt()
+    }
+
+    /// The sky-plane covariance (radians²) of a prediction's partials.
+    pub fn sky_covariance(&self, jac: &Matrix2x6<f64>) -> Matrix2<f64> {
+        jac * self.cov * jac.transpose()
+    }
+}
+
+/// What a set of positions buys.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Gain {
+    pub inv_a_sigma_now: f64,
+    pub inv_a_sigma_after: f64,
+    pub e_sigma_now: f64,
+    pub e_sigma_after: f64,
+    /// Expected |ΔP| of the data-only P(unbound) (module notes).
+    pub expected_dp: f64,
+    /// Data-only P(unbound) now and, if the best value stays where it is, after.
+    pub p_data_now: f64,
+    pub p_data_after: f64,
+}
+
+/// Fisher update of the predictor's covariance by positions with partials `jacs`, each with a
+/// one-coordinate accuracy of `sigma_arcsec` (a sequence of rank-2 updates, kept symmetric).
+pub fn gain(pred: &Predictor, jacs: &[Matrix2x6<f64>], sigma_arcsec: f64) -> Option<Gain> {
+    let r = Matrix2::identity() * (sigma_arcsec * ARCSEC).powi(2);
+    let mut cov = pred.cov;
+    for j in jacs {
+        let s = j * cov * j.transpose() + r;
+        let k = cov * j.transpose() * s.try_inverse()?;
+        cov -= k * j * cov;
+        cov = (cov + cov.transpose()) * 0.5;
+    }
+    let sig = |g: &RowVector6<f64>, c: &M6| (g * c * g.transpose())[0].max(0.0).sqrt();
+    let (s0, s1) = (pred.sigma(&pred.g_inv_a), sig(&pred.g_inv_a, &cov));
+    Some(Gain {
+        inv_a_sigma_now: s0,
+        inv_a_sigma_after: s1.min(s0),
+        e_sigma_now: pred.sigma(&pred.g_e),
+        e_sigma_after: sig(&pred.g_e, &cov),
+        expected_dp: expected_change(pred.inv_a, s0, s1.min(s0)),
+        p_data_now: p_unbound(pred.inv_a, s0),
+        p_data_after: p_unbound(pred.inv_a, s1),
+    })
+}
+
+/// Φ(−μ/σ): the Gaussian mass of 1/a below zero.
+pub fn p_unbound(mu: f64, sigma: f64) -> f64 {
+    if sigma > 0.0 {
+        normal_cdf(-mu / sigma)
+    } else if mu < 0.0 {
+        1.0
+    } else {
+        0.0
+    }
+}
+
+/// E|Φ(−m/σ₁) − Φ(−μ/σ₀)| with m ~ N(μ, σ₀² − σ₁²), by the trapezoid rule over ±6 standard deviations.
+pub fn expected_change(mu: f64, s0: f64, s1: f64) -> f64 {
+    expected_change_from(None, mu, s0, s1)
+}
+
+fn logit(p: f64) -> f64 {
+    let p = p.clamp(1e-300, 1.0 - 1e-16);
+    p.ln() - (1.0 - p).ln()
+}
+
+/// The reported posterior P moved by the change of the data's own Gaussian odds: the posterior log
+/// odds shift by logit P_data(after) − logit P_data(now).
+pub fn moved_posterior(p_post: f64, data_now: f64, data_after: f64) -> f64 {
+    let l = logit(p_post) + logit(data_after) - logit(data_now);
+    1.0 / (1.0 + (-l).exp())
+}
+
+/// Expected |ΔP| of one update: of the data-only P (`p_post` None), or of a posterior P moved by the
+/// data's odds ([`moved_posterior`]), so that a P the prior pins near 0 or 1 barely moves.
+pub fn expected_change_from(p_post: Option<f64>, mu: f64, s0: f64, s1: f64) -> f64 {
+    let d0 = p_unbound(mu, s0);
+    let p0 = p_post.unwrap_or(d0);
+    let tau = (s0 * s0 - s1 * s1).max(0.0).sqrt();
+    // An even count keeps z = 0 off the nodes (a perfectly sharp update is discontinuous there).
+    const N: usize = 96;
+    let (mut acc, mut norm) = (0.0, 0.0);
+    for k in 0..N {
+        let z = -6.0 + 12.0 * k as f64 / (N - 1) as f64;
+        let w = (-0.5 * z * z).exp() * if k == 0 || k == N - 1 { 0.5 } else { 1.0 };
+        let d1 = p_unbound(mu + tau * z, s1);
+        let p1 = p_post.map_or(d1, |p| moved_posterior(p, d0, d1));
+        acc += w * (p1 - p0).abs();
+        norm += w;
+    }
+    acc / norm
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nothing_learned_moves_nothing_and_a_sharp_answer_moves_p_to_an_end() {
+        assert!(expected_change(0.001, 0.01, 0.01) < 1e-12);
+        // P now is Φ(0) = 0.5; a perfect measurement sends it to 0 or 1: |ΔP| = 0.5 on average.
+        let full = expected_change(0.0, 0.01, 1e-9);
+        assert!((full - 0.5).abs() < 0.01, "{full}");
+        let half = expected_change(0.0, 0.01, 0.005);
+        assert!(half > 0.05 && half < full, "{half}");
+        // A posterior the prior pins near zero moves far less on the same data.
+        let pinned = expected_change_from(Some(1e-6), 0.0, 0.01, 0.005);
+        assert!(pinned > 0.0 && pinned < 0.1 * half, "{pinned} vs {half}");
+        assert!((moved_posterior(0.3, 0.5, 0.5) - 0.3).abs() < 1e-12);
+    }
+}

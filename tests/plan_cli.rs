@@ -1,0 +1,199 @@
+//! `interloper plan` and the new `ephem` options from the outside: usage mistakes exit 2, the JSON plan
+//! carries its documented fields, and `ephem --json` keeps its old fields beside the sky conditions.
+
+use serde_json::Value;
+use std::process::Command;
+
+fn run(args: &[&str]) -> (Option<i32>, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn synthetic(name: &str) -> String {
+    format!(
+        "{}/tests/reference/data/synthetic/{name}",
+        env!("CARGO_MANIFEST_DIR")
+    )
+}
+
+#[test]
+fn plan_usage_mistakes_exit_2() {
+    let f = synthetic("comet_like_2n.psv");
+    for args in [
+        vec!["plan", "--site", "TV9", "--night", "2026-11-28", &f],
+        vec!["plan", "--site", "TV2", &f],
+        vec!["plan", "--site", "TV2", "--night", "2026-13-01", &f],
+        vec![
+            "plan",
+            "--site",
+            "TV2",
+            "--night",
+            "2026-11-28",
+            "--twilight",
+            "dusk",
+            &f,
+        ],
+        vec![
+            "plan",
+            "--site",
+            "TV2",
+            "--night",
+            "2026-11-28",
+            "--step",
+            "5h",
+            &f,
+        ],
+    ] {
+        let (code, _, err) = run(&args);
+        assert_eq!(code, Some(2), "{args:?}: {err}");
+        assert!(!err.is_empty());
+    }
+}
+
+#[test]
+fn the_json_plan_has_its_documented_fields() {
+    let f = synthetic("comet_like_2n.psv");
+    let g = synthetic("mainbelt_1n.psv");
+    let (code, out, err) = run(&[
+        "plan",
+        "--site",
+        "TV2",
+        "--night",
+        "2026-11-28",
+        "--json",
+        &f,
+        &g,
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    let v: Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["twilight"], "nautical");
+    for k in [
+        "site",
+        "dark_from_utc",
+        "dark_to_utc",
+        "dark_hours",
+        "min_alt_deg",
+        "fov_deg",
+        "limiting_mag",
+    ] {
+        assert!(v["sites"][0].get(k).is_some(), "sites.{k}");
+    }
+    let items = v["items"].as_array().unwrap();
+    assert_eq!(items.len() + v["unplanned"].as_array().unwrap().len(), 2);
+    for i in items {
+        for k in [
+            "object",
+            "site",
+            "start_utc",
+            "end_utc",
+            "duration_min",
+            "ra_deg",
+            "dec_deg",
+            "ra_hms",
+            "dec_dms",
+            "rate_arcsec_min",
+            "v_mag",
+            "alt_deg",
+            "airmass",
+            "moon_sep_deg",
+            "moon_illum",
+            "sun_alt_deg",
+            "elong_deg",
+            "region_major_arcsec",
+            "region_minor_arcsec",
+            "fov_deg",
+            "region_exceeds_fov",
+            "pointings",
+            "p_hyperbolic",
+            "expected_change",
+            "inv_a_sigma_now",
+            "inv_a_sigma_after",
+            "priority",
+            "cautions",
+        ] {
+            assert!(i.get(k).is_some(), "items.{k}");
+        }
+        assert!(i["alt_deg"].as_f64().unwrap() >= 20.0);
+    }
+}
+
+#[test]
+fn ephem_json_keeps_its_fields_and_adds_the_sky() {
+    let f = synthetic("comet_like_2n.psv");
+    let (code, out, err) = run(&[
+        "ephem",
+        "--site",
+        "TV2",
+        "--from",
+        "2026-11-29T00:00:00Z",
+        "--to",
+        "2026-11-29T12:00:00Z",
+        "--step",
+        "6h",
+        "--json",
+        "--exposure",
+        "120",
+        "--twilight",
+        "astronomical",
+        &f,
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    for line in out.lines() {
+        let v: Value = serde_json::from_str(line).unwrap();
+        for k in [
+            "object",
+            "time_utc",
+            "ra_deg",
+            "dec_deg",
+            "ra_rate_arcsec_min",
+            "dec_rate_arcsec_min",
+            "alt_deg",
+            "elong_deg",
+            "v_mag",
+            "unc_major_arcsec",
+            "observable",
+            "sun_caution",
+            "moon_sep_deg",
+            "moon_illum",
+            "airmass",
+            "ra_hms",
+            "dec_dms",
+            "trail_arcsec",
+            "limiting_mag",
+            "bright_enough",
+        ] {
+            assert!(v.get(k).is_some(), "{k}");
+        }
+        let alt = v["alt_deg"].as_f64().unwrap();
+        assert_eq!(v["airmass"].is_null(), alt <= 0.0, "{alt}");
+        let rate = v["ra_rate_arcsec_min"]
+            .as_f64()
+            .unwrap()
+            .hypot(v["dec_rate_arcsec_min"].as_f64().unwrap());
+        assert!((v["trail_arcsec"].as_f64().unwrap() - 2.0 * rate).abs() < 1e-9);
+        assert_eq!(v["twilight"], "astronomical");
+        if v["observable"].as_bool().unwrap() {
+            assert!(v["sun_alt_deg"].as_f64().unwrap() < -18.0);
+        }
+    }
+    let (code, _, _) = run(&[
+        "ephem",
+        "--site",
+        "TV2",
+        "--from",
+        "2026-11-29T00:00:00Z",
+        "--to",
+        "2026-11-29T12:00:00Z",
+        "--exposure",
+        "-5",
+        &f,
+    ]);
+    assert_eq!(code, Some(2));
+}
