@@ -54,8 +54,13 @@ pub enum Perturb {
 
 impl FitArgs {
     pub fn options(&self) -> anyhow::Result<FitOptions> {
+        let population = self.population.load()?;
         let mut o = FitOptions {
-            population: self.population.load()?,
+            // The origin sheet is part of the JSON record only (the table has no room for it).
+            origin: self
+                .json
+                .then(|| interloper::fitting::origin::OriginOptions::for_model(&population)),
+            population,
             method: match self.method {
                 Method::Auto => MethodChoice::Auto,
                 Method::Ranging => MethodChoice::Ranging,
@@ -81,7 +86,12 @@ pub fn fit_all_default(
     tracklets: Vec<interloper::fitting::input::Tracklet>,
 ) -> Vec<interloper::fitting::fit::FitResult> {
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
-    fit_all(tracklets, &FitOptions::default(), threads)
+    // Ephemerides need no origin sheet.
+    let opts = FitOptions {
+        origin: None,
+        ..FitOptions::default()
+    };
+    fit_all(tracklets, &opts, threads)
 }
 
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {

@@ -6,6 +6,7 @@ pub mod ephem;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
+pub mod origin;
 pub mod watch;
 
 use clap::{Parser, Subcommand};
@@ -46,6 +47,8 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Follow-up ephemeris of fitted tracklets from a site over a time range.
     Ephem(ephem::EphemArgs),
+    /// Fit the given tracklets and print where each unbound candidate comes from.
+    Origin(origin::OriginArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
     /// Append test decisions to a journal, acknowledging each once synced (durability tests).

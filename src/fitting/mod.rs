@@ -10,6 +10,7 @@ pub mod input;
 pub mod linear;
 pub mod lsq;
 pub mod onenight;
+pub mod origin;
 pub mod perturb;
 pub mod population;
 pub mod posterior;

@@ -137,6 +137,8 @@ pub struct FitResult {
     /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
     pub state: Option<[f64; 6]>,
     pub covariance: Option<Vec<[f64; 6]>>,
+    /// Where an unbound candidate comes from (P(unbound) ≥ 0.01 only).
+    pub origin: Option<Box<super::origin::Origin>>,
     /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
     #[serde(skip)]
     pub samples: Vec<([f64; 6], f64, f64)>,
@@ -192,6 +194,7 @@ impl FitResult {
             residuals: Vec::new(),
             state: None,
             covariance: None,
+            origin: None,
             samples: Vec::new(),
         }
     }
