@@ -28,6 +28,7 @@ pub enum Action {
     ForceRanging,
     ForcePerturbations,
     Ephemeris,
+    Origin,
     RejectedFiles,
     Help,
     Quit,
@@ -36,7 +37,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 27] = [
+    pub const ALL: [Action; 28] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -59,6 +60,7 @@ impl Action {
         Action::ForceRanging,
         Action::ForcePerturbations,
         Action::Ephemeris,
+        Action::Origin,
         Action::RejectedFiles,
         Action::Help,
         Action::Quit,
@@ -90,6 +92,7 @@ impl Action {
             Action::ForceRanging => "force-ranging",
             Action::ForcePerturbations => "force-perturbations",
             Action::Ephemeris => "ephemeris",
+            Action::Origin => "origin",
             Action::RejectedFiles => "rejected-files",
             Action::Help => "help",
             Action::Quit => "quit",
@@ -124,6 +127,9 @@ impl Action {
                 "refit with planetary perturbations (or back to automatic)"
             }
             Action::Ephemeris => "follow-up ephemeris for the next 24 hours",
+            Action::Origin => {
+                "where an unbound candidate comes from: original orbit, arrival, Galactic orbit"
+            }
             Action::RejectedFiles => "list rejected files and lines",
             Action::Help => "this help",
             Action::Quit => "quit (decisions are already saved)",

@@ -98,6 +98,7 @@ pub enum Mode {
     Help,
     Rejected,
     Ephemeris,
+    Origin,
 }
 
 /// Feed counters for the status line.
@@ -362,7 +363,7 @@ impl App {
         match self.mode {
             Mode::List => Context::List,
             Mode::Filter | Mode::Note => Context::Input,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris => Context::Overlay,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Origin => Context::Overlay,
         }
     }
 
@@ -430,7 +431,10 @@ impl App {
     pub fn act(&mut self, a: Action) -> Vec<Effect> {
         let rows = self.view.len();
         let row = self.selected_row().unwrap_or(0);
-        if matches!(self.mode, Mode::Help | Mode::Rejected | Mode::Ephemeris) {
+        if matches!(
+            self.mode,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Origin
+        ) {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
                 Action::MoveDown => self.overlay_scroll += 1,
@@ -514,6 +518,17 @@ impl App {
                     return vec![Effect::Ephemeris(o)];
                 }
             }
+            Action::Origin => match self.selected_candidate() {
+                Some(c) if c.fit.origin.is_some() => {
+                    self.mode = Mode::Origin;
+                    self.overlay_scroll = 0;
+                }
+                Some(_) => {
+                    self.message =
+                        Some("no origin sheet: P(unbound) is below 0.01 or not known yet".into())
+                }
+                None => {}
+            },
             Action::RejectedFiles => {
                 self.mode = Mode::Rejected;
                 self.overlay_scroll = 0;

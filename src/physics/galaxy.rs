@@ -190,7 +190,10 @@ pub struct Envelope {
 /// Distance from the centre (kpc) at which an orbit is taken to have left the Galaxy.
 pub const ESCAPE_KPC: f64 = 200.0;
 
-/// Steps kept of a traced orbit for drawing: (R, z) in kpc.
+/// Points drawn per integration step of a traced orbit.
+const TRACE_PER_STEP: usize = 6;
+
+/// Points of a traced orbit for drawing: (R, z) in kpc.
 pub type Trace = Vec<(f64, f64)>;
 
 /// Integrate an orbit from a galactocentric state (kpc, km/s) for `gyr` gigayears and return its
@@ -225,8 +228,11 @@ pub fn orbit_envelope(
     };
     integrate(f, 0.0, y0, 1.0, &tol, |s| {
         if let Some(tr) = trace.as_deref_mut() {
-            let (x, y, z) = (s.y1[0], s.y1[1], s.y1[2]);
-            tr.push((x.hypot(y) * MODEL_R0_KPC, z * MODEL_R0_KPC));
+            // Steps are long (a tenth of an orbit or so): draw through them on the interpolant.
+            for k in 1..=TRACE_PER_STEP {
+                let y = s.at(s.t0 + (s.t1 - s.t0) * k as f64 / TRACE_PER_STEP as f64);
+                tr.push((y[0].hypot(y[1]) * MODEL_R0_KPC, y[2] * MODEL_R0_KPC));
+            }
         }
         r_min = r_min.min(r_of(&s.y1));
         r_max = r_max.max(r_of(&s.y1));

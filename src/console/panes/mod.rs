@@ -1,6 +1,7 @@
 //! The panes of the console, each drawn from state only (no I/O, no fitting in here).
 
 pub mod elements;
+pub mod origin;
 pub mod overlay;
 pub mod residuals;
 pub mod status;
