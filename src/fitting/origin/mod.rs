@@ -2,9 +2,10 @@
 //! planets), its arrival (radiant, v∞, Galactic velocity), which stars move like it, and its orbit in
 //! the Galaxy, each with its spread over the fit's orbit samples.
 //!
-//! Values are those of the fitted orbit; σ are the spreads of the orbit samples (the fit's posterior
-//! samples where it kept them, draws from the covariance otherwise). Membership is averaged over the
-//! samples that arrive from interstellar space.
+//! Values are those of the fitted orbit (the arrival of the samples' mean velocity when the fitted
+//! orbit itself is bound before the planets); σ are the spreads of the orbit samples (the fit's
+//! posterior samples where it kept them, draws from the covariance otherwise). Membership is averaged
+//! over the samples that arrive from interstellar space.
 
 pub mod flight;
 pub mod kinematics;

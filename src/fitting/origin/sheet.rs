@@ -6,7 +6,7 @@ use super::{MAX_SAMPLES, MIN_PROBABILITY, OriginOptions};
 use crate::fitting::ranging::SplitMix;
 use crate::fitting::result::{FitResult, resample};
 use crate::fitting::significance::{Incoming, incoming};
-use crate::physics::frames::{equatorial_to_galactic, unit_from_radec};
+use crate::physics::frames::{equatorial_to_galactic, radec_from_vector, unit_from_radec};
 use crate::physics::galaxy::{Envelope, POTENTIAL_NAME, Trace, orbit_envelope};
 use crate::physics::{M6, S6, V3};
 
@@ -222,7 +222,7 @@ fn fill_arrival(sheet: &mut Origin, nominal: &Flown, set: &[Flown], o: &OriginOp
         .iter()
         .filter_map(|f| f.arrival.map(|a| (a, f.weight)))
         .collect();
-    let Some(centre) = nominal.arrival.or_else(|| arrivals.first().map(|a| a.0)) else {
+    let Some(centre) = nominal.arrival.or_else(|| mean_arrival(&arrivals)) else {
         return;
     };
     let w: Vec<f64> = arrivals.iter().map(|a| a.1).collect();
@@ -268,6 +268,31 @@ fn fill_arrival(sheet: &mut Origin, nominal: &Flown, set: &[Flown], o: &OriginOp
     let (orbit, path) = galactic_orbit(&centre, &arrivals, o);
     sheet.galactic_orbit = orbit;
     sheet.path = path;
+}
+
+/// The arrival of the samples' mean Galactic velocity (when the fitted orbit itself is bound before
+/// the planets but some samples are not).
+fn mean_arrival(arrivals: &[(Incoming, f64)]) -> Option<Incoming> {
+    let total: f64 = arrivals.iter().map(|a| a.1).sum();
+    if arrivals.is_empty() || total <= 0.0 {
+        return None;
+    }
+    let uvw = arrivals
+        .iter()
+        .fold(V3::zeros(), |acc, (a, w)| acc + V3::from(a.uvw_km_s) * *w)
+        / total;
+    let g = equatorial_to_galactic();
+    let (ra, dec) = radec_from_vector(&(g.transpose() * -uvw));
+    let (l, b) = radec_from_vector(&-uvw);
+    Some(Incoming {
+        v_inf_km_s: uvw.norm(),
+        v_inf_sigma_km_s: None,
+        radiant_ra_deg: ra.to_degrees(),
+        radiant_dec_deg: dec.to_degrees(),
+        radiant_l_deg: l.to_degrees(),
+        radiant_b_deg: b.to_degrees(),
+        uvw_km_s: [uvw.x, uvw.y, uvw.z],
+    })
 }
 
 /// Membership averaged over the arrivals.
@@ -338,4 +363,40 @@ fn galactic_orbit(
         samples: envs.len(),
     };
     (Some(orbit), path)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::frames::radec_from_vector;
+
+    fn arrival(uvw: [f64; 3]) -> Incoming {
+        Incoming {
+            v_inf_km_s: V3::from(uvw).norm(),
+            v_inf_sigma_km_s: None,
+            radiant_ra_deg: 0.0,
+            radiant_dec_deg: 0.0,
+            radiant_l_deg: 0.0,
+            radiant_b_deg: 0.0,
+            uvw_km_s: uvw,
+        }
+    }
+
+    #[test]
+    fn the_mean_arrival_comes_from_opposite_the_mean_velocity() {
+        let a = [
+            (arrival([10.0, -20.0, 5.0]), 1.0),
+            (arrival([14.0, -24.0, 1.0]), 1.0),
+        ];
+        let m = mean_arrival(&a).unwrap();
+        assert_eq!(m.uvw_km_s, [12.0, -22.0, 3.0]);
+        assert!((m.v_inf_km_s - V3::new(12.0, -22.0, 3.0).norm()).abs() < 1e-12);
+        let (l, b) = radec_from_vector(&V3::new(-12.0, 22.0, -3.0));
+        assert!((m.radiant_l_deg - l.to_degrees()).abs() < 1e-9);
+        assert!((m.radiant_b_deg - b.to_degrees()).abs() < 1e-9);
+        let eq = equatorial_to_galactic().transpose() * V3::new(-12.0, 22.0, -3.0);
+        let (ra, _) = radec_from_vector(&eq);
+        assert!((m.radiant_ra_deg - ra.to_degrees()).abs() < 1e-9);
+        assert!(mean_arrival(&[]).is_none());
+    }
 }
