@@ -117,6 +117,10 @@ fn the_origin_command_prints_the_sheet_and_takes_a_solar_motion() {
     let o = &records(&out)[0]["origin"];
     assert_eq!(o["uvw_helio_km_s"], o["uvw_lsr_km_s"]);
     assert_eq!(o["solar_motion_km_s"], serde_json::json!([0.0, 0.0, 0.0]));
+    let (code, out, err) = run(&["fit", "--json", "--solar-motion", "1,2,3", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    let o = &records(&out)[0]["origin"];
+    assert_eq!(o["solar_motion_km_s"], serde_json::json!([1.0, 2.0, 3.0]));
 }
 
 #[test]
@@ -128,6 +132,7 @@ fn usage_mistakes_exit_2_and_rejected_input_exits_1() {
         vec!["origin", "--solar-motion", "a,b,c", f.as_str()],
         vec!["origin", "--samples", "0", f.as_str()],
         vec!["origin", "--samples", "201", f.as_str()],
+        vec!["fit", "--json", "--solar-motion", "1,2", f.as_str()],
     ] {
         let (code, _, err) = run(&bad);
         assert_eq!(code, Some(2), "{bad:?}: {err}");

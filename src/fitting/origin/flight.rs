@@ -296,6 +296,19 @@ mod tests {
     }
 
     #[test]
+    fn a_pass_near_jupiter_is_found_and_named() {
+        // Start 0.2 au from Jupiter (under its Hill radius) and fly back: the closest approach is
+        // Jupiter's, within the flagging distance.
+        let t = 2_461_000.5;
+        let j = planet(4, t).unwrap();
+        let x = S6::new(j.x + 0.2, j.y, j.z, 0.0, 0.012, 0.004);
+        let f = fly(&x, t, -1.0, 250.0).unwrap();
+        let c = f.closest.unwrap();
+        assert_eq!(c.planet, Planet::Jupiter);
+        assert!(c.distance_au <= 0.2 + 1e-9 && c.hill_radii < 1.0, "{c:?}");
+    }
+
+    #[test]
     fn far_from_the_planets_1_over_a_settles() {
         // A hyperbola leaving the system: 1/a at 150 au and 250 au differ by far less than its size.
         let x = S6::new(1.2, 0.4, -0.3, -0.004, 0.021, 0.012);
