@@ -8,5 +8,6 @@
 pub mod console;
 pub mod feed;
 pub mod fitting;
+pub mod origin_text;
 pub mod physics;
 pub mod report;

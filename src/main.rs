@@ -12,6 +12,7 @@ fn main() {
         cli::Command::Watch(a) => cli::watch::run(a),
         cli::Command::Ephem(a) => cli::ephem::run(a),
         cli::Command::Plan(a) => cli::plan::run(a),
+        cli::Command::Origin(a) => cli::origin::run(a),
         cli::Command::Demo(a) => cli::demo::run(a),
         cli::Command::JournalAppend(a) => cli::journal::run(a),
     };

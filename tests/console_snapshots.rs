@@ -141,7 +141,23 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
         app.ephemeris = Some((fit.object.clone(), pts));
         app.mode = Mode::Ephemeris;
         check(&format!("ephemeris_{w}x{h}"), &screen(&mut app, w, h));
+        // The origin pane of the best-ranked candidate that has an origin sheet.
         app.mode = Mode::List;
+        let with_origin = app
+            .view
+            .iter()
+            .position(|&i| app.candidates[i].fit.origin.is_some())
+            .expect("the demo night has an unbound candidate");
+        app.on_key(key('g'));
+        for _ in 0..with_origin {
+            app.on_key(key('j'));
+        }
+        app.on_key(key('o'));
+        assert_eq!(app.mode, Mode::Origin);
+        check(&format!("origin_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.on_key(key('g'));
+        app.message = None;
         app.on_key(key('/'));
         for c in "K27Db".chars() {
             app.on_key(key(c));

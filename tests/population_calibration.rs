@@ -60,6 +60,8 @@ fn fit_arc(arc: &str, file: &str) -> (Vec<(f64, f64, bool)>, f64) {
     assert!(intake.errors.is_empty(), "{:?}", intake.errors.first());
     let opts = FitOptions {
         population: balanced_model(density),
+        // Calibration is about P alone: no origin sheets.
+        origin: None,
         ..FitOptions::default()
     };
     let results: Vec<FitResult> = fit_all(merge(intake.tracklets), &opts, 2);

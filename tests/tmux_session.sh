@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
 # capture-pane. Checks that the ranked list appears, a decision reaches the journal, Esc drops a filter
-# being typed, the help overlay opens, quitting ends the program, and a hang-up closes it cleanly. CI runs it when tmux is installed; it skips (exit 0, saying so)
+# being typed, the help overlay and the origin pane open, quitting ends the program, and a hang-up closes it cleanly. CI runs it when tmux is installed; it skips (exit 0, saying so)
 # otherwise.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -42,6 +42,14 @@ tmux -L "$sock" capture-pane -p -t demo | grep -q "candidates 0 of" && fail "Esc
 tmux -L "$sock" send-keys -t demo '?'
 sleep 0.5
 tmux -L "$sock" capture-pane -p -t demo | grep -q "next-undecided" || fail "no help overlay"
+tmux -L "$sock" send-keys -t demo Escape
+sleep 0.2
+# The top candidate is unbound: its origin pane opens.
+tmux -L "$sock" send-keys -t demo g
+sleep 0.2
+tmux -L "$sock" send-keys -t demo o
+sleep 0.5
+tmux -L "$sock" capture-pane -p -t demo | grep -q "before the planets" || fail "no origin pane"
 tmux -L "$sock" send-keys -t demo Escape
 sleep 0.2
 tmux -L "$sock" send-keys -t demo q

@@ -31,6 +31,10 @@ pub struct FitArgs {
     /// Do not inflate uncertainties of many same-night positions from one site.
     #[arg(long)]
     pub no_night_inflation: bool,
+    /// With --json: the Sun's motion relative to the local standard of rest for the origin sheets,
+    /// U,V,W in km/s (default: the population model's).
+    #[arg(long, value_name = "U,V,W")]
+    pub solar_motion: Option<String>,
     /// Worker threads (default: the machine's cores).
     #[arg(long)]
     pub threads: Option<usize>,
@@ -54,8 +58,19 @@ pub enum Perturb {
 
 impl FitArgs {
     pub fn options(&self) -> anyhow::Result<FitOptions> {
+        let population = self.population.load()?;
         let mut o = FitOptions {
-            population: self.population.load()?,
+            // The origin sheet is part of the JSON record only (the table has no room for it).
+            origin: if self.json {
+                let mut o = interloper::fitting::origin::OriginOptions::for_model(&population);
+                if let Some(s) = &self.solar_motion {
+                    o.frame.solar_motion_km_s = super::origin::parse_solar_motion(s)?;
+                }
+                Some(o)
+            } else {
+                None
+            },
+            population,
             method: match self.method {
                 Method::Auto => MethodChoice::Auto,
                 Method::Ranging => MethodChoice::Ranging,
@@ -81,7 +96,12 @@ pub fn fit_all_default(
     tracklets: Vec<interloper::fitting::input::Tracklet>,
 ) -> Vec<interloper::fitting::fit::FitResult> {
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
-    fit_all(tracklets, &FitOptions::default(), threads)
+    // Ephemerides need no origin sheet.
+    let opts = FitOptions {
+        origin: None,
+        ..FitOptions::default()
+    };
+    fit_all(tracklets, &opts, threads)
 }
 
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {

@@ -6,6 +6,7 @@ pub mod ephem;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
+pub mod origin;
 pub mod plan;
 pub mod plantext;
 pub mod watch;
@@ -50,6 +51,8 @@ pub enum Command {
     Ephem(ephem::EphemArgs),
     /// Tonight's follow-up plan over the candidates at one or more telescopes.
     Plan(plan::PlanArgs),
+    /// Fit the given tracklets and print where each unbound candidate comes from.
+    Origin(origin::OriginArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
     /// Append test decisions to a journal, acknowledging each once synced (durability tests).

@@ -8,6 +8,7 @@ use interloper::feed::tracklets::Limits;
 use interloper::feed::watcher::{self, WatchEvent, WatchOptions};
 use interloper::fitting::batch::FitPool;
 use interloper::fitting::fit::FitOptions;
+use interloper::fitting::origin::OriginOptions;
 use std::collections::HashMap;
 use std::io::Write;
 use std::path::PathBuf;
@@ -173,8 +174,10 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
     let (rtx, results) = std::sync::mpsc::channel();
     let pool = FitPool::new(threads, rtx);
+    let population = args.population.load()?;
     let fit_opts = FitOptions {
-        population: args.population.load()?,
+        origin: Some(OriginOptions::for_model(&population)),
+        population,
         ..FitOptions::default()
     };
     let limits = Limits::default();

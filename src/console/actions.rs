@@ -29,6 +29,7 @@ pub enum Action {
     ForcePerturbations,
     Ephemeris,
     Plan,
+    Origin,
     RejectedFiles,
     Help,
     Quit,
@@ -37,7 +38,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 28] = [
+    pub const ALL: [Action; 29] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -61,6 +62,7 @@ impl Action {
         Action::ForcePerturbations,
         Action::Ephemeris,
         Action::Plan,
+        Action::Origin,
         Action::RejectedFiles,
         Action::Help,
         Action::Quit,
@@ -93,6 +95,7 @@ impl Action {
             Action::ForcePerturbations => "force-perturbations",
             Action::Ephemeris => "ephemeris",
             Action::Plan => "plan",
+            Action::Origin => "origin",
             Action::RejectedFiles => "rejected-files",
             Action::Help => "help",
             Action::Quit => "quit",
@@ -128,6 +131,9 @@ impl Action {
             }
             Action::Ephemeris => "follow-up ephemeris for the next 24 hours",
             Action::Plan => "follow-up plan for the next 24 hours at the sites of the feed",
+            Action::Origin => {
+                "where an unbound candidate comes from: original orbit, arrival, Galactic orbit"
+            }
             Action::RejectedFiles => "list rejected files and lines",
             Action::Help => "this help",
             Action::Quit => "quit (decisions are already saved)",

@@ -151,6 +151,9 @@ impl Runtime {
             method: ov.method,
             perturbations: ov.perturbations,
             population: self.population.clone(),
+            origin: Some(crate::fitting::origin::OriginOptions::for_model(
+                &self.population,
+            )),
             ..FitOptions::default()
         };
         self.pool.submit(*g, t, opts);

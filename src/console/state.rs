@@ -99,6 +99,7 @@ pub enum Mode {
     Rejected,
     Ephemeris,
     Plan,
+    Origin,
 }
 
 /// Feed counters for the status line.
@@ -367,7 +368,9 @@ impl App {
         match self.mode {
             Mode::List => Context::List,
             Mode::Filter | Mode::Note => Context::Input,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan => Context::Overlay,
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan | Mode::Origin => {
+                Context::Overlay
+            }
         }
     }
 
@@ -437,7 +440,7 @@ impl App {
         let row = self.selected_row().unwrap_or(0);
         if matches!(
             self.mode,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan
+            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan | Mode::Origin
         ) {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
@@ -528,6 +531,17 @@ impl App {
                 self.plan = None;
                 return vec![Effect::Plan];
             }
+            Action::Origin => match self.selected_candidate() {
+                Some(c) if c.fit.origin.is_some() => {
+                    self.mode = Mode::Origin;
+                    self.overlay_scroll = 0;
+                }
+                Some(_) => {
+                    self.message =
+                        Some("no origin sheet: P(unbound) is below 0.01 or not known yet".into())
+                }
+                None => {}
+            },
             Action::RejectedFiles => {
                 self.mode = Mode::Rejected;
                 self.overlay_scroll = 0;

@@ -67,6 +67,8 @@ pub struct FitOptions {
     /// Keep the weighted orbits of sampled answers (for ephemerides); a batch that only prints
     /// records drops them to stay small.
     pub keep_samples: bool,
+    /// Make the origin sheet of candidates with P(unbound) ≥ 0.01 (None: skip it).
+    pub origin: Option<super::origin::OriginOptions>,
 }
 
 /// The compiled-in population model, built once per process.
@@ -79,7 +81,9 @@ pub fn builtin_population() -> Arc<PopulationModel> {
 
 impl Default for FitOptions {
     fn default() -> Self {
+        let population = builtin_population();
         FitOptions {
+            origin: Some(super::origin::OriginOptions::for_model(&population)),
             method: MethodChoice::Auto,
             perturbations: PerturbChoice::Auto,
             lsq: LsqOptions::default(),
@@ -87,7 +91,7 @@ impl Default for FitOptions {
             inflate_nights: true,
             samples: 2000,
             seed: 0x5EED,
-            population: builtin_population(),
+            population,
             keep_samples: true,
         }
     }
@@ -100,8 +104,17 @@ pub const MIN_MOTION_ARCSEC: f64 = 0.01;
 /// posterior treats them.
 pub const SHORT_ARC_DAYS: f64 = 0.5;
 
-/// Fit one tracklet.
+/// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
+    let mut r = fit_orbit(tr, model, opts);
+    if let Some(o) = &opts.origin {
+        r.origin = super::origin::origin_sheet(&r, o).map(Box::new);
+    }
+    r
+}
+
+/// Fit one tracklet's orbit and probability.
+fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     if tr.obs.len() < 2 {
         return FitResult::failed(
             tr,

@@ -13,6 +13,7 @@ pub mod linear;
 pub mod lsq;
 pub mod nextnight;
 pub mod onenight;
+pub mod origin;
 pub mod perturb;
 pub mod plan;
 pub mod planeval;

@@ -74,7 +74,7 @@ impl Dynamics for TwoBody {
 
 /// Sun/body mass ratios (IAU 2009 system; common practice, values from memory). Earth and Moon are
 /// taken separately; Mars stands for its system.
-const MASS_RATIOS: [f64; 9] = [
+pub(crate) const MASS_RATIOS: [f64; 9] = [
     6_023_597.4,  // Mercury
     408_523.72,   // Venus
     332_946.05,   // Earth

@@ -146,6 +146,8 @@ pub struct FitResult {
     pub covariance: Option<Vec<[f64; 6]>>,
     /// What one more night from the last site is expected to buy (open candidates of 2+ nights).
     pub next_night: Option<NextNight>,
+    /// Where an unbound candidate comes from (P(unbound) ≥ 0.01 only).
+    pub origin: Option<Box<super::origin::Origin>>,
     /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
     #[serde(skip)]
     pub samples: Vec<([f64; 6], f64, f64)>,
@@ -202,6 +204,7 @@ impl FitResult {
             state: None,
             covariance: None,
             next_night: None,
+            origin: None,
             samples: Vec::new(),
         }
     }

@@ -2,9 +2,11 @@
 //! observation model. Pure functions and plain data: nothing here reads files or knows about the console.
 
 pub mod constants;
+pub mod dopri;
 pub mod earth;
 pub mod elements;
 pub mod frames;
+pub mod galaxy;
 pub mod observe;
 pub mod propagate;
 pub mod sexagesimal;

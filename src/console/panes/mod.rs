@@ -2,6 +2,7 @@
 
 pub mod elements;
 pub mod nextnight;
+pub mod origin;
 pub mod overlay;
 pub mod planview;
 pub mod residuals;

@@ -1,5 +1,5 @@
 //! Panels drawn over the main screen: help (generated from the active keymap), rejected files and lines,
-//! the follow-up ephemeris and plan, and the one-line prompt for a filter or a note.
+//! the follow-up ephemeris and plan, the origin sheet, and the one-line prompt for a filter or a note.
 
 use super::{Theme, num};
 use crate::console::state::{App, Mode};
@@ -121,6 +121,12 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
                 lines,
                 app.overlay_scroll,
             )
+        }
+        Mode::Origin => {
+            // The panel is 90 % of the screen wide, less its borders.
+            let width = area.width * 90 / 100;
+            let lines = super::origin::lines(app, width.saturating_sub(2));
+            panel(f, area, " where it comes from ", lines, app.overlay_scroll)
         }
         Mode::Filter | Mode::Note => {
             let r = Rect::new(

@@ -1,0 +1,147 @@
+//! The origin sheet at the edges: the `origin` object of `fit --json` (the field names other scripts
+//! read), the `origin` subcommand's text and JSON, the solar-motion override, and its exit codes.
+
+use std::process::Command;
+
+fn run(args: &[&str]) -> (Option<i32>, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn synthetic(name: &str) -> String {
+    format!(
+        "{}/tests/reference/data/synthetic/{name}.psv",
+        env!("CARGO_MANIFEST_DIR")
+    )
+}
+
+fn records(text: &str) -> Vec<serde_json::Value> {
+    text.lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect()
+}
+
+const FIELDS: [&str; 16] = [
+    "inv_a_orig_per_au",
+    "inv_a_orig_sigma",
+    "inv_a_fut_per_au",
+    "v_inf_orig_km_s",
+    "v_inf_orig_sigma",
+    "radiant_ra_deg",
+    "radiant_dec_deg",
+    "radiant_l_deg",
+    "radiant_b_deg",
+    "uvw_helio_km_s",
+    "uvw_lsr_km_s",
+    "potential",
+    "solar_motion_km_s",
+    "r0_kpc",
+    "z0_kpc",
+    "v_circ_km_s",
+];
+
+#[test]
+fn fit_json_carries_the_origin_object_for_candidates_above_one_percent() {
+    let (code, out, err) = run(&[
+        "fit",
+        "--json",
+        &synthetic("hyp_strong_3n"),
+        &synthetic("mainbelt_3n"),
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    let recs = records(&out);
+    assert_eq!(recs.len(), 2);
+    for r in &recs {
+        let p = r["p_hyperbolic"].as_f64().unwrap();
+        let o = &r["origin"];
+        if p < 0.01 {
+            assert!(o.is_null(), "{}", r["object"]);
+            continue;
+        }
+        for f in FIELDS {
+            assert!(!o[f].is_null(), "{f} missing");
+        }
+        for f in ["uvw_helio_km_s", "uvw_lsr_km_s", "solar_motion_km_s"] {
+            assert_eq!(o[f].as_array().unwrap().len(), 3, "{f}");
+        }
+        let m = &o["membership"];
+        let sum: f64 = ["thin_disc", "thick_disc", "halo"]
+            .iter()
+            .map(|k| m[k].as_f64().unwrap())
+            .sum();
+        assert!((sum - 1.0).abs() < 1e-12);
+        let g = &o["galactic_orbit"];
+        for k in ["r_peri_kpc", "r_apo_kpc", "z_max_kpc", "ecc"] {
+            assert!(g[k].as_f64().unwrap().is_finite(), "{k}");
+            assert!(
+                g[format!("{k}_sigma")].as_f64().unwrap() >= 0.0,
+                "{k}_sigma"
+            );
+        }
+        // The LSR velocity is the heliocentric one plus the stated solar motion.
+        for k in 0..3 {
+            let (h, l, s) = (
+                o["uvw_helio_km_s"][k].as_f64().unwrap(),
+                o["uvw_lsr_km_s"][k].as_f64().unwrap(),
+                o["solar_motion_km_s"][k].as_f64().unwrap(),
+            );
+            assert!((h + s - l).abs() < 1e-9);
+        }
+    }
+    assert!(recs.iter().any(|r| !r["origin"].is_null()));
+}
+
+#[test]
+fn the_origin_command_prints_the_sheet_and_takes_a_solar_motion() {
+    let f = synthetic("hyp_strong_3n");
+    let (code, out, err) = run(&["origin", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    for needle in [
+        "before the planets",
+        "radiant",
+        "thin disc",
+        "pericentre",
+        "⊙",
+    ] {
+        assert!(out.contains(needle), "{needle} missing:\n{out}");
+    }
+    let (code, out, err) = run(&["origin", "--json", "--solar-motion", "0,0,0", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    let o = &records(&out)[0]["origin"];
+    assert_eq!(o["uvw_helio_km_s"], o["uvw_lsr_km_s"]);
+    assert_eq!(o["solar_motion_km_s"], serde_json::json!([0.0, 0.0, 0.0]));
+    let (code, out, err) = run(&["fit", "--json", "--solar-motion", "1,2,3", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    let o = &records(&out)[0]["origin"];
+    assert_eq!(o["solar_motion_km_s"], serde_json::json!([1.0, 2.0, 3.0]));
+}
+
+#[test]
+fn usage_mistakes_exit_2_and_rejected_input_exits_1() {
+    let f = synthetic("hyp_strong_3n");
+    for bad in [
+        vec!["origin", "--object", "nobody", f.as_str()],
+        vec!["origin", "--solar-motion", "11,12", f.as_str()],
+        vec!["origin", "--solar-motion", "a,b,c", f.as_str()],
+        vec!["origin", "--samples", "0", f.as_str()],
+        vec!["origin", "--samples", "201", f.as_str()],
+        vec!["fit", "--json", "--solar-motion", "1,2", f.as_str()],
+    ] {
+        let (code, _, err) = run(&bad);
+        assert_eq!(code, Some(2), "{bad:?}: {err}");
+    }
+    let junk = format!(
+        "{}/tests/reference/data/synthetic/truth.json",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let (code, _, err) = run(&["origin", &junk]);
+    assert_eq!(code, Some(1), "{err}");
+    assert!(err.contains("rejected"), "{err}");
+}
