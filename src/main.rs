@@ -14,6 +14,8 @@ fn main() {
         cli::Command::Plan(a) => cli::plan::run(a),
         cli::Command::Origin(a) => cli::origin::run(a),
         cli::Command::Demo(a) => cli::demo::run(a),
+        cli::Command::Completions(a) => cli::shell::completions(a),
+        cli::Command::Man(a) => cli::shell::man(a),
         cli::Command::JournalAppend(a) => cli::journal::run(a),
     };
     match code {

@@ -13,9 +13,9 @@ pub struct DemoArgs {
     /// Pace: 1 is about a file a second; 10 is ten times faster.
     #[arg(long, default_value_t = 1.0)]
     pub speed: f64,
-    /// The demo feed to replay.
-    #[arg(long, value_name = "DIR", default_value = concat!(env!("CARGO_MANIFEST_DIR"), "/sample_feeds/demo_night"))]
-    pub feed: PathBuf,
+    /// A feed of your own to replay (default: the demo night built into the program).
+    #[arg(long, value_name = "DIR")]
+    pub feed: Option<PathBuf>,
     /// Where decisions go (default: a fresh folder beside the replay, so the demo leaves no trace).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
@@ -35,12 +35,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
     if !(args.speed > 0.0 && args.speed.is_finite()) {
         crate::usage!("--speed must be positive (1 is about a file a second)");
     }
-    let mut files: Vec<PathBuf> = std::fs::read_dir(&args.feed)
-        .with_context(|| format!("reading the demo feed {}", args.feed.display()))?
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .filter(|p| p.is_file())
-        .collect();
-    files.sort();
+    let files = feed_files(args.feed.as_deref())?;
     let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%S");
     let root = std::env::temp_dir().join(format!("interloper-demo-{stamp}-{}", std::process::id()));
     let incoming = root.join("incoming");
@@ -56,18 +51,13 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
     let dest = incoming.clone();
     let speed = args.speed;
     std::thread::spawn(move || {
-        let night = |p: &PathBuf| {
-            p.file_name()
-                .and_then(|n| n.to_str())
-                .and_then(|n| n.rsplit("_n").next())
-                .map(str::to_string)
-        };
+        let night = |name: &str| name.rsplit("_n").next().map(str::to_string);
         let mut last_night = None;
-        for f in files {
+        for (name, bytes) in files {
             if copier_stop.load(Ordering::Relaxed) {
                 return;
             }
-            let n = night(&f);
+            let n = night(&name);
             // A longer pause between nights, as the real feed would have.
             let pause = if last_night.is_some() && n != last_night {
                 4.0
@@ -76,11 +66,10 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
             };
             last_night = n;
             std::thread::sleep(Duration::from_secs_f64(pause / speed));
-            let Some(name) = f.file_name() else { continue };
             // Written under a hidden name and renamed into place, as a careful pipeline does.
-            let tmp = dest.join(format!(".{}.part", name.to_string_lossy()));
-            if std::fs::copy(&f, &tmp).is_ok() {
-                let _ = std::fs::rename(&tmp, dest.join(name));
+            let tmp = dest.join(format!(".{name}.part"));
+            if std::fs::write(&tmp, &bytes).is_ok() {
+                let _ = std::fs::rename(&tmp, dest.join(&name));
             }
         }
     });
@@ -93,5 +82,52 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
         40.0 / args.speed + 10.0,
         args.population.clone(),
     );
-    run_with(&watch, stop)
+    let result = run_with(&watch, stop);
+    // The replay folder (and the demo's journal, unless --state put it elsewhere) goes with the demo.
+    match std::fs::remove_dir_all(&root) {
+        Ok(()) => eprintln!("demo: removed {}", root.display()),
+        Err(e) => eprintln!("demo: could not remove {}: {e}", root.display()),
+    }
+    result
+}
+
+/// The demo night, built into the program so that an installed binary has it wherever it runs.
+static DEMO_NIGHT: include_dir::Dir<'_> =
+    include_dir::include_dir!("$CARGO_MANIFEST_DIR/sample_feeds/demo_night");
+
+/// (file name, contents) in arrival (name) order: from `dir`, or the built-in demo night.
+fn feed_files(dir: Option<&std::path::Path>) -> anyhow::Result<Vec<(String, Vec<u8>)>> {
+    let mut files: Vec<(String, Vec<u8>)> = match dir {
+        None => DEMO_NIGHT
+            .files()
+            .filter_map(|f| {
+                let name = f.path().file_name()?.to_str()?.to_string();
+                Some((name, f.contents().to_vec()))
+            })
+            .collect(),
+        Some(d) => {
+            let mut out = Vec::new();
+            for e in std::fs::read_dir(d)
+                .with_context(|| format!("reading the demo feed {}", d.display()))?
+            {
+                let path = e?.path();
+                if !path.is_file() {
+                    continue;
+                }
+                let Some(name) = path
+                    .file_name()
+                    .and_then(|n| n.to_str())
+                    .map(str::to_string)
+                else {
+                    continue;
+                };
+                let bytes =
+                    std::fs::read(&path).with_context(|| format!("reading {}", path.display()))?;
+                out.push((name, bytes));
+            }
+            out
+        }
+    };
+    files.sort_by(|a, b| a.0.cmp(&b.0));
+    Ok(files)
 }

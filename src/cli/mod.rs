@@ -9,6 +9,7 @@ pub mod journal;
 pub mod origin;
 pub mod plan;
 pub mod plantext;
+pub mod shell;
 pub mod watch;
 
 use clap::{Parser, Subcommand};
@@ -55,6 +56,10 @@ pub enum Command {
     Origin(origin::OriginArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
+    /// Write a shell completion script (bash, zsh, fish, elvish, powershell) to standard output.
+    Completions(shell::CompletionsArgs),
+    /// Write the manual page (roff) to standard output, or every page into a directory.
+    Man(shell::ManArgs),
     /// Append test decisions to a journal, acknowledging each once synced (durability tests).
     #[command(hide = true)]
     JournalAppend(journal::JournalArgs),

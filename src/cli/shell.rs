@@ -1,0 +1,45 @@
+//! `interloper completions SHELL` and `interloper man`: shell completion scripts and the manual page,
+//! both generated from the same command definition the parser uses, so they cannot drift from it.
+
+use clap::CommandFactory;
+use std::io::Write;
+
+#[derive(Debug, clap::Args)]
+pub struct CompletionsArgs {
+    /// The shell to write a completion script for (to standard output).
+    pub shell: clap_complete::Shell,
+}
+
+/// Print a completion script, e.g. `interloper completions bash > ~/.local/share/bash-completion/completions/interloper`.
+pub fn completions(args: &CompletionsArgs) -> anyhow::Result<i32> {
+    let mut cmd = super::Cli::command();
+    clap_complete::generate(args.shell, &mut cmd, "interloper", &mut std::io::stdout());
+    Ok(0)
+}
+
+#[derive(Debug, clap::Args)]
+pub struct ManArgs {
+    /// Write interloper.1 and one page per command (interloper-fit.1, …) into DIR instead of printing
+    /// the main page.
+    #[arg(long, value_name = "DIR")]
+    pub dir: Option<std::path::PathBuf>,
+}
+
+/// Print the manual page (roff), e.g. `interloper man > ~/.local/share/man/man1/interloper.1`, or write
+/// every page with `--dir`.
+pub fn man(args: &ManArgs) -> anyhow::Result<i32> {
+    let cmd = super::Cli::command();
+    match &args.dir {
+        Some(dir) => {
+            std::fs::create_dir_all(dir)?;
+            clap_mangen::generate_to(cmd, dir)?;
+            eprintln!("manual pages written to {}", dir.display());
+        }
+        None => {
+            let mut out = Vec::new();
+            clap_mangen::Man::new(cmd).render(&mut out)?;
+            std::io::stdout().write_all(&out)?;
+        }
+    }
+    Ok(0)
+}
