@@ -1,5 +1,6 @@
 //! Opening the console on a real terminal: raw mode and the alternate screen (restored on exit, on panic
-//! through ratatui's hook, and on SIGINT/SIGTERM), an input thread, and the event loop.
+//! through ratatui's hook, and on SIGINT/SIGTERM; given back on Ctrl-Z and taken again on `fg`), an input
+//! thread, and the event loop.
 
 use interloper::console::panes::Theme;
 use interloper::console::runtime::{self, AppEvent};
@@ -53,6 +54,8 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     rt.replayed(&mut app, decisions);
     let stop_in = stop.clone();
     let state_in = cfg.state.clone();
+    let resumed = Arc::new(AtomicBool::new(false));
+    signal_hook::flag::register(signal_hook::consts::SIGCONT, resumed.clone())?;
     std::thread::spawn(move || {
         // The terminal going away (end of file, an error reading it) ends the console: looping on
         // it would spin a core all night with nobody watching.
@@ -69,7 +72,17 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
                     break;
                 }
             }
+            if resumed.swap(false, Ordering::Relaxed) {
+                // Continued after a stop from outside (kill -TSTP, a job-control stop): the shell
+                // may have put the terminal back to cooked mode.
+                reclaim_terminal();
+                let _ = tx.send(AppEvent::Repaint);
+            }
             let ev = match event::read() {
+                Ok(Event::Key(k)) if is_suspend(&k) => {
+                    suspend();
+                    AppEvent::Repaint
+                }
                 Ok(Event::Key(k)) if k.kind != KeyEventKind::Release => AppEvent::Key(k),
                 Ok(Event::Resize(..)) => AppEvent::Resize,
                 Ok(_) => continue,
@@ -98,6 +111,32 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     rt.shutdown();
     log(&cfg.state, "console closed");
     result.map(|_| 0)
+}
+
+/// Ctrl-Z: in raw mode the terminal sends it as a key instead of stopping us.
+fn is_suspend(k: &event::KeyEvent) -> bool {
+    k.kind == KeyEventKind::Press
+        && k.code == event::KeyCode::Char('z')
+        && k.modifiers.contains(event::KeyModifiers::CONTROL)
+}
+
+/// Give the terminal back to the shell (cooked mode, main screen, cursor shown) and stop as Ctrl-Z
+/// would; on `fg`, take it back.
+fn suspend() {
+    ratatui::restore();
+    let _ = signal_hook::low_level::raise(signal_hook::consts::SIGTSTP);
+    reclaim_terminal();
+}
+
+/// Raw mode, the alternate screen and a hidden cursor again.
+fn reclaim_terminal() {
+    use ratatui::crossterm::{cursor, execute, terminal};
+    let _ = terminal::enable_raw_mode();
+    let _ = execute!(
+        std::io::stdout(),
+        terminal::EnterAlternateScreen,
+        cursor::Hide
+    );
 }
 
 /// The console never writes diagnostics to the screen it owns: they go to console.log in the state dir.

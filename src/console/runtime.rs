@@ -32,6 +32,9 @@ use std::time::{Duration, Instant};
 pub enum AppEvent {
     Key(KeyEvent),
     Resize,
+    /// The terminal was handed back (after a suspend): whatever is on it is not our last frame, so
+    /// the whole screen is cleared and drawn again.
+    Repaint,
     Watch(WatchEvent),
     Fit(Box<PoolResult>),
     /// A decision saved, or (object, reason) when it could not be.
@@ -174,10 +177,10 @@ impl Runtime {
                     }
                 }
             }
-            AppEvent::Resize | AppEvent::Tick => {
+            AppEvent::Resize | AppEvent::Tick | AppEvent::Repaint => {
                 let (w, r) = self.pool.load();
                 if (w, r) != (app.status.waiting, app.status.fitting)
-                    || matches!(ev, AppEvent::Resize)
+                    || matches!(ev, AppEvent::Resize | AppEvent::Repaint)
                 {
                     app.status.waiting = w;
                     app.status.fitting = r;
@@ -347,6 +350,9 @@ pub fn run_loop<B: Backend>(
             Duration::from_millis(200)
         }) {
             Ok(ev) => {
+                if matches!(ev, AppEvent::Repaint) {
+                    terminal.clear().map_err(|e| anyhow::anyhow!("{e}"))?;
+                }
                 if !rt.handle(app, ev) {
                     return Ok(());
                 }
