@@ -143,6 +143,8 @@ pub struct App {
     pub message: Option<String>,
     pub obs_cursor: usize,
     pub overlay_scroll: usize,
+    /// The last line an overlay can scroll to, as its last drawing found (scrolling stops there).
+    pub overlay_max: std::cell::Cell<usize>,
     pub ephemeris: Option<(String, Vec<EphemerisPoint>)>,
     pub plan: Option<crate::fitting::plan::Plan>,
     pub page: usize,
@@ -172,6 +174,7 @@ impl App {
             message: None,
             obs_cursor: 0,
             overlay_scroll: 0,
+            overlay_max: std::cell::Cell::new(usize::MAX),
             ephemeris: None,
             plan: None,
             page: 10,
@@ -377,6 +380,14 @@ impl App {
     /// One key press.
     pub fn on_key(&mut self, ev: KeyEvent) -> Vec<Effect> {
         self.dirty = true;
+        // Ctrl-C quits from every mode, prompts and overlays included, whatever the key map says.
+        if ev.code == crossterm::event::KeyCode::Char('c')
+            && ev
+                .modifiers
+                .contains(crossterm::event::KeyModifiers::CONTROL)
+        {
+            return vec![Effect::Quit];
+        }
         let ctx = self.context();
         let action = Key::from_event(&ev).and_then(|k| self.keymap.action(ctx, &k));
         if ctx == Context::Input {
@@ -422,12 +433,19 @@ impl App {
                 self.input.reset();
                 let verdict = self
                     .selected_candidate()
-                    .and_then(|c| c.decision.as_ref().map(|d| d.verdict))
-                    .unwrap_or(Verdict::KeepWatching);
+                    .and_then(|c| c.decision.as_ref().map(|d| d.verdict));
                 if text.is_empty() {
                     Vec::new()
                 } else {
-                    self.decide(verdict, Some(text))
+                    let effects = self.decide(verdict.unwrap_or(Verdict::KeepWatching), Some(text));
+                    // A note needs a decision to ride on: say which one it got.
+                    if verdict.is_none() {
+                        self.message = Some(
+                            "note saved; no decision yet, so it is recorded as keep watching"
+                                .into(),
+                        );
+                    }
+                    effects
                 }
             }
             _ => Vec::new(),
@@ -444,7 +462,9 @@ impl App {
         ) {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
-                Action::MoveDown => self.overlay_scroll += 1,
+                Action::MoveDown => {
+                    self.overlay_scroll = (self.overlay_scroll + 1).min(self.overlay_max.get())
+                }
                 Action::MoveUp => self.overlay_scroll = self.overlay_scroll.saturating_sub(1),
                 _ => {}
             }

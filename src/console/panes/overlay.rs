@@ -19,9 +19,20 @@ fn centered(area: Rect, w_pct: u16, h_pct: u16) -> Rect {
     )
 }
 
-fn panel(f: &mut Frame, area: Rect, title: &str, lines: Vec<String>, scroll: usize) {
+fn panel(f: &mut Frame, area: Rect, app: &App, title: &str, lines: Vec<String>) {
     let r = centered(area, 90, 85);
     f.render_widget(Clear, r);
+    // Scrolling stops where the last line reaches the bottom; the title says when more is hidden.
+    let rows = usize::from(r.height.saturating_sub(2));
+    let max = lines.len().saturating_sub(rows);
+    app.overlay_max.set(max);
+    let scroll = app.overlay_scroll.min(max);
+    let more = match (scroll > 0, scroll < max) {
+        (true, true) => " · ↑↓ more ",
+        (false, true) => " · ↓ more ",
+        (true, false) => " · ↑ more ",
+        (false, false) => "",
+    };
     let text: Vec<ratatui::text::Line> = lines
         .into_iter()
         .skip(scroll)
@@ -31,7 +42,7 @@ fn panel(f: &mut Frame, area: Rect, title: &str, lines: Vec<String>, scroll: usi
         Paragraph::new(text).block(
             Block::default()
                 .borders(Borders::ALL)
-                .title(title.to_string()),
+                .title(format!("{title}{more}")),
         ),
         r,
     );
@@ -60,9 +71,9 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
         Mode::Help => panel(
             f,
             area,
+            app,
             " keys (from the active keymap) ",
             help_lines(app),
-            app.overlay_scroll,
         ),
         Mode::Rejected => {
             let lines = if app.rejected.is_empty() {
@@ -70,13 +81,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
             } else {
                 app.rejected.iter().map(|e| clean(&e.to_string())).collect()
             };
-            panel(
-                f,
-                area,
-                " rejected files and lines ",
-                lines,
-                app.overlay_scroll,
-            )
+            panel(f, area, app, " rejected files and lines ", lines)
         }
         Mode::Ephemeris => {
             let lines = match &app.ephemeris {
@@ -107,26 +112,20 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
                     v
                 }
             };
-            panel(f, area, " follow-up ephemeris ", lines, app.overlay_scroll)
+            panel(f, area, app, " follow-up ephemeris ", lines)
         }
         Mode::Plan => {
             let lines = match &app.plan {
                 None => vec!["planning…".to_string()],
                 Some(p) => super::planview::lines(p),
             };
-            panel(
-                f,
-                area,
-                " follow-up plan, next 24 h ",
-                lines,
-                app.overlay_scroll,
-            )
+            panel(f, area, app, " follow-up plan, next 24 h ", lines)
         }
         Mode::Origin => {
             // The panel is 90 % of the screen wide, less its borders.
             let width = area.width * 90 / 100;
             let lines = super::origin::lines(app, width.saturating_sub(2));
-            panel(f, area, " where it comes from ", lines, app.overlay_scroll)
+            panel(f, area, app, " where it comes from ", lines)
         }
         Mode::Filter | Mode::Note => {
             let r = Rect::new(
