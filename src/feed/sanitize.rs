@@ -2,6 +2,8 @@
 //! control characters are removed (a crafted tracklet id must not be able to repaint or retitle the
 //! observer's screen).
 
+use unicode_width::UnicodeWidthChar;
+
 /// Remove ANSI/VT escape sequences (CSI, OSC, DCS and two-byte ESC forms) and every C0/C1 control
 /// character and DEL; tabs become spaces.
 pub fn clean(s: &str) -> String {
@@ -20,6 +22,9 @@ pub fn clean(s: &str) -> String {
             // Invisible format characters (zero-width spaces and joiners, soft hyphen, word joiners,
             // marks and tags) make two ids that look alike differ, or one look like another.
             c if invisible(c) => {}
+            // Combining marks and other zero-width characters: the terminal draws them onto the
+            // previous cell, which the screen buffer does not know, and stale cells follow.
+            c if UnicodeWidthChar::width(c) == Some(0) => {}
             c => out.push(c),
         }
     }
@@ -42,7 +47,11 @@ fn invisible(c: char) -> bool {
 /// six hex digits of a fingerprint of the raw bytes, so that ids which differ only in what was removed
 /// stay distinct objects (and visibly altered) instead of merging into one.
 pub fn clean_id(raw: &str) -> String {
-    let c = clean(raw);
+    // Ids stand in fixed-width columns: a double-width character would push the row past its border.
+    let c: String = clean(raw)
+        .chars()
+        .map(|ch| if UnicodeWidthChar::width(ch) == Some(1) { ch } else { '?' })
+        .collect();
     if c == raw {
         return c;
     }
@@ -89,6 +98,23 @@ fn skip_string(chars: &mut std::iter::Peekable<std::str::Chars>) {
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn ids_are_one_cell_per_character_however_they_were_written() {
+        use unicode_width::UnicodeWidthStr;
+        for raw in ["K27De\u{301}x", "観測01", "K27D\u{200b}x09", "ＡＢＣ12"] {
+            let id = super::clean_id(raw);
+            assert_eq!(id.width(), id.chars().count(), "{raw:?} -> {id:?}");
+            assert!(id.contains('~'), "{raw:?} changed without a fingerprint: {id:?}");
+        }
+        assert_eq!(super::clean_id("K27Dx09"), "K27Dx09");
+    }
+
+    #[test]
+    fn combining_marks_are_dropped_from_display_text() {
+        assert_eq!(super::clean("e\u{301}te\u{300}"), "ete");
+        assert_eq!(super::clean("été"), "été");
+    }
+
     use super::clean;
 
     #[test]
