@@ -296,3 +296,22 @@ fn escape_in_the_filter_prompt_drops_the_filter() {
     assert_eq!(app.view.len(), all);
     assert!(app.filter.is_empty());
 }
+
+#[test]
+fn a_screen_smaller_than_80x24_says_so_instead_of_cutting_columns() {
+    let mut app = demo_app();
+    app.message = None;
+    check("too_small_60x20", &screen(&mut app, 60, 20));
+    let s = screen(&mut app, 79, 30);
+    assert!(s.contains("terminal too small: 79×30, needs 80×24"), "{s}");
+    let s = screen(&mut app, 80, 24);
+    assert!(!s.contains("too small"), "{s}");
+}
+
+#[test]
+fn main_screen_at_100x30_matches_its_snapshot() {
+    let mut app = demo_app();
+    app.on_key(key('g'));
+    app.message = None;
+    check("main_100x30", &screen(&mut app, 100, 30));
+}

@@ -5,8 +5,17 @@ use super::state::App;
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Direction, Layout};
 
+/// The smallest screen the console lays out (ids, score, P and status need 80 columns; the list, the
+/// orbit pane and the two text lines need 24 rows).
+pub const MIN_WIDTH: u16 = 80;
+pub const MIN_HEIGHT: u16 = 24;
+
 pub fn draw(f: &mut Frame, app: &mut App, theme: Theme) {
     let area = f.area();
+    if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
+        too_small(f, area);
+        return;
+    }
     let rows = Layout::default()
         .direction(Direction::Vertical)
         .constraints([
@@ -27,4 +36,17 @@ pub fn draw(f: &mut Frame, app: &mut App, theme: Theme) {
     residuals::draw(f, bottom[1], app, theme);
     status::draw_hints(f, rows[3], app, theme);
     overlay::draw(f, area, app, theme);
+}
+
+/// Instead of a layout that cuts ids and drops columns without saying so: the size needed, and that
+/// decisions and the feed carry on meanwhile.
+fn too_small(f: &mut Frame, area: ratatui::layout::Rect) {
+    let text = format!(
+        "terminal too small: {}×{}, needs {MIN_WIDTH}×{MIN_HEIGHT}. The feed is still being fitted; enlarge the window (Ctrl-C quits).",
+        area.width, area.height
+    );
+    f.render_widget(
+        ratatui::widgets::Paragraph::new(text).wrap(ratatui::widgets::Wrap { trim: true }),
+        area,
+    );
 }

@@ -50,7 +50,13 @@ pub fn clean_id(raw: &str) -> String {
     // Ids stand in fixed-width columns: a double-width character would push the row past its border.
     let c: String = clean(raw)
         .chars()
-        .map(|ch| if UnicodeWidthChar::width(ch) == Some(1) { ch } else { '?' })
+        .map(|ch| {
+            if UnicodeWidthChar::width(ch) == Some(1) {
+                ch
+            } else {
+                '?'
+            }
+        })
         .collect();
     if c == raw {
         return c;
@@ -104,7 +110,10 @@ mod tests {
         for raw in ["K27De\u{301}x", "観測01", "K27D\u{200b}x09", "ＡＢＣ12"] {
             let id = super::clean_id(raw);
             assert_eq!(id.width(), id.chars().count(), "{raw:?} -> {id:?}");
-            assert!(id.contains('~'), "{raw:?} changed without a fingerprint: {id:?}");
+            assert!(
+                id.contains('~'),
+                "{raw:?} changed without a fingerprint: {id:?}"
+            );
         }
         assert_eq!(super::clean_id("K27Dx09"), "K27Dx09");
     }
