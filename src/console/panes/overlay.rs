@@ -63,7 +63,32 @@ pub fn help_lines(app: &App) -> Vec<String> {
             action.describe()
         ));
     }
+    out.push(String::new());
+    out.extend(LEGEND.iter().map(|l| (*l).to_string()));
     out
+}
+
+/// What the marks on screen mean and how the list is ordered.
+const LEGEND: [&str; 9] = [
+    "[what the marks mean]",
+    "  order          usable fits first (by log10 odds unbound : bound), then poor fits, then failures",
+    "  odds ▲         P(unbound) ≥ 0.99 on a fit with no quality problem: a reason to follow up, not a discovery",
+    "  odds +∞ / -∞   one class got no weight at all: P is 1 or 0 only as far as the trial orbits reach",
+    "  odds >+999     the odds are written as a bound past a thousand decades",
+    "  e ± σ          σ from the samples behind P wherever the linear fit is not trusted",
+    "  (rng)          e from grid ranging: an interval, no σ",
+    "  x              in the residual strips: a position set aside (outlier or excluded by you)",
+    "  ^              in the residual strips: the position under the cursor",
+];
+
+#[cfg(test)]
+mod legend_tests {
+    #[test]
+    fn every_legend_line_fits_a_full_width_help_panel() {
+        for l in super::LEGEND {
+            assert!(l.chars().count() <= 140, "{l}");
+        }
+    }
 }
 
 pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {

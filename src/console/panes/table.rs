@@ -82,7 +82,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 _ => "FAIL",
             };
             let e = match (fit.e, fit.e_sigma) {
-                (Some(e), Some(s)) => format!("{e:.4}±{s:.4}"),
+                (Some(e), Some(s)) => value_pm(e, s),
                 (Some(e), None) => format!("{e:.3} (rng)"),
                 _ => "-".into(),
             };
@@ -146,4 +146,47 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .header(Row::new(header_cells).style(theme.strong()))
         .block(Block::default().borders(Borders::ALL).title(title));
     f.render_widget(table, area);
+}
+
+/// "e±σ" in at most 13 cells: four decimals while both are below 10, fewer as they grow, and the
+/// σ written as a power of ten past 9999 (a 23-digit number would push the row over its border).
+pub fn value_pm(v: f64, s: f64) -> String {
+    let big = v.abs().max(s.abs());
+    let d = if big < 10.0 {
+        4
+    } else if big < 100.0 {
+        2
+    } else if big < 1000.0 {
+        1
+    } else {
+        0
+    };
+    let text = format!("{v:.d$}±{s:.d$}");
+    if text.chars().count() <= 13 {
+        text
+    } else {
+        format!("{v:.1e}±{s:.0e}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::value_pm;
+
+    #[test]
+    fn value_and_sigma_fit_their_column_at_every_size() {
+        for (v, s) in [
+            (0.1234, 0.0012),
+            (6.8452, 10.267),
+            (123.4, 56.7),
+            (2.1, 3.0e22),
+            (-1.0e9, 1.0e8),
+        ] {
+            let t = value_pm(v, s);
+            assert!(t.chars().count() <= 13, "{v} {s}: {t}");
+            assert!(t.contains('±'), "{t}");
+        }
+        assert_eq!(value_pm(0.1234, 0.0012), "0.1234±0.0012");
+        assert_eq!(value_pm(6.8452, 10.267), "6.85±10.27");
+    }
 }
