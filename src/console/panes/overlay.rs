@@ -81,16 +81,6 @@ const LEGEND: [&str; 9] = [
     "  ^              in the residual strips: the position under the cursor",
 ];
 
-#[cfg(test)]
-mod legend_tests {
-    #[test]
-    fn every_legend_line_fits_a_full_width_help_panel() {
-        for l in super::LEGEND {
-            assert!(l.chars().count() <= 140, "{l}");
-        }
-    }
-}
-
 pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
     match app.mode {
         Mode::Help => panel(
@@ -172,5 +162,15 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
             );
         }
         Mode::List => {}
+    }
+}
+
+#[cfg(test)]
+mod legend_tests {
+    #[test]
+    fn every_legend_line_fits_a_full_width_help_panel() {
+        for l in super::LEGEND {
+            assert!(l.chars().count() <= 140, "{l}");
+        }
     }
 }
