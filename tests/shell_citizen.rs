@@ -66,3 +66,18 @@ fn the_demo_runs_from_the_built_in_night_and_removes_its_folder() {
     let left: Vec<_> = std::fs::read_dir(tmp.path()).unwrap().collect();
     assert!(left.is_empty(), "left behind: {left:?}");
 }
+
+#[test]
+fn colour_is_chosen_with_color_auto_always_never() {
+    for cmd in ["watch", "demo"] {
+        let help = bin().args([cmd, "--help"]).output().unwrap();
+        let text = String::from_utf8(help.stdout).unwrap();
+        assert!(text.contains("--color"), "{cmd}: {text}");
+        assert!(
+            text.contains("always") && text.contains("never"),
+            "{cmd}: {text}"
+        );
+        let bad = bin().args([cmd, "--color", "rainbow"]).output().unwrap();
+        assert_eq!(bad.status.code(), Some(2), "{cmd}");
+    }
+}

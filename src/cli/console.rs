@@ -21,6 +21,7 @@ pub struct ConsoleConfig {
     pub watch: WatchOptions,
     pub threads: usize,
     pub population: Arc<interloper::fitting::population::PopulationModel>,
+    pub theme: Theme,
 }
 
 pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
@@ -103,7 +104,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         &mut rt,
         &rx,
         &stop,
-        Theme::from_env(),
+        cfg.theme,
         |_| {},
     );
     ratatui::restore();

@@ -29,6 +29,8 @@ pub struct DemoArgs {
     pub json: bool,
     #[command(flatten)]
     pub population: super::inputs::PopulationArgs,
+    #[command(flatten)]
+    pub color: super::inputs::ColorArgs,
 }
 
 pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
@@ -81,6 +83,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
         args.keymap.clone(),
         40.0 / args.speed + 10.0,
         args.population.clone(),
+        args.color.clone(),
     );
     let result = run_with(&watch, stop);
     // The replay folder (and the demo's journal, unless --state put it elsewhere) goes with the demo.

@@ -123,3 +123,29 @@ pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake 
         },
     }
 }
+
+/// When the console may use colour.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum ColorChoice {
+    /// Colour unless NO_COLOR is set.
+    Auto,
+    Always,
+    Never,
+}
+
+#[derive(Debug, Clone, clap::Args)]
+pub struct ColorArgs {
+    /// Colour in the console (nothing is said by colour alone).
+    #[arg(long, value_enum, default_value_t = ColorChoice::Auto)]
+    pub color: ColorChoice,
+}
+
+impl ColorArgs {
+    pub fn theme(&self) -> interloper::console::panes::Theme {
+        match self.color {
+            ColorChoice::Auto => interloper::console::panes::Theme::from_env(),
+            ColorChoice::Always => interloper::console::panes::Theme { color: true },
+            ColorChoice::Never => interloper::console::panes::Theme { color: false },
+        }
+    }
+}

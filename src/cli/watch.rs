@@ -22,6 +22,8 @@ pub struct WatchArgs {
     pub sites: SiteArgs,
     #[command(flatten)]
     pub population: PopulationArgs,
+    #[command(flatten)]
+    pub color: super::inputs::ColorArgs,
     /// Where the decision journal lives (default: the platform's state directory).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
@@ -92,6 +94,7 @@ impl WatchArgs {
         keymap: Option<PathBuf>,
         idle: f64,
         population: PopulationArgs,
+        color: super::inputs::ColorArgs,
     ) -> WatchArgs {
         WatchArgs {
             sites: SiteArgs {
@@ -99,6 +102,7 @@ impl WatchArgs {
                 site_codes: None,
             },
             population,
+            color,
             state: Some(state),
             headless,
             json,
@@ -167,6 +171,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 watch: opts,
                 threads,
                 population: args.population.load()?,
+                theme: args.color.theme(),
             },
             stop,
         );
