@@ -75,16 +75,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
             }
         }
     });
-    let watch = WatchArgs::for_dir(
-        incoming,
-        state,
-        args.headless,
-        args.json,
-        args.keymap.clone(),
-        40.0 / args.speed + 10.0,
-        args.population.clone(),
-        args.color.clone(),
-    );
+    let watch = WatchArgs::for_demo(incoming, state, args, 40.0 / args.speed + 10.0);
     let result = run_with(&watch, stop);
     // The replay folder (and the demo's journal, unless --state put it elsewhere) goes with the demo.
     match std::fs::remove_dir_all(&root) {

@@ -86,31 +86,28 @@ impl Out {
 
 impl WatchArgs {
     /// Arguments for watching `dir` (the demo's replay folder).
-    pub fn for_dir(
+    /// The watcher the demo runs on its replay folder, with the demo's own options.
+    pub fn for_demo(
         dir: PathBuf,
         state: PathBuf,
-        headless: bool,
-        json: bool,
-        keymap: Option<PathBuf>,
+        demo: &super::demo::DemoArgs,
         idle: f64,
-        population: PopulationArgs,
-        color: super::inputs::ColorArgs,
     ) -> WatchArgs {
         WatchArgs {
             sites: SiteArgs {
                 sites: None,
                 site_codes: None,
             },
-            population,
-            color,
+            population: demo.population.clone(),
+            color: demo.color.clone(),
             state: Some(state),
-            headless,
-            json,
+            headless: demo.headless,
+            json: demo.json,
             poll: false,
             settle_ms: 500,
-            stop_after_idle: headless.then_some(idle),
+            stop_after_idle: demo.headless.then_some(idle),
             threads: None,
-            keymap,
+            keymap: demo.keymap.clone(),
             dir,
         }
     }
