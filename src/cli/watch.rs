@@ -85,7 +85,6 @@ impl Out {
 }
 
 impl WatchArgs {
-    /// Arguments for watching `dir` (the demo's replay folder).
     /// The watcher the demo runs on its replay folder, with the demo's own options.
     pub fn for_demo(
         dir: PathBuf,
