@@ -25,7 +25,7 @@ pub const SUN_CAUTION_ELONG_DEG: f64 = 45.0;
 pub const REGION_SIGMA: f64 = 3.0;
 /// Weight fraction inside a sampled region (the 2-D equivalent of the 3σ ellipse).
 pub const REGION_FRACTION: f64 = 0.989;
-/// H–G slope parameter assumed (Bowell et al. 1989 default).
+/// H–G slope parameter assumed (the usual default of the H–G system; from memory).
 pub const SLOPE_G: f64 = 0.15;
 
 /// One ephemeris line (the `ephem --json` record).
@@ -59,7 +59,7 @@ pub struct EphemerisPoint {
     pub sky: SkyFields,
 }
 
-/// H–G phase function (Bowell et al. 1989, Asteroids II, 524): 2.5 log₁₀[(1 − G)Φ₁ + GΦ₂] term.
+/// H–G phase function: the 2.5 log₁₀[(1 − G)Φ₁ + GΦ₂] term of the H–G magnitude system.
 pub fn hg_phase_term(phase_rad: f64, g: f64) -> f64 {
     let t = (phase_rad / 2.0).tan();
     let phi1 = (-3.33 * t.powf(0.63)).exp();
@@ -339,7 +339,7 @@ mod tests {
 
     #[test]
     fn hg_magnitudes_match_the_worked_values() {
-        // V = H + 5 log₁₀(rΔ) − 2.5 log₁₀[(1−G)Φ₁ + GΦ₂] (Bowell et al. 1989); the expected values were
+        // V = H + 5 log₁₀(rΔ) − 2.5 log₁₀[(1−G)Φ₁ + GΦ₂] (the H–G system); the expected values were
         // recomputed independently in double precision: 16.5051, 17.5048, 20.2361.
         assert!((hg_magnitude(15.0, 0.15, 2.0, 1.0, 0.0) - 16.5051).abs() < 1e-4);
         assert!((hg_magnitude(15.0, 0.15, 2.0, 1.0, 20.0 * DEG) - 17.5048).abs() < 1e-4);

@@ -124,7 +124,8 @@ pub struct LsqFit {
     pub chi2: f64,
     /// O − C in (RA·cos Dec, Dec), radians, for every observation (used or not).
     pub residuals: Vec<[f64; 2]>,
-    /// Per-observation χ² of Carpino et al. (with the fit's own uncertainty removed or added).
+    /// Standardised per-observation χ² (with the fit's own uncertainty removed for used points, added
+    /// for rejected ones).
     pub obs_chi2: Vec<f64>,
     pub used: Vec<bool>,
     pub iterations: usize,
