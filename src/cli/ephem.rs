@@ -2,10 +2,9 @@
 //! time range: position, rates, brightness, altitude, observability and the uncertainty region.
 
 use super::fit::fit_all_default;
-use super::inputs::{SiteArgs, expand, read_file};
+use super::inputs::SiteArgs;
 use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
-use interloper::feed::tracklets::{Limits, merge};
 use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
 use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
 use interloper::physics::observe::ObserverModel;
@@ -227,18 +226,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     if n > MAX_ROWS {
         crate::usage!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
     }
-    let limits = Limits::default();
-    let mut tracklets = Vec::new();
-    let mut input_errors = 0;
-    for f in expand(&args.paths)? {
-        let intake = read_file(&f, &sites, &limits);
-        for e in &intake.errors {
-            eprintln!("rejected: {e}");
-        }
-        input_errors += intake.errors.len();
-        tracklets.extend(intake.tracklets);
-    }
-    let mut tracklets = merge(tracklets);
+    let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
     if !args.objects.is_empty() {
         tracklets.retain(|t| args.objects.contains(&t.object));
     }

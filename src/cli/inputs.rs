@@ -149,3 +149,23 @@ impl ColorArgs {
         }
     }
 }
+
+/// Every tracklet in `paths` (files, or directories of them), each rejected file or line reported on
+/// stderr, merged by object; with the number of rejections.
+pub fn read_tracklets(
+    paths: &[PathBuf],
+    sites: &SiteTable,
+) -> anyhow::Result<(Vec<interloper::fitting::input::Tracklet>, usize)> {
+    let limits = Limits::default();
+    let mut tracklets = Vec::new();
+    let mut input_errors = 0;
+    for f in expand(paths)? {
+        let intake = read_file(&f, sites, &limits);
+        for e in &intake.errors {
+            eprintln!("rejected: {e}");
+        }
+        input_errors += intake.errors.len();
+        tracklets.extend(intake.tracklets);
+    }
+    Ok((interloper::feed::tracklets::merge(tracklets), input_errors))
+}

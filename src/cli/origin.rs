@@ -1,9 +1,8 @@
 //! `interloper origin`: fit the given tracklets and print where each unbound candidate comes from
 //! (original and future orbits, arrival, Galactic velocity, kinematic population, Galactic orbit).
 
-use super::inputs::{PopulationArgs, SiteArgs, expand, read_file};
+use super::inputs::{PopulationArgs, SiteArgs};
 use interloper::feed::sanitize::clean;
-use interloper::feed::tracklets::{Limits, merge};
 use interloper::fitting::batch::fit_all;
 use interloper::fitting::fit::{FitOptions, FitResult};
 use interloper::fitting::origin::{MAX_SAMPLES, MIN_PROBABILITY, OriginOptions};
@@ -111,18 +110,7 @@ fn text(r: &FitResult) -> String {
 pub fn run(args: &OriginArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
     let options = args.options()?;
-    let limits = Limits::default();
-    let mut tracklets = Vec::new();
-    let mut input_errors = 0;
-    for f in expand(&args.paths)? {
-        let intake = read_file(&f, &sites, &limits);
-        for e in &intake.errors {
-            eprintln!("rejected: {e}");
-        }
-        input_errors += intake.errors.len();
-        tracklets.extend(intake.tracklets);
-    }
-    let mut tracklets = merge(tracklets);
+    let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
     if !args.objects.is_empty() {
         tracklets.retain(|t| args.objects.contains(&t.object));
         if tracklets.is_empty() {

@@ -3,10 +3,9 @@
 
 use super::ephem::parse_step;
 use super::fit::fit_all_default;
-use super::inputs::{SiteArgs, expand, read_file};
+use super::inputs::SiteArgs;
 use interloper::feed::sanitize::clean;
 use interloper::feed::sites::SiteTable;
-use interloper::feed::tracklets::{Limits, merge};
 use interloper::fitting::ephemeris::tracklet_h;
 use interloper::fitting::plan::{PlanOptions, PlanSite, plan_with_h};
 use interloper::physics::observe::ObserverModel;
@@ -137,18 +136,7 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
     let table = args.sites.load()?;
     let sites = plan_sites(args, &table)?;
     let opts = options(args)?;
-    let limits = Limits::default();
-    let mut tracklets = Vec::new();
-    let mut input_errors = 0;
-    for f in expand(&args.paths)? {
-        let intake = read_file(&f, &table, &limits);
-        for e in &intake.errors {
-            eprintln!("rejected: {e}");
-        }
-        input_errors += intake.errors.len();
-        tracklets.extend(intake.tracklets);
-    }
-    let mut tracklets = merge(tracklets);
+    let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &table)?;
     if !args.objects.is_empty() {
         tracklets.retain(|t| args.objects.contains(&t.object));
         if tracklets.is_empty() {
