@@ -2,7 +2,7 @@
 
 use super::inputs::{PopulationArgs, SiteArgs, expand, read_file};
 use interloper::feed::tracklets::Limits;
-use interloper::fitting::batch::fit_all;
+use interloper::fitting::batch::{fit_all, fit_all_observed};
 use interloper::fitting::fit::{FitOptions, MethodChoice, PerturbChoice, rank};
 use std::io::Write;
 use std::path::PathBuf;
@@ -35,6 +35,10 @@ pub struct FitArgs {
     /// U,V,W in km/s (default: the population model's).
     #[arg(long, value_name = "U,V,W")]
     pub solar_motion: Option<String>,
+    /// Fit only share K of N of the objects (numbered from 1): N runs with 1/N … N/N together give
+    /// exactly the records of one unsharded run. Every run reads all inputs.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<super::shard::Shard>,
     /// Worker threads (default: the machine's cores).
     #[arg(long)]
     pub threads: Option<usize>,
@@ -107,11 +111,14 @@ pub fn fit_all_default(
 pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
     let options = args.options()?;
-    let files = expand(&args.paths)?;
+    let inputs = expand(&args.paths)?;
+    if let Some(note) = inputs.skipped_note() {
+        eprintln!("{note}");
+    }
     let limits = Limits::default();
     let mut tracklets = Vec::new();
     let mut input_errors = 0;
-    for f in &files {
+    for f in &inputs.files {
         let intake = read_file(f, &sites, &limits);
         for e in &intake.errors {
             eprintln!("rejected: {e}");
@@ -119,11 +126,14 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
         input_errors += intake.errors.len();
         tracklets.extend(intake.tracklets);
     }
-    let tracklets = interloper::feed::tracklets::merge(tracklets);
+    let mut tracklets = interloper::feed::tracklets::merge(tracklets);
+    if let Some(shard) = args.shard {
+        tracklets.retain(|t| shard.holds(&t.object));
+    }
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    let mut results = fit_all(tracklets, &options, threads);
+    let mut results = with_progress(tracklets, &options, threads);
     rank(&mut results);
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
@@ -162,4 +172,29 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     out.flush()?;
     let failed = results.iter().filter(|r| r.status == "failed").count();
     Ok(if failed > 0 || input_errors > 0 { 1 } else { 0 })
+}
+
+/// Fewer tracklets than this finish before a progress bar would be worth drawing.
+const PROGRESS_FROM: usize = 200;
+
+/// Fit in parallel, with a progress bar on stderr when stderr is a terminal and the batch is long
+/// (nothing otherwise: a pipeline's log stays clean).
+fn with_progress(
+    tracklets: Vec<interloper::fitting::input::Tracklet>,
+    options: &FitOptions,
+    threads: usize,
+) -> Vec<interloper::fitting::fit::FitResult> {
+    use std::io::IsTerminal;
+    if tracklets.len() < PROGRESS_FROM || !std::io::stderr().is_terminal() {
+        return fit_all(tracklets, options, threads);
+    }
+    let bar = indicatif::ProgressBar::new(tracklets.len() as u64);
+    if let Ok(style) = indicatif::ProgressStyle::with_template(
+        "fitting {pos}/{len} tracklets [{bar:30}] {elapsed} so far, about {eta} left",
+    ) {
+        bar.set_style(style.progress_chars("=> "));
+    }
+    let results = fit_all_observed(tracklets, options, threads, &|n| bar.set_position(n as u64));
+    bar.finish_and_clear();
+    results
 }

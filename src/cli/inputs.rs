@@ -62,23 +62,93 @@ impl PopulationArgs {
     }
 }
 
-/// Expand directories into their visible regular files (sorted), keep files as given.
-pub fn expand(paths: &[PathBuf]) -> anyhow::Result<Vec<PathBuf>> {
-    let mut out = Vec::new();
+/// The files named on the command line, directories walked.
+#[derive(Debug, Default)]
+pub struct Inputs {
+    /// Files to read, in a stable order (directories sorted, depth first).
+    pub files: Vec<PathBuf>,
+    /// Files met inside directories that are clearly not tracklet files, by extension.
+    pub skipped: std::collections::BTreeMap<String, usize>,
+}
+
+impl Inputs {
+    /// One line for stderr about what was skipped, if anything was.
+    pub fn skipped_note(&self) -> Option<String> {
+        let n: usize = self.skipped.values().sum();
+        (n > 0).then(|| {
+            let kinds: Vec<String> = self
+                .skipped
+                .iter()
+                .map(|(ext, k)| format!("{k} .{ext}"))
+                .collect();
+            let what = if n == 1 {
+                "file that is not a tracklet file"
+            } else {
+                "files that are not tracklet files"
+            };
+            format!("skipped {n} {what} ({})", kinds.join(", "))
+        })
+    }
+}
+
+/// Extensions of files that sit beside tracklets (truth tables, configs, notes, images, archives) and
+/// are never tracklets; skipped quietly inside directories. A file named on the command line is always
+/// read, whatever its name.
+const NOT_TRACKLETS: &[&str] = &[
+    "json", "jsonl", "toml", "yaml", "yml", "md", "rst", "html", "htm", "pdf", "png", "jpg",
+    "jpeg", "gif", "svg", "fits", "fit", "fz", "gz", "bz2", "xz", "zst", "zip", "tar", "py", "rs",
+    "sh", "log", "lock",
+];
+
+/// Deepest directory level walked (a guard against pathological trees).
+const MAX_DEPTH: usize = 64;
+
+/// Walk the given paths: files are kept as given; directories are walked recursively (sorted; hidden
+/// entries and symbolic links to directories are not followed). A path that does not exist is a usage
+/// error.
+pub fn expand(paths: &[PathBuf]) -> anyhow::Result<Inputs> {
+    let mut out = Inputs::default();
     for p in paths {
         if p.is_dir() {
-            let mut v: Vec<PathBuf> = std::fs::read_dir(p)
-                .with_context(|| format!("listing {}", p.display()))?
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .filter(|f| f.is_file() && !hidden(f))
-                .collect();
-            v.sort();
-            out.extend(v);
+            walk(p, 0, &mut out)?;
+        } else if p.exists() || p.is_symlink() {
+            out.files.push(p.clone());
         } else {
-            out.push(p.clone());
+            crate::usage!("no such file or directory: {}", p.display());
         }
     }
     Ok(out)
+}
+
+fn walk(dir: &Path, depth: usize, out: &mut Inputs) -> anyhow::Result<()> {
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(dir)
+        .with_context(|| format!("listing {}", dir.display()))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|f| !hidden(f))
+        .collect();
+    entries.sort();
+    for e in entries {
+        let link = e.is_symlink();
+        if e.is_dir() {
+            if !link && depth < MAX_DEPTH {
+                walk(&e, depth + 1, out)?;
+            }
+            continue;
+        }
+        let ext = e
+            .extension()
+            .and_then(|x| x.to_str())
+            .map(str::to_ascii_lowercase);
+        match ext {
+            Some(x) if NOT_TRACKLETS.contains(&x.as_str()) => {
+                *out.skipped.entry(x).or_default() += 1;
+            }
+            // Everything else is offered to the reader, which reports what it cannot read
+            // (special files included) with a reason.
+            _ => out.files.push(e),
+        }
+    }
+    Ok(())
 }
 
 fn hidden(p: &Path) -> bool {
@@ -159,7 +229,11 @@ pub fn read_tracklets(
     let limits = Limits::default();
     let mut tracklets = Vec::new();
     let mut input_errors = 0;
-    for f in expand(paths)? {
+    let inputs = expand(paths)?;
+    if let Some(note) = inputs.skipped_note() {
+        eprintln!("{note}");
+    }
+    for f in inputs.files {
         let intake = read_file(&f, sites, &limits);
         for e in &intake.errors {
             eprintln!("rejected: {e}");

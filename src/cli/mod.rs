@@ -9,6 +9,7 @@ pub mod journal;
 pub mod origin;
 pub mod plan;
 pub mod plantext;
+pub mod shard;
 pub mod shell;
 pub mod watch;
 

@@ -10,6 +10,18 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Fit every tracklet on `threads` workers; results come back in input order.
 pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> Vec<FitResult> {
+    fit_all_observed(tracklets, opts, threads, &|_| {})
+}
+
+/// [`fit_all`], telling `done` after each finished fit how many are finished so far (from any worker,
+/// so it must be cheap and thread-safe: a progress display).
+pub fn fit_all_observed(
+    tracklets: Vec<Tracklet>,
+    opts: &FitOptions,
+    threads: usize,
+    done: &(dyn Fn(usize) + Sync),
+) -> Vec<FitResult> {
+    let finished = AtomicUsize::new(0);
     let threads = threads.max(1).min(tracklets.len().max(1));
     let next = AtomicUsize::new(0);
     let results: Mutex<Vec<Option<FitResult>>> = Mutex::new(vec![None; tracklets.len()]);
@@ -28,6 +40,7 @@ pub fn fit_all(tracklets: Vec<Tracklet>, opts: &FitOptions, threads: usize) -> V
                     if let Ok(mut g) = results.lock() {
                         g[i] = Some(r);
                     }
+                    done(finished.fetch_add(1, Ordering::Relaxed) + 1);
                 }
             });
         }
