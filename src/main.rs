@@ -7,7 +7,15 @@ use clap::Parser;
 
 fn main() {
     let args = cli::Cli::parse();
+    match cli::config::Config::load(args.config.as_deref()) {
+        Ok(c) => cli::config::install(c),
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            std::process::exit(2);
+        }
+    }
     let code = match &args.command {
+        cli::Command::Config(a) => cli::config_show::run(a),
         cli::Command::Fit(a) => cli::fit::run(a),
         cli::Command::Watch(a) => cli::watch::run(a),
         cli::Command::Ephem(a) => cli::ephem::run(a),

@@ -130,9 +130,7 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     if let Some(shard) = args.shard {
         tracklets.retain(|t| shard.holds(&t.object));
     }
-    let threads = args
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let threads = args.threads.unwrap_or(super::config::get().threads.value);
     let mut results = with_progress(tracklets, &options, threads);
     rank(&mut results);
     let stdout = std::io::stdout();

@@ -18,9 +18,18 @@ pub struct SiteArgs {
 }
 
 impl SiteArgs {
+    /// The built-in sites, then the site codes and the site table (each from its flag, else from the
+    /// configuration file), with the configured default minimum altitude.
     pub fn load(&self) -> anyhow::Result<SiteTable> {
-        let mut t = SiteTable::builtin();
-        if let Some(p) = &self.site_codes {
+        let cfg = super::config::get();
+        let caps = interloper::fitting::conditions::Capabilities {
+            min_alt_deg: cfg.min_alt_deg.value,
+            ..Default::default()
+        };
+        let mut t = SiteTable::builtin_with(caps);
+        let site_codes = self.site_codes.as_ref().or(cfg.site_codes.value.as_ref());
+        let sites = self.sites.as_ref().or(cfg.sites.value.as_ref());
+        if let Some(p) = site_codes {
             let text =
                 std::fs::read_to_string(p).with_context(|| format!("reading {}", p.display()))?;
             let (_, bad) = t.load_site_codes(&p.display().to_string(), &text);
@@ -28,7 +37,7 @@ impl SiteArgs {
                 eprintln!("warning: {b}");
             }
         }
-        if let Some(p) = &self.sites {
+        if let Some(p) = sites {
             let text =
                 std::fs::read_to_string(p).with_context(|| format!("reading {}", p.display()))?;
             t.load_toml(&p.display().to_string(), &text)?;
@@ -51,7 +60,8 @@ impl PopulationArgs {
         &self,
     ) -> anyhow::Result<std::sync::Arc<interloper::fitting::population::PopulationModel>> {
         use interloper::fitting::population::{ModelFile, PopulationModel};
-        let Some(p) = &self.population else {
+        let configured = super::config::get().population.value.as_ref();
+        let Some(p) = self.population.as_ref().or(configured) else {
             return Ok(interloper::fitting::fit::builtin_population());
         };
         let text = std::fs::read_to_string(p)

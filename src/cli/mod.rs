@@ -1,5 +1,7 @@
 //! The command line: argument definitions and one module per subcommand. Only glue lives here.
 
+pub mod config;
+pub mod config_show;
 pub mod console;
 pub mod demo;
 pub mod ephem;
@@ -39,6 +41,10 @@ macro_rules! usage {
 #[derive(Debug, Parser)]
 #[command(name = "interloper", version, about)]
 pub struct Cli {
+    /// Configuration file (default: $INTERLOPER_CONFIG, else config.toml in the platform's
+    /// configuration directory; `interloper config` shows which).
+    #[arg(long, global = true, value_name = "FILE")]
+    pub config: Option<std::path::PathBuf>,
     #[command(subcommand)]
     pub command: Command,
 }
@@ -57,6 +63,8 @@ pub enum Command {
     Origin(origin::OriginArgs),
     /// Watch a directory: fit every tracklet file as it arrives.
     Watch(watch::WatchArgs),
+    /// Show the effective configuration and where each value came from.
+    Config(config_show::ConfigArgs),
     /// Write a shell completion script (bash, zsh, fish, elvish, powershell) to standard output.
     Completions(shell::CompletionsArgs),
     /// Write the manual page (roff) to standard output, or every page into a directory.

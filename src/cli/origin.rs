@@ -124,9 +124,7 @@ pub fn run(args: &OriginArgs) -> anyhow::Result<i32> {
             );
         }
     }
-    let threads = args
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let threads = args.threads.unwrap_or(super::config::get().threads.value);
     let chosen = !args.objects.is_empty();
     let all = fit_all(tracklets, &options, threads);
     let failed = all.iter().filter(|r| r.status == "failed").count();

@@ -149,21 +149,22 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         poll: args.poll,
         ..WatchOptions::default()
     };
-    let threads = args
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    let threads = args.threads.unwrap_or(super::config::get().threads.value);
     if !args.headless {
         let state = args
             .state
             .clone()
-            .unwrap_or_else(interloper::feed::journal::default_state_dir);
+            .unwrap_or_else(|| super::config::get().state_dir.value.clone());
         std::fs::create_dir_all(&state)?;
         return super::console::open(
             super::console::ConsoleConfig {
                 dir: args.dir.clone(),
                 sites,
                 state,
-                keymap: args.keymap.clone(),
+                keymap: args
+                    .keymap
+                    .clone()
+                    .or_else(|| super::config::get().keymap.value.clone()),
                 watch: opts,
                 threads,
                 population: args.population.load()?,

@@ -20,25 +20,39 @@ pub struct Site {
 #[derive(Debug, Clone, Default)]
 pub struct SiteTable {
     sites: HashMap<String, Site>,
+    /// Capabilities of a site whose entry does not state its own.
+    defaults: Capabilities,
 }
 
-// Extra fields (a comment, an instrument) are tolerated: a site table is shared between tools.
+// Unknown keys are refused with their line: a misspelt key (`alt` for `altitude_m`) would otherwise put
+// a site silently at sea level. Free text has its own key, `notes`.
 #[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
 struct SiteFile {
     #[serde(default)]
     site: Vec<SiteEntry>,
 }
 
 #[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
 struct SiteEntry {
     code: String,
     #[serde(default)]
     name: String,
+    /// Free text (instrument, contact): kept out of every computation.
+    #[serde(default, rename = "notes")]
+    _notes: Option<String>,
     #[serde(alias = "longitude", alias = "lon_deg")]
     longitude_deg: f64,
     #[serde(alias = "latitude", alias = "lat_deg")]
     latitude_deg: Option<f64>,
-    #[serde(alias = "altitude", alias = "height_m", alias = "elevation_m")]
+    #[serde(
+        alias = "altitude",
+        alias = "height_m",
+        alias = "elevation_m",
+        alias = "alt_m",
+        alias = "elevation"
+    )]
     altitude_m: Option<f64>,
     #[serde(
         alias = "rho_cos",
@@ -71,7 +85,16 @@ pub const DEMO_SITES: &str = include_str!("demo_sites.toml");
 impl SiteTable {
     /// The built-in demo sites.
     pub fn builtin() -> SiteTable {
-        let mut t = SiteTable::default();
+        SiteTable::builtin_with(Capabilities::default())
+    }
+
+    /// The built-in demo sites, with `defaults` for every capability a site (built-in or loaded
+    /// later) does not state itself.
+    pub fn builtin_with(defaults: Capabilities) -> SiteTable {
+        let mut t = SiteTable {
+            sites: HashMap::new(),
+            defaults,
+        };
         // The embedded table is part of the program and tested; a failure here is a build defect.
         if let Ok(n) = t.load_toml("<built-in demo sites>", DEMO_SITES) {
             debug_assert!(n > 0);
@@ -150,7 +173,8 @@ impl SiteTable {
                     format!("{what}: longitude {} is not an angle", s.longitude_deg),
                 ));
             }
-            let caps = capabilities(&s).map_err(|r| err(0, format!("{what}: {r}")))?;
+            let caps =
+                capabilities(&s, &self.defaults).map_err(|r| err(0, format!("{what}: {r}")))?;
             self.sites.insert(
                 code.clone(),
                 Site {
@@ -203,7 +227,7 @@ impl SiteTable {
                                 rho_cos_phi: c,
                                 rho_sin_phi: s,
                             },
-                            caps: Capabilities::default(),
+                            caps: self.defaults,
                         },
                     );
                     n += 1;
@@ -227,8 +251,7 @@ impl SiteTable {
 }
 
 /// The optional capability fields of a site entry, checked, with defaults for the missing ones.
-fn capabilities(s: &SiteEntry) -> Result<Capabilities, String> {
-    let d = Capabilities::default();
+fn capabilities(s: &SiteEntry, d: &Capabilities) -> Result<Capabilities, String> {
     let pick = |v: Option<f64>, def: f64, name: &str, ok: &dyn Fn(f64) -> bool| match v {
         None => Ok(def),
         Some(x) if x.is_finite() && ok(x) => Ok(x),
@@ -280,14 +303,38 @@ mod tests {
             .load_toml("s.toml", "[[site]]\ncode = \"AB1\"\nlongtude_deg = 1\n")
             .unwrap_err();
         assert!(e.reason.contains("longitude_deg"), "{e}");
-        // Extra fields are tolerated; parallax constants have common aliases.
-        let n = t
+        // Unknown keys are refused with their line; free text goes under `notes`; parallax constants
+        // and altitude have common aliases.
+        let e = t
             .load_toml(
                 "s.toml",
                 "[[site]]\ncode = \"AB2\"\nlongitude_deg = 10\nrho_cos = 0.8\nrho_sin = 0.6\ncomment = \"x\"\n",
             )
+            .unwrap_err();
+        assert_eq!(e.line, 6, "{e}");
+        assert!(e.reason.contains("unknown field `comment`"), "{e}");
+        let n = t
+            .load_toml(
+                "s.toml",
+                "[[site]]\ncode = \"AB2\"\nlongitude_deg = 10\nrho_cos = 0.8\nrho_sin = 0.6\nnotes = \"x\"\n",
+            )
             .unwrap();
         assert_eq!(n, 1);
+    }
+
+    #[test]
+    fn altitude_aliases_in_common_use_are_accepted() {
+        for key in ["alt_m", "elevation", "elevation_m", "height_m", "altitude"] {
+            let mut t = SiteTable::default();
+            let text = format!(
+                "[[site]]\ncode = \"AB4\"\nlongitude_deg = 10\nlatitude_deg = 20\n{key} = 2400\n"
+            );
+            t.load_toml("s.toml", &text).unwrap();
+            let GroundPosition::Geodetic { alt_m, .. } = t.get("AB4").unwrap().position else {
+                panic!("{key}: not geodetic");
+            };
+            assert_eq!(alt_m, 2400.0, "{key}");
+        }
     }
 
     #[test]
