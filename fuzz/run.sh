@@ -6,12 +6,13 @@ set -euo pipefail
 cd "$(dirname "$0")"
 secs=${1:-600}
 shift || true
-targets=${*:-ades_psv obs80 sites utc_time journal_replay}
+targets=${*:-ades_psv ades_xml obs80 sites utc_time journal_replay}
 export RUSTC_BOOTSTRAP=1
 command -v cargo-fuzz >/dev/null || cargo install cargo-fuzz
 for t in $targets; do
     seeds=$(mktemp -d)
     cp ../tests/corpus/malformed/* ../sample_feeds/demo_night/* "$seeds"/ 2>/dev/null || true
+    [ "$t" = ades_xml ] && for f in ../tests/corpus/malformed/xml_*; do tail -c +2 "$f" > "$seeds/seed_$(basename "$f")"; done
     mkdir -p corpus/$t artifacts/$t
     log=$(mktemp)
     cargo fuzz run -O "$t" corpus/$t "$seeds" -- -max_total_time="$secs" -rss_limit_mb=2048 \

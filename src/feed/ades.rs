@@ -133,7 +133,12 @@ pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
     (good, bad)
 }
 
-fn record(line: usize, cols: &[String], cells: &[&str]) -> Result<AdesRecord, (String, String)> {
+/// One record from named fields (a PSV line, or an XML record's elements): the checks both forms share.
+pub(super) fn record(
+    line: usize,
+    cols: &[String],
+    cells: &[&str],
+) -> Result<AdesRecord, (String, String)> {
     let get = |name: &str| -> Option<&str> {
         cols.iter()
             .position(|c| c == name)

@@ -2,6 +2,7 @@
 //! nothing of the console.
 
 pub mod ades;
+pub mod ades_xml;
 pub mod journal;
 pub mod obs80;
 pub mod sanitize;

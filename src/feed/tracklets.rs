@@ -79,6 +79,9 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
         }
     };
     let body = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // XML is read as a stream that stops at the observation limit itself; its line count says
+    // nothing about the number of records.
+    let xml = super::ades_xml::looks_like_xml(body);
     // Bound the work (and memory) before parsing: a file with more data lines than the observation
     // limit allows is refused from a count of its lines, without building a record for each.
     let data_lines = body
@@ -88,11 +91,12 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
             !t.is_empty() && !t.starts_with('#')
         })
         .count();
-    if data_lines
-        > limits
-            .max_observations
-            .saturating_mul(2)
-            .saturating_add(HEADER_ALLOWANCE)
+    if !xml
+        && data_lines
+            > limits
+                .max_observations
+                .saturating_mul(2)
+                .saturating_add(HEADER_ALLOWANCE)
     {
         return whole_file(
             file,
@@ -102,7 +106,9 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
             ),
         );
     }
-    let (records, mut errors) = if ades::looks_like_psv(body) {
+    let (records, mut errors) = if xml {
+        super::ades_xml::parse(file, body, limits.max_observations)
+    } else if ades::looks_like_psv(body) {
         ades::parse(file, body)
     } else if super::obs80::looks_like_obs80(body) {
         super::obs80::parse(file, body)
@@ -114,7 +120,8 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
     } else {
         return whole_file(
             file,
-            "format not recognised (neither an ADES PSV header line nor 80-column records)".into(),
+            "format not recognised (neither ADES XML, an ADES PSV header line nor 80-column records)"
+                .into(),
         );
     };
     if records.len() > limits.max_observations {

@@ -24,6 +24,16 @@ def o80(id_="     K27Dk01", kind="C", date="2027 02 26.12500", ra="08 02 00.00",
     return s.ljust(80) + "\n"
 
 
+def X(body):
+    return ('<?xml version="1.0" encoding="UTF-8"?>\n<ades version="2022">\n' + body + "</ades>\n").encode()
+
+
+def xrec(**kw):
+    f = {"trkSub": "K27Dk01", "mode": "CCD", "stn": "TV1", "obsTime": "2027-02-26T03:00:00.000Z",
+         "ra": "120.5", "dec": "+10.25", "rmsRA": "0.2", "rmsDec": "0.2", "mag": "20.1", "band": "G"}
+    f.update(kw)
+    return "<optical>" + "".join(f"<{k}>{v}</{k}>" for k, v in f.items()) + "</optical>\n"
+
 CASES = [
     ("empty.psv", b"", 0, "", "empty file"),
     ("comments_only.psv", b"# version=2022\n# nothing here\n", 0, "", "no observations in file"),
@@ -94,7 +104,20 @@ CASES = [
     ("obs80_no_site.txt", o80(stn="").encode(), 1, "78-80", "no site code"),
     ("obs80_long.txt", (o80().rstrip("\n") + "TRAILING TEXT\n").encode(), 1, "81", "where 80 are expected"),
     ("obs80_no_designation.txt", o80(id_="").encode(), 1, "1-12", "no designation"),
+    # ADES XML: the same checks and messages as PSV, with the line of the record.
+    ("xml_good.xml", X(xrec() + xrec(obsTime="2027-02-26T03:10:00.000Z", ra="120.51")), "OK", 2, ""),
+    ("xml_feb30.xml", X(xrec(obsTime="2027-02-30T03:00:00Z")), 3, "obsTime", "2027-02-30 is not a date"),
+    ("xml_ra360.xml", X(xrec(ra="360.0")), 3, "ra", "outside 0 ≤ RA < 360°"),
+    ("xml_unclosed.xml", b'<?xml version="1.0"?>\n<ades version="2022">\n<optical><stn>TV1</stn>\n</ades>\n', 4, "", "not well-formed XML"),
+    ("xml_doctype_bomb.xml", b'<?xml version="1.0"?>\n<!DOCTYPE ades [<!ENTITY a "aaaaaaaaaa"><!ENTITY b "&a;&a;&a;&a;&a;&a;&a;&a;&a;&a;">]>\n<ades version="2022"><optical><trkSub>&b;</trkSub></optical></ades>\n', 2, "", "document type declarations are not accepted"),
+    ("xml_unknown_entity.xml", X(xrec(trkSub="K27&x;01")), 3, "trkSub", "unknown entity '&x;'"),
+    ("xml_wrong_root.xml", b'<?xml version="1.0"?>\n<votable><optical/></votable>\n', 2, "", "root element is 'votable'"),
+    ("xml_radar.xml", X(b"<radar><permID>1</permID><obsTime>2027-02-26T03:00:00Z</obsTime></radar>\n".decode()), 3, "", "'radar' records are not used"),
+    ("xml_twice.xml", X(xrec().replace("<stn>TV1</stn>", "<stn>TV1</stn><stn>TV2</stn>")), 3, "stn", "element appears twice"),
+    ("xml_escape_in_id.xml", X(xrec(trkSub="K27&#x1b;[31mk01")), "OK", 1, ""),
+    ("xml_no_id.xml", X(xrec().replace("<trkSub>K27Dk01</trkSub>", "")), 3, "trkSub", "no permID, provID or trkSub"),
 ]
+
 
 
 def main():
