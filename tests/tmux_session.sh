@@ -63,7 +63,7 @@ state2=$(mktemp -d)
 tmux -L "$sock" new-session -d -s hup -x 100 -y 30 "echo \$\$ > $state2/pid; exec $bin demo --speed 10 --state $state2"
 tmux -L "$sock" set-option -t hup remain-on-exit on >/dev/null
 for _ in $(seq 1 40); do
-    [ -s "$state2/console.log" ] && break
+    cat "$state2"/interloper.*.log 2>/dev/null | grep -q "console opened" && break
     sleep 0.25
 done
 kill -HUP "$(cat "$state2/pid")"
@@ -72,6 +72,6 @@ for _ in $(seq 1 40); do
     sleep 0.25
 done
 [ "$(tmux -L "$sock" list-panes -t hup -F '#{pane_dead}')" = "1" ] || fail "SIGHUP did not end the console"
-grep -q "console closed" "$state2/console.log" || fail "the console did not log its close after SIGHUP"
+cat "$state2"/interloper.*.log | grep -q "console closed" || fail "the console did not log its close after SIGHUP"
 rm -rf "$state2"
 echo "tmux session test: passed"

@@ -5,10 +5,11 @@
 use interloper::console::panes::Theme;
 use interloper::console::runtime::{self, AppEvent};
 use interloper::console::state::App;
+use interloper::feed::sanitize::clean;
 use interloper::feed::sites::SiteTable;
 use interloper::feed::watcher::WatchOptions;
 use ratatui::crossterm::event::{self, Event, KeyEventKind};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::Duration;
@@ -37,31 +38,31 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         tx.clone(),
     )?;
     rt.set_population(cfg.population.clone());
-    log(
-        &cfg.state,
-        &format!("console opened on {}", cfg.dir.display()),
-    );
+    let log_warning = super::logging::init(&cfg.state, super::logging::Sink::FileOnly);
+    tracing::info!(dir = %clean(&cfg.dir.display().to_string()), "console opened");
     for w in &warnings {
-        log(&cfg.state, w);
+        tracing::warn!("{}", clean(w));
     }
     let mut app = App::new(keymap);
-    app.message = warning.or_else(|| warnings.first().cloned()).or_else(|| {
-        Some(format!(
-            "watching {} · decisions in {}",
-            interloper::feed::sanitize::clean(&cfg.dir.display().to_string()),
-            cfg.state.display()
-        ))
-    });
+    app.message = warning
+        .or(log_warning)
+        .or_else(|| warnings.first().cloned())
+        .or_else(|| {
+            Some(format!(
+                "watching {} · decisions in {}",
+                interloper::feed::sanitize::clean(&cfg.dir.display().to_string()),
+                cfg.state.display()
+            ))
+        });
     rt.replayed(&mut app, decisions);
     let stop_in = stop.clone();
-    let state_in = cfg.state.clone();
     let resumed = Arc::new(AtomicBool::new(false));
     signal_hook::flag::register(signal_hook::consts::SIGCONT, resumed.clone())?;
     std::thread::spawn(move || {
         // The terminal going away (end of file, an error reading it) ends the console: looping on
         // it would spin a core all night with nobody watching.
         let gone = |why: String| {
-            log(&state_in, &format!("terminal input ended ({why}): closing"));
+            tracing::warn!("terminal input ended ({}): closing", clean(&why));
             stop_in.store(true, Ordering::Relaxed);
         };
         while !stop_in.load(Ordering::Relaxed) {
@@ -110,7 +111,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     ratatui::restore();
     stop.store(true, Ordering::Relaxed);
     rt.shutdown();
-    log(&cfg.state, "console closed");
+    tracing::info!("console closed");
     result.map(|_| 0)
 }
 
@@ -138,21 +139,4 @@ fn reclaim_terminal() {
         terminal::EnterAlternateScreen,
         cursor::Hide
     );
-}
-
-/// The console never writes diagnostics to the screen it owns: they go to console.log in the state dir.
-fn log(state: &Path, line: &str) {
-    use std::io::Write;
-    if let Ok(mut f) = std::fs::OpenOptions::new()
-        .create(true)
-        .append(true)
-        .open(state.join("console.log"))
-    {
-        let _ = writeln!(
-            f,
-            "{} {}",
-            chrono::Utc::now().to_rfc3339(),
-            interloper::feed::sanitize::clean(line)
-        );
-    }
 }

@@ -8,6 +8,7 @@ pub mod ephem;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
+pub mod logging;
 pub mod origin;
 pub mod plan;
 pub mod plantext;
