@@ -34,7 +34,7 @@ fn rss_mb() -> f64 {
 
 fn demo_fit() -> interloper::fitting::fit::FitResult {
     let f = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("sample_feeds/demo_night/003_K27Dx09_n1.psv");
+        .join("sample_feeds/demo_night/003_qka2e7f_n1.psv");
     let t = read_bytes(
         "x",
         &std::fs::read(f).unwrap(),
@@ -54,7 +54,7 @@ fn benches(c: &mut Criterion) {
     let mut app = App::new(Keymap::builtin());
     for k in 0..10_000 {
         let mut f = base.clone();
-        f.object = format!("K27Dm{k:05}");
+        f.object = format!("qkm{k:05}");
         f.z_hyperbolic = Some(((k * 7919) % 1000) as f64 / 100.0 - 5.0);
         app.on_fit(1, f, 5);
     }
@@ -76,7 +76,7 @@ fn benches(c: &mut Criterion) {
     let state = tempfile::tempdir().unwrap();
     let src = std::fs::read_to_string(
         PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-            .join("sample_feeds/demo_night/003_K27Dx09_n1.psv"),
+            .join("sample_feeds/demo_night/003_qka2e7f_n1.psv"),
     )
     .unwrap();
     let stop = Arc::new(AtomicBool::new(false));
@@ -121,7 +121,7 @@ fn benches(c: &mut Criterion) {
     for k in 0..1000 {
         std::fs::write(
             watched.path().join(format!("m{k:04}.psv")),
-            src.replace("K27Dx09", &format!("K27Dm{k:04}")),
+            src.replace("qka2e7f", &format!("qkm{k:04}")),
         )
         .unwrap();
     }

@@ -82,7 +82,7 @@ fn a_site_table_named_in_the_config_is_used_and_a_flag_wins_over_it() {
     let dir = tempfile::tempdir().unwrap();
     let feed = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
     // A tracklet from a site that only the configured table knows.
-    let text = std::fs::read_to_string(feed.join("001_K27Db01_n1.psv"))
+    let text = std::fs::read_to_string(feed.join("001_qk0f3ra_n1.psv"))
         .unwrap()
         .replace("|TV2|", "|QQ5|");
     let trk = dir.path().join("t.psv");

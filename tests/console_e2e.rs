@@ -107,19 +107,19 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         .map(|e| e.unwrap().path())
         .collect();
     files.sort();
-    for who in ["K27Db01", "K27Dx09"] {
+    for who in ["qk0f3ra", "qka2e7f"] {
         for f in files.iter().filter(|f| f.to_string_lossy().contains(who)) {
             std::fs::copy(f, watched.path().join(f.file_name().unwrap())).unwrap();
             std::thread::sleep(Duration::from_millis(100));
         }
     }
     let s = wait_for(&seen, "both candidates, fully fitted", |s| {
-        s.used.iter().any(|(o, n, _)| o == "K27Dx09" && *n == 15)
-            && s.used.iter().any(|(o, n, _)| o == "K27Db01" && *n == 12)
+        s.used.iter().any(|(o, n, _)| o == "qka2e7f" && *n == 15)
+            && s.used.iter().any(|(o, n, _)| o == "qk0f3ra" && *n == 12)
     });
     assert_eq!(
         s.order.first().map(String::as_str),
-        Some("K27Dx09"),
+        Some("qka2e7f"),
         "ranked first: {:?}",
         s.order
     );
@@ -132,19 +132,19 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
     wait_for(&seen, "the decision", |s| {
         s.decided
             .iter()
-            .any(|(o, v)| o == "K27Dx09" && v == "pursue")
+            .any(|(o, v)| o == "qka2e7f" && v == "pursue")
     });
     let journal = std::fs::read_to_string(state.path().join("decisions.jsonl")).unwrap();
     assert!(
-        journal.contains("\"object\":\"K27Dx09\"") && journal.contains("\"verdict\":\"pursue\""),
+        journal.contains("\"object\":\"qka2e7f\"") && journal.contains("\"verdict\":\"pursue\""),
         "{journal}"
     );
-    let e_before = s.used.iter().find(|u| u.0 == "K27Dx09").unwrap().2;
+    let e_before = s.used.iter().find(|u| u.0 == "qka2e7f").unwrap().2;
     key(KeyCode::Char(' '));
     let s = wait_for(&seen, "the refit without one observation", |s| {
-        s.used.iter().any(|(o, n, _)| o == "K27Dx09" && *n == 14)
+        s.used.iter().any(|(o, n, _)| o == "qka2e7f" && *n == 14)
     });
-    let e_after = s.used.iter().find(|u| u.0 == "K27Dx09").unwrap().2;
+    let e_after = s.used.iter().find(|u| u.0 == "qka2e7f").unwrap().2;
     assert_ne!(
         e_before, e_after,
         "excluding an observation changed nothing"

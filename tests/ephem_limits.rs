@@ -45,7 +45,7 @@ fn times_beyond_the_models_are_an_error_not_a_silent_stop() {
         "--step",
         "1d",
         "--object",
-        "K27Dx09",
+        "qka2e7f",
     ]);
     assert_eq!(code, Some(1), "{err}");
     assert!(err.contains("could not be computed"), "{err}");

@@ -97,7 +97,7 @@ fn a_200_megabyte_file_is_refused_without_being_read() {
 fn psv_round_trip_keeps_every_field() {
     let bytes = std::fs::read(
         PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-            .join("sample_feeds/demo_night/001_K27Db01_n1.psv"),
+            .join("sample_feeds/demo_night/001_qk0f3ra_n1.psv"),
     )
     .unwrap();
     let text = String::from_utf8(bytes).unwrap();

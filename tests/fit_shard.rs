@@ -29,12 +29,12 @@ fn tree(root: &Path) {
             continue;
         };
         let text = std::fs::read_to_string(&p).unwrap();
-        for (copy, prefix) in ["K27D", "Q1zz", "Q2zz", "Q3zz"].iter().enumerate() {
+        for (copy, prefix) in ["qk", "w1", "w2", "w3"].iter().enumerate() {
             let dir = root
                 .join(format!("night{}", &night[2..]))
                 .join(format!("c{copy}"));
             std::fs::create_dir_all(&dir).unwrap();
-            std::fs::write(dir.join(&name), text.replace("K27D", prefix)).unwrap();
+            std::fs::write(dir.join(&name), text.replace("qk", prefix)).unwrap();
         }
     }
     std::fs::write(root.join("truth.json"), "{\"not\": \"tracklets\"}\n").unwrap();
@@ -89,7 +89,7 @@ fn a_directory_is_walked_to_the_bottom_and_non_tracklet_files_are_counted_not_re
     let rec = out
         .lines()
         .map(|l| serde_json::from_str::<serde_json::Value>(l).unwrap())
-        .find(|v| v["object"] == "Q2zzx09")
+        .find(|v| v["object"] == "w2a2e7f")
         .expect("a renamed copy from a nested folder");
     assert_eq!(rec["n_nights"], 3, "{rec}");
 }
@@ -99,7 +99,7 @@ fn a_named_file_is_read_whatever_its_extension_and_a_missing_path_is_a_usage_err
     let dir = tempfile::tempdir().unwrap();
     let feed = Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
     let named = dir.path().join("tracklet.json");
-    std::fs::copy(feed.join("001_K27Db01_n1.psv"), &named).unwrap();
+    std::fs::copy(feed.join("001_qk0f3ra_n1.psv"), &named).unwrap();
     let (code, out, err) = fit(&["--json", named.to_str().unwrap()]);
     assert_eq!(code, Some(0), "{err}");
     assert_eq!(out.lines().count(), 1);

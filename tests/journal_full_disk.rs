@@ -10,7 +10,7 @@ fn decision(k: usize) -> Decision {
     Decision {
         seq: 0,
         time_utc: "2027-02-26T03:00:00Z".into(),
-        object: format!("K27Dz{k:03}"),
+        object: format!("qkz{k:03}"),
         verdict: Verdict::Pursue,
         note: Some("a note long enough to make every line a few hundred bytes".repeat(3)),
         n_obs: 12,
@@ -59,7 +59,7 @@ fn decisions_saved_around_a_full_disk_all_replay() {
     for k in 5..60 {
         match j.append(decision(k)) {
             Ok(d) => saved.push(d.object),
-            Err(_) => failed.push(format!("K27Dz{k:03}")),
+            Err(_) => failed.push(format!("qkz{k:03}")),
         }
     }
     assert!(!failed.is_empty(), "the disk never filled");

@@ -67,7 +67,7 @@ fn ephem_into_a_closed_pipe_exits_zero_quietly() {
         "1m",
         "--json",
         "--object",
-        "K27Dx09",
+        "qka2e7f",
         &f,
     ]);
     assert_eq!(code, Some(0), "{err}");

@@ -18,10 +18,10 @@ tmux -L "$sock" new-session -d -s demo -x 100 -y 30 "$bin demo --speed 10 --stat
 fail() { echo "tmux session test: FAILED: $1"; tmux -L "$sock" capture-pane -p -t demo; exit 1; }
 for _ in $(seq 1 60); do
     screen=$(tmux -L "$sock" capture-pane -p -t demo)
-    if grep -q "K27Dx09" <<<"$screen" && grep -q "K27Dq11" <<<"$screen"; then break; fi
+    if grep -q "qka2e7f" <<<"$screen" && grep -q "qk9h6tx" <<<"$screen"; then break; fi
     sleep 0.5
 done
-grep -q "K27Dx09" <<<"$screen" || fail "the candidates never appeared"
+grep -q "qka2e7f" <<<"$screen" || fail "the candidates never appeared"
 sleep 2
 tmux -L "$sock" send-keys -t demo g
 sleep 0.3
@@ -30,7 +30,7 @@ for _ in $(seq 1 20); do
     [ -s "$state/decisions.jsonl" ] && grep -q '"verdict":"pursue"' "$state/decisions.jsonl" && break
     sleep 0.25
 done
-grep -q '"object":"K27Dx09"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
+grep -q '"object":"qka2e7f"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
 tmux -L "$sock" send-keys -t demo /
 sleep 0.2
 tmux -L "$sock" send-keys -t demo z z z

@@ -25,14 +25,14 @@ wait_for() {
 }
 tmux -L "$sock" send-keys -t s "PS1='READY> '" Enter
 tmux -L "$sock" send-keys -t s "$bin demo --speed 20 --state $state" Enter
-wait_for "K27Dx09" 120 || fail "the console never showed the candidates"
+wait_for "qka2e7f" 120 || fail "the console never showed the candidates"
 tmux -L "$sock" send-keys -t s C-z
 wait_for "Stopped" 20 || fail "Ctrl-Z did not stop the console"
 # Back at the prompt in cooked mode: what is typed is echoed.
 tmux -L "$sock" send-keys -t s "echo typed-at-the-prompt" Enter
 wait_for "^typed-at-the-prompt" 20 || fail "the shell is not in cooked mode after the suspend"
 tmux -L "$sock" send-keys -t s "fg" Enter
-wait_for "K27Dx09" 20 || fail "fg did not bring the console back"
+wait_for "qka2e7f" 20 || fail "fg did not bring the console back"
 screen | grep -q "typed-at-the-prompt" && fail "the screen was not redrawn after fg"
 tmux -L "$sock" send-keys -t s '?'
 wait_for "next-undecided" 20 || fail "no keys after fg (help did not open)"

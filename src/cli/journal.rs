@@ -23,7 +23,7 @@ pub fn run(args: &JournalArgs) -> anyhow::Result<i32> {
         let d = j.append(Decision {
             seq: 0,
             time_utc: chrono::Utc::now().to_rfc3339(),
-            object: format!("K27Dt{k:04}"),
+            object: format!("qkt{k:04}"),
             verdict: [Verdict::Pursue, Verdict::SetAside, Verdict::KeepWatching][k % 3],
             note: Some(format!("note {k}")),
             n_obs: k,

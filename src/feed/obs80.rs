@@ -297,7 +297,7 @@ mod tests {
     #[test]
     fn ccd_line_parses_and_detects() {
         let l = line(
-            "     K27Dx09",
+            "     qka2e7f",
             'C',
             "2027 02 24.31234",
             "10 34 14.20",
@@ -310,7 +310,7 @@ mod tests {
         let (good, bad) = parse("x.txt", &l);
         assert!(bad.is_empty(), "{bad:?}");
         let r = &good[0];
-        assert_eq!(r.object, "K27Dx09");
+        assert_eq!(r.object, "qka2e7f");
         assert!((r.ra_deg - (10.0 + 34.0 / 60.0 + 14.2 / 3600.0) * 15.0).abs() < 1e-9);
         assert!((r.dec_deg - (19.0 + 9.0 / 60.0 + 31.0 / 3600.0)).abs() < 1e-9);
         assert_eq!((r.time.hour, r.time.minute), (7, 29));
@@ -321,7 +321,7 @@ mod tests {
     #[test]
     fn satellite_two_line_record_carries_the_observer_position() {
         let first = line(
-            "     K27Dx09",
+            "     qka2e7f",
             'S',
             "2027 02 24.31234",
             "10 34 14.20",
@@ -330,7 +330,7 @@ mod tests {
             "TV9",
         );
         let mut second: Vec<char> =
-            line("     K27Dx09", 's', "2027 02 24.31234", "", "", "", "TV9")
+            line("     qka2e7f", 's', "2027 02 24.31234", "", "", "", "TV9")
                 .chars()
                 .collect();
         let coords = "1 - 6000.1234 + 1200.5000 + 3000.0000";
@@ -349,7 +349,7 @@ mod tests {
     #[test]
     fn bad_fields_name_their_columns() {
         let l = line(
-            "     K27Dx09",
+            "     qka2e7f",
             'C',
             "2027 02 30.31234",
             "10 34 14.20",
@@ -363,7 +363,7 @@ mod tests {
             "x.txt: line 1, column 16-32: 2027-02-30 is not a date"
         );
         let l = line(
-            "     K27Dx09",
+            "     qka2e7f",
             'C',
             "2027 02 24.31234",
             "24 00 01.00",

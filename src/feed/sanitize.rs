@@ -115,7 +115,7 @@ mod tests {
                 "{raw:?} changed without a fingerprint: {id:?}"
             );
         }
-        assert_eq!(super::clean_id("K27Dx09"), "K27Dx09");
+        assert_eq!(super::clean_id("qka2e7f"), "qka2e7f");
     }
 
     #[test]
@@ -153,7 +153,7 @@ mod tests {
     #[test]
     fn ids_that_differ_only_in_removed_characters_stay_distinct() {
         use super::clean_id;
-        assert_eq!(clean_id("K27Dx09"), "K27Dx09");
+        assert_eq!(clean_id("qka2e7f"), "qka2e7f");
         let a = clean_id("K27D\u{200b}x09");
         let b = clean_id("K27Dx\u{200b}09");
         assert!(

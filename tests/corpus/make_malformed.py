@@ -8,17 +8,17 @@ import os
 
 HERE = os.path.join(os.path.dirname(os.path.abspath(__file__)), "malformed")
 H = "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|mag|band\n"
-G = "K27Dk01|CCD|TV1|2027-02-26T03:00:00.000Z|120.5|+10.25|0.2|0.2|20.1|G\n"
+G = "qkc0m4r|CCD|TV1|2027-02-26T03:00:00.000Z|120.5|+10.25|0.2|0.2|20.1|G\n"
 
 
 def row(**kw):
-    f = {"trkSub": "K27Dk01", "mode": "CCD", "stn": "TV1", "obsTime": "2027-02-26T03:10:00.000Z",
+    f = {"trkSub": "qkc0m4r", "mode": "CCD", "stn": "TV1", "obsTime": "2027-02-26T03:10:00.000Z",
          "ra": "120.51", "dec": "+10.26", "rmsRA": "0.2", "rmsDec": "0.2", "mag": "20.1", "band": "G"}
     f.update(kw)
     return "|".join(f.values()) + "\n"
 
 
-def o80(id_="     K27Dk01", kind="C", date="2027 02 26.12500", ra="08 02 00.00", dec="+10 15 00.0",
+def o80(id_="     qkc0m4r", kind="C", date="2027 02 26.12500", ra="08 02 00.00", dec="+10 15 00.0",
         mag="20.1 G", stn="TV1"):
     s = f"{id_:<12}  {kind}{date:<17}{ra:<12}{dec:<12}         {mag:<6}      {stn:>3}"
     return s.ljust(80) + "\n"
@@ -29,7 +29,7 @@ def X(body):
 
 
 def xrec(**kw):
-    f = {"trkSub": "K27Dk01", "mode": "CCD", "stn": "TV1", "obsTime": "2027-02-26T03:00:00.000Z",
+    f = {"trkSub": "qkc0m4r", "mode": "CCD", "stn": "TV1", "obsTime": "2027-02-26T03:00:00.000Z",
          "ra": "120.5", "dec": "+10.25", "rmsRA": "0.2", "rmsDec": "0.2", "mag": "20.1", "band": "G"}
     f.update(kw)
     return "<optical>" + "".join(f"<{k}>{v}</{k}>" for k, v in f.items()) + "</optical>\n"
@@ -38,10 +38,10 @@ CASES = [
     ("empty.psv", b"", 0, "", "empty file"),
     ("comments_only.psv", b"# version=2022\n# nothing here\n", 0, "", "no observations in file"),
     ("binary.bin", b"\x7fELF\x02\x01\x01\x00\x00\x00", 0, "", "binary file"),
-    ("latin1.psv", (H + "K27Dk01|CCD|TV1|2027-02-26T03:00:00Z|120.5|+10.0|0.2|0.2|20.1|G\xe9\n").encode("latin-1"), 0, "", "not UTF-8"),
+    ("latin1.psv", (H + "qkc0m4r|CCD|TV1|2027-02-26T03:00:00Z|120.5|+10.0|0.2|0.2|20.1|G\xe9\n").encode("latin-1"), 0, "", "not UTF-8"),
     ("bom.psv", ("\ufeff" + H + G).encode(), "OK", 1, ""),
     ("crlf.psv", (H + G + row()).replace("\n", "\r\n").encode(), "OK", 2, ""),
-    ("truncated_line.psv", (H + G + "K27Dk01|CCD|TV1|2027-02-2").encode(), 4, "", "fields where the header has 10"),
+    ("truncated_line.psv", (H + G + "qkc0m4r|CCD|TV1|2027-02-2").encode(), 4, "", "fields where the header has 10"),
     ("feb30.psv", (H + row(obsTime="2027-02-30T03:00:00Z")).encode(), 3, "obsTime", "2027-02-30 is not a date"),
     ("feb29_2027.psv", (H + row(obsTime="2027-02-29T03:00:00Z")).encode(), 3, "obsTime", "2027-02-29 is not a date"),
     ("month13.psv", (H + row(obsTime="2027-13-01T03:00:00Z")).encode(), 3, "obsTime", "is not a date"),
@@ -72,7 +72,7 @@ CASES = [
     ("escape_in_site.psv", (H + row(stn="Q\x1b[2JQ")).encode(), 3, "stn", "unknown site code 'QQ'"),
     ("empty_id.psv", (H + row(trkSub="")).encode(), 3, "trkSub", "no permID, provID or trkSub"),
     ("too_many_fields.psv", (H + row().rstrip("\n") + "|extra\n").encode(), 3, "", "11 fields where the header has 10"),
-    ("too_few_fields.psv", (H + "K27Dk01|CCD|TV1\n").encode(), 3, "", "3 fields where the header has 10"),
+    ("too_few_fields.psv", (H + "qkc0m4r|CCD|TV1\n").encode(), 3, "", "3 fields where the header has 10"),
     ("duplicate_column.psv", b"trkSub|stn|obsTime|ra|dec|ra\nK|TV1|2027-02-26T03:00:00Z|1|2|3\n", 1, "ra", "column appears twice"),
     ("missing_ra.psv", b"trkSub|stn|obsTime|dec\nK|TV1|2027-02-26T03:00:00Z|2\n", 1, "", "lacks required column(s): ra"),
     ("missing_time.psv", b"trkSub|stn|ra|dec\nK|TV1|1|2\n", 1, "", "lacks required column(s): obsTime"),
@@ -91,7 +91,7 @@ CASES = [
     ("rms_huge.psv", (H + row(rmsDec="1e14")).encode(), 3, "rmsDec", "is outside the accepted"),
     ("corr_out_of_range.psv", b"trkSub|stn|obsTime|ra|dec|rmsCorr\nK|TV1|2027-02-26T03:00:00Z|1|2|1.5\n", 2, "rmsCorr", "outside ±1"),
     ("prose.txt", b"Dear observers, tonight's list is attached.\nRegards\n", 0, "", "format not recognised"),
-    ("obs80_short.txt", (o80() + "     K27Dk01  C2027 02 26.13\n").encode(), 2, "1-80", "80 are needed"),
+    ("obs80_short.txt", (o80() + "     qkc0m4r  C2027 02 26.13\n").encode(), 2, "1-80", "80 are needed"),
     ("obs80_bad_date.txt", o80(date="2027 02 30.12500").encode(), 1, "16-32", "2027-02-30 is not a date"),
     ("obs80_bad_day.txt", o80(date="2027 02 xx.12500").encode(), 1, "16-32", "is not a date"),
     ("obs80_ra_24h.txt", o80(ra="24 00 00.00").encode(), 1, "33-44", "outside 0 ≤ RA < 24h"),
@@ -115,7 +115,7 @@ CASES = [
     ("xml_radar.xml", X(b"<radar><permID>1</permID><obsTime>2027-02-26T03:00:00Z</obsTime></radar>\n".decode()), 3, "", "'radar' records are not used"),
     ("xml_twice.xml", X(xrec().replace("<stn>TV1</stn>", "<stn>TV1</stn><stn>TV2</stn>")), 3, "stn", "element appears twice"),
     ("xml_escape_in_id.xml", X(xrec(trkSub="K27&#x1b;[31mk01")), "OK", 1, ""),
-    ("xml_no_id.xml", X(xrec().replace("<trkSub>K27Dk01</trkSub>", "")), 3, "trkSub", "no permID, provID or trkSub"),
+    ("xml_no_id.xml", X(xrec().replace("<trkSub>qkc0m4r</trkSub>", "")), 3, "trkSub", "no permID, provID or trkSub"),
 ]
 
 

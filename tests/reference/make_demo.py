@@ -17,16 +17,16 @@ SITES = demo_sites()
 T0 = 2461460.5  # 2027-02-24 0h TDB
 # id, q, e, i, node, peri, days from perihelion, nights, per night, sigma, mag
 OBJECTS = [
-    ("K27Db01", 2.10, 0.12, 5.0, 40.0, 60.0, 300.0, [0, 1, 2], 4, 0.15, 19.8),
-    ("K27Db02", 2.55, 0.08, 11.0, 160.0, 210.0, -200.0, [0, 1, 2], 4, 0.20, 20.4),
-    ("K27Db03", 2.90, 0.21, 3.0, 300.0, 15.0, 120.0, [0, 1, 2], 4, 0.25, 21.0),
-    ("K27Db04", 1.95, 0.17, 17.0, 95.0, 330.0, 60.0, [1, 2], 5, 0.15, 19.1),
-    ("K27Db05", 2.35, 0.05, 7.0, 220.0, 100.0, -50.0, [0, 1, 2], 3, 0.30, 21.3),
-    ("K27Dn06", 0.88, 0.41, 9.0, 15.0, 250.0, 30.0, [0, 1, 2], 4, 0.20, 19.5),
-    ("K27Dn07", 1.02, 0.55, 24.0, 190.0, 80.0, -20.0, [0, 2], 4, 0.25, 20.2),
-    ("K27Dc08", 1.45, 0.93, 71.0, 120.0, 300.0, -35.0, [0, 1, 2], 4, 0.30, 17.9),
-    ("K27Dx09", 0.74, 3.1, 48.0, 250.0, 170.0, -14.0, [0, 1, 2], 5, 0.20, 18.6),
-    ("K27Df10", 0.98, 1.6, 130.0, 70.0, 20.0, 3.0, [2], 5, 0.30, 18.2),
+    ("qk0f3ra", 2.10, 0.12, 5.0, 40.0, 60.0, 300.0, [0, 1, 2], 4, 0.15, 19.8),
+    ("qk1b7zd", 2.55, 0.08, 11.0, 160.0, 210.0, -200.0, [0, 1, 2], 4, 0.20, 20.4),
+    ("qk2m4wc", 2.90, 0.21, 3.0, 300.0, 15.0, 120.0, [0, 1, 2], 4, 0.25, 21.0),
+    ("qk3x9ha", 1.95, 0.17, 17.0, 95.0, 330.0, 60.0, [1, 2], 5, 0.15, 19.1),
+    ("qk4d2pe", 2.35, 0.05, 7.0, 220.0, 100.0, -50.0, [0, 1, 2], 3, 0.30, 21.3),
+    ("qk7c5mg", 0.88, 0.41, 9.0, 15.0, 250.0, 30.0, [0, 1, 2], 4, 0.20, 19.5),
+    ("qk8w3bs", 1.02, 0.55, 24.0, 190.0, 80.0, -20.0, [0, 2], 4, 0.25, 20.2),
+    ("qk5t8yn", 1.45, 0.93, 71.0, 120.0, 300.0, -35.0, [0, 1, 2], 4, 0.30, 17.9),
+    ("qka2e7f", 0.74, 3.1, 48.0, 250.0, 170.0, -14.0, [0, 1, 2], 5, 0.20, 18.6),
+    ("qk6j1uv", 0.98, 1.6, 130.0, 70.0, 20.0, 3.0, [2], 5, 0.30, 18.2),
 ]
 SITE_ORDER = ["TV1", "TV3", "TV2", "TV4"]
 
@@ -85,25 +85,25 @@ def main():
         per_night = observe(obj)
         truth[obj[0]] = {"q": obj[1], "e": obj[2], "i": obj[3]}
         for d, rows in per_night.items():
-            if obj[0] == "K27Db02" and d == 1:
+            if obj[0] == "qk1b7zd" and d == 1:
                 rows[2]["dec"] += 3.5 / 3600.0  # one wild point
             files.append((d, rows[-1]["time"], f"{obj[0]}_n{d + 1}", psv(rows)))
     # A false linkage: two nights of one main-belt object and a third of another under one id.
-    a = observe(("K27Dq11", 2.40, 0.10, 6.0, 10.0, 40.0, 200.0, [0, 1], 4, 0.2, 20.5))
-    b = observe(("K27Dq11", 2.20, 0.18, 14.0, 280.0, 150.0, -90.0, [2], 4, 0.2, 20.7))
+    a = observe(("qk9h6tx", 2.40, 0.10, 6.0, 10.0, 40.0, 200.0, [0, 1], 4, 0.2, 20.5))
+    b = observe(("qk9h6tx", 2.20, 0.18, 14.0, 280.0, 150.0, -90.0, [2], 4, 0.2, 20.7))
     for d, rows in {**a, **b}.items():
-        files.append((d, rows[-1]["time"], f"K27Dq11_n{d + 1}", psv(rows)))
+        files.append((d, rows[-1]["time"], f"qk9h6tx_n{d + 1}", psv(rows)))
     files.sort(key=lambda f: (f[0], f[1]))
     for k, (d, _, name, text) in enumerate(files):
         with open(os.path.join(OUT, f"{k + 1:03d}_{name}.psv"), "w") as fh:
             fh.write(text)
     n = len(files)
     with open(os.path.join(OUT, f"{n + 1:03d}_truncated_upload.psv"), "w") as fh:
-        fh.write("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec\nK27Dz12|CCD|TV1|2027-02-26T0")
+        fh.write("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec\nqkx8r1d|CCD|TV1|2027-02-26T0")
     with open(os.path.join(OUT, f"{n + 2:03d}_bad_dates.psv"), "w") as fh:
         fh.write("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec\n"
-                 "K27Dz13|CCD|TV2|2027-02-30T03:00:00Z|120.5|+10.0|0.2|0.2\n"
-                 "K27Dz13|CCD|TV2|2027-02-26T03:20:00Z|361.0|+10.0|0.2|0.2\n")
+                 "qkx9a5n|CCD|TV2|2027-02-30T03:00:00Z|120.5|+10.0|0.2|0.2\n"
+                 "qkx9a5n|CCD|TV2|2027-02-26T03:20:00Z|361.0|+10.0|0.2|0.2\n")
     with open(os.path.join(os.path.dirname(OUT), "demo_night_truth.json"), "w") as fh:
         json.dump(truth, fh, indent=1)
 
