@@ -1,6 +1,6 @@
 //! ADES XML beside PSV: every demo file converted to XML reads back to the same records and the same
 //! fits; PSV → XML → PSV is lossless for the fields we use; every element and attribute name we read or
-//! write is one of the ADES schema's own (tests/reference/data/ades_schema_names.txt, taken from the
+//! write is one of the ADES schema's own (tests/reference/ades/schema_names.txt, taken from the
 //! schema file named there).
 
 use interloper::feed::ades_xml::{FIELDS_READ, STRUCTURE};
@@ -104,7 +104,7 @@ fn the_demo_night_in_xml_fits_exactly_as_in_psv() {
 #[test]
 fn every_name_read_or_written_is_an_ades_schema_name() {
     let path =
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/data/ades_schema_names.txt");
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/ades/schema_names.txt");
     let schema: std::collections::HashSet<String> = std::fs::read_to_string(path)
         .unwrap()
         .lines()

@@ -1,6 +1,6 @@
 """Element and attribute names of the ADES XML schema, for tests/ades_xml.rs.
 
-Usage: python3 make_ades_names.py general.xsd > data/ades_schema_names.txt
+Usage: python3 make_names.py general.xsd > schema_names.txt
 
 general.xsd is the schema file of the IAU ADES master repository (xsd/general.xsd, commit
 140000d9c4a122496f224c8c8511f045733dcb6e). It is not downloaded here (CI has no route to it); the
@@ -26,6 +26,6 @@ def names(path):
 if __name__ == "__main__":
     print("# Element and attribute names of the ADES schema: xsd/general.xsd of the IAU ADES master repository,")
     print("# commit 140000d9c4a122496f224c8c8511f045733dcb6e, every <xsd:element name=\"...\"> and <xsd:attribute name=\"...\">")
-    print("# in file order (duplicates dropped). Regenerate with tests/reference/make_ades_names.py PATH/TO/general.xsd.")
+    print("# in file order (duplicates dropped). Regenerate with tests/reference/ades/make_names.py PATH/TO/general.xsd.")
     for n in names(sys.argv[1]):
         print(n)
