@@ -103,8 +103,7 @@ fn the_demo_night_in_xml_fits_exactly_as_in_psv() {
 
 #[test]
 fn every_name_read_or_written_is_an_ades_schema_name() {
-    let path =
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/ades/schema_names.txt");
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/ades/schema_names.txt");
     let schema: std::collections::HashSet<String> = std::fs::read_to_string(path)
         .unwrap()
         .lines()

@@ -92,3 +92,31 @@ fn a_missing_watch_directory_and_a_zero_speed_are_usage_errors() {
     let (code, err) = run(&["demo", "--headless", "--speed", "0"]);
     assert_eq!(code, Some(2), "{err}");
 }
+
+#[test]
+fn an_unusable_state_directory_is_a_usage_error_that_names_it() {
+    // The console needs a terminal before it looks at the state directory: `script` gives it one.
+    let dir = tempfile::tempdir().unwrap();
+    let blocker = dir.path().join("a-file");
+    std::fs::write(&blocker, "not a folder").unwrap();
+    let state = blocker.join("state");
+    let cmd = format!(
+        "{} watch --state {} {}",
+        env!("CARGO_BIN_EXE_interloper"),
+        state.display(),
+        dir.path().display()
+    );
+    let out = Command::new("script")
+        .args(["-qec", &cmd, "/dev/null"])
+        .output()
+        .expect("script (util-linux) runs the console on a pseudo-terminal");
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(2), "{text}");
+    assert!(
+        text.contains(&format!(
+            "cannot use {} as the state directory",
+            state.display()
+        )),
+        "{text}"
+    );
+}

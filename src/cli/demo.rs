@@ -41,7 +41,8 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<i32> {
     let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%S");
     let root = std::env::temp_dir().join(format!("interloper-demo-{stamp}-{}", std::process::id()));
     let incoming = root.join("incoming");
-    std::fs::create_dir_all(&incoming)?;
+    std::fs::create_dir_all(&incoming)
+        .map_err(|e| super::Usage(format!("cannot create {}: {e}", incoming.display())))?;
     let state = args.state.clone().unwrap_or_else(|| root.join("state"));
     eprintln!(
         "demo: replaying {} files into {}",

@@ -227,19 +227,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
         crate::usage!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
     }
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
-    if !args.objects.is_empty() {
-        tracklets.retain(|t| args.objects.contains(&t.object));
-    }
-    if !args.objects.is_empty() && tracklets.is_empty() {
-        crate::usage!(
-            "no tracklet has the object id(s) {}",
-            args.objects
-                .iter()
-                .map(|o| clean(o))
-                .collect::<Vec<_>>()
-                .join(", ")
-        );
-    }
+    super::inputs::keep_objects(&mut tracklets, &args.objects)?;
     // The cap is on the whole run, every object's rows together.
     if n.saturating_mul(tracklets.len()) > MAX_ROWS {
         crate::usage!(

@@ -253,3 +253,36 @@ pub fn read_tracklets(
     }
     Ok((interloper::feed::tracklets::merge(tracklets), input_errors))
 }
+
+/// Keep only the tracklets of `objects` (all when empty); naming objects that match nothing is a usage
+/// error that says which were asked for and lists up to ten that exist.
+pub fn keep_objects(
+    tracklets: &mut Vec<interloper::fitting::input::Tracklet>,
+    objects: &[String],
+) -> anyhow::Result<()> {
+    if objects.is_empty() {
+        return Ok(());
+    }
+    let known: Vec<String> = tracklets
+        .iter()
+        .take(10)
+        .map(|t| interloper::feed::sanitize::clean(&t.object))
+        .collect();
+    tracklets.retain(|t| objects.contains(&t.object));
+    if tracklets.is_empty() {
+        let asked: Vec<String> = objects
+            .iter()
+            .map(|o| interloper::feed::sanitize::clean(o))
+            .collect();
+        crate::usage!(
+            "no tracklet has the object id(s) {}; the inputs have {}",
+            asked.join(", "),
+            if known.is_empty() {
+                "no tracklets".to_string()
+            } else {
+                known.join(", ")
+            }
+        );
+    }
+    Ok(())
+}

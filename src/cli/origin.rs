@@ -111,19 +111,7 @@ pub fn run(args: &OriginArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
     let options = args.options()?;
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
-    if !args.objects.is_empty() {
-        tracklets.retain(|t| args.objects.contains(&t.object));
-        if tracklets.is_empty() {
-            crate::usage!(
-                "no tracklet has the object id(s) {}",
-                args.objects
-                    .iter()
-                    .map(|o| clean(o))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            );
-        }
-    }
+    super::inputs::keep_objects(&mut tracklets, &args.objects)?;
     let threads = args.threads.unwrap_or(super::config::get().threads.value);
     let chosen = !args.objects.is_empty();
     let all = fit_all(tracklets, &options, threads);

@@ -137,12 +137,7 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
     let sites = plan_sites(args, &table)?;
     let opts = options(args)?;
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &table)?;
-    if !args.objects.is_empty() {
-        tracklets.retain(|t| args.objects.contains(&t.object));
-        if tracklets.is_empty() {
-            crate::usage!("no tracklet has the object id(s) given with --object");
-        }
-    }
+    super::inputs::keep_objects(&mut tracklets, &args.objects)?;
     let fits = fit_all_default(tracklets.clone());
     let model = ObserverModel::new();
     let h: Vec<Option<f64>> = tracklets

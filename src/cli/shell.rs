@@ -31,7 +31,8 @@ pub fn man(args: &ManArgs) -> anyhow::Result<i32> {
     let cmd = super::Cli::command();
     match &args.dir {
         Some(dir) => {
-            std::fs::create_dir_all(dir)?;
+            std::fs::create_dir_all(dir)
+                .map_err(|e| super::Usage(format!("cannot create {}: {e}", dir.display())))?;
             clap_mangen::generate_to(cmd, dir)?;
             eprintln!("manual pages written to {}", dir.display());
         }

@@ -155,7 +155,12 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
             .state
             .clone()
             .unwrap_or_else(|| super::config::get().state_dir.value.clone());
-        std::fs::create_dir_all(&state)?;
+        std::fs::create_dir_all(&state).map_err(|e| {
+            super::Usage(format!(
+                "cannot use {} as the state directory: {e}",
+                state.display()
+            ))
+        })?;
         return super::console::open(
             super::console::ConsoleConfig {
                 dir: args.dir.clone(),
