@@ -1,6 +1,7 @@
 //! Console benchmarks: drawing a frame with 10,000 candidates; the memory they take; and the time from a
 //! key press to the redrawn frame while 1,000 files are being fitted (median from criterion, the 99th
 //! percentile printed at the end).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use interloper::console::keymap::Keymap;

@@ -2,6 +2,7 @@
 //! one-night and two-night tracklets of the population-model sky (a typical one under criterion, and
 //! the median and 90th percentile over the whole set on one core, printed); a four-night false linkage;
 //! and the batch path (bytes → tracklets → fits → JSON) over 1,000 files on all cores.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
 use interloper::feed::sites::SiteTable;

@@ -1,6 +1,7 @@
 //! Origin-sheet benchmarks: one flight through the planets to 250 au, one Galactic orbit over 3 Gyr,
 //! and the whole sheet of a fitted three-night unbound candidate with the default sample counts (what
 //! `fit --json` pays per candidate with P(unbound) ≥ 0.01).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use interloper::feed::sites::SiteTable;

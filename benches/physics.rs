@@ -1,5 +1,6 @@
 //! Physics-layer benchmarks: one propagation, one observation with light time and partials, and the
 //! observer positions of a night's observations (tables built once, amortised over the night).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use interloper::physics::constants::MU_SUN;

@@ -1,6 +1,7 @@
 //! Planning benchmark: tonight's plan for 1,000 fitted candidates (500 one-night and 500 two-night
 //! arcs of the population-model sky) at one telescope over one night, fits made beforehand; each
 //! iteration starts from a fresh observer model. The target is at most 2 s.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use interloper::feed::sites::SiteTable;

@@ -3,6 +3,8 @@
 //! synthetic long arcs with fresh ids. Criterion times 2,000 of them in process on all cores; then the
 //! whole 50,000-tracklet night goes through the real binary once, and its wall time, throughput and
 //! peak resident memory are printed.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
+#![allow(unsafe_code)] // getrusage for the peak memory of the child processes
 
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
 use interloper::feed::sites::SiteTable;

@@ -2,6 +2,7 @@
 //! fits; PSV → XML → PSV is lossless for the fields we use; every element and attribute name we read or
 //! write is one of the ADES schema's own (tests/reference/ades/schema_names.txt, taken from the
 //! schema file named there).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::ades_xml::{FIELDS_READ, STRUCTURE};
 use interloper::feed::{ades, ades_xml};

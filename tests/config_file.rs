@@ -1,6 +1,7 @@
 //! The configuration file: every invalid file in tests/corpus/config_invalid is refused with exit 2 and
 //! the file, line and reason its first line expects; a valid file's values reach the commands and
 //! `interloper config` says where each came from; a flag wins over the file.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::path::Path;
 use std::process::Command;

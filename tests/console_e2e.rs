@@ -2,6 +2,7 @@
 //! which demo files are written while it runs. Scripted keys then decide and exclude; the test checks
 //! that the candidates appear ranked, the decision reaches the journal on disk, and an excluded
 //! observation changes the fit.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::Theme;

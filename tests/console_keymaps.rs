@@ -1,5 +1,6 @@
 //! Keymaps: the bundled maps load and leave every action reachable; the valid corpus loads; every invalid
 //! map gives its file, line and reason, and the console then falls back to the default keys.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::actions::Action;
 use interloper::console::keymap::{Context, Keymap, load};

@@ -2,6 +2,7 @@
 //! plan made from the demo night's real fits (at the sites that observed them, the 24 hours after the
 //! last position) is drawn as in its snapshots at 80×24 and 160×48, the help lists it, Esc closes it.
 //! UPDATE_SNAPSHOTS=1 rewrites the snapshots (review the diff before committing).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::Theme;

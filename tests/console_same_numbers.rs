@@ -1,5 +1,6 @@
 //! The console's own fits of the demo night (its event loop on a TestBackend, fed by its watcher) carry
 //! the same probability, odds and elements as `fit` computes for the same files.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::Theme;

@@ -1,6 +1,7 @@
 //! Snapshots of every screen and pane through ratatui's TestBackend at 80×24 and 160×48, from the demo
 //! night's real fits (fixed clock and status so nothing volatile reaches the files). A missing or
 //! changed snapshot fails; UPDATE_SNAPSHOTS=1 rewrites them (review the diff before committing).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::{Theme, elements, residuals, status, table};

@@ -1,5 +1,6 @@
 //! Small traps of the console's state machine: Ctrl-C from every mode, overlays that stop scrolling at
 //! their last line.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::state::{App, Effect, Mode};

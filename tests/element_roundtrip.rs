@@ -1,4 +1,5 @@
 //! Property tests: cometary elements → state → elements returns the elements, for every conic type.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::physics::constants::MU_SUN;
 use interloper::physics::elements::CometaryElements;

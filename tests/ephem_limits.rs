@@ -1,6 +1,7 @@
 //! `ephem` bounds a run, not a range: the row cap counts every object's rows together (asking for more
 //! is a usage error, exit 2); and a time it cannot compute is an error with the time named, not a table
 //! that silently stops.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::process::Command;
 

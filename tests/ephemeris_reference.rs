@@ -2,6 +2,7 @@
 //! their last observation, computed by tests/reference/make_synthetic.py with DE421 + ERFA + scipy N-body,
 //! must fall inside the predicted 3σ regions; over 300 noise realisations the linear 3σ ellipse must
 //! contain the truth in 97–100 % of cases, and the sample region of one-night ranging must too.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

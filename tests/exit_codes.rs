@@ -1,4 +1,5 @@
 //! Usage mistakes exit with 2 and say how to put them right; 1 stays for failed fits and rejected input.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::process::Command;
 

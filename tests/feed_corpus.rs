@@ -1,6 +1,7 @@
 //! The malformed-input corpus (tests/corpus/malformed/, made by make_malformed.py): every file gives the
 //! error it must, with its line and column, keeps the good lines it has, and nothing from a file reaches
 //! an error message or an object id with a control character in it.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, read_bytes};

@@ -1,6 +1,7 @@
 //! `fit --shard K/N` over a directory tree: the shards' records together are exactly the records of one
 //! unsharded run (the unit is the object, so an object whose nights sit in different folders is fitted
 //! whole by one shard), and `fit DIR` walks folders, skipping what is clearly not a tracklet file.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::path::Path;
 use std::process::Command;

@@ -2,6 +2,7 @@
 //! integrates invented orbits with scipy DOP853 under the Sun, planets and Moon of JPL DE421, observes
 //! them from the demo sites with ERFA site vectors and light time, and writes noisy ADES PSV files and the
 //! truth. Noise draws for the calibration tests are made here, on the reference's noiseless positions.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

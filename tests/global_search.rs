@@ -4,6 +4,7 @@
 //! and with 0.2″ noise drawn here. A fit far from the truth (|pull| > 5) must never be reported as a
 //! clean single answer, and the arcs whose geometry once trapped the search in a wrong minimum (found by
 //! this survey) are kept as regression cases.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

@@ -1,5 +1,6 @@
 //! Input that parses but cannot be an observation of a moving object is refused with its reason
 //! instead of being fitted and scored (the per-line refusals are in the malformed corpus).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, read_bytes};

@@ -1,6 +1,7 @@
 //! Journal durability: a process appending decisions is killed (SIGKILL) at random moments, 100 times,
 //! into one journal. After each kill the journal must load, and every decision the process acknowledged
 //! (printed only after write, flush and fsync) must be in it.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::journal::Journal;
 use interloper::fitting::ranging::SplitMix;

@@ -2,6 +2,7 @@
 //! fail, the space is freed, and more decisions are appended. Every decision that was reported as
 //! saved must then replay, readable, and none that failed may appear. (Mounting a tmpfs needs root;
 //! CI runs as root. Elsewhere the test says it could not mount and checks nothing else.)
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::journal::{Decision, Journal, Verdict};
 use std::process::Command;

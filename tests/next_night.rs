@@ -2,6 +2,7 @@
 //! arcs of tests/reference/make_synthetic.py (with our own noise draws), the Fisher prediction of σ(e)
 //! after the chosen night is compared with σ(e) of a real refit that includes four simulated positions
 //! at those times (from the two-night solution, with noise at the site's accuracy).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

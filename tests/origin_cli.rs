@@ -1,5 +1,6 @@
 //! The origin sheet at the edges: the `origin` object of `fit --json` (the field names other scripts
 //! read), the `origin` subcommand's text and JSON, the solar-motion override, and its exit codes.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::process::Command;
 

@@ -2,6 +2,7 @@
 //! (U, V, W) and galactocentric states against astropy; Galactic orbit envelopes against galpy in the
 //! same potential; original 1/a against scipy DOP853 through DE421's Sun, planets and Moon; kinematic
 //! membership against a hand computation from the population model's ellipsoids.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

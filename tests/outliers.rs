@@ -7,6 +7,7 @@
 //! 6 parameters), so with a threshold that keeps clean tracklets under 1 % (about 16 for 12–20 points)
 //! a 4σ point can be caught only about one time in five, and a point beyond ~7σ almost always. The
 //! test prints the whole detection curve and asserts where the statistics allow it.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

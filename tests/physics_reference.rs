@@ -1,5 +1,6 @@
 //! The physics layer against outside references: ERFA (through pyerfa), JPL DE421 (through jplephem)
 //! and scipy's DOP853 integrator. Vectors come from tests/reference/make_physics.py.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

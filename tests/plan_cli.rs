@@ -1,5 +1,6 @@
 //! `interloper plan` and the new `ephem` options from the outside: usage mistakes exit 2, the JSON plan
 //! carries its documented fields, and `ephem --json` keeps its old fields beside the sky conditions.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use serde_json::Value;
 use std::process::Command;

@@ -3,6 +3,7 @@
 //! length by an independent recomputation (the ephemeris path, with its own full Earth orientation,
 //! every two minutes). Candidates are the synthetic arcs of tests/reference/make_synthetic.py and the
 //! bundled demo night.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

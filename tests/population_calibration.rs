@@ -8,6 +8,7 @@
 //! at least 0.95 on two nights and 0.99 on three; on one night within 0.03 of the script's
 //! cross-validated classifier on the same attributables and magnitudes (the information limit) and at
 //! least 0.85. The Brier score is printed.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, merge, read_bytes};

@@ -4,6 +4,7 @@
 //! variables — common practice, no source), the ρ⁴ cos²δ Jacobian of (direction, rate, range, range
 //! rate) → state, the interstellar velocity distribution's normalisation and mean speed against
 //! draws from its own Gaussian ellipsoids, and gravitational focusing by Liouville's theorem.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::fitting::population::{ModelFile, PopulationModel};
 use interloper::fitting::ranging::SplitMix;

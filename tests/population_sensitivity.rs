@@ -3,6 +3,7 @@
 //! numerical error) on every path — the one-night quadrature, the range profile of two nights or of
 //! an untrusted longer arc, and the energy line of a trusted least-squares fit — while the Bayes
 //! factor, the data's own evidence, stays where it was.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, merge, read_bytes};

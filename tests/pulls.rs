@@ -9,6 +9,7 @@
 //! drawn about the fit, a Bayesian interval: it covers at least its nominal share but is wider than the
 //! scatter of the estimate where the estimate is off, so there only sd ≤ 1.1 is asserted, with coverage
 //! at 1σ and 2σ.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

@@ -1,5 +1,6 @@
 //! The same files give the same numbers through `fit --json` and through the headless watcher: the
 //! probability, its error and odds, and the elements with their uncertainties, for every object.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::collections::HashMap;
 use std::process::Command;

@@ -1,5 +1,6 @@
 //! The program as a citizen of the shell: completion scripts and manual pages generated from the same
 //! command definition as the parser, and a demo that runs from the built-in night and leaves nothing behind.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::process::Command;
 

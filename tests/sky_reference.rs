@@ -2,6 +2,7 @@
 //! direction, its distance from a pointing and its illuminated fraction against DE421 with ERFA site
 //! vectors; airmass against the Kasten–Young airmass formula evaluated in the script; sexagesimal text
 //! against ERFA's formatting, and read back.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
 

@@ -1,5 +1,6 @@
 //! The console refuses to start without a terminal, saying what to use instead, with exit code 2 (it used
 //! to panic inside the terminal set-up).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::process::{Command, Stdio};
 

@@ -3,6 +3,7 @@
 //! the directory used to wake it); a FIFO is refused once; a file without read permission is reported
 //! once with its reason through `watch --headless --json` run as an unprivileged user (root reads
 //! everything, so that part needs root to drop privileges with setpriv; CI runs as root).
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::watcher::{WatchEvent, WatchOptions, spawn_counted};
 use std::os::unix::fs::PermissionsExt;

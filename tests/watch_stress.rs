@@ -2,6 +2,7 @@
 //! with pauses; to a hidden name then renamed into place), then 500 appends to existing files. Every
 //! version the watcher hands on must be one the writer completed (never half-written), and every
 //! observation must be ingested exactly once.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::feed::sites::SiteTable;
 use interloper::feed::store::Store;

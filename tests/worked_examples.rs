@@ -2,6 +2,7 @@
 //! value comes from. "Third-party copy" means the value was taken from a public reproduction of the
 //! example, not from a printed copy of the book; "recomputed" means it was also recomputed independently
 //! in double precision before being written here.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::physics::constants::{DEG, MU_SUN};
 use interloper::physics::earth::earth_state;
