@@ -145,15 +145,24 @@ impl LsqFit {
     }
 }
 
-struct Linearised {
-    rows: DMatrix<f64>,
-    rhs: DVector<f64>,
-    chi2: f64,
+pub(super) struct Linearised {
+    /// Whitened Jacobian rows of the used observations, two per observation in order.
+    pub(super) rows: DMatrix<f64>,
+    /// Whitened residuals (O − C) beside them.
+    pub(super) rhs: DVector<f64>,
+    pub(super) chi2: f64,
     residuals: Vec<[f64; 2]>,
     partials: Vec<Matrix2x6<f64>>,
 }
 
-fn linearise(p: &Problem, x: &S6, used: &[bool], vscale: f64) -> Result<Linearised, LsqError> {
+/// The linearised problem at `x` over the `used` observations; velocity columns are divided by
+/// `vscale` (so a step's velocity part is multiplied back by 1/`vscale`).
+pub(super) fn linearise(
+    p: &Problem,
+    x: &S6,
+    used: &[bool],
+    vscale: f64,
+) -> Result<Linearised, LsqError> {
     let n_used = used.iter().filter(|u| **u).count();
     let mut rows = DMatrix::zeros(2 * n_used, 6);
     let mut rhs = DVector::zeros(2 * n_used);

@@ -9,6 +9,7 @@ pub mod fit;
 pub mod followup;
 pub mod gauss;
 pub mod input;
+pub mod leaveout;
 pub mod linear;
 pub mod lsq;
 pub mod nextnight;

@@ -75,31 +75,55 @@ pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) ->
     // Leave one night out only where three or more remain: two nights alone do not fix e; and not for
     // a fit no orbit explains (refitting its pieces cannot make it more of a misfit).
     if p.tracklet.n_nights() >= 4 && fit.chi2_per_dof() <= super::fit::NO_ORBIT_CHI2_PER_DOF {
-        for k in 0..p.tracklet.n_nights() {
-            let used: Vec<bool> = (0..p.len())
-                .map(|i| fit.used[i] && p.tracklet.night[i] != k)
-                .collect();
-            let Ok(f) = correct(p, &fit.state, &used, opts) else {
+        let nights = p.tracklet.n_nights();
+        let keeps: Vec<Vec<bool>> = (0..nights)
+            .map(|k| {
+                (0..p.len())
+                    .map(|i| fit.used[i] && p.tracklet.night[i] != k)
+                    .collect()
+            })
+            .collect();
+        // Every night's refit estimated from one linearisation; only a night whose estimate comes
+        // near the line is refitted in full (the estimate is a first step, not the refit's minimum).
+        let estimates = super::leaveout::leave_out(p, &fit.state, &fit.used, &keeps);
+        for (k, (keep, estimate)) in keeps.iter().zip(estimates).enumerate() {
+            let near = estimate.is_none_or(|(state, cov)| {
+                let (de, sigma) = e_change(&state, Some(cov), e, p.mu);
+                de > 0.5 * (3.0 * sigma).max(0.05)
+            });
+            if !near {
+                continue;
+            }
+            let Ok(f) = correct(p, &fit.state, keep, opts) else {
                 continue;
             };
             if !f.converged {
                 continue;
             }
-            let r = V3::new(f.state[0], f.state[1], f.state[2]);
-            let v = V3::new(f.state[3], f.state[4], f.state[5]);
-            let el = crate::physics::elements::CometaryElements::from_state(&r, &v, 0.0, p.mu);
-            let sigma = f
-                .cov
-                .map(|c| {
-                    let g = eccentricity_gradient(&r, &v, p.mu);
-                    (g * c * g.transpose())[0].max(0.0).sqrt()
-                })
-                .unwrap_or(f64::INFINITY);
-            let de = (el.e - e).abs();
+            let (de, sigma) = e_change(&f.state, f.cov, e, p.mu);
             if de > (3.0 * sigma).max(0.05) {
                 why.push(format!("e moves {:.2} without night {}", de, k + 1));
             }
         }
     }
     why
+}
+
+/// |e(state) − e| and the σ of e(state) from its covariance (∞ without one).
+fn e_change(
+    state: &crate::physics::S6,
+    cov: Option<crate::physics::M6>,
+    e: f64,
+    mu: f64,
+) -> (f64, f64) {
+    let r = V3::new(state[0], state[1], state[2]);
+    let v = V3::new(state[3], state[4], state[5]);
+    let el = crate::physics::elements::CometaryElements::from_state(&r, &v, 0.0, mu);
+    let sigma = cov
+        .map(|c| {
+            let g = eccentricity_gradient(&r, &v, mu);
+            (g * c * g.transpose())[0].max(0.0).sqrt()
+        })
+        .unwrap_or(f64::INFINITY);
+    ((el.e - e).abs(), sigma)
 }
