@@ -3,6 +3,7 @@
 //! directory; a flag given on the command line always wins over the file.
 
 use directories::ProjectDirs;
+use interloper::feed::alerts::AlertRules;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
 use std::sync::OnceLock;
@@ -22,6 +23,7 @@ struct ConfigFile {
     threads: Option<usize>,
     min_alt_deg: Option<f64>,
     observer: Option<String>,
+    alerts: Option<AlertRules>,
 }
 
 /// Where a value came from.
@@ -74,6 +76,8 @@ pub struct Config {
     pub threads: Setting<usize>,
     pub min_alt_deg: Setting<f64>,
     pub observer: Setting<String>,
+    /// When the console and the headless watcher call the observer back (`[alerts]`).
+    pub alerts: Setting<AlertRules>,
 }
 
 /// A configuration file that cannot be used: file, line, reason.
@@ -157,6 +161,7 @@ impl Config {
                 interloper::fitting::conditions::Capabilities::default().min_alt_deg,
             ),
             observer: default_observer(),
+            alerts: Setting::default(AlertRules::default()),
         }
     }
 
@@ -237,6 +242,17 @@ impl Config {
                 from: at("observer"),
             };
         }
+        if let Some(a) = f.alerts {
+            let at = line_of_table(text, "alerts");
+            a.check().map_err(|r| err(at, format!("[alerts] {r}")))?;
+            c.alerts = Setting {
+                value: a,
+                from: Source::File {
+                    path: path.to_path_buf(),
+                    line: at,
+                },
+            };
+        }
         Ok(c)
     }
 
@@ -285,6 +301,14 @@ fn line_of(text: &str, key: &str) -> usize {
             t.strip_prefix(key)
                 .is_some_and(|rest| rest.trim_start().starts_with('='))
         })
+        .map_or(1, |i| i + 1)
+}
+
+/// The line of a `[name]` table header (1 if it cannot be found).
+fn line_of_table(text: &str, name: &str) -> usize {
+    let header = format!("[{name}]");
+    text.lines()
+        .position(|l| l.trim() == header)
         .map_or(1, |i| i + 1)
 }
 
@@ -353,6 +377,27 @@ mod tests {
                 .reason
                 .contains("invalid type")
         );
+    }
+
+    #[test]
+    fn alert_rules_come_from_their_table_and_are_checked() {
+        let c =
+            parse("threads = 2\n\n[alerts]\nmin_probability = 0.8\ncommand = \"cat\"\n").unwrap();
+        assert_eq!(c.alerts.value.min_probability, 0.8);
+        assert_eq!(c.alerts.value.command.as_deref(), Some("cat"));
+        assert!(c.alerts.value.bell, "unset keys keep their defaults");
+        assert_eq!(
+            c.alerts.from,
+            Source::File {
+                path: "/etc/x/config.toml".into(),
+                line: 3
+            }
+        );
+        let e = parse("[alerts]\nmin_probability = 2\n").unwrap_err();
+        assert!(e.reason.contains("min_probability 2"), "{e}");
+        let e = parse("[alerts]\nbeep = true\n").unwrap_err();
+        assert_eq!(e.line, 2, "{e}");
+        assert!(e.reason.contains("unknown field `beep`"), "{e}");
     }
 
     #[test]

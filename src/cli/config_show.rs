@@ -56,7 +56,34 @@ fn rows(c: &Config) -> Vec<(&'static str, String, serde_json::Value, String)> {
             c.observer.value.clone().into(),
             c.observer.from.to_string(),
         ),
+        alerts(&c.alerts),
     ]
+}
+
+fn alerts(
+    a: &Setting<interloper::feed::alerts::AlertRules>,
+) -> (&'static str, String, serde_json::Value, String) {
+    let r = &a.value;
+    let text = format!(
+        "P ≥ {} ({}), new unbound from {} nights; bell {}, flash {}, command {}{}",
+        r.min_probability,
+        if r.data_decided {
+            "data-decided"
+        } else {
+            "prior allowed"
+        },
+        r.min_nights,
+        if r.bell { "on" } else { "off" },
+        if r.flash { "on" } else { "off" },
+        r.command.as_deref().unwrap_or("(none)"),
+        if r.quiet { "; quiet" } else { "" }
+    );
+    let json = serde_json::json!({
+        "min_probability": r.min_probability, "data_decided": r.data_decided,
+        "min_nights": r.min_nights, "bell": r.bell, "flash": r.flash,
+        "command": r.command, "quiet": r.quiet,
+    });
+    ("alerts", text, json, a.from.to_string())
 }
 
 fn file_line(c: &Config) -> String {
