@@ -15,18 +15,19 @@ OUT = os.environ.get("DEMO_OUT", os.path.join(ROOT, "sample_feeds", "demo_night"
 RNG = np.random.default_rng(2027)
 SITES = demo_sites()
 T0 = 2461460.5  # 2027-02-24 0h TDB
-# id, q, e, i, node, peri, days from perihelion, nights, per night, sigma, mag
+# id, q, e, i, node, peri, days from perihelion, nights, per night, sigma, mag, first site (index
+# into SITE_ORDER, turning by one each night)
 OBJECTS = [
-    ("qk0f3ra", 2.10, 0.12, 5.0, 40.0, 60.0, 300.0, [0, 1, 2], 4, 0.15, 19.8),
-    ("qk1b7zd", 2.55, 0.08, 11.0, 160.0, 210.0, -200.0, [0, 1, 2], 4, 0.20, 20.4),
-    ("qk2m4wc", 2.90, 0.21, 3.0, 300.0, 15.0, 120.0, [0, 1, 2], 4, 0.25, 21.0),
-    ("qk3x9ha", 1.95, 0.17, 17.0, 95.0, 330.0, 60.0, [1, 2], 5, 0.15, 19.1),
-    ("qk4d2pe", 2.35, 0.05, 7.0, 220.0, 100.0, -50.0, [0, 1, 2], 3, 0.30, 21.3),
-    ("qk7c5mg", 0.88, 0.41, 9.0, 15.0, 250.0, 30.0, [0, 1, 2], 4, 0.20, 19.5),
-    ("qk8w3bs", 1.02, 0.55, 24.0, 190.0, 80.0, -20.0, [0, 2], 4, 0.25, 20.2),
-    ("qk5t8yn", 1.45, 0.93, 71.0, 120.0, 300.0, -35.0, [0, 1, 2], 4, 0.30, 17.9),
-    ("qka2e7f", 0.74, 3.1, 48.0, 250.0, 170.0, -14.0, [0, 1, 2], 5, 0.20, 18.6),
-    ("qk6j1uv", 0.98, 1.6, 130.0, 70.0, 20.0, 3.0, [2], 5, 0.30, 18.2),
+    ("qk0f3ra", 2.10, 0.12, 5.0, 40.0, 60.0, 300.0, [0, 1, 2], 4, 0.15, 19.8, 2),
+    ("qk1b7zd", 2.55, 0.08, 11.0, 160.0, 210.0, -200.0, [0, 1, 2], 4, 0.20, 20.4, 0),
+    ("qk2m4wc", 2.90, 0.21, 3.0, 300.0, 15.0, 120.0, [0, 1, 2], 4, 0.25, 21.0, 1),
+    ("qk3x9ha", 1.95, 0.17, 17.0, 95.0, 330.0, 60.0, [1, 2], 5, 0.15, 19.1, 2),
+    ("qk4d2pe", 2.35, 0.05, 7.0, 220.0, 100.0, -50.0, [0, 1, 2], 3, 0.30, 21.3, 0),
+    ("qk7c5mg", 0.88, 0.41, 9.0, 15.0, 250.0, 30.0, [0, 1, 2], 4, 0.20, 19.5, 1),
+    ("qk8w3bs", 1.02, 0.55, 24.0, 190.0, 80.0, -20.0, [0, 2], 4, 0.25, 20.2, 2),
+    ("qk5t8yn", 1.45, 0.93, 71.0, 120.0, 300.0, -35.0, [0, 1, 2], 4, 0.30, 17.9, 1),
+    ("qka2e7f", 0.74, 3.1, 48.0, 250.0, 170.0, -14.0, [0, 1, 2], 5, 0.20, 18.6, 2),
+    ("qk6j1uv", 0.98, 1.6, 130.0, 70.0, 20.0, 3.0, [2], 5, 0.30, 18.2, 0),
 ]
 SITE_ORDER = ["TV1", "TV3", "TV2", "TV4"]
 
@@ -55,13 +56,13 @@ def visible_geometry(q, e, inc, node, peri, tfp, t):
 
 
 def observe(obj):
-    oid, q, e, inc, node, peri, tfp, nights, per, sigma, mag = obj
+    oid, q, e, inc, node, peri, tfp, nights, per, sigma, mag, site0 = obj
     t_mid = T0 + np.mean(nights)
     node, tfp = visible_geometry(q, e, inc, node, peri, tfp, t_mid)
     tr = Trajectory(q, e, inc, node, peri, tfp, t_mid, 4.0, 4.0)
     out = {}
     for j, d in enumerate(nights):
-        code = SITE_ORDER[(j + sum(map(ord, oid)) % 3) % len(SITE_ORDER)]
+        code = SITE_ORDER[(j + site0) % len(SITE_ORDER)]
         rows = []
         for t in night_times(T0 + d, code, per):
             utc = utc_from_jd(t - 69.184 / 86400.0)
@@ -89,8 +90,8 @@ def main():
                 rows[2]["dec"] += 3.5 / 3600.0  # one wild point
             files.append((d, rows[-1]["time"], f"{obj[0]}_n{d + 1}", psv(rows)))
     # A false linkage: two nights of one main-belt object and a third of another under one id.
-    a = observe(("qk9h6tx", 2.40, 0.10, 6.0, 10.0, 40.0, 200.0, [0, 1], 4, 0.2, 20.5))
-    b = observe(("qk9h6tx", 2.20, 0.18, 14.0, 280.0, 150.0, -90.0, [2], 4, 0.2, 20.7))
+    a = observe(("qk9h6tx", 2.40, 0.10, 6.0, 10.0, 40.0, 200.0, [0, 1], 4, 0.2, 20.5, 0))
+    b = observe(("qk9h6tx", 2.20, 0.18, 14.0, 280.0, 150.0, -90.0, [2], 4, 0.2, 20.7, 0))
     for d, rows in {**a, **b}.items():
         files.append((d, rows[-1]["time"], f"qk9h6tx_n{d + 1}", psv(rows)))
     files.sort(key=lambda f: (f[0], f[1]))
