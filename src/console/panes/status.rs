@@ -8,40 +8,79 @@ use ratatui::Frame;
 use ratatui::layout::Rect;
 use ratatui::widgets::Paragraph;
 
-pub fn status_text(app: &App) -> String {
+/// The status line in `width` cells: the program's name goes first, then the labels shorten; the
+/// counts and the time of the last arrival are what decide, and they stay.
+pub fn status_text(app: &App, width: usize) -> String {
     let s = &app.status;
-    format!(
-        " interloper · files {} · waiting {} · fitting {} · failed {} · rejected {} · last arrival {} ",
-        s.files_seen,
-        s.waiting,
-        s.fitting,
-        s.failed,
-        app.rejected.len(),
-        s.last_arrival.as_deref().unwrap_or("-")
-    )
+    let last = s.last_arrival.as_deref().unwrap_or("-");
+    let counts = [
+        ("files", "f", s.files_seen),
+        ("waiting", "wait", s.waiting),
+        ("fitting", "fit", s.fitting),
+        ("failed", "fail", s.failed),
+        ("rejected", "rej", app.rejected.len()),
+    ];
+    let join = |long: bool| {
+        counts
+            .iter()
+            .map(|(l, sh, n)| format!("{} {n}", if long { l } else { sh }))
+            .collect::<Vec<_>>()
+            .join(" · ")
+    };
+    let forms = [
+        format!(" interloper · {} · last arrival {last} ", join(true)),
+        format!(" {} · last arrival {last} ", join(true)),
+        format!(" {} · last {last} ", join(true)),
+        format!(" {} · last {last} ", join(false)),
+        format!(" {} {last}", join(false).replace(" · ", " ")),
+    ];
+    fit_or_cut(&forms, width)
 }
 
-pub fn hint_text(app: &App) -> String {
+/// The first form that fits `width` cells, else the last one cut with an ellipsis.
+fn fit_or_cut(forms: &[String], width: usize) -> String {
+    if let Some(f) = forms.iter().find(|f| f.chars().count() <= width) {
+        return f.clone();
+    }
+    let last = forms.last().map_or("", String::as_str);
+    let mut cut: String = last.chars().take(width.saturating_sub(1)).collect();
+    cut.push('…');
+    cut
+}
+
+/// The key-hint line in `width` cells: help and quit always; the other keys in order of use while they
+/// fit (help lists every key).
+pub fn hint_text(app: &App, width: usize) -> String {
     if let Some(m) = &app.message {
         return format!(" {}", clean(m));
     }
     match app.mode {
         Mode::List => {
+            // In the order shown; the number is the priority (lower stays longer).
             let pairs = [
-                (Action::Pursue, "pursue"),
-                (Action::SetAside, "set aside"),
-                (Action::KeepWatching, "keep watching"),
-                (Action::NextUndecided, "next undecided"),
-                (Action::ToggleObs, "exclude obs"),
-                (Action::Ephemeris, "ephemeris"),
-                (Action::Help, "help"),
-                (Action::Quit, "quit"),
+                (Action::Pursue, "pursue", 0),
+                (Action::SetAside, "set aside", 1),
+                (Action::KeepWatching, "keep watching", 3),
+                (Action::NextUndecided, "next undecided", 5),
+                (Action::ToggleObs, "exclude obs", 4),
+                (Action::Ephemeris, "ephemeris", 2),
             ];
-            pairs
-                .iter()
-                .map(|(a, l)| format!("{} {l}", app.keys(*a)))
-                .collect::<Vec<_>>()
-                .join(" · ")
+            let tail = format!(
+                "{} help · {} quit",
+                app.keys(Action::Help),
+                app.keys(Action::Quit)
+            );
+            let line = |upto: usize| {
+                let mut parts: Vec<String> = pairs
+                    .iter()
+                    .filter(|(_, _, p)| *p < upto)
+                    .map(|(a, l, _)| format!("{} {l}", app.keys(*a)))
+                    .collect();
+                parts.push(tail.clone());
+                format!(" {}", parts.join(" · "))
+            };
+            let forms: Vec<String> = (0..=pairs.len()).rev().map(line).collect();
+            fit_or_cut(&forms, width)
         }
         Mode::Filter | Mode::Note => " Enter accept · Esc cancel".into(),
         _ => " Esc close".into(),
@@ -50,11 +89,49 @@ pub fn hint_text(app: &App) -> String {
 
 pub fn draw_status(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     f.render_widget(
-        Paragraph::new(status_text(app)).style(theme.selected()),
+        Paragraph::new(status_text(app, area.width as usize)).style(theme.selected()),
         area,
     );
 }
 
 pub fn draw_hints(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
-    f.render_widget(Paragraph::new(hint_text(app)), area);
+    f.render_widget(Paragraph::new(hint_text(app, area.width as usize)), area);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_status_line_keeps_every_count_and_the_last_arrival_at_80_columns() {
+        let mut app = App::new(crate::console::keymap::Keymap::builtin());
+        app.status.files_seen = 2200;
+        app.status.waiting = 12;
+        app.status.fitting = 2;
+        app.status.last_arrival = Some("03:12:55Z".into());
+        for w in [80, 60, 50] {
+            let s = status_text(&app, w);
+            assert!(s.chars().count() <= w, "{w}: {s}");
+            for needle in ["2200", "12", "03:12:55Z"] {
+                assert!(s.contains(needle), "{w}: {s}");
+            }
+        }
+        assert!(status_text(&app, 160).contains("interloper"));
+    }
+
+    #[test]
+    fn the_hint_line_keeps_help_and_quit_at_every_width() {
+        let app = App::new(crate::console::keymap::Keymap::builtin());
+        for w in [40, 60, 80, 120] {
+            let h = hint_text(&app, w);
+            assert!(h.chars().count() <= w, "{w}: {h}");
+            assert!(h.contains("help") && h.contains("quit"), "{w}: {h}");
+        }
+        assert!(hint_text(&app, 200).contains("next undecided"));
+        assert!(
+            hint_text(&app, 80).contains("ephemeris"),
+            "{}",
+            hint_text(&app, 80)
+        );
+    }
 }
