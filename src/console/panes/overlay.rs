@@ -22,6 +22,7 @@ fn centered(area: Rect, w_pct: u16, h_pct: u16) -> Rect {
 fn panel(f: &mut Frame, area: Rect, app: &App, title: &str, lines: Vec<String>) {
     let r = centered(area, 90, 85);
     f.render_widget(Clear, r);
+    let lines = wrap(lines, usize::from(r.width.saturating_sub(2)));
     // Scrolling stops where the last line reaches the bottom; the title says when more is hidden.
     let rows = usize::from(r.height.saturating_sub(2));
     let max = lines.len().saturating_sub(rows);
@@ -46,6 +47,56 @@ fn panel(f: &mut Frame, area: Rect, app: &App, title: &str, lines: Vec<String>) 
         ),
         r,
     );
+}
+
+/// Lines longer than `width` cells broken at spaces (or anywhere, for a long word), continuations
+/// indented, so nothing is cut at the panel's edge.
+fn wrap(lines: Vec<String>, width: usize) -> Vec<String> {
+    use unicode_width::UnicodeWidthStr;
+    if width < 8 {
+        return lines;
+    }
+    let mut out = Vec::new();
+    for line in lines {
+        if line.width() <= width {
+            out.push(line);
+            continue;
+        }
+        let mut cur = String::new();
+        for (k, word) in line.split(' ').enumerate() {
+            if k > 0 {
+                if !cur.trim().is_empty() && cur.width() + 1 + word.width() > width {
+                    out.push(std::mem::take(&mut cur));
+                    cur.push_str("  ");
+                } else {
+                    cur.push(' ');
+                }
+            }
+            for ch in word.chars() {
+                if cur.width() >= width {
+                    out.push(std::mem::take(&mut cur));
+                    cur.push_str("  ");
+                }
+                cur.push(ch);
+            }
+        }
+        out.push(cur);
+    }
+    out
+}
+
+/// A rejection as the panel shows it: the file's name without its folders (the full path is in the
+/// log), then line, column and reason.
+fn rejection_line(e: &crate::feed::InputError) -> String {
+    let name = std::path::Path::new(&e.file)
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| e.file.clone());
+    let short = crate::feed::InputError {
+        file: name,
+        ..e.clone()
+    };
+    clean(&short.to_string())
 }
 
 pub fn help_lines(app: &App) -> Vec<String> {
@@ -94,7 +145,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
             let lines = if app.rejected.is_empty() {
                 vec!["nothing rejected".to_string()]
             } else {
-                app.rejected.iter().map(|e| clean(&e.to_string())).collect()
+                app.rejected.iter().map(rejection_line).collect()
             };
             panel(f, area, app, " rejected files and lines ", lines)
         }
@@ -172,5 +223,42 @@ mod legend_tests {
         for l in super::LEGEND {
             assert!(l.chars().count() <= 140, "{l}");
         }
+    }
+}
+
+#[cfg(test)]
+mod wrap_tests {
+    use super::*;
+
+    #[test]
+    fn long_lines_wrap_at_spaces_within_the_width_and_nothing_is_lost() {
+        let text = "qk_long_file_name.psv: line 4, column ra: 361 is outside 0 ≤ RA < 360° and more words follow here";
+        let out = wrap(vec![text.to_string()], 30);
+        assert!(out.len() > 2, "{out:?}");
+        assert!(
+            out.iter()
+                .all(|l| unicode_width::UnicodeWidthStr::width(l.as_str()) <= 30),
+            "{out:?}"
+        );
+        let joined: String = out
+            .join(" ")
+            .split_whitespace()
+            .collect::<Vec<_>>()
+            .join(" ");
+        assert_eq!(joined, text);
+    }
+
+    #[test]
+    fn a_rejection_shows_the_file_name_not_its_folders() {
+        let e = crate::feed::InputError {
+            file: "/data/survey/2027-02-26/incoming/deep/031_bad_dates.psv".into(),
+            line: 3,
+            column: Some("obsTime".into()),
+            reason: "2027-02-30 is not a date".into(),
+        };
+        assert_eq!(
+            rejection_line(&e),
+            "031_bad_dates.psv: line 3, column obsTime: 2027-02-30 is not a date"
+        );
     }
 }
