@@ -8,3 +8,4 @@ pub mod plantask;
 pub mod runtime;
 pub mod state;
 pub mod view;
+pub mod why;

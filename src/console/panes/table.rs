@@ -142,9 +142,19 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             format!(" · filter \"{}\"", clean(&app.filter))
         }
     );
+    // Why the selected row ranks where it does, on the bottom border (cut to the width left).
+    let why = app.selected_candidate().map_or_else(String::new, |c| {
+        let room = usize::from(area.width.saturating_sub(4));
+        format!(" {} ", crate::console::why::why_line(&c.fit, room))
+    });
     let table = Table::new(rows, widths)
         .header(Row::new(header_cells).style(theme.strong()))
-        .block(Block::default().borders(Borders::ALL).title(title));
+        .block(
+            Block::default()
+                .borders(Borders::ALL)
+                .title(title)
+                .title_bottom(why),
+        );
     f.render_widget(table, area);
 }
 
