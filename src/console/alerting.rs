@@ -1,0 +1,165 @@
+//! The console's side of alerts: remembers what each object's previous fit said so that a rule fires
+//! once when it starts to hold, keeps the night's alerts for their overlay, and says what an alert
+//! should do (bell, flash, command) unless the observer has asked for quiet.
+
+use crate::feed::alerts::{Alert, AlertRules, check};
+use crate::fitting::fit::FitResult;
+use std::collections::HashMap;
+use std::time::{Duration, Instant, SystemTime};
+
+/// How long the status line stays flashed after an alert.
+pub const FLASH_FOR: Duration = Duration::from_secs(3);
+
+/// What one alert asks of the terminal and the outside world.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct AlertEffects {
+    pub bell: bool,
+    pub flash: bool,
+    pub command: Option<String>,
+}
+
+/// The night's alerts and what is needed to raise the next ones.
+#[derive(Debug)]
+pub struct Alerts {
+    pub rules: AlertRules,
+    /// Listed but silent: no bell, flash or command.
+    pub quiet: bool,
+    /// Every alert of the night, oldest first.
+    pub list: Vec<Alert>,
+    /// Each object's previous fit (only what the rules read).
+    previous: HashMap<String, FitResult>,
+    /// The status line is flashed until then.
+    flash_until: Option<Instant>,
+}
+
+impl Alerts {
+    pub fn new(rules: AlertRules) -> Alerts {
+        Alerts {
+            quiet: rules.quiet,
+            rules,
+            list: Vec::new(),
+            previous: HashMap::new(),
+            flash_until: None,
+        }
+    }
+
+    /// A new fit of an object: the alert it raises, with what to do about it.
+    pub fn on_fit(&mut self, fit: &FitResult) -> Option<(Alert, AlertEffects)> {
+        let prev = self.previous.get(&fit.object);
+        let alert = check(prev, fit, &self.rules);
+        let mut kept = fit.clone();
+        // The rules read the summary only; residuals and samples need not be kept twice.
+        kept.residuals = Vec::new();
+        kept.samples = Vec::new();
+        self.previous.insert(fit.object.clone(), kept);
+        let alert = alert?;
+        self.list.push(alert.clone());
+        let loud = !self.quiet;
+        let effects = AlertEffects {
+            bell: loud && self.rules.bell,
+            flash: loud && self.rules.flash,
+            command: self.rules.command.clone().filter(|_| loud),
+        };
+        if effects.flash {
+            self.flash_until = Some(Instant::now() + FLASH_FOR);
+        }
+        Some((alert, effects))
+    }
+
+    /// Whether the status line should be drawn flashed now.
+    pub fn flashing(&self, now: Instant) -> bool {
+        self.flash_until.is_some_and(|t| now < t)
+    }
+
+    /// The lines of the alerts overlay, newest first.
+    pub fn lines(&self) -> Vec<String> {
+        if self.list.is_empty() {
+            return vec![format!(
+                "no alerts yet{} · rules: P ≥ {} ({}), new unbound from {} nights",
+                if self.quiet { " (quiet)" } else { "" },
+                self.rules.min_probability,
+                if self.rules.data_decided {
+                    "decided by the data"
+                } else {
+                    "prior allowed"
+                },
+                self.rules.min_nights
+            )];
+        }
+        let mut v = vec![format!(
+            "{} alert{}{} — each a reason to look, not a discovery",
+            self.list.len(),
+            if self.list.len() == 1 { "" } else { "s" },
+            if self.quiet {
+                " (quiet: no bell, flash or command)"
+            } else {
+                ""
+            }
+        )];
+        for a in self.list.iter().rev() {
+            v.push(format!("{}  {}", utc(a.at), a.text));
+        }
+        v
+    }
+}
+
+fn utc(t: SystemTime) -> String {
+    chrono::DateTime::<chrono::Utc>::from(t)
+        .format("%H:%M:%SZ")
+        .to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn fit(p: f64) -> FitResult {
+        let sites = crate::feed::sites::SiteTable::builtin();
+        let text = "trkSub|stn|obsTime|ra|dec\nqka2e7f|TV1|2027-02-26T03:00:00Z|120.5|10.25\n";
+        let t = crate::feed::tracklets::read_bytes(
+            "t.psv",
+            text.as_bytes(),
+            &sites,
+            &crate::feed::tracklets::Limits::default(),
+        )
+        .tracklets
+        .remove(0);
+        let mut r = FitResult::failed(&t, "made for the test");
+        r.error = None;
+        r.status = "ok";
+        r.p_hyperbolic = Some(p);
+        r.n_nights = 3;
+        r
+    }
+
+    #[test]
+    fn a_crossing_alerts_once_with_bell_and_flash_and_quiet_silences_it() {
+        let mut a = Alerts::new(AlertRules {
+            command: Some("cat".into()),
+            ..AlertRules::default()
+        });
+        assert!(a.on_fit(&fit(0.3)).is_none());
+        let (alert, fx) = a.on_fit(&fit(0.97)).unwrap();
+        assert_eq!(alert.object, "qka2e7f");
+        assert!(fx.bell && fx.flash);
+        assert_eq!(fx.command.as_deref(), Some("cat"));
+        assert!(a.flashing(Instant::now()));
+        assert!(
+            a.on_fit(&fit(0.98)).is_none(),
+            "no second alert while it holds"
+        );
+        a.quiet = true;
+        a.on_fit(&fit(0.2));
+        let (_, fx) = a.on_fit(&fit(0.99)).unwrap();
+        assert_eq!(
+            fx,
+            AlertEffects {
+                bell: false,
+                flash: false,
+                command: None
+            }
+        );
+        assert_eq!(a.list.len(), 2, "quiet alerts are still listed");
+        assert!(a.lines()[0].contains("2 alerts"));
+    }
+}
