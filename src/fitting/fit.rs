@@ -300,6 +300,7 @@ pub fn residual_list(
         .iter()
         .enumerate()
         .map(|(i, o)| ResidualOut {
+            id: super::obsid::ObsId::of(o),
             time_utc: tt_to_utc(o.time.tt).to_string(),
             site: o.site_code.clone(),
             night: tr.night[i],

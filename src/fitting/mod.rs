@@ -12,6 +12,7 @@ pub mod input;
 pub mod linear;
 pub mod lsq;
 pub mod nextnight;
+pub mod obsid;
 pub mod onenight;
 pub mod origin;
 pub mod perturb;

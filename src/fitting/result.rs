@@ -68,6 +68,9 @@ pub struct Alternative {
 /// One observation's residual, as printed.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct ResidualOut {
+    /// The observation's identity (exclusions and the journal name it by this; not printed).
+    #[serde(skip)]
+    pub id: super::obsid::ObsId,
     pub time_utc: String,
     pub site: String,
     pub night: usize,
