@@ -92,7 +92,7 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
                     .filter_map(|c| {
                         c.decision
                             .as_ref()
-                            .map(|d| (c.fit.object.clone(), d.verdict.label().to_string()))
+                            .map(|d| (c.fit.object.clone(), d.verdict_label().to_string()))
                     })
                     .collect();
             },

@@ -22,12 +22,14 @@ pub struct ConsoleConfig {
     pub threads: usize,
     pub population: Arc<interloper::fitting::population::PopulationModel>,
     pub theme: Theme,
+    /// Who writes to the journal from this console (already cleaned).
+    pub observer: String,
 }
 
 pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     let (keymap, warning) = runtime::keymap_for(cfg.keymap.as_deref());
     let (tx, rx) = std::sync::mpsc::channel();
-    let (mut rt, decisions, warnings) = runtime::start(
+    let (mut rt, decisions, warnings) = runtime::start_as(
         cfg.dir.clone(),
         cfg.sites,
         cfg.state.clone(),
@@ -35,6 +37,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         cfg.threads,
         stop.clone(),
         tx.clone(),
+        &cfg.observer,
     )?;
     rt.set_population(cfg.population.clone());
     log(
@@ -45,6 +48,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         log(&cfg.state, w);
     }
     let mut app = App::new(keymap);
+    app.me = cfg.observer.clone();
     app.message = warning.or_else(|| warnings.first().cloned()).or_else(|| {
         Some(format!(
             "watching {} · decisions in {}",

@@ -27,6 +27,9 @@ pub struct WatchArgs {
     /// Where the decision journal lives (default: the platform's state directory).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
+    /// Who you are in the journal, on a state directory shared with other observers (default: $USER).
+    #[arg(long, value_name = "NAME")]
+    pub observer: Option<String>,
     /// No console: report to standard output.
     #[arg(long)]
     pub headless: bool,
@@ -107,6 +110,7 @@ impl WatchArgs {
             stop_after_idle: demo.headless.then_some(idle),
             threads: None,
             keymap: demo.keymap.clone(),
+            observer: demo.observer.clone(),
             dir,
         }
     }
@@ -168,6 +172,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 threads,
                 population: args.population.load()?,
                 theme: args.color.theme(),
+                observer: interloper::feed::journal::observer_name(args.observer.as_deref()),
             },
             stop,
         );

@@ -7,7 +7,7 @@ use super::keymap::Keymap;
 use super::panes::Theme;
 use super::state::{App, Effect, Overrides};
 use super::view;
-use crate::feed::journal::{Decision, Journal};
+use crate::feed::journal::{Entry, Journal};
 use crate::feed::sites::SiteTable;
 use crate::feed::store::Store;
 use crate::feed::tracklets::Limits;
@@ -15,6 +15,7 @@ use crate::feed::watcher::{self, WatchEvent, WatchOptions};
 use crate::fitting::batch::{FitPool, PoolResult};
 use crate::fitting::ephemeris::{EphemerisPoint, point};
 use crate::fitting::fit::{FitOptions, FitResult};
+use crate::fitting::obsid::ObsId;
 use crate::physics::observe::ObserverModel;
 use crate::physics::time::{UtcTime, tt_to_utc};
 use ratatui::Terminal;
@@ -37,8 +38,11 @@ pub enum AppEvent {
     Repaint,
     Watch(WatchEvent),
     Fit(Box<PoolResult>),
-    /// A decision saved, or (object, reason) when it could not be.
-    Journal(Result<Decision, (String, String)>),
+    /// A line this console wrote is on disk, or (object, reason) when it could not be saved.
+    Journal(Result<Entry, (String, String)>),
+    /// Lines read from the journal (this console's and other processes'), in file order, with
+    /// warnings about lines that could not be read.
+    JournalRead(Vec<Entry>, Vec<String>),
     Ephemeris(String, Vec<EphemerisPoint>),
     Plan(crate::fitting::plan::Plan),
     Tick,
@@ -51,16 +55,18 @@ pub struct Runtime {
     pub tx: Sender<AppEvent>,
     store: Store,
     pool: FitPool,
-    journal: Sender<Decision>,
+    journal: Sender<Entry>,
     sites: Arc<SiteTable>,
     limits: Limits,
     generation: HashMap<String, u64>,
-    overrides: HashMap<String, Overrides>,
-    pending_decisions: HashMap<String, Decision>,
     population: Arc<crate::fitting::population::PopulationModel>,
 }
 
-/// Start the feed, fit workers and journal for a watched directory; events go to `tx`.
+/// How often the journal is looked at for lines other processes wrote.
+pub const JOURNAL_POLL: Duration = Duration::from_millis(500);
+
+/// Start the feed, fit workers and journal for a watched directory, as the `$USER` observer; events
+/// go to `tx`. Returns the journal's lines so far (for [`Runtime::replayed`]) and its warnings.
 pub fn start(
     dir: PathBuf,
     sites: SiteTable,
@@ -69,22 +75,25 @@ pub fn start(
     threads: usize,
     stop: Arc<AtomicBool>,
     tx: Sender<AppEvent>,
-) -> anyhow::Result<(Runtime, Vec<Decision>, Vec<String>)> {
-    let (journal, replay) = Journal::open(&state_dir)?;
-    let standing: Vec<Decision> = replay.standing().into_values().collect();
-    let warnings = replay.warnings.clone();
-    let (jtx, jrx) = channel::<Decision>();
-    let tx_j = tx.clone();
-    std::thread::spawn(move || {
-        let mut journal = journal;
-        for d in jrx {
-            let object = d.object.clone();
-            let r = journal.append(d).map_err(|e| (object, e.to_string()));
-            if tx_j.send(AppEvent::Journal(r)).is_err() {
-                return;
-            }
-        }
-    });
+) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
+    let me = crate::feed::journal::observer_name(None);
+    start_as(dir, sites, state_dir, watch, threads, stop, tx, &me)
+}
+
+/// As [`start`], writing to the journal as `observer`.
+#[allow(clippy::too_many_arguments)]
+pub fn start_as(
+    dir: PathBuf,
+    sites: SiteTable,
+    state_dir: PathBuf,
+    watch: WatchOptions,
+    threads: usize,
+    stop: Arc<AtomicBool>,
+    tx: Sender<AppEvent>,
+    observer: &str,
+) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
+    let (journal, replay) = Journal::open_as(&state_dir, observer)?;
+    let jtx = spawn_journal(journal, tx.clone(), stop.clone());
     let events = watcher::spawn(dir, watch, stop.clone());
     let tx_w = tx.clone();
     std::thread::spawn(move || {
@@ -122,17 +131,49 @@ pub fn start(
             sites: Arc::new(sites),
             limits: Limits::default(),
             generation: HashMap::new(),
-            overrides: HashMap::new(),
-            pending_decisions: HashMap::new(),
             population: crate::fitting::fit::builtin_population(),
         },
-        standing,
-        warnings,
+        replay.entries,
+        replay.warnings,
     ))
 }
 
-fn label_of(o: &crate::fitting::input::Observation) -> String {
-    format!("{}@{}", tt_to_utc(o.time.tt), o.site_code)
+/// The journal's own thread: writes what the console sends, then reads back every line added since
+/// it last looked (its own and other processes', in file order); with nothing to write it looks
+/// every [`JOURNAL_POLL`], so another console's decision shows here within a second.
+fn spawn_journal(
+    mut journal: Journal,
+    tx: Sender<AppEvent>,
+    stop: Arc<AtomicBool>,
+) -> Sender<Entry> {
+    let (jtx, jrx) = channel::<Entry>();
+    std::thread::spawn(move || {
+        while !stop.load(Ordering::Relaxed) {
+            let saved = match jrx.recv_timeout(JOURNAL_POLL) {
+                Ok(e) => {
+                    let object = e.object.clone();
+                    Some(journal.append(e).map_err(|err| (object, err.to_string())))
+                }
+                Err(RecvTimeoutError::Timeout) => None,
+                Err(RecvTimeoutError::Disconnected) => return,
+            };
+            let read = match journal.read_new() {
+                Ok(r) if r.entries.is_empty() && r.warnings.is_empty() => None,
+                Ok(r) => Some(AppEvent::JournalRead(r.entries, r.warnings)),
+                Err(e) => Some(AppEvent::JournalRead(
+                    Vec::new(),
+                    vec![format!("cannot read the journal: {e}")],
+                )),
+            };
+            // What was read goes first, so a saved line shows its effect as it stops saying "saving…".
+            for ev in read.into_iter().chain(saved.map(AppEvent::Journal)) {
+                if tx.send(ev).is_err() {
+                    return;
+                }
+            }
+        }
+    });
+    jtx
 }
 
 impl Runtime {
@@ -141,12 +182,11 @@ impl Runtime {
         self.population = model;
     }
 
-    fn submit(&mut self, object: &str) {
+    fn submit(&mut self, object: &str, ov: &Overrides) {
         let Some(mut t) = self.store.tracklet(object) else {
             return;
         };
-        let ov = self.overrides.get(object).cloned().unwrap_or_default();
-        t.obs.retain(|o| !ov.excluded.contains(&label_of(o)));
+        t.obs.retain(|o| !ov.excluded.contains(&ObsId::of(o)));
         let t = crate::fitting::input::Tracklet::new(t.object, t.source, t.obs);
         let g = self.generation.entry(object.to_string()).or_insert(0);
         *g += 1;
@@ -208,7 +248,8 @@ impl Runtime {
                     app.on_rejected(e);
                 }
                 for (obj, _) in ing.changed {
-                    self.submit(&obj);
+                    let ov = app.overrides(&obj);
+                    self.submit(&obj, &ov);
                 }
                 app.dirty = true;
             }
@@ -231,13 +272,17 @@ impl Runtime {
                 }
                 let known = self.known(&obj);
                 app.on_fit(version, fit, known);
-                if let Some(d) = self.pending_decisions.remove(&obj) {
-                    app.on_decision(d);
-                }
             }
-            AppEvent::Journal(Ok(d)) => {
-                app.message = Some(format!("{}: {} saved", d.object, d.verdict.label()));
-                app.on_decision(d);
+            AppEvent::Journal(Ok(e)) => app.on_saved(&e),
+            AppEvent::JournalRead(entries, warnings) => {
+                if let Some(w) = warnings.first() {
+                    app.message = Some(w.clone());
+                }
+                for e in &entries {
+                    for eff in app.on_entry(e) {
+                        self.effect(app, eff);
+                    }
+                }
             }
             AppEvent::Journal(Err((object, e))) => app.on_save_failed(&object, &e),
             AppEvent::Ephemeris(obj, pts) => {
@@ -252,13 +297,12 @@ impl Runtime {
         true
     }
 
-    /// Decisions replayed from the journal wait here until their candidates appear.
-    pub fn replayed(&mut self, app: &mut App, decisions: Vec<Decision>) {
-        for d in decisions {
-            if app.candidates.iter().any(|c| c.fit.object == d.object) {
-                app.on_decision(d);
-            } else {
-                self.pending_decisions.insert(d.object.clone(), d);
+    /// The journal's lines at start: what they say stands (decisions, exclusions, forced methods)
+    /// is applied to each candidate as it appears.
+    pub fn replayed(&mut self, app: &mut App, entries: Vec<Entry>) {
+        for e in &entries {
+            for eff in app.on_entry(e) {
+                self.effect(app, eff);
             }
         }
     }
@@ -271,10 +315,7 @@ impl Runtime {
                     app.message = Some("DECISION NOT SAVED: the journal writer stopped".into());
                 }
             }
-            Effect::Refit { object, overrides } => {
-                self.overrides.insert(object.clone(), overrides);
-                self.submit(&object);
-            }
+            Effect::Refit { object, overrides } => self.submit(&object, &overrides),
             Effect::Plan => {
                 let fits = app.candidates.iter().map(|c| c.fit.clone()).collect();
                 super::plantask::spawn(fits, self.sites.clone(), self.tx.clone());

@@ -21,11 +21,20 @@ fn strong(f: &crate::fitting::fit::FitResult) -> bool {
     f.log10_odds.is_some_and(|z| z >= 2.0) && f.status == "ok"
 }
 
-fn decision_text(c: &Candidate) -> String {
+/// The decision column: the verdict, `*` when it was made on fewer observations than are known now,
+/// and who made it when that was not the observer at this console.
+fn decision_text(c: &Candidate, me: &str) -> String {
     match (&c.decision, c.saving) {
         (_, true) => "saving…".into(),
-        (Some(d), _) if d.n_obs < c.fit.n_obs => format!("{}*", d.verdict.label()),
-        (Some(d), _) => d.verdict.label().into(),
+        (Some(d), _) => {
+            let fewer = if d.n_obs < c.fit.n_obs { "*" } else { "" };
+            let who = if d.observer() == me {
+                String::new()
+            } else {
+                format!(" ({})", clean(d.observer()))
+            };
+            format!("{}{fewer}{who}", d.verdict_label())
+        }
         (None, _) => "".into(),
     }
 }
@@ -122,7 +131,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 "poor-fit" => theme.fg(Color::Magenta),
                 _ => theme.fg(Color::Red),
             }));
-            cells.push(Cell::from(decision_text(c)));
+            cells.push(Cell::from(decision_text(c, &app.me)));
             let row = Row::new(cells);
             if offset + k == sel {
                 row.style(theme.selected())
