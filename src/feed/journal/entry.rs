@@ -68,12 +68,12 @@ pub struct Entry {
     pub observer: Option<String>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub verdict: Option<Verdict>,
-    #[serde(default)]
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
     /// The observations a decision was made on: how many, and a digest of their identities.
-    #[serde(default)]
+    #[serde(default, skip_serializing_if = "is_zero")]
     pub n_obs: usize,
-    #[serde(default)]
+    #[serde(default, skip_serializing_if = "String::is_empty")]
     pub obs_digest: String,
     /// The observation an exclusion or restoration is about.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -82,6 +82,10 @@ pub struct Entry {
     pub method: Option<MethodChoice>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub perturbations: Option<PerturbChoice>,
+}
+
+fn is_zero(n: &usize) -> bool {
+    *n == 0
 }
 
 /// Lines that are decisions were, before other kinds existed, simply "decisions".
