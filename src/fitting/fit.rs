@@ -256,7 +256,7 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         &alternatives,
         &shift,
         opts,
-        dynamics.name(),
+        dynamics.model(),
         None,
     )
 }
@@ -329,7 +329,7 @@ pub fn lsq_result(
     alternatives: &[LsqFit],
     shift: &S6,
     opts: &FitOptions,
-    dynamics: &'static str,
+    dynamics: super::forcemodel::ForceModel,
     given: Option<Given>,
 ) -> FitResult {
     let tr = p.tracklet;

@@ -7,6 +7,7 @@ pub mod covariance;
 pub mod ephemeris;
 pub mod fit;
 pub mod followup;
+pub mod forcemodel;
 pub mod gauss;
 pub mod input;
 pub mod linear;

@@ -94,7 +94,7 @@ pub struct FitResult {
     pub arc_days: f64,
     pub method: &'static str,
     pub probability_from: &'static str,
-    pub dynamics: &'static str,
+    pub dynamics: super::forcemodel::ForceModel,
     pub e: Option<f64>,
     pub e_sigma: Option<f64>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the
@@ -167,7 +167,7 @@ impl FitResult {
             arc_days: tr.arc_days(),
             method: "least-squares",
             probability_from: "none",
-            dynamics: "two-body",
+            dynamics: super::forcemodel::ForceModel::TwoBody,
             e: None,
             e_sigma: None,
             p_hyperbolic: None,

@@ -91,7 +91,15 @@ pub fn fit_by_profile(
         }
     });
     let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
-    let mut out = lsq_result(&p, &fit, &alternatives, shift, opts, dynamics.name(), given);
+    let mut out = lsq_result(
+        &p,
+        &fit,
+        &alternatives,
+        shift,
+        opts,
+        dynamics.model(),
+        given,
+    );
     for (a, (_, share)) in out.alternatives.iter_mut().zip(&others) {
         a.probability = Some(*share);
     }
