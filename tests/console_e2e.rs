@@ -68,6 +68,7 @@ fn console(watched: &std::path::Path, state: &std::path::Path) -> Console {
         stop.clone(),
         tx.clone(),
         "alice",
+        interloper::fitting::fit::builtin_population(),
     )
     .unwrap();
     let seen = Arc::new(Mutex::new(Seen::default()));

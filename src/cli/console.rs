@@ -38,8 +38,8 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         stop.clone(),
         tx.clone(),
         &cfg.observer,
+        cfg.population.clone(),
     )?;
-    rt.set_population(cfg.population.clone());
     log(
         &cfg.state,
         &format!("console opened on {}", cfg.dir.display()),

@@ -2,6 +2,7 @@
 //! (`panes`, `view`) and the runtime that connects them to the feed, the fit workers and the journal.
 
 pub mod actions;
+pub mod journaltask;
 pub mod keymap;
 pub mod panes;
 pub mod plantask;

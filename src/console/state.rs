@@ -7,24 +7,16 @@ use crate::feed::InputError;
 use crate::feed::journal::{Entry, Standing, Verdict};
 use crate::feed::sanitize::clean;
 use crate::fitting::ephemeris::EphemerisPoint;
-use crate::fitting::fit::{FitResult, MethodChoice, PerturbChoice};
-use crate::fitting::obsid::ObsId;
+use crate::fitting::fit::FitResult;
 use ratatui::crossterm::event::{Event, KeyEvent};
-use std::collections::{BTreeSet, HashMap};
+use std::collections::HashMap;
 use tui_input::Input;
 use tui_input::backend::crossterm::EventHandler;
 
 mod changes;
 pub use changes::ObsRow;
 
-/// Per-candidate choices that change how it is fitted (what the journal says stands).
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct Overrides {
-    pub method: MethodChoice,
-    pub perturbations: PerturbChoice,
-    /// Observations left out of the fit.
-    pub excluded: BTreeSet<ObsId>,
-}
+pub use crate::feed::engine::Overrides;
 
 #[derive(Debug, Clone)]
 pub struct Candidate {

@@ -2,6 +2,7 @@
 //! nothing of the console.
 
 pub mod ades;
+pub mod engine;
 pub mod journal;
 pub mod obs80;
 pub mod sanitize;

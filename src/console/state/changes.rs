@@ -21,11 +21,7 @@ pub struct ObsRow {
 }
 
 fn overrides_of(s: Option<&ObjectState>) -> Overrides {
-    s.map_or_else(Overrides::default, |s| Overrides {
-        method: s.method,
-        perturbations: s.perturbations,
-        excluded: s.excluded.clone(),
-    })
+    s.map_or_else(Overrides::default, Overrides::from)
 }
 
 impl App {

@@ -16,6 +16,10 @@ use std::io::Write;
 use std::os::unix::fs::FileExt;
 use std::path::{Path, PathBuf};
 
+/// How often a follower (a console, a headless watcher) looks for lines other processes added: often
+/// enough that another observer's change shows within a second.
+pub const POLL: std::time::Duration = std::time::Duration::from_millis(500);
+
 /// The journal file, open for appending and for following.
 pub struct Journal {
     file: File,
@@ -149,6 +153,30 @@ impl Journal {
         j.seq_len = j.read_len;
         j.last_seq = replay.entries.iter().map(|e| e.seq).max().unwrap_or(0);
         Ok((j, replay))
+    }
+
+    /// Open an existing journal in `dir` only to follow it (a headless watcher fitting with the
+    /// observers' choices): nothing is created or repaired, and appending fails. None when there is
+    /// no journal there.
+    pub fn follow(dir: &Path) -> std::io::Result<Option<(Journal, Replay)>> {
+        let path = dir.join(Self::FILE_NAME);
+        let file = match OpenOptions::new().read(true).open(&path) {
+            Ok(f) => f,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
+            Err(e) => return Err(e),
+        };
+        let mut j = Journal {
+            file,
+            path,
+            observer: UNKNOWN_OBSERVER.to_string(),
+            read_len: 0,
+            read_lines: 0,
+            seq_len: 0,
+            last_seq: 0,
+            broken: Some("opened only to follow".into()),
+        };
+        let replay = j.read_new()?;
+        Ok(Some((j, replay)))
     }
 
     pub fn path(&self) -> &Path {
