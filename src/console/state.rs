@@ -281,9 +281,14 @@ impl App {
             .decision
             .as_ref()
             .map_or("undecided", |d| d.verdict_label());
-        [f.object.as_str(), f.status, f.method, decision]
-            .iter()
-            .any(|h| h.to_lowercase().contains(&needle))
+        [
+            f.object.as_str(),
+            f.status.as_str(),
+            f.method.as_str(),
+            decision,
+        ]
+        .iter()
+        .any(|h| h.to_lowercase().contains(&needle))
     }
 
     /// Re-sort and re-filter; the selected candidate stays selected if it is still shown.

@@ -10,6 +10,7 @@ pub mod followup;
 pub mod forcemodel;
 pub mod gauss;
 pub mod input;
+pub mod kinds;
 pub mod linear;
 pub mod lsq;
 pub mod nextnight;

@@ -4,6 +4,7 @@
 
 use super::fit::{FitOptions, Given, lsq_result};
 use super::input::Tracklet;
+use super::kinds::ProbabilitySource;
 use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
@@ -85,7 +86,7 @@ pub fn fit_by_profile(
         let total: f64 = raw.iter().sum();
         Given {
             posterior,
-            from: "range-profile",
+            from: ProbabilitySource::RangeProfile,
             states: prof.nodes.iter().map(|n| n.state).collect(),
             weights: raw.iter().map(|w| w / total).collect(),
         }
