@@ -121,4 +121,12 @@ mod tests {
             assert!(bad.parse::<ObsId>().is_err(), "{bad}");
         }
     }
+
+    #[test]
+    fn any_identity_a_journal_line_can_hold_has_a_label() {
+        for ticks in [i64::MIN, -1, 0, 1, i64::MAX] {
+            let id: ObsId = format!("{ticks}/0/0/X").parse().unwrap();
+            assert!(id.label().ends_with("@X"), "{ticks}");
+        }
+    }
 }
