@@ -146,10 +146,10 @@ pub fn tracklet_h(
     fitted_h(fit, &mags, &obs)
 }
 
+/// The fit's orbit and the dynamics that propagate it.
 pub(crate) fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
-    let s = fit.state?;
-    let epoch = Jd2::new(fit.epoch_jd_tdb?, 0.0);
-    Some((S6::from_column_slice(&s), epoch, fit.dynamics.dynamics()))
+    let orbit = super::forcemodel::FittedOrbit::of(fit)?;
+    Some((orbit.state, orbit.epoch, orbit.dynamics()))
 }
 
 /// The ephemeris of one fit at one instant from one site, with the default sky options and the

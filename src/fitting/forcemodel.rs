@@ -1,8 +1,36 @@
 //! Which force model a fit used, as a type: the fit record carries it (printed as before, "two-body" or
-//! "sun-planets-moon") and the ephemeris and follow-up take their dynamics from it directly.
+//! "sun-planets-moon"), and the fitted orbit — state, epoch and force model — is what the ephemeris
+//! and the follow-up predictor take.
 
 use super::perturb::{Dynamics, NBody, TwoBody};
+use super::result::FitResult;
+use crate::physics::S6;
+use crate::physics::time::Jd2;
 use std::fmt;
+
+/// A fitted orbit: the heliocentric state at its epoch (TDB) under its force model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FittedOrbit {
+    pub state: S6,
+    pub epoch: Jd2,
+    pub model: ForceModel,
+}
+
+impl FittedOrbit {
+    /// The orbit of a fit; None when the fit has no state.
+    pub fn of(fit: &FitResult) -> Option<FittedOrbit> {
+        Some(FittedOrbit {
+            state: S6::from_column_slice(&fit.state?),
+            epoch: Jd2::new(fit.epoch_jd_tdb?, 0.0),
+            model: fit.dynamics,
+        })
+    }
+
+    /// The dynamics that propagate it.
+    pub fn dynamics(&self) -> Box<dyn Dynamics> {
+        self.model.dynamics()
+    }
+}
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
