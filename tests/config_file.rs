@@ -71,7 +71,7 @@ fn values_come_from_the_file_named_by_the_environment_and_say_where_they_came_fr
     let at = |line: usize| format!("{}:{line}", cfg.display());
     assert_eq!(v["values"]["threads"]["value"], 3);
     assert_eq!(v["values"]["threads"]["from"], at(2));
-    assert_eq!(v["values"]["observer"]["value"], "second shift");
+    assert_eq!(v["values"]["observer"]["value"], "second_shift");
     assert_eq!(v["values"]["observer"]["from"], at(3));
     let state = dir.path().join("state");
     assert_eq!(v["values"]["state_dir"]["value"], state.to_str().unwrap());

@@ -1,13 +1,16 @@
 //! End to end: the console's event loop runs on a TestBackend against a temporary watched directory into
 //! which demo files are written while it runs. Scripted keys then decide and exclude; the test checks
 //! that the candidates appear ranked, the decision reaches the journal on disk, and an excluded
-//! observation changes the fit.
+//! observation changes the fit; another observer's decision, written to the same journal by another
+//! writer, shows within a second with their name; and a console started again on the same state
+//! directory fits with the exclusion and shows the decisions.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::Theme;
 use interloper::console::runtime::{self, AppEvent};
 use interloper::console::state::App;
+use interloper::feed::journal::{Entry, Journal, Verdict};
 use interloper::feed::sites::SiteTable;
 use interloper::feed::watcher::WatchOptions;
 use ratatui::Terminal;
@@ -22,7 +25,8 @@ use std::time::{Duration, Instant};
 struct Seen {
     order: Vec<String>,
     used: Vec<(String, usize, Option<f64>)>,
-    decided: Vec<(String, String)>,
+    /// (object, verdict, observer) of every standing decision.
+    decided: Vec<(String, String, String)>,
 }
 
 fn wait_for(seen: &Arc<Mutex<Seen>>, what: &str, f: impl Fn(&Seen) -> bool) -> Seen {
@@ -40,10 +44,15 @@ fn wait_for(seen: &Arc<Mutex<Seen>>, what: &str, f: impl Fn(&Seen) -> bool) -> S
     }
 }
 
-#[test]
-fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
-    let watched = tempfile::tempdir().unwrap();
-    let state = tempfile::tempdir().unwrap();
+/// A console on `watched` and `state`, its frames summarised in the returned `Seen`.
+struct Console {
+    tx: std::sync::mpsc::Sender<AppEvent>,
+    seen: Arc<Mutex<Seen>>,
+    ui: std::thread::JoinHandle<()>,
+    stop: Arc<AtomicBool>,
+}
+
+fn console(watched: &std::path::Path, state: &std::path::Path) -> Console {
     let stop = Arc::new(AtomicBool::new(false));
     let (tx, rx) = std::sync::mpsc::channel();
     let opts = WatchOptions {
@@ -51,14 +60,16 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         scan_interval: Duration::from_millis(50),
         ..WatchOptions::default()
     };
-    let (mut rt, decisions, _) = runtime::start(
-        watched.path().to_path_buf(),
+    let (mut rt, decisions, _) = runtime::start_as(
+        watched.to_path_buf(),
         SiteTable::builtin(),
-        state.path().to_path_buf(),
+        state.to_path_buf(),
         opts,
         2,
         stop.clone(),
         tx.clone(),
+        "alice",
+        interloper::fitting::fit::builtin_population(),
     )
     .unwrap();
     let seen = Arc::new(Mutex::new(Seen::default()));
@@ -66,6 +77,7 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
     let stop_loop = stop.clone();
     let ui = std::thread::spawn(move || {
         let mut app = App::new(Keymap::builtin());
+        app.me = "alice".into();
         rt.replayed(&mut app, decisions);
         let mut terminal = Terminal::new(TestBackend::new(120, 36)).unwrap();
         runtime::run_loop(
@@ -91,9 +103,13 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
                     .candidates
                     .iter()
                     .filter_map(|c| {
-                        c.decision
-                            .as_ref()
-                            .map(|d| (c.fit.object.clone(), d.verdict.label().to_string()))
+                        c.decision.as_ref().map(|d| {
+                            (
+                                c.fit.object.clone(),
+                                d.verdict_label().to_string(),
+                                d.observer().to_string(),
+                            )
+                        })
                     })
                     .collect();
             },
@@ -101,6 +117,36 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         .unwrap();
         rt.shutdown();
     });
+    Console { tx, seen, ui, stop }
+}
+
+impl Console {
+    fn key(&self, c: KeyCode) {
+        self.tx
+            .send(AppEvent::Key(KeyEvent::new(c, KeyModifiers::NONE)))
+            .unwrap()
+    }
+
+    fn quit(self) {
+        self.key(KeyCode::Char('q'));
+        self.ui.join().unwrap();
+        self.stop.store(true, std::sync::atomic::Ordering::Relaxed);
+    }
+}
+
+fn decided(s: &Seen, object: &str, verdict: &str, observer: &str) -> bool {
+    s.decided
+        .iter()
+        .any(|(o, v, w)| o == object && v == verdict && w == observer)
+}
+
+#[test]
+fn files_arrive_candidates_rank_changes_are_journaled_another_observer_shows_and_a_restart_keeps_them()
+ {
+    let watched = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    let con = console(watched.path(), state.path());
+    let seen = con.seen.clone();
     // Files arrive while the console runs: a main-belt object first, then the hyperbolic one.
     let demo = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
     let mut files: Vec<PathBuf> = std::fs::read_dir(&demo)
@@ -124,16 +170,10 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         "ranked first: {:?}",
         s.order
     );
-    let key = |c: KeyCode| {
-        tx.send(AppEvent::Key(KeyEvent::new(c, KeyModifiers::NONE)))
-            .unwrap()
-    };
-    key(KeyCode::Char('g'));
-    key(KeyCode::Char('p'));
+    con.key(KeyCode::Char('g'));
+    con.key(KeyCode::Char('p'));
     wait_for(&seen, "the decision", |s| {
-        s.decided
-            .iter()
-            .any(|(o, v)| o == "qka2e7f" && v == "pursue")
+        decided(s, "qka2e7f", "pursue", "alice")
     });
     let journal = std::fs::read_to_string(state.path().join("decisions.jsonl")).unwrap();
     assert!(
@@ -141,7 +181,7 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         "{journal}"
     );
     let e_before = s.used.iter().find(|u| u.0 == "qka2e7f").unwrap().2;
-    key(KeyCode::Char(' '));
+    con.key(KeyCode::Char(' '));
     let s = wait_for(&seen, "the refit without one observation", |s| {
         s.used.iter().any(|(o, n, _)| o == "qka2e7f" && *n == 14)
     });
@@ -150,7 +190,33 @@ fn files_arrive_candidates_rank_decisions_are_journaled_and_exclusion_refits() {
         e_before, e_after,
         "excluding an observation changed nothing"
     );
-    key(KeyCode::Char('q'));
-    ui.join().unwrap();
-    stop.store(true, std::sync::atomic::Ordering::Relaxed);
+    // Another observer, another writer on the same journal: the console shows it with their name.
+    let (mut bob, _) = Journal::open_as(state.path(), "bob").unwrap();
+    bob.append(Entry::decision(
+        "qk0f3ra",
+        Verdict::SetAside,
+        "2027-02-26T03:00:00Z".into(),
+    ))
+    .unwrap();
+    let shown = Instant::now();
+    wait_for(&seen, "bob's decision", |s| {
+        decided(s, "qk0f3ra", "set aside", "bob")
+    });
+    eprintln!(
+        "another writer's decision shown after {:?}",
+        shown.elapsed()
+    );
+    con.quit();
+    // A console started again on the same state fits with the exclusion and shows both decisions.
+    let again = console(watched.path(), state.path());
+    wait_for(
+        &again.seen,
+        "the restart with the exclusion re-applied",
+        |s| {
+            s.used.iter().any(|(o, n, _)| o == "qka2e7f" && *n == 14)
+                && decided(s, "qka2e7f", "pursue", "alice")
+                && decided(s, "qk0f3ra", "set aside", "bob")
+        },
+    );
+    again.quit();
 }

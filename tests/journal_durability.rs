@@ -48,7 +48,7 @@ fn no_acknowledged_decision_is_lost_across_100_kills() {
         let (_, replay) = Journal::open(dir.path())
             .unwrap_or_else(|e| panic!("round {round}: journal failed to load: {e}"));
         torn += replay.warnings.len();
-        let present: HashSet<u64> = replay.decisions.iter().map(|d| d.seq).collect();
+        let present: HashSet<u64> = replay.entries.iter().map(|d| d.seq).collect();
         let lost: Vec<&u64> = acked.iter().filter(|s| !present.contains(s)).collect();
         assert!(
             lost.is_empty(),

@@ -9,13 +9,14 @@ use std::process::Command;
 
 fn decision(k: usize) -> Decision {
     Decision {
-        seq: 0,
-        time_utc: "2027-02-26T03:00:00Z".into(),
-        object: format!("qkz{k:03}"),
-        verdict: Verdict::Pursue,
         note: Some("a note long enough to make every line a few hundred bytes".repeat(3)),
         n_obs: 12,
         obs_digest: "00112233445566778899".into(),
+        ..Decision::decision(
+            &format!("qkz{k:03}"),
+            Verdict::Pursue,
+            "2027-02-26T03:00:00Z".into(),
+        )
     }
 }
 
@@ -71,7 +72,7 @@ fn decisions_saved_around_a_full_disk_all_replay() {
     }
     drop(j);
     let (_, replay) = Journal::open(&state).unwrap();
-    let objects: Vec<&str> = replay.decisions.iter().map(|d| d.object.as_str()).collect();
+    let objects: Vec<&str> = replay.entries.iter().map(|d| d.object.as_str()).collect();
     eprintln!(
         "{} saved, {} refused while full; replay finds {} with {} warnings",
         saved.len(),

@@ -65,7 +65,7 @@ fn check(tr: &Tracklet) -> &'static str {
             tr.object
         );
     }
-    a.probability_from
+    a.probability_from.as_str()
 }
 
 #[test]

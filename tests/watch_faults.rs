@@ -21,7 +21,7 @@ fn idle_scans(poll: bool) -> u64 {
         ..WatchOptions::default()
     };
     let (_rx, scans) = spawn_counted(dir.path().to_path_buf(), opts, stop.clone());
-    std::thread::sleep(Duration::from_secs(2));
+    std::thread::sleep(Duration::from_secs(3));
     stop.store(true, Ordering::Relaxed);
     scans.load(Ordering::Relaxed)
 }
@@ -31,10 +31,47 @@ fn an_idle_watcher_scans_at_its_interval_and_no_faster() {
     for poll in [false, true] {
         let n = idle_scans(poll);
         eprintln!(
-            "idle for 2 s at a 100 ms interval ({}): {n} scans",
+            "idle for 3 s at a 100 ms interval ({}): {n} scans",
             if poll { "polling" } else { "events" }
         );
-        assert!((10..=25).contains(&n), "{n} scans in 2 s");
+        assert!((20..=36).contains(&n), "{n} scans in 3 s");
+    }
+}
+
+#[test]
+fn an_idle_watcher_still_takes_files_renamed_or_linked_into_place() {
+    for poll in [false, true] {
+        let dir = tempfile::tempdir().unwrap();
+        let outside = tempfile::tempdir().unwrap();
+        let stop = Arc::new(AtomicBool::new(false));
+        let opts = WatchOptions {
+            poll,
+            scan_interval: Duration::from_millis(100),
+            ..WatchOptions::default()
+        };
+        let (rx, scans) = spawn_counted(dir.path().to_path_buf(), opts, stop.clone());
+        std::thread::sleep(Duration::from_millis(500));
+        let body = "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec\n";
+        let staged = outside.path().join("a.psv");
+        std::fs::write(&staged, body).unwrap();
+        std::fs::rename(&staged, dir.path().join("a.psv")).unwrap();
+        std::fs::write(&staged, body).unwrap();
+        std::fs::hard_link(&staged, dir.path().join("b.psv")).unwrap();
+        let mut names = Vec::new();
+        while names.len() < 2 {
+            match rx.recv_timeout(Duration::from_secs(5)) {
+                Ok(WatchEvent::Ready { path, bytes, .. }) => {
+                    assert_eq!(bytes, body.as_bytes());
+                    names.push(path.file_name().unwrap().to_string_lossy().into_owned());
+                }
+                Ok(other) => panic!("unexpected {other:?}"),
+                Err(e) => panic!("poll={poll}: only {names:?} after 5 s ({e})"),
+            }
+        }
+        stop.store(true, Ordering::Relaxed);
+        names.sort();
+        assert_eq!(names, ["a.psv", "b.psv"], "poll={poll}");
+        assert!(scans.load(Ordering::Relaxed) >= 5, "poll={poll}");
     }
 }
 

@@ -119,31 +119,33 @@ pub fn default_state_dir() -> PathBuf {
     )
 }
 
-/// `$USER` (or `$USERNAME`), cleaned to a short printable name.
+/// `$USER`, cleaned as the journal cleans every observer name.
 fn default_observer() -> Setting<String> {
-    for var in ["USER", "USERNAME"] {
-        if let Ok(v) = std::env::var(var) {
-            let name = clean_name(&v);
-            if !name.is_empty() {
-                return Setting {
-                    value: name,
-                    from: Source::Env(var),
-                };
-            }
+    let name = clean_name(None);
+    if std::env::var("USER").is_ok_and(|u| !u.trim().is_empty()) {
+        Setting {
+            value: name,
+            from: Source::Env("USER"),
         }
+    } else {
+        Setting::default(name)
     }
-    Setting::default("observer".to_string())
 }
 
-/// Observer names are shown on screen and written into the journal: printable, at most 32 characters.
-pub fn clean_name(raw: &str) -> String {
-    interloper::feed::sanitize::clean(raw.trim())
-        .chars()
-        .filter(|c| !c.is_whitespace() || *c == ' ')
-        .take(32)
-        .collect::<String>()
-        .trim()
-        .to_string()
+/// Observer names are shown on screen and written into the journal: the journal's own cleaning (no
+/// control or invisible characters, spaces as `_`, at most 32 characters), `$USER` when none is given.
+pub fn clean_name(raw: Option<&str>) -> String {
+    interloper::feed::journal::observer_name(raw)
+}
+
+impl Config {
+    /// The observer to sign journal lines with: `given` (a flag), else the configuration's.
+    pub fn observer_for(&self, given: Option<&str>) -> String {
+        match given {
+            Some(g) => clean_name(Some(g)),
+            None => self.observer.value.clone(),
+        }
+    }
 }
 
 impl Config {
@@ -230,11 +232,20 @@ impl Config {
             };
         }
         if let Some(o) = f.observer {
-            let name = clean_name(&o);
-            if name.is_empty() {
+            let name = clean_name(Some(&o));
+            let plain: String = o
+                .trim()
+                .chars()
+                .map(|c| if c.is_whitespace() { '_' } else { c })
+                .take(32)
+                .collect();
+            if plain.is_empty() {
+                return Err(err(line_of(text, "observer"), "observer is empty".into()));
+            }
+            if name != plain {
                 return Err(err(
                     line_of(text, "observer"),
-                    "observer is empty once cleaned of control characters".into(),
+                    "observer has control or invisible characters".into(),
                 ));
             }
             c.observer = Setting {
@@ -347,7 +358,7 @@ mod tests {
             }
         );
         assert_eq!(c.sites.value, Some(PathBuf::from("/etc/x/sites.toml")));
-        assert_eq!(c.observer.value, "night lead");
+        assert_eq!(c.observer.value, "night_lead");
         assert_eq!(c.min_alt_deg.from, Source::Default);
     }
 
@@ -402,7 +413,9 @@ mod tests {
 
     #[test]
     fn observer_names_are_cleaned_and_bounded() {
-        assert_eq!(clean_name("  ana\u{1b}[31m\u{200b}  "), "ana");
-        assert_eq!(clean_name(&"x".repeat(100)).chars().count(), 32);
+        assert_eq!(clean_name(Some(" ana lee ")), "ana_lee");
+        assert_eq!(clean_name(Some(&"x".repeat(100))).chars().count(), 32);
+        let e = parse("observer = \"ana\\u001b[31m\"\n").unwrap_err();
+        assert!(e.reason.contains("control or invisible"), "{e}");
     }
 }

@@ -23,12 +23,14 @@ pub struct ConsoleConfig {
     pub threads: usize,
     pub population: Arc<interloper::fitting::population::PopulationModel>,
     pub theme: Theme,
+    /// Who writes to the journal from this console (already cleaned).
+    pub observer: String,
 }
 
 pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     let (keymap, warning) = runtime::keymap_for(cfg.keymap.as_deref());
     let (tx, rx) = std::sync::mpsc::channel();
-    let (mut rt, decisions, warnings) = runtime::start(
+    let (mut rt, decisions, warnings) = runtime::start_as(
         cfg.dir.clone(),
         cfg.sites,
         cfg.state.clone(),
@@ -36,14 +38,16 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         cfg.threads,
         stop.clone(),
         tx.clone(),
+        &cfg.observer,
+        cfg.population.clone(),
     )?;
-    rt.set_population(cfg.population.clone());
     let log_warning = super::logging::init(&cfg.state, super::logging::Sink::FileOnly);
     tracing::info!(dir = %clean(&cfg.dir.display().to_string()), "console opened");
     for w in &warnings {
         tracing::warn!("{}", clean(w));
     }
     let mut app = App::new(keymap);
+    app.me = cfg.observer.clone();
     app.message = warning
         .or(log_warning)
         .or_else(|| warnings.first().cloned())

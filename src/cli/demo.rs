@@ -22,6 +22,9 @@ pub struct DemoArgs {
     /// Key map file.
     #[arg(long, value_name = "FILE")]
     pub keymap: Option<PathBuf>,
+    /// Who you are in the journal, on a state directory shared with other observers (default: $USER).
+    #[arg(long, value_name = "NAME")]
+    pub observer: Option<String>,
     /// No console: print results (add --json for JSON lines); stops when the replay is done and idle.
     #[arg(long)]
     pub headless: bool,

@@ -1,15 +1,15 @@
 //! `interloper watch`: take in every file that arrives in a directory, fit each changed object on
-//! worker threads, and report results as they come (JSON lines with `--json`).
+//! worker threads (through the same engine as the console, with the observers' exclusions and forced
+//! methods from the journal when there is one), and report results as they come (JSON lines with
+//! `--json`).
 
 use super::inputs::{PopulationArgs, SiteArgs};
 use interloper::feed::InputError;
-use interloper::feed::store::Store;
-use interloper::feed::tracklets::Limits;
-use interloper::feed::watcher::{self, WatchEvent, WatchOptions};
-use interloper::fitting::batch::FitPool;
-use interloper::fitting::fit::FitOptions;
+use interloper::feed::engine::{self, Engine, EngineEvent, Overrides};
+use interloper::feed::journal::{Journal, Kind, Standing};
+use interloper::feed::watcher::{self, WatchOptions};
+use interloper::fitting::fit::{FitOptions, FitResult};
 use interloper::fitting::origin::OriginOptions;
-use std::collections::HashMap;
 use std::io::Write;
 use std::path::PathBuf;
 use std::sync::Arc;
@@ -27,6 +27,9 @@ pub struct WatchArgs {
     /// Where the decision journal lives (default: the platform's state directory).
     #[arg(long, value_name = "DIR")]
     pub state: Option<PathBuf>,
+    /// Who you are in the journal, on a state directory shared with other observers (default: $USER).
+    #[arg(long, value_name = "NAME")]
+    pub observer: Option<String>,
     /// No console: report to standard output.
     #[arg(long)]
     pub headless: bool,
@@ -107,6 +110,7 @@ impl WatchArgs {
             stop_after_idle: demo.headless.then_some(idle),
             threads: None,
             keymap: demo.keymap.clone(),
+            observer: demo.observer.clone(),
             dir,
         }
     }
@@ -174,121 +178,168 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
                 threads,
                 population: args.population.load()?,
                 theme: args.color.theme(),
+                observer: super::config::get().observer_for(args.observer.as_deref()),
             },
             stop,
         );
     }
     let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
-    let (rtx, results) = std::sync::mpsc::channel();
-    let pool = FitPool::new(threads, rtx);
     let population = args.population.load()?;
     let fit_opts = FitOptions {
         origin: Some(OriginOptions::for_model(&population)),
         population,
         ..FitOptions::default()
     };
-    let limits = Limits::default();
-    let mut store = Store::new();
-    let mut arrived: HashMap<String, SystemTime> = HashMap::new();
+    // The observers' exclusions and forced methods, if a journal is there: fits here use them too,
+    // so the numbers are the consoles' numbers.
+    let state = args
+        .state
+        .clone()
+        .unwrap_or_else(interloper::feed::journal::default_state_dir);
+    let mut journal = Journal::follow(&state).unwrap_or_else(|e| {
+        eprintln!("watch: cannot read the journal in {}: {e}", state.display());
+        None
+    });
+    let mut standing = journal
+        .as_ref()
+        .map(|(_, r)| r.standing())
+        .unwrap_or_default();
+    let (etx, results) = std::sync::mpsc::channel();
+    let engine = Engine::start(
+        events,
+        Arc::new(sites),
+        fit_opts,
+        threads,
+        engine::overrides_in(&standing),
+        move |ev| etx.send(ev).is_ok(),
+    );
     let mut out = Out {
         json: args.json,
         closed: false,
         w: std::io::BufWriter::new(std::io::stdout()),
     };
+    let mut n = Counts::default();
     let mut last_activity = Instant::now();
-    let (mut files, mut fits, mut rejected) = (0usize, 0usize, 0usize);
+    let mut last_look = Instant::now();
     while !stop.load(Ordering::Relaxed) && !out.closed {
-        let mut busy = false;
-        match events.recv_timeout(Duration::from_millis(20)) {
-            Ok(WatchEvent::Ready {
-                path,
-                bytes,
-                arrived: at,
-            }) => {
-                busy = true;
-                files += 1;
-                let name = path.display().to_string();
-                let ing = store.ingest(&name, &bytes, &sites, &limits);
-                for e in &ing.errors {
-                    out.input_error(
-                        e,
-                        if ing.rejected {
-                            "rejected"
-                        } else {
-                            "input-error"
-                        },
-                        at,
-                    );
-                }
-                rejected += usize::from(ing.rejected);
-                for (obj, version) in ing.changed {
-                    if let Some(t) = store.tracklet(&obj) {
-                        arrived.insert(obj, at);
-                        pool.submit(version, t, fit_opts.clone());
-                    }
-                }
+        match results.recv_timeout(Duration::from_millis(100)) {
+            Ok(ev) => {
+                last_activity = Instant::now();
+                n.report(&mut out, ev)?;
             }
-            Ok(WatchEvent::Refused {
-                path,
-                reason,
-                arrived: at,
-            }) => {
-                busy = true;
-                rejected += 1;
-                let e = InputError {
-                    file: interloper::feed::sanitize::clean(&path.display().to_string()),
-                    line: 0,
-                    column: None,
-                    reason,
-                };
-                out.input_error(&e, "rejected", at);
-            }
-            Ok(WatchEvent::Failed(msg)) => eprintln!("watch: {msg}"),
             Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
             Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
         }
-        while let Ok((obj, version, r)) = results.try_recv() {
-            busy = true;
-            // A newer version of this object is queued or running: its result will follow.
-            if store.version(&obj).is_some_and(|v| v > version) {
-                continue;
-            }
-            fits += 1;
-            let at = arrived.get(&obj).copied().unwrap_or_else(SystemTime::now);
-            let mut v = serde_json::to_value(&r)?;
-            if let Some(m) = v.as_object_mut() {
-                m.insert("kind".into(), "fit".into());
-                m.insert("arrived_utc".into(), utc(at).into());
-            }
-            let text = format!(
-                "{} {:<14} odds {:>6} P(unb) {:>6} e {:>9} {} ({} obs, {} nights) {}",
-                utc(at),
-                interloper::feed::sanitize::clean(&r.object),
-                interloper::report::odds_text(&r),
-                r.p_hyperbolic.map_or("-".into(), |p| format!("{p:.3}")),
-                r.e.map_or("-".into(), |e| format!("{e:.4}")),
-                r.status,
-                r.n_obs,
-                r.n_nights,
-                r.error.clone().unwrap_or_default()
-            );
-            out.emit(v, text);
+        if let Some((j, _)) = journal.as_mut()
+            && last_look.elapsed() >= interloper::feed::journal::POLL
+        {
+            last_look = Instant::now();
+            follow(j, &mut standing, &engine);
         }
-        if busy {
-            last_activity = Instant::now();
-        } else if let Some(idle) = args.stop_after_idle {
-            let (waiting, running) = pool.load();
+        if let Some(idle) = args.stop_after_idle {
+            let (waiting, running) = engine.load();
             if waiting == 0 && running == 0 && last_activity.elapsed().as_secs_f64() >= idle {
                 break;
             }
         }
     }
     stop.store(true, Ordering::Relaxed);
-    pool.shutdown();
+    engine.shutdown();
     eprintln!(
-        "watch: stopped; {files} file versions read, {} objects, {} observations, {fits} fits reported, {rejected} rejected",
-        store.n_objects(),
-        store.n_observations()
+        "watch: stopped; {} file versions read, {} objects, {} observations, {} fits reported, {} rejected",
+        n.files, n.objects, n.observations, n.fits, n.rejected
     );
     Ok(0)
+}
+
+/// Lines the observers added: objects whose exclusions or forced methods changed are refitted.
+fn follow(j: &mut Journal, standing: &mut Standing, engine: &Engine) {
+    let Ok(read) = j.read_new() else { return };
+    let mut touched = std::collections::BTreeSet::new();
+    for e in &read.entries {
+        standing.apply(e);
+        if e.kind != Kind::Decision {
+            touched.insert(e.object.clone());
+        }
+    }
+    for obj in touched {
+        let ov = standing.get(&obj).map(Overrides::from).unwrap_or_default();
+        engine.set_overrides(&obj, ov);
+    }
+}
+
+/// What the run has seen, for the closing line.
+#[derive(Default)]
+struct Counts {
+    files: usize,
+    objects: usize,
+    observations: usize,
+    fits: usize,
+    rejected: usize,
+}
+
+impl Counts {
+    /// Report one engine event (a JSON line with `--json`, else a line of text).
+    fn report(&mut self, out: &mut Out, ev: EngineEvent) -> anyhow::Result<()> {
+        match ev {
+            EngineEvent::Ingested {
+                arrived,
+                errors,
+                rejected,
+                objects,
+                observations,
+                ..
+            } => {
+                self.files += 1;
+                (self.objects, self.observations) = (objects, observations);
+                let kind = if rejected { "rejected" } else { "input-error" };
+                for e in &errors {
+                    out.input_error(e, kind, arrived);
+                }
+                self.rejected += usize::from(rejected);
+            }
+            EngineEvent::Refused {
+                path,
+                reason,
+                arrived,
+            } => {
+                self.rejected += 1;
+                let e = InputError {
+                    file: interloper::feed::sanitize::clean(&path),
+                    line: 0,
+                    column: None,
+                    reason,
+                };
+                out.input_error(&e, "rejected", arrived);
+            }
+            EngineEvent::Failed(msg) => eprintln!("watch: {msg}"),
+            EngineEvent::Fit { fit, arrived, .. } => {
+                self.fits += 1;
+                fit_line(out, &fit, arrived)?;
+            }
+        }
+        Ok(())
+    }
+}
+
+fn fit_line(out: &mut Out, r: &FitResult, at: SystemTime) -> anyhow::Result<()> {
+    let mut v = serde_json::to_value(r)?;
+    if let Some(m) = v.as_object_mut() {
+        m.insert("kind".into(), "fit".into());
+        m.insert("arrived_utc".into(), utc(at).into());
+    }
+    let text = format!(
+        "{} {:<14} odds {:>6} P(unb) {:>6} e {:>9} {} ({} obs, {} nights) {}",
+        utc(at),
+        interloper::feed::sanitize::clean(&r.object),
+        interloper::report::odds_text(r),
+        r.p_hyperbolic.map_or("-".into(), |p| format!("{p:.3}")),
+        r.e.map_or("-".into(), |e| format!("{e:.4}")),
+        r.status,
+        r.n_obs,
+        r.n_nights,
+        r.error.clone().unwrap_or_default()
+    );
+    out.emit(v, text);
+    Ok(())
 }

@@ -126,7 +126,7 @@ mod tests {
         .remove(0);
         let mut r = FitResult::failed(&t, "made for the test");
         r.error = None;
-        r.status = "ok";
+        r.status = crate::fitting::kinds::FitStatus::Ok;
         r.p_hyperbolic = Some(p);
         r.n_nights = 3;
         r

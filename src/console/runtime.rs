@@ -5,14 +5,12 @@
 
 use super::keymap::Keymap;
 use super::panes::Theme;
-use super::state::{App, Effect, Overrides};
+use super::state::{App, Effect};
 use super::view;
-use crate::feed::journal::{Decision, Journal};
+use crate::feed::engine::{Engine, EngineEvent};
+use crate::feed::journal::{Entry, Journal};
 use crate::feed::sites::SiteTable;
-use crate::feed::store::Store;
-use crate::feed::tracklets::Limits;
-use crate::feed::watcher::{self, WatchEvent, WatchOptions};
-use crate::fitting::batch::{FitPool, PoolResult};
+use crate::feed::watcher::{self, WatchOptions};
 use crate::fitting::ephemeris::{EphemerisPoint, point};
 use crate::fitting::fit::{FitOptions, FitResult};
 use crate::physics::observe::ObserverModel;
@@ -20,11 +18,10 @@ use crate::physics::time::{UtcTime, tt_to_utc};
 use ratatui::Terminal;
 use ratatui::backend::Backend;
 use ratatui::crossterm::event::KeyEvent;
-use std::collections::HashMap;
 use std::path::PathBuf;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender, channel};
+use std::sync::mpsc::{Receiver, RecvTimeoutError, Sender};
 use std::time::{Duration, Instant};
 
 /// Everything that can happen to the console.
@@ -35,10 +32,13 @@ pub enum AppEvent {
     /// The terminal was handed back (after a suspend): whatever is on it is not our last frame, so
     /// the whole screen is cleared and drawn again.
     Repaint,
-    Watch(WatchEvent),
-    Fit(Box<PoolResult>),
-    /// A decision saved, or (object, reason) when it could not be.
-    Journal(Result<Decision, (String, String)>),
+    /// Files taken in, fits done: what the ingest engine reports.
+    Engine(EngineEvent),
+    /// A line this console wrote is on disk, or (object, reason) when it could not be saved.
+    Journal(Result<Entry, (String, String)>),
+    /// Lines read from the journal (this console's and other processes'), in file order, with
+    /// warnings about lines that could not be read.
+    JournalRead(Vec<Entry>, Vec<String>),
     Ephemeris(String, Vec<EphemerisPoint>),
     Plan(crate::fitting::plan::Plan),
     Tick,
@@ -49,18 +49,13 @@ pub const MAX_FPS: u64 = 30;
 
 pub struct Runtime {
     pub tx: Sender<AppEvent>,
-    store: Store,
-    pool: FitPool,
-    journal: Sender<Decision>,
+    engine: Engine,
+    journal: Sender<Entry>,
     sites: Arc<SiteTable>,
-    limits: Limits,
-    generation: HashMap<String, u64>,
-    overrides: HashMap<String, Overrides>,
-    pending_decisions: HashMap<String, Decision>,
-    population: Arc<crate::fitting::population::PopulationModel>,
 }
 
-/// Start the feed, fit workers and journal for a watched directory; events go to `tx`.
+/// Start the feed, fit workers and journal for a watched directory, as the `$USER` observer; events
+/// go to `tx`. Returns the journal's lines so far (for [`Runtime::replayed`]) and its warnings.
 pub fn start(
     dir: PathBuf,
     sites: SiteTable,
@@ -69,40 +64,40 @@ pub fn start(
     threads: usize,
     stop: Arc<AtomicBool>,
     tx: Sender<AppEvent>,
-) -> anyhow::Result<(Runtime, Vec<Decision>, Vec<String>)> {
-    let (journal, replay) = Journal::open(&state_dir)?;
-    let standing: Vec<Decision> = replay.standing().into_values().collect();
-    let warnings = replay.warnings.clone();
-    let (jtx, jrx) = channel::<Decision>();
-    let tx_j = tx.clone();
-    std::thread::spawn(move || {
-        let mut journal = journal;
-        for d in jrx {
-            let object = d.object.clone();
-            let r = journal.append(d).map_err(|e| (object, e.to_string()));
-            if tx_j.send(AppEvent::Journal(r)).is_err() {
-                return;
-            }
-        }
-    });
+) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
+    let me = crate::feed::journal::observer_name(None);
+    let population = crate::fitting::fit::builtin_population();
+    start_as(
+        dir, sites, state_dir, watch, threads, stop, tx, &me, population,
+    )
+}
+
+/// As [`start`], writing to the journal as `observer` and fitting under `population`.
+#[allow(clippy::too_many_arguments)]
+pub fn start_as(
+    dir: PathBuf,
+    sites: SiteTable,
+    state_dir: PathBuf,
+    watch: WatchOptions,
+    threads: usize,
+    stop: Arc<AtomicBool>,
+    tx: Sender<AppEvent>,
+    observer: &str,
+    population: Arc<crate::fitting::population::PopulationModel>,
+) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
+    let (journal, replay) = Journal::open_as(&state_dir, observer)?;
+    let jtx = super::journaltask::spawn(journal, tx.clone(), stop.clone());
+    let sites = Arc::new(sites);
     let events = watcher::spawn(dir, watch, stop.clone());
-    let tx_w = tx.clone();
-    std::thread::spawn(move || {
-        for ev in events {
-            if tx_w.send(AppEvent::Watch(ev)).is_err() {
-                return;
-            }
-        }
-    });
-    let (rtx, rrx) = channel::<PoolResult>();
-    let tx_f = tx.clone();
-    std::thread::spawn(move || {
-        for r in rrx {
-            if tx_f.send(AppEvent::Fit(Box::new(r))).is_err() {
-                return;
-            }
-        }
-    });
+    let tx_e = tx.clone();
+    let engine = Engine::start(
+        events,
+        sites.clone(),
+        fit_options(population),
+        threads,
+        crate::feed::engine::overrides_in(&replay.standing()),
+        move |ev| tx_e.send(AppEvent::Engine(ev)).is_ok(),
+    );
     let tx_t = tx.clone();
     let stop_t = stop.clone();
     std::thread::spawn(move || {
@@ -116,54 +111,19 @@ pub fn start(
     Ok((
         Runtime {
             tx,
-            store: Store::new(),
-            pool: FitPool::new(threads, rtx),
+            engine,
             journal: jtx,
-            sites: Arc::new(sites),
-            limits: Limits::default(),
-            generation: HashMap::new(),
-            overrides: HashMap::new(),
-            pending_decisions: HashMap::new(),
-            population: crate::fitting::fit::builtin_population(),
+            sites,
         },
-        standing,
-        warnings,
+        replay.entries,
+        replay.warnings,
     ))
-}
-
-fn label_of(o: &crate::fitting::input::Observation) -> String {
-    format!("{}@{}", tt_to_utc(o.time.tt), o.site_code)
 }
 
 impl Runtime {
     /// Fit under this population model from now on.
     pub fn set_population(&mut self, model: Arc<crate::fitting::population::PopulationModel>) {
-        self.population = model;
-    }
-
-    fn submit(&mut self, object: &str) {
-        let Some(mut t) = self.store.tracklet(object) else {
-            return;
-        };
-        let ov = self.overrides.get(object).cloned().unwrap_or_default();
-        t.obs.retain(|o| !ov.excluded.contains(&label_of(o)));
-        let t = crate::fitting::input::Tracklet::new(t.object, t.source, t.obs);
-        let g = self.generation.entry(object.to_string()).or_insert(0);
-        *g += 1;
-        let opts = FitOptions {
-            method: ov.method,
-            perturbations: ov.perturbations,
-            population: self.population.clone(),
-            origin: Some(crate::fitting::origin::OriginOptions::for_model(
-                &self.population,
-            )),
-            ..FitOptions::default()
-        };
-        self.pool.submit(*g, t, opts);
-    }
-
-    fn known(&self, object: &str) -> usize {
-        self.store.tracklet(object).map_or(0, |t| t.obs.len())
+        self.engine.set_options(fit_options(model));
     }
 
     /// React to one event; returns false to stop.
@@ -178,7 +138,7 @@ impl Runtime {
                 }
             }
             AppEvent::Resize | AppEvent::Tick | AppEvent::Repaint => {
-                let (w, r) = self.pool.load();
+                let (w, r) = self.engine.load();
                 if (w, r) != (app.status.waiting, app.status.fitting)
                     || matches!(ev, AppEvent::Resize | AppEvent::Repaint)
                 {
@@ -187,57 +147,13 @@ impl Runtime {
                     app.dirty = true;
                 }
             }
-            AppEvent::Watch(WatchEvent::Ready {
-                path,
-                bytes,
-                arrived,
-            }) => {
-                app.status.files_seen += 1;
-                app.status.last_arrival = Some(
-                    chrono::DateTime::<chrono::Utc>::from(arrived)
-                        .format("%H:%M:%SZ")
-                        .to_string(),
-                );
-                let ing = self.store.ingest(
-                    &path.display().to_string(),
-                    &bytes,
-                    &self.sites,
-                    &self.limits,
-                );
-                for e in ing.errors {
-                    app.on_rejected(e);
+            AppEvent::Engine(ev) => on_engine(app, ev),
+            AppEvent::Journal(Ok(e)) => app.on_saved(&e),
+            AppEvent::JournalRead(entries, warnings) => {
+                if let Some(w) = warnings.first() {
+                    app.message = Some(w.clone());
                 }
-                for (obj, _) in ing.changed {
-                    self.submit(&obj);
-                }
-                app.dirty = true;
-            }
-            AppEvent::Watch(WatchEvent::Refused { path, reason, .. }) => {
-                app.on_rejected(crate::feed::InputError {
-                    file: crate::feed::sanitize::clean(&path.display().to_string()),
-                    line: 0,
-                    column: None,
-                    reason,
-                })
-            }
-            AppEvent::Watch(WatchEvent::Failed(m)) => app.message = Some(m),
-            AppEvent::Fit(boxed) => {
-                let (obj, version, fit) = *boxed;
-                if self.generation.get(&obj).is_some_and(|g| *g > version) {
-                    return true; // a newer fit of this object is on its way
-                }
-                if fit.status == "failed" {
-                    app.status.failed += 1;
-                }
-                let known = self.known(&obj);
-                app.on_fit(version, fit, known);
-                if let Some(d) = self.pending_decisions.remove(&obj) {
-                    app.on_decision(d);
-                }
-            }
-            AppEvent::Journal(Ok(d)) => {
-                app.message = Some(format!("{}: {} saved", d.object, d.verdict.label()));
-                app.on_decision(d);
+                self.apply_lines(app, &entries);
             }
             AppEvent::Journal(Err((object, e))) => app.on_save_failed(&object, &e),
             AppEvent::Ephemeris(obj, pts) => {
@@ -252,14 +168,24 @@ impl Runtime {
         true
     }
 
-    /// Decisions replayed from the journal wait here until their candidates appear.
-    pub fn replayed(&mut self, app: &mut App, decisions: Vec<Decision>) {
-        for d in decisions {
-            if app.candidates.iter().any(|c| c.fit.object == d.object) {
-                app.on_decision(d);
-            } else {
-                self.pending_decisions.insert(d.object.clone(), d);
+    /// The journal's lines at start: what they say stands (decisions, exclusions, forced methods)
+    /// is applied to each candidate as it appears.
+    pub fn replayed(&mut self, app: &mut App, entries: Vec<Entry>) {
+        self.apply_lines(app, &entries);
+    }
+
+    /// Journal lines take effect: on the screen, and in how the engine fits each object they touch
+    /// (also objects with no fit yet, so their first fit already leaves out what was excluded).
+    fn apply_lines(&mut self, app: &mut App, entries: &[Entry]) {
+        let mut touched = std::collections::BTreeSet::new();
+        for e in entries {
+            app.on_entry(e);
+            if e.kind != crate::feed::journal::Kind::Decision {
+                touched.insert(e.object.clone());
             }
+        }
+        for obj in touched {
+            self.engine.set_overrides(&obj, app.overrides(&obj));
         }
     }
 
@@ -271,10 +197,7 @@ impl Runtime {
                     app.message = Some("DECISION NOT SAVED: the journal writer stopped".into());
                 }
             }
-            Effect::Refit { object, overrides } => {
-                self.overrides.insert(object.clone(), overrides);
-                self.submit(&object);
-            }
+            Effect::Refit { object, overrides } => self.engine.set_overrides(&object, overrides),
             Effect::Plan => {
                 let fits = app.candidates.iter().map(|c| c.fit.clone()).collect();
                 super::plantask::spawn(fits, self.sites.clone(), self.tx.clone());
@@ -289,7 +212,56 @@ impl Runtime {
     }
 
     pub fn shutdown(self) {
-        self.pool.shutdown();
+        self.engine.shutdown();
+    }
+}
+
+/// The options every fit of the console is made with.
+fn fit_options(population: Arc<crate::fitting::population::PopulationModel>) -> FitOptions {
+    FitOptions {
+        origin: Some(crate::fitting::origin::OriginOptions::for_model(
+            &population,
+        )),
+        population,
+        ..FitOptions::default()
+    }
+}
+
+/// What the engine reports, on the screen.
+fn on_engine(app: &mut App, ev: EngineEvent) {
+    match ev {
+        EngineEvent::Ingested {
+            arrived, errors, ..
+        } => {
+            app.status.files_seen += 1;
+            app.status.last_arrival = Some(
+                chrono::DateTime::<chrono::Utc>::from(arrived)
+                    .format("%H:%M:%SZ")
+                    .to_string(),
+            );
+            for e in errors {
+                app.on_rejected(e);
+            }
+            app.dirty = true;
+        }
+        EngineEvent::Refused { path, reason, .. } => app.on_rejected(crate::feed::InputError {
+            file: crate::feed::sanitize::clean(&path),
+            line: 0,
+            column: None,
+            reason,
+        }),
+        EngineEvent::Failed(m) => app.message = Some(m),
+        EngineEvent::Fit {
+            version,
+            fit,
+            n_known,
+            ..
+        } => {
+            if fit.status == "failed" {
+                app.status.failed += 1;
+            }
+            app.on_fit(version, *fit, n_known);
+        }
     }
 }
 

@@ -4,30 +4,27 @@
 use super::actions::Action;
 use super::keymap::{Context, Key, Keymap};
 use crate::feed::InputError;
-use crate::feed::journal::{Decision, Verdict};
+use crate::feed::journal::{Entry, Standing, Verdict};
 use crate::feed::sanitize::clean;
 use crate::fitting::ephemeris::EphemerisPoint;
-use crate::fitting::fit::{FitResult, MethodChoice, PerturbChoice};
+use crate::fitting::fit::FitResult;
 use ratatui::crossterm::event::{Event, KeyEvent};
-use std::collections::{BTreeSet, HashMap};
+use std::collections::HashMap;
 use tui_input::Input;
 use tui_input::backend::crossterm::EventHandler;
 
-/// Per-candidate choices that change how it is fitted.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct Overrides {
-    pub method: MethodChoice,
-    pub perturbations: PerturbChoice,
-    /// Observations left out of the fit, by their UTC time and site ("time@site").
-    pub excluded: BTreeSet<String>,
-}
+mod changes;
+pub use changes::ObsRow;
+
+pub use crate::feed::engine::Overrides;
 
 #[derive(Debug, Clone)]
 pub struct Candidate {
     pub fit: FitResult,
     pub version: u64,
-    pub decision: Option<Decision>,
-    /// Waiting for the journal to confirm this decision.
+    /// The decision that stands (the journal's, whoever made it).
+    pub decision: Option<Entry>,
+    /// Waiting for the journal to confirm a change.
     pub saving: bool,
     pub overrides: Overrides,
     /// Observations currently known for the object (a decision on fewer is flagged).
@@ -119,7 +116,8 @@ pub enum Effect {
         object: String,
         overrides: Overrides,
     },
-    Journal(Decision),
+    /// Write a line to the journal; what it changes takes effect when the journal reads it back.
+    Journal(Entry),
     Ephemeris(String),
     /// Tonight's plan over every candidate.
     Plan,
@@ -150,6 +148,10 @@ pub struct App {
     pub page: usize,
     pub dirty: bool,
     pub clock: fn() -> String,
+    /// What the journal says stands for every object (candidates or not yet).
+    pub standing: Standing,
+    /// The observer at this console (other observers' decisions are shown with their names).
+    pub me: String,
 }
 
 fn now_utc() -> String {
@@ -180,6 +182,8 @@ impl App {
             page: 10,
             dirty: true,
             clock: now_utc,
+            standing: Standing::default(),
+            me: crate::feed::journal::observer_name(None),
         }
     }
 
@@ -204,12 +208,13 @@ impl App {
             }
             None => {
                 self.index.insert(fit.object.clone(), self.candidates.len());
+                let (decision, overrides) = self.stands_for(&fit.object);
                 self.candidates.push(Candidate {
                     fit,
                     version,
-                    decision: None,
+                    decision,
                     saving: false,
-                    overrides: Overrides::default(),
+                    overrides,
                     n_known,
                 });
             }
@@ -228,20 +233,6 @@ impl App {
             clean(reason)
         ));
         self.dirty = true;
-    }
-
-    /// A decision replayed from the journal (or confirmed by it).
-    pub fn on_decision(&mut self, d: Decision) {
-        if let Some(&i) = self.index.get(&d.object) {
-            let c = &mut self.candidates[i];
-            c.saving = false;
-            c.decision = if d.verdict == Verdict::Undo {
-                None
-            } else {
-                Some(d)
-            };
-            self.dirty = true;
-        }
     }
 
     pub fn on_rejected(&mut self, e: InputError) {
@@ -272,7 +263,7 @@ impl App {
             SortKey::Decision => c
                 .decision
                 .as_ref()
-                .map_or("~".into(), |d| d.verdict.label().to_string()),
+                .map_or("~".into(), |d| d.verdict_label().to_string()),
             SortKey::Method => format!("{} {}", f.method, f.object),
             SortKey::Status => format!("{} {}", f.status, f.object),
             _ => f.object.clone(),
@@ -289,10 +280,15 @@ impl App {
         let decision = c
             .decision
             .as_ref()
-            .map_or("undecided", |d| d.verdict.label());
-        [f.object.as_str(), f.status, f.method, decision]
-            .iter()
-            .any(|h| h.to_lowercase().contains(&needle))
+            .map_or("undecided", |d| d.verdict_label());
+        [
+            f.object.as_str(),
+            f.status.as_str(),
+            f.method.as_str(),
+            decision,
+        ]
+        .iter()
+        .any(|h| h.to_lowercase().contains(&needle))
     }
 
     /// Re-sort and re-filter; the selected candidate stays selected if it is still shown.
@@ -339,32 +335,6 @@ impl App {
             }
             self.selected = Some(obj);
         }
-    }
-
-    fn decide(&mut self, verdict: Verdict, note: Option<String>) -> Vec<Effect> {
-        let clock = self.clock;
-        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
-            return Vec::new();
-        };
-        let c = &mut self.candidates[i];
-        let mut keys: Vec<String> = c
-            .fit
-            .residuals
-            .iter()
-            .map(|r| format!("{}@{}", r.time_utc, r.site))
-            .collect();
-        let d = Decision {
-            seq: 0,
-            time_utc: clock(),
-            object: c.fit.object.clone(),
-            verdict,
-            note,
-            n_obs: c.fit.n_obs,
-            obs_digest: crate::feed::journal::digest(&mut keys),
-        };
-        c.saving = true;
-        self.message = Some(format!("{}: {} (saving…)", c.fit.object, verdict.label()));
-        vec![Effect::Journal(d)]
     }
 
     fn context(&self) -> Context {
@@ -433,7 +403,7 @@ impl App {
                 self.input.reset();
                 let verdict = self
                     .selected_candidate()
-                    .and_then(|c| c.decision.as_ref().map(|d| d.verdict));
+                    .and_then(|c| c.decision.as_ref().and_then(|d| d.verdict));
                 if text.is_empty() {
                     Vec::new()
                 } else {
@@ -527,9 +497,7 @@ impl App {
                 }
             }
             Action::ObsNext => {
-                let n = self
-                    .selected_candidate()
-                    .map_or(0, |c| c.fit.residuals.len() + c.overrides.excluded.len());
+                let n = self.observation_rows().len();
                 self.obs_cursor = (self.obs_cursor + 1).min(n.saturating_sub(1));
             }
             Action::ObsPrev => self.obs_cursor = self.obs_cursor.saturating_sub(1),
@@ -574,73 +542,6 @@ impl App {
             Action::Accept | Action::Cancel => {}
         }
         Vec::new()
-    }
-
-    /// Observation labels of the selected candidate: fitted ones, then excluded ones.
-    pub fn observation_labels(&self) -> Vec<(String, bool)> {
-        let Some(c) = self.selected_candidate() else {
-            return Vec::new();
-        };
-        let mut v: Vec<(String, bool)> = c
-            .fit
-            .residuals
-            .iter()
-            .map(|r| (format!("{}@{}", r.time_utc, r.site), true))
-            .collect();
-        v.extend(c.overrides.excluded.iter().map(|k| (k.clone(), false)));
-        v
-    }
-
-    fn toggle_obs(&mut self) -> Vec<Effect> {
-        let labels = self.observation_labels();
-        let Some((label, fitted)) = labels.get(self.obs_cursor).cloned() else {
-            return Vec::new();
-        };
-        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
-            return Vec::new();
-        };
-        let c = &mut self.candidates[i];
-        if fitted {
-            c.overrides.excluded.insert(label.clone());
-            self.message = Some(format!("excluded {label}; refitting"));
-        } else {
-            c.overrides.excluded.remove(&label);
-            self.message = Some(format!("restored {label}; refitting"));
-        }
-        vec![Effect::Refit {
-            object: c.fit.object.clone(),
-            overrides: c.overrides.clone(),
-        }]
-    }
-
-    fn force(&mut self, a: Action) -> Vec<Effect> {
-        let Some(&i) = self.selected.as_ref().and_then(|o| self.index.get(o)) else {
-            return Vec::new();
-        };
-        let c = &mut self.candidates[i];
-        if a == Action::ForceRanging {
-            c.overrides.method = match c.overrides.method {
-                MethodChoice::Auto => MethodChoice::Ranging,
-                MethodChoice::Ranging => MethodChoice::Auto,
-            };
-            self.message = Some(format!(
-                "{}: method {:?}; refitting",
-                c.fit.object, c.overrides.method
-            ));
-        } else {
-            c.overrides.perturbations = match c.overrides.perturbations {
-                PerturbChoice::On => PerturbChoice::Auto,
-                _ => PerturbChoice::On,
-            };
-            self.message = Some(format!(
-                "{}: perturbations {:?}; refitting",
-                c.fit.object, c.overrides.perturbations
-            ));
-        }
-        vec![Effect::Refit {
-            object: c.fit.object.clone(),
-            overrides: c.overrides.clone(),
-        }]
     }
 
     /// The key labels bound to an action in the list context ("p", "x"…), for hints.

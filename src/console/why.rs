@@ -58,7 +58,8 @@ pub fn why_line(r: &FitResult, width: usize) -> String {
         (Some(p), Some(o)) => Some((format!("P {p:.3}, odds {o:+.1}"), r.probability_from)),
         _ => None,
     };
-    let change = (r.status != "failed").then(|| what_would_change(r));
+    let change =
+        (r.status != crate::fitting::kinds::FitStatus::Failed).then(|| what_would_change(r));
     let build = |source: bool, evid: bool| {
         let mut parts = vec![tier(r).to_string()];
         match &p {
@@ -98,7 +99,7 @@ mod tests {
         .remove(0);
         let mut r = FitResult::failed(&t, "made for the test");
         r.error = None;
-        r.status = "ok";
+        r.status = crate::fitting::kinds::FitStatus::Ok;
         r.p_hyperbolic = Some(p);
         r.log10_odds = Some((p / (1.0 - p)).log10());
         r.log10_bayes_factor = Some(if prior { 0.1 } else { 2.0 });
@@ -125,7 +126,7 @@ mod tests {
     #[test]
     fn a_poor_fit_says_it_ranks_below_and_why() {
         let mut r = record(0.9, 3, false);
-        r.status = "poor-fit";
+        r.status = crate::fitting::kinds::FitStatus::PoorFit;
         r.poor_fit = vec!["night 2 disagrees".into()];
         let w = why_line(&r, 200);
         assert!(w.contains("below usable ones"), "{w}");

@@ -5,6 +5,7 @@
 //! discovery.
 
 use crate::fitting::fit::FitResult;
+use crate::fitting::kinds::FitStatus;
 use serde::Deserialize;
 use std::io::Write;
 use std::time::{Duration, SystemTime};
@@ -95,7 +96,7 @@ pub struct Alert {
 }
 
 fn usable(r: &FitResult) -> bool {
-    r.status == "ok"
+    r.status == FitStatus::Ok
 }
 
 fn strong(r: &FitResult, rules: &AlertRules) -> bool {
@@ -190,7 +191,7 @@ mod tests {
         );
         let mut r = FitResult::failed(&intake.tracklets[0], "made for the test");
         r.error = None;
-        r.status = "ok";
+        r.status = crate::fitting::kinds::FitStatus::Ok;
         r.p_hyperbolic = Some(p);
         r.n_nights = nights;
         r.prior_dominated = prior_dominated;
@@ -230,7 +231,7 @@ mod tests {
     #[test]
     fn poor_fits_never_alert() {
         let mut r = fit(0.99, 3, false);
-        r.status = "poor-fit";
+        r.status = crate::fitting::kinds::FitStatus::PoorFit;
         assert_eq!(check(None, &r, &AlertRules::default()), None);
     }
 

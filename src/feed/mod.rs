@@ -4,6 +4,7 @@
 pub mod ades;
 pub mod ades_xml;
 pub mod alerts;
+pub mod engine;
 pub mod journal;
 pub mod obs80;
 pub mod sanitize;

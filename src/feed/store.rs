@@ -5,24 +5,13 @@ use super::InputError;
 use super::sites::SiteTable;
 use super::tracklets::{Limits, read_bytes};
 use crate::fitting::input::{Observation, Tracklet};
+use crate::fitting::obsid::ObsId;
 use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
-
-/// Identity of one observation: site, time (to 1e-8 day) and position (to 1e-9 rad).
-pub type ObsKey = (String, i64, i64, i64);
-
-pub fn obs_key(o: &Observation) -> ObsKey {
-    (
-        o.site_code.clone(),
-        (o.time.tdb.value() * 1e8).round() as i64,
-        (o.ra * 1e9).round() as i64,
-        (o.dec * 1e9).round() as i64,
-    )
-}
 
 /// One object's observations, each with the files that report it.
 #[derive(Debug, Default)]
 struct Entry {
-    obs: BTreeMap<ObsKey, (Observation, BTreeSet<String>)>,
+    obs: BTreeMap<ObsId, (Observation, BTreeSet<String>)>,
     sources: Vec<String>,
     version: u64,
 }
@@ -43,7 +32,7 @@ pub struct Ingest {
 pub struct Store {
     objects: BTreeMap<String, Entry>,
     /// What each file's latest version contributed: a rewritten file replaces it, a grown one adds.
-    files: HashMap<String, HashSet<(String, ObsKey)>>,
+    files: HashMap<String, HashSet<(String, ObsId)>>,
 }
 
 impl Store {
@@ -70,13 +59,13 @@ impl Store {
         if intake.rejected {
             return out;
         }
-        let mut incoming: Vec<(String, ObsKey, Observation, String)> = Vec::new();
+        let mut incoming: Vec<(String, ObsId, Observation, String)> = Vec::new();
         for t in intake.tracklets {
             for o in t.obs {
-                incoming.push((t.object.clone(), obs_key(&o), o, t.source.clone()));
+                incoming.push((t.object.clone(), ObsId::of(&o), o, t.source.clone()));
             }
         }
-        let new_set: HashSet<(String, ObsKey)> = incoming
+        let new_set: HashSet<(String, ObsId)> = incoming
             .iter()
             .map(|(obj, k, _, _)| (obj.clone(), k.clone()))
             .collect();

@@ -4,7 +4,7 @@
 //! complete: closed after writing and ending in a newline, renamed into place, or unchanged for the
 //! settle time. Files that grow are handed on again. The directory is only ever read.
 
-use notify::event::{AccessKind, AccessMode, ModifyKind, RenameMode};
+use notify::event::{AccessKind, AccessMode, CreateKind, ModifyKind, RenameMode};
 use notify::{EventKind, RecursiveMode, Watcher as _};
 use std::collections::{HashMap, HashSet};
 use std::path::{Path, PathBuf};
@@ -162,7 +162,8 @@ fn run(
     }
 }
 
-/// Record a completion hint; true when the event was one (worth scanning early for).
+/// Record a completion hint; true when the event is worth scanning early for (a completion hint or a
+/// new file). Opens, reads and closes without writing — the scan's own among them — are not.
 fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>) -> bool {
     let Ok(ev) = ev else {
         return false; // an error or overflow: the next scan catches up
@@ -179,7 +180,14 @@ fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>)
             hints.insert(p.clone());
         }
     }
+    // A new name (a hard link put into place, a file being written) is worth a look: a linked file is
+    // whole already and its age settles it at once. It is no completion hint: a file still being
+    // written waits for its close or its settle time.
     complete
+        || matches!(
+            ev.kind,
+            EventKind::Create(CreateKind::File | CreateKind::Any)
+        )
 }
 
 fn stamp(meta: &std::fs::Metadata) -> Stamp {

@@ -144,12 +144,18 @@ impl FitPool {
             .map_or((0, 0), |st| (st.pending.len(), st.running))
     }
 
-    /// Stop the workers after their current fit; pending fits are dropped.
-    pub fn shutdown(self) {
+    /// Tell the workers to stop after their current fit, without waiting for them (for a pool
+    /// shared between threads); pending fits are dropped.
+    pub fn stop(&self) {
         if let Ok(mut st) = self.shared.0.lock() {
             st.stop = true;
         }
         self.shared.1.notify_all();
+    }
+
+    /// Stop the workers after their current fit and wait for them; pending fits are dropped.
+    pub fn shutdown(self) {
+        self.stop();
         for w in self.workers {
             let _ = w.join();
         }

@@ -5,7 +5,7 @@
 
 use super::conditions::{Capabilities, RowOptions, SkyFields, SkySlot, sky_fields};
 use super::fit::FitResult;
-use super::perturb::{Dynamics, NBody, TwoBody};
+use super::perturb::Dynamics;
 use super::stats::weighted_quantile;
 use crate::physics::constants::{ARCSEC, DEG, MU_SUN};
 use crate::physics::frames::r3;
@@ -146,15 +146,10 @@ pub fn tracklet_h(
     fitted_h(fit, &mags, &obs)
 }
 
+/// The fit's orbit and the dynamics that propagate it.
 pub(crate) fn fit_state(fit: &FitResult) -> Option<(S6, Jd2, Box<dyn Dynamics>)> {
-    let s = fit.state?;
-    let epoch = Jd2::new(fit.epoch_jd_tdb?, 0.0);
-    let d: Box<dyn Dynamics> = if fit.dynamics == "sun-planets-moon" {
-        Box::new(NBody::new())
-    } else {
-        Box::new(TwoBody)
-    };
-    Some((S6::from_column_slice(&s), epoch, d))
+    let orbit = super::forcemodel::FittedOrbit::of(fit)?;
+    Some((orbit.state, orbit.epoch, orbit.dynamics()))
 }
 
 /// The ephemeris of one fit at one instant from one site, with the default sky options and the

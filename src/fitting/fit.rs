@@ -5,6 +5,7 @@
 
 use super::covariance::{eccentricity_gradient, elements_with_sigmas};
 use super::input::Tracklet;
+use super::kinds::{FitMethod, FitStatus, ProbabilitySource};
 use super::linear::{LineContext, line_posterior};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct_with_outliers};
 use super::onenight::{fit_one_night, instant_at, night_v_mag};
@@ -256,7 +257,7 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         &alternatives,
         &shift,
         opts,
-        dynamics.name(),
+        dynamics.model(),
         None,
     )
 }
@@ -300,6 +301,7 @@ pub fn residual_list(
         .iter()
         .enumerate()
         .map(|(i, o)| ResidualOut {
+            id: super::obsid::ObsId::of(o),
             time_utc: tt_to_utc(o.time.tt).to_string(),
             site: o.site_code.clone(),
             night: tr.night[i],
@@ -317,7 +319,7 @@ pub fn residual_list(
 /// its path and weighted states at the fit's epoch.
 pub struct Given {
     pub posterior: super::posterior::Posterior,
-    pub from: &'static str,
+    pub from: super::kinds::ProbabilitySource,
     pub states: Vec<S6>,
     pub weights: Vec<f64>,
 }
@@ -328,13 +330,13 @@ pub fn lsq_result(
     alternatives: &[LsqFit],
     shift: &S6,
     opts: &FitOptions,
-    dynamics: &'static str,
+    dynamics: super::forcemodel::ForceModel,
     given: Option<Given>,
 ) -> FitResult {
     let tr = p.tracklet;
     let mut out = FitResult::empty(tr);
     out.dynamics = dynamics;
-    out.method = "least-squares";
+    out.method = FitMethod::LeastSquares;
     let ecl: M3 = equatorial_to_ecliptic();
     let (el, sig) = elements_with_sigmas(
         &fit.state,
@@ -460,9 +462,9 @@ pub fn lsq_result(
     }
     out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {
-        "ok"
+        FitStatus::Ok
     } else {
-        "poor-fit"
+        FitStatus::PoorFit
     };
     if fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
         withhold_probability(&mut out);
@@ -483,7 +485,7 @@ fn withhold_probability(out: &mut FitResult) {
     out.bayes_factor = None;
     out.log10_bayes_factor = None;
     out.z_is_bound = false;
-    out.probability_from = "none";
+    out.probability_from = ProbabilitySource::NoProbability;
     out.poor_fit
         .push("no probability: no orbit fits these positions".into());
 }
@@ -529,7 +531,7 @@ fn lsq_probability(
     });
     if trusted {
         match line {
-            Some(post) => out.set_posterior(&post, "linear", &model.source),
+            Some(post) => out.set_posterior(&post, ProbabilitySource::Linear, &model.source),
             None => out.error = Some("the covariance gives no spread in energy".into()),
         }
         return;
@@ -543,7 +545,7 @@ fn lsq_probability(
     };
     let Some(set) = importance_sample(p, &all, opts.samples, opts.seed, shift, &ctx) else {
         if let Some(post) = line {
-            out.set_posterior(&post, "linear", &model.source);
+            out.set_posterior(&post, ProbabilitySource::Linear, &model.source);
             out.distrust_linear
                 .push("sampling found no weight: answer from the linear fit".into());
         }
@@ -551,7 +553,7 @@ fn lsq_probability(
     };
     match (set.n_unbound == 0 || set.n_bound == 0, line) {
         (true, Some(post)) => {
-            out.set_posterior(&post, "linear", &model.source);
+            out.set_posterior(&post, ProbabilitySource::Linear, &model.source);
             out.distrust_linear.push(format!(
                 "no sampled orbit was {}: that tail is from the linear fit",
                 if set.n_unbound == 0 {
@@ -562,7 +564,11 @@ fn lsq_probability(
             ));
         }
         _ => {
-            out.set_posterior(&set.posterior, "importance-sampling", &model.source);
+            out.set_posterior(
+                &set.posterior,
+                ProbabilitySource::ImportanceSampling,
+                &model.source,
+            );
             // The sampling budget ran out before the error was small: say how uncertain P is.
             if set.posterior.ln_odds_error > super::sampling::TARGET_LN_ODDS_ERROR {
                 out.distrust_linear.push(format!(
@@ -602,12 +608,12 @@ fn ranging_result(
         (&opts.population, v_mag),
     ) else {
         let mut f = FitResult::failed(tr, "ranging found no admissible orbit");
-        f.method = "ranging";
+        f.method = FitMethod::Ranging;
         return f;
     };
     let mut out = FitResult::empty(tr);
-    out.method = "ranging";
-    out.probability_from = "systematic-ranging";
+    out.method = FitMethod::Ranging;
+    out.probability_from = ProbabilitySource::SystematicRanging;
     out.v_mag = Some(v_mag);
     out.v_mag_assumed = assumed;
     fill_ranging(&mut out, tr, observers, &rr, opts);
@@ -624,7 +630,11 @@ fn fill_ranging(
     rr: &RangingResult,
     opts: &FitOptions,
 ) {
-    out.set_posterior(&rr.posterior, "systematic-ranging", &opts.population.source);
+    out.set_posterior(
+        &rr.posterior,
+        ProbabilitySource::SystematicRanging,
+        &opts.population.source,
+    );
     out.n_eff = Some(rr.n_eff);
     out.e = Some(rr.e_interval[1]);
     out.q_au = Some(rr.q_interval[1]);
@@ -694,8 +704,8 @@ fn fill_ranging(
         ));
     }
     out.status = if out.poor_fit.is_empty() {
-        "ok"
+        FitStatus::Ok
     } else {
-        "poor-fit"
+        FitStatus::PoorFit
     };
 }

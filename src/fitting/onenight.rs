@@ -3,6 +3,7 @@
 //! the quadrature error small against the decision, and the record the console and `fit` show.
 
 use super::input::Tracklet;
+use super::kinds::{FitMethod, FitStatus, ProbabilitySource};
 use super::population::PopulationModel;
 use super::result::{FitResult, KEPT_SAMPLES, RangingOut, elements_out};
 use super::shortarc::{Geometry, Node, ShortArc, ShortArcOptions, one_night};
@@ -79,7 +80,7 @@ pub fn fit_one_night(
 ) -> FitResult {
     let fail = |why: String| {
         let mut f = FitResult::failed(tr, why);
-        f.method = "short-arc";
+        f.method = FitMethod::ShortArc;
         f
     };
     let Some(att) = super::shortarc::attributable(tr, cov) else {
@@ -115,10 +116,14 @@ pub fn fit_one_night(
         }
     }
     let mut out = FitResult::empty(tr);
-    out.method = "short-arc";
+    out.method = FitMethod::ShortArc;
     out.v_mag = Some(v_mag);
     out.v_mag_assumed = assumed;
-    out.set_posterior(&arc.posterior, "short-arc-quadrature", &population.source);
+    out.set_posterior(
+        &arc.posterior,
+        ProbabilitySource::ShortArcQuadrature,
+        &population.source,
+    );
     if !settled(&arc.posterior) {
         out.distrust_linear.push(format!(
             "probability uncertain by a factor {:.1} in the odds",
@@ -258,9 +263,9 @@ fn summarise(
         ));
     }
     out.status = if out.poor_fit.is_empty() {
-        "ok"
+        FitStatus::Ok
     } else {
-        "poor-fit"
+        FitStatus::PoorFit
     };
 }
 

@@ -44,7 +44,8 @@ pub trait Dynamics {
             .map(|(r, v, _)| (r, v))
             .collect())
     }
-    fn name(&self) -> &'static str;
+    /// Which force model this is (what the fit record says).
+    fn model(&self) -> super::forcemodel::ForceModel;
 }
 
 /// Keplerian motion about the Sun.
@@ -67,8 +68,8 @@ impl Dynamics for TwoBody {
             .map(|t| crate::physics::propagate::propagate(&r, &v, t.minus(epoch), MU_SUN))
             .collect()
     }
-    fn name(&self) -> &'static str {
-        "two-body"
+    fn model(&self) -> super::forcemodel::ForceModel {
+        super::forcemodel::ForceModel::TwoBody
     }
 }
 
@@ -365,8 +366,8 @@ impl Dynamics for NBody {
             .collect()
     }
 
-    fn name(&self) -> &'static str {
-        "sun-planets-moon"
+    fn model(&self) -> super::forcemodel::ForceModel {
+        super::forcemodel::ForceModel::SunPlanetsMoon
     }
 }
 

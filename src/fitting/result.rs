@@ -68,6 +68,9 @@ pub struct Alternative {
 /// One observation's residual, as printed.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct ResidualOut {
+    /// The observation's identity (exclusions and the journal name it by this; not printed).
+    #[serde(skip)]
+    pub id: super::obsid::ObsId,
     pub time_utc: String,
     pub site: String,
     pub night: usize,
@@ -89,9 +92,9 @@ pub struct FitResult {
     pub n_used: usize,
     pub n_nights: usize,
     pub arc_days: f64,
-    pub method: &'static str,
-    pub probability_from: &'static str,
-    pub dynamics: &'static str,
+    pub method: super::kinds::FitMethod,
+    pub probability_from: super::kinds::ProbabilitySource,
+    pub dynamics: super::forcemodel::ForceModel,
     pub e: Option<f64>,
     pub e_sigma: Option<f64>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the
@@ -125,7 +128,7 @@ pub struct FitResult {
     pub rms_arcsec: Option<f64>,
     pub chi2_per_dof: Option<f64>,
     pub epoch_jd_tdb: Option<f64>,
-    pub status: &'static str,
+    pub status: super::kinds::FitStatus,
     pub error: Option<String>,
     pub e_bary: Option<f64>,
     pub e_bary_sigma: Option<f64>,
@@ -162,9 +165,9 @@ impl FitResult {
             n_used: 0,
             n_nights: tr.n_nights(),
             arc_days: tr.arc_days(),
-            method: "least-squares",
-            probability_from: "none",
-            dynamics: "two-body",
+            method: super::kinds::FitMethod::LeastSquares,
+            probability_from: super::kinds::ProbabilitySource::NoProbability,
+            dynamics: super::forcemodel::ForceModel::TwoBody,
             e: None,
             e_sigma: None,
             p_hyperbolic: None,
@@ -186,7 +189,7 @@ impl FitResult {
             rms_arcsec: None,
             chi2_per_dof: None,
             epoch_jd_tdb: None,
-            status: "failed",
+            status: super::kinds::FitStatus::Failed,
             error: None,
             e_bary: None,
             e_bary_sigma: None,
@@ -219,15 +222,20 @@ impl FitResult {
     /// Ranking order: usable fits before poor ones before failures, then by posterior odds.
     pub fn rank_key(&self) -> (u8, f64) {
         let tier = match self.status {
-            "ok" => 2,
-            "poor-fit" => 1,
-            _ => 0,
+            super::kinds::FitStatus::Ok => 2,
+            super::kinds::FitStatus::PoorFit => 1,
+            super::kinds::FitStatus::Failed => 0,
         };
         (tier, self.log10_odds.unwrap_or(f64::NEG_INFINITY))
     }
 
     /// Record a posterior: P, its error, the score, the odds and the evidence.
-    pub fn set_posterior(&mut self, p: &Posterior, from: &'static str, model: &str) {
+    pub fn set_posterior(
+        &mut self,
+        p: &Posterior,
+        from: super::kinds::ProbabilitySource,
+        model: &str,
+    ) {
         let finite = |x: f64| x.is_finite().then_some(x);
         self.p_hyperbolic = Some(p.p());
         self.p_hyperbolic_error = Some(p.p_error()).filter(|e| e.is_finite());

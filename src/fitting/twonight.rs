@@ -4,6 +4,7 @@
 
 use super::fit::{FitOptions, Given, lsq_result};
 use super::input::Tracklet;
+use super::kinds::ProbabilitySource;
 use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
@@ -85,13 +86,21 @@ pub fn fit_by_profile(
         let total: f64 = raw.iter().sum();
         Given {
             posterior,
-            from: "range-profile",
+            from: ProbabilitySource::RangeProfile,
             states: prof.nodes.iter().map(|n| n.state).collect(),
             weights: raw.iter().map(|w| w / total).collect(),
         }
     });
     let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
-    let mut out = lsq_result(&p, &fit, &alternatives, shift, opts, dynamics.name(), given);
+    let mut out = lsq_result(
+        &p,
+        &fit,
+        &alternatives,
+        shift,
+        opts,
+        dynamics.model(),
+        given,
+    );
     for (a, (_, share)) in out.alternatives.iter_mut().zip(&others) {
         a.probability = Some(*share);
     }

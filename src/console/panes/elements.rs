@@ -127,9 +127,14 @@ pub fn lines(app: &App) -> Vec<Line<'static>> {
         } else {
             String::new()
         };
+        let by = if d.observer() == app.me {
+            String::new()
+        } else {
+            format!(" by {}", clean(d.observer()))
+        };
         out.push(Line::from(format!(
-            "decision: {} at {}{}{}",
-            d.verdict.label(),
+            "decision: {} at {}{by}{}{}",
+            d.verdict_label(),
             d.time_utc,
             d.note
                 .as_ref()

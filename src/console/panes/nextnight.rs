@@ -37,7 +37,7 @@ mod tests {
     #[test]
     fn an_open_two_night_candidate_without_a_night_says_why_and_a_decided_one_is_silent() {
         let mut f = FitResult::empty(&Tracklet::new("X".into(), "s".into(), Vec::new()));
-        f.status = "ok";
+        f.status = crate::fitting::kinds::FitStatus::Ok;
         f.n_nights = 2;
         f.p_hyperbolic = Some(0.4);
         let text = line(&f).map(|l| l.to_string()).unwrap_or_default();

@@ -75,23 +75,25 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .constraints([Constraint::Length(7), Constraint::Min(3)])
         .split(inner);
     let w = inner.width.saturating_sub(9) as usize;
-    let (ra_b, ra_s, marks) = strip(res, false, w, app.obs_cursor);
-    let (de_b, de_s, _) = strip(res, true, w, app.obs_cursor);
+    let rows = app.observation_rows();
+    let row = rows.get(app.obs_cursor);
+    // The strips show fitted observations only: the mark goes under the selected one if it is fitted.
+    let at = row.and_then(|r| r.residual).unwrap_or(usize::MAX);
+    let (ra_b, ra_s, marks) = strip(res, false, w, at);
+    let (de_b, de_s, _) = strip(res, true, w, at);
     let max = |dec: bool| {
         res.iter()
             .map(|r| if dec { r.dec_arcsec } else { r.ra_arcsec })
             .filter(|v| v.is_finite())
             .fold(0.0f64, |m, v| m.max(v.abs()))
     };
-    let labels = app.observation_labels();
-    let sel = labels.get(app.obs_cursor).map(|(l, fitted)| {
-        let r = res.get(app.obs_cursor);
-        match (r, fitted) {
-            (Some(r), true) => format!(
+    let sel = row.map(
+        |o| match (o.residual.and_then(|k| res.get(k)), o.excluded) {
+            (Some(r), false) => format!(
                 "obs {}/{} {} O−C {:+.2}\" {:+.2}\" χ² {:.1}{}",
                 app.obs_cursor + 1,
-                labels.len(),
-                l,
+                rows.len(),
+                o.label,
                 r.ra_arcsec,
                 r.dec_arcsec,
                 r.chi2,
@@ -100,11 +102,11 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             _ => format!(
                 "obs {}/{} {} EXCLUDED by you",
                 app.obs_cursor + 1,
-                labels.len(),
-                l
+                rows.len(),
+                o.label
             ),
-        }
-    });
+        },
+    );
     let text = vec![
         Line::from(format!("RA cosδ  {ra_b}  max {:.2}\"", max(false))),
         Line::from(format!("         {ra_s}")),

@@ -4,6 +4,7 @@
 use super::{Theme, num};
 use crate::console::state::{App, Candidate};
 use crate::feed::sanitize::clean;
+use crate::fitting::kinds::{FitMethod, FitStatus};
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Rect};
 use ratatui::style::Color;
@@ -21,11 +22,20 @@ fn strong(f: &crate::fitting::fit::FitResult) -> bool {
     f.log10_odds.is_some_and(|z| z >= 2.0) && f.status == "ok"
 }
 
-fn decision_text(c: &Candidate) -> String {
+/// The decision column: the verdict, `*` when it was made on fewer observations than are known now,
+/// and who made it when that was not the observer at this console.
+fn decision_text(c: &Candidate, me: &str) -> String {
     match (&c.decision, c.saving) {
         (_, true) => "saving…".into(),
-        (Some(d), _) if d.n_obs < c.fit.n_obs => format!("{}*", d.verdict.label()),
-        (Some(d), _) => d.verdict.label().into(),
+        (Some(d), _) => {
+            let fewer = if d.n_obs < c.fit.n_obs { "*" } else { "" };
+            let who = if d.observer() == me {
+                String::new()
+            } else {
+                format!(" ({})", clean(d.observer()))
+            };
+            format!("{}{fewer}{who}", d.verdict_label())
+        }
         (None, _) => "".into(),
     }
 }
@@ -77,9 +87,9 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             let c = &app.candidates[i];
             let fit = &c.fit;
             let status = match fit.status {
-                "ok" => "ok",
-                "poor-fit" => "POOR",
-                _ => "FAIL",
+                FitStatus::Ok => "ok",
+                FitStatus::PoorFit => "POOR",
+                FitStatus::Failed => "FAIL",
             };
             let e = match (fit.e, fit.e_sigma) {
                 (Some(e), Some(s)) => value_pm(e, s),
@@ -112,17 +122,17 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             if wide {
                 cells.push(Cell::from(num(fit.rms_arcsec, 2)));
                 cells.push(Cell::from(match fit.method {
-                    "ranging" => "ranging",
-                    "short-arc" => "1 night",
-                    _ => "lsq",
+                    FitMethod::Ranging => "ranging",
+                    FitMethod::ShortArc => "1 night",
+                    FitMethod::LeastSquares => "lsq",
                 }));
             }
             cells.push(Cell::from(status).style(match fit.status {
-                "ok" => theme.fg(Color::Green),
-                "poor-fit" => theme.fg(Color::Magenta),
-                _ => theme.fg(Color::Red),
+                FitStatus::Ok => theme.fg(Color::Green),
+                FitStatus::PoorFit => theme.fg(Color::Magenta),
+                FitStatus::Failed => theme.fg(Color::Red),
             }));
-            cells.push(Cell::from(decision_text(c)));
+            cells.push(Cell::from(decision_text(c, &app.me)));
             let row = Row::new(cells);
             if offset + k == sel {
                 row.style(theme.selected())

@@ -1,0 +1,260 @@
+//! The one ingest engine under the console and headless `watch`: on a thread of its own it takes the
+//! watcher's files into the merged store (parsing never runs on a caller's thread), keeps the
+//! observer's per-object choices (exclusions, forced method and perturbations), queues a fit of every
+//! changed object with them, drops results a newer submission has overtaken, and reports what
+//! happened through a callback.
+
+use super::InputError;
+use super::journal::{ObjectState, Standing};
+use super::sites::SiteTable;
+use super::store::Store;
+use super::tracklets::Limits;
+use super::watcher::WatchEvent;
+use crate::fitting::batch::{FitPool, PoolResult};
+use crate::fitting::fit::{FitOptions, FitResult, MethodChoice, PerturbChoice};
+use crate::fitting::input::Tracklet;
+use crate::fitting::obsid::ObsId;
+use std::collections::{BTreeSet, HashMap};
+use std::sync::Arc;
+use std::sync::mpsc::{Receiver, Sender, channel};
+use std::time::SystemTime;
+
+/// Per-object choices that change how it is fitted (what the journal says stands).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Overrides {
+    pub method: MethodChoice,
+    pub perturbations: PerturbChoice,
+    /// Observations left out of the fit.
+    pub excluded: BTreeSet<ObsId>,
+}
+
+impl From<&ObjectState> for Overrides {
+    fn from(s: &ObjectState) -> Overrides {
+        Overrides {
+            method: s.method,
+            perturbations: s.perturbations,
+            excluded: s.excluded.clone(),
+        }
+    }
+}
+
+/// Each object's fitting choices where the journal's lines say anything other than the defaults.
+pub fn overrides_in(standing: &Standing) -> HashMap<String, Overrides> {
+    standing
+        .objects
+        .iter()
+        .map(|(k, s)| (k.clone(), Overrides::from(s)))
+        .filter(|(_, o)| *o != Overrides::default())
+        .collect()
+}
+
+/// What the engine reports.
+#[derive(Debug)]
+pub enum EngineEvent {
+    /// A file (or a new version of one) was taken in; its line errors, and whether it was refused
+    /// as a whole.
+    Ingested {
+        path: String,
+        arrived: SystemTime,
+        errors: Vec<InputError>,
+        rejected: bool,
+        /// Objects and observations in the store now.
+        objects: usize,
+        observations: usize,
+    },
+    /// A file refused without reading it, or the watcher's own trouble (`path` empty).
+    Refused {
+        path: String,
+        reason: String,
+        arrived: SystemTime,
+    },
+    Failed(String),
+    /// The newest fit of an object: the submission it came from, when its newest observations
+    /// arrived, and how many observations the store holds for it.
+    Fit {
+        version: u64,
+        fit: Box<FitResult>,
+        arrived: SystemTime,
+        n_known: usize,
+    },
+}
+
+enum Input {
+    Watch(WatchEvent),
+    Fit(Box<PoolResult>),
+    Overrides(String, Overrides),
+    Options(Box<FitOptions>),
+}
+
+/// The handle: set choices, read the fit queue's load, shut down.
+pub struct Engine {
+    input: Sender<Input>,
+    pool: Arc<FitPool>,
+}
+
+struct State {
+    store: Store,
+    sites: Arc<SiteTable>,
+    limits: Limits,
+    opts: FitOptions,
+    pool: Arc<FitPool>,
+    overrides: HashMap<String, Overrides>,
+    generation: HashMap<String, u64>,
+    arrived: HashMap<String, SystemTime>,
+}
+
+/// Forward everything from `rx` into the engine's input until either side is gone.
+fn forward<T: Send + 'static>(rx: Receiver<T>, tx: Sender<Input>, wrap: fn(T) -> Input) {
+    std::thread::spawn(move || {
+        for v in rx {
+            if tx.send(wrap(v)).is_err() {
+                return;
+            }
+        }
+    });
+}
+
+impl Engine {
+    /// Start on the watcher's events with `threads` fit workers and the fitting choices known so far
+    /// (from the journal); `out` gets every event and returns false once nobody listens any more.
+    pub fn start(
+        events: Receiver<WatchEvent>,
+        sites: Arc<SiteTable>,
+        opts: FitOptions,
+        threads: usize,
+        overrides: HashMap<String, Overrides>,
+        out: impl Fn(EngineEvent) -> bool + Send + 'static,
+    ) -> Engine {
+        let (tx, rx) = channel::<Input>();
+        let (rtx, results) = channel::<PoolResult>();
+        let pool = Arc::new(FitPool::new(threads, rtx));
+        forward(events, tx.clone(), Input::Watch);
+        forward(results, tx.clone(), |r| Input::Fit(Box::new(r)));
+        let mut st = State {
+            store: Store::new(),
+            sites,
+            limits: Limits::default(),
+            opts,
+            pool: pool.clone(),
+            overrides,
+            generation: HashMap::new(),
+            arrived: HashMap::new(),
+        };
+        std::thread::spawn(move || {
+            for input in rx {
+                if !st.handle(input, &out) {
+                    return;
+                }
+            }
+        });
+        Engine { input: tx, pool }
+    }
+
+    /// How `object` is to be fitted from now on; it is refitted if it is known and this changed it.
+    pub fn set_overrides(&self, object: &str, ov: Overrides) {
+        let _ = self.input.send(Input::Overrides(object.to_string(), ov));
+    }
+
+    /// Fit with these options from now on (objects already fitted keep their fits until they change).
+    pub fn set_options(&self, opts: FitOptions) {
+        let _ = self.input.send(Input::Options(Box::new(opts)));
+    }
+
+    /// (waiting, running) fits.
+    pub fn load(&self) -> (usize, usize) {
+        self.pool.load()
+    }
+
+    /// Stop the fit workers after their current fits (pending fits are dropped) and the engine once
+    /// its callback is next called or its watcher ends.
+    pub fn shutdown(self) {
+        self.pool.stop();
+    }
+}
+
+impl State {
+    fn handle(&mut self, input: Input, out: &impl Fn(EngineEvent) -> bool) -> bool {
+        match input {
+            Input::Watch(WatchEvent::Ready {
+                path,
+                bytes,
+                arrived,
+            }) => {
+                let name = path.display().to_string();
+                let ing = self.store.ingest(&name, &bytes, &self.sites, &self.limits);
+                for (obj, _) in &ing.changed {
+                    self.arrived.insert(obj.clone(), arrived);
+                    self.submit(obj);
+                }
+                out(EngineEvent::Ingested {
+                    path: name,
+                    arrived,
+                    errors: ing.errors,
+                    rejected: ing.rejected,
+                    objects: self.store.n_objects(),
+                    observations: self.store.n_observations(),
+                })
+            }
+            Input::Watch(WatchEvent::Refused {
+                path,
+                reason,
+                arrived,
+            }) => out(EngineEvent::Refused {
+                path: path.display().to_string(),
+                reason,
+                arrived,
+            }),
+            Input::Watch(WatchEvent::Failed(m)) => out(EngineEvent::Failed(m)),
+            Input::Fit(boxed) => {
+                let (obj, version, fit) = *boxed;
+                // A newer submission of this object is queued or running: its result will follow.
+                if self.generation.get(&obj).is_some_and(|g| *g > version) {
+                    return true;
+                }
+                let n_known = self.store.tracklet(&obj).map_or(0, |t| t.obs.len());
+                let arrived = self.arrived.get(&obj).copied().unwrap_or(SystemTime::now());
+                out(EngineEvent::Fit {
+                    version,
+                    fit: Box::new(fit),
+                    arrived,
+                    n_known,
+                })
+            }
+            Input::Overrides(obj, ov) => {
+                if self.overrides.get(&obj).cloned().unwrap_or_default() != ov {
+                    self.overrides.insert(obj.clone(), ov);
+                    self.submit(&obj);
+                }
+                true
+            }
+            Input::Options(opts) => {
+                self.opts = *opts;
+                true
+            }
+        }
+    }
+
+    fn submit(&mut self, object: &str) {
+        let Some(t) = self.store.tracklet(object) else {
+            return;
+        };
+        let ov = self.overrides.get(object).cloned().unwrap_or_default();
+        let t = if ov.excluded.is_empty() {
+            t
+        } else {
+            let obs = t
+                .obs
+                .into_iter()
+                .filter(|o| !ov.excluded.contains(&ObsId::of(o)));
+            Tracklet::new(t.object, t.source, obs.collect())
+        };
+        let g = self.generation.entry(object.to_string()).or_insert(0);
+        *g += 1;
+        let opts = FitOptions {
+            method: ov.method,
+            perturbations: ov.perturbations,
+            ..self.opts.clone()
+        };
+        self.pool.submit(*g, t, opts);
+    }
+}
