@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
-# capture-pane. Checks that the ranked list appears, a decision reaches the journal, Esc drops a filter
+# capture-pane. Checks that the ranked list appears, the unbound candidate's alert rings the bell (tmux's
+# bell flag) and runs the configured command with valid JSON on its stdin, a decision reaches the journal, Esc drops a filter
 # being typed, the help overlay and the origin pane open, quitting ends the program, and a hang-up closes it cleanly. CI runs it when tmux is installed; it skips (exit 0, saying so)
 # otherwise.
 set -euo pipefail
@@ -14,7 +15,11 @@ bin=target/release/interloper
 state=$(mktemp -d)
 sock="interloper-test-$$"
 trap 'tmux -L "$sock" kill-server 2>/dev/null || true; rm -rf "$state"' EXIT
-tmux -L "$sock" new-session -d -s demo -x 100 -y 30 "$bin demo --speed 10 --state $state; echo EXITED; sleep 5"
+cfgdir=$(mktemp -d)
+printf '[alerts]\ncommand = "cat > %s/alert.json"\n' "$cfgdir" > "$cfgdir/config.toml"
+trap 'tmux -L "$sock" kill-server 2>/dev/null || true; rm -rf "$state" "$cfgdir"' EXIT
+tmux -L "$sock" new-session -d -s demo -x 100 -y 30 "$bin --config $cfgdir/config.toml demo --speed 10 --state $state; echo EXITED; sleep 5"
+tmux -L "$sock" set-option -t demo monitor-bell on >/dev/null
 fail() { echo "tmux session test: FAILED: $1"; tmux -L "$sock" capture-pane -p -t demo; exit 1; }
 for _ in $(seq 1 60); do
     screen=$(tmux -L "$sock" capture-pane -p -t demo)
@@ -22,6 +27,15 @@ for _ in $(seq 1 60); do
     sleep 0.5
 done
 grep -q "qka2e7f" <<<"$screen" || fail "the candidates never appeared"
+# The unbound candidate crosses the alert line once its second night is in.
+for _ in $(seq 1 40); do
+    [ -s "$cfgdir/alert.json" ] && break
+    sleep 0.25
+done
+[ -s "$cfgdir/alert.json" ] || fail "the alert command did not run"
+python3 -c "import json,sys; d=json.load(open(sys.argv[1])); assert d['object']=='qka2e7f' and d['alert']['kind'] in ('strong','new-unbound')" "$cfgdir/alert.json" \
+    || fail "the alert command did not get the candidate's JSON"
+[ "$(tmux -L "$sock" display-message -p -t demo '#{window_bell_flag}')" = "1" ] || fail "the alert did not ring the bell"
 sleep 2
 tmux -L "$sock" send-keys -t demo g
 sleep 0.3

@@ -41,13 +41,21 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
         &cfg.observer,
         cfg.population.clone(),
     )?;
-    let log_warning = super::logging::init(&cfg.state, super::logging::Sink::FileOnly);
+    let log_warning = super::logging::init(Some(&cfg.state), super::logging::Sink::FileOnly);
     tracing::info!(dir = %clean(&cfg.dir.display().to_string()), "console opened");
     for w in &warnings {
         tracing::warn!("{}", clean(w));
     }
     let mut app = App::new(keymap);
     app.me = cfg.observer.clone();
+    app.alerts =
+        interloper::console::alerting::Alerts::new(super::config::get().alerts.value.clone());
+    // The bell is one byte to the terminal between frames; it moves no cursor.
+    rt.set_bell(Box::new(|| {
+        use std::io::Write;
+        let mut out = std::io::stdout();
+        let _ = out.write_all(b"\x07").and_then(|_| out.flush());
+    }));
     app.message = warning
         .or(log_warning)
         .or_else(|| warnings.first().cloned())

@@ -31,17 +31,21 @@ fn filter() -> EnvFilter {
     .unwrap_or_else(|_| EnvFilter::new("info"))
 }
 
-/// Start logging for this process (once). A state directory that cannot hold the log leaves stderr
-/// (if asked for) and returns why, for the caller to show.
-pub fn init(state: &Path, sink: Sink) -> Option<String> {
-    let file = tracing_appender::rolling::Builder::new()
-        .rotation(tracing_appender::rolling::Rotation::DAILY)
-        .filename_prefix("interloper")
-        .filename_suffix("log")
-        .max_log_files(KEEP_FILES)
-        .build(state);
+/// Start logging for this process (once), to the state directory's log if there is one. A state
+/// directory that cannot hold the log leaves stderr (if asked for) and returns why, for the caller to
+/// show.
+pub fn init(state: Option<&Path>, sink: Sink) -> Option<String> {
+    let file = state.map(|state| {
+        tracing_appender::rolling::Builder::new()
+            .rotation(tracing_appender::rolling::Rotation::DAILY)
+            .filename_prefix("interloper")
+            .filename_suffix("log")
+            .max_log_files(KEEP_FILES)
+            .build(state)
+            .map_err(|e| format!("cannot log to {}: {e}", state.display()))
+    });
     let (file_layer, warning) = match file {
-        Ok(f) => (
+        Some(Ok(f)) => (
             Some(
                 tracing_subscriber::fmt::layer()
                     .with_writer(f)
@@ -50,10 +54,8 @@ pub fn init(state: &Path, sink: Sink) -> Option<String> {
             ),
             None,
         ),
-        Err(e) => (
-            None,
-            Some(format!("cannot log to {}: {e}", state.display())),
-        ),
+        Some(Err(e)) => (None, Some(e)),
+        None => (None, None),
     };
     let stderr_layer = (sink == Sink::FileAndStderr).then(|| {
         tracing_subscriber::fmt::layer()

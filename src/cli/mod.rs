@@ -15,6 +15,7 @@ pub mod plantext;
 pub mod shard;
 pub mod shell;
 pub mod watch;
+pub mod watch_alerts;
 
 use clap::{Parser, Subcommand};
 

@@ -195,9 +195,17 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     let state = args
         .state
         .clone()
-        .unwrap_or_else(interloper::feed::journal::default_state_dir);
+        .unwrap_or_else(|| super::config::get().state_dir.value.clone());
+    // Diagnostics to stderr, and to the state directory's log when the directory is there (headless
+    // runs never create it).
+    if let Some(w) = super::logging::init(
+        Some(state.as_path()).filter(|p| p.is_dir()),
+        super::logging::Sink::FileAndStderr,
+    ) {
+        eprintln!("watch: {w}");
+    }
     let mut journal = Journal::follow(&state).unwrap_or_else(|e| {
-        eprintln!("watch: cannot read the journal in {}: {e}", state.display());
+        tracing::warn!("watch: cannot read the journal in {}: {e}", state.display());
         None
     });
     let mut standing = journal
@@ -219,13 +227,23 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         w: std::io::BufWriter::new(std::io::stdout()),
     };
     let mut n = Counts::default();
+    let mut alerts =
+        super::watch_alerts::HeadlessAlerts::new(super::config::get().alerts.value.clone());
     let mut last_activity = Instant::now();
     let mut last_look = Instant::now();
     while !stop.load(Ordering::Relaxed) && !out.closed {
         match results.recv_timeout(Duration::from_millis(100)) {
             Ok(ev) => {
                 last_activity = Instant::now();
+                // The alert line follows the fit that raised it.
+                let alert = match &ev {
+                    EngineEvent::Fit { fit, .. } => alerts.on_fit(fit),
+                    _ => None,
+                };
                 n.report(&mut out, ev)?;
+                if let Some((json, text)) = alert {
+                    out.emit(json, text);
+                }
             }
             Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
             Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
@@ -245,9 +263,14 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     }
     stop.store(true, Ordering::Relaxed);
     engine.shutdown();
-    eprintln!(
+    alerts.finish();
+    tracing::info!(
         "watch: stopped; {} file versions read, {} objects, {} observations, {} fits reported, {} rejected",
-        n.files, n.objects, n.observations, n.fits, n.rejected
+        n.files,
+        n.objects,
+        n.observations,
+        n.fits,
+        n.rejected
     );
     Ok(0)
 }
@@ -312,7 +335,7 @@ impl Counts {
                 };
                 out.input_error(&e, "rejected", arrived);
             }
-            EngineEvent::Failed(msg) => eprintln!("watch: {msg}"),
+            EngineEvent::Failed(msg) => tracing::error!("watch: {msg}"),
             EngineEvent::Fit { fit, arrived, .. } => {
                 self.fits += 1;
                 fit_line(out, &fit, arrived)?;

@@ -31,6 +31,8 @@ pub enum Action {
     Plan,
     Origin,
     RejectedFiles,
+    Alerts,
+    QuietAlerts,
     Help,
     Quit,
     Accept,
@@ -38,7 +40,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 29] = [
+    pub const ALL: [Action; 31] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -64,6 +66,8 @@ impl Action {
         Action::Plan,
         Action::Origin,
         Action::RejectedFiles,
+        Action::Alerts,
+        Action::QuietAlerts,
         Action::Help,
         Action::Quit,
         Action::Accept,
@@ -97,6 +101,8 @@ impl Action {
             Action::Plan => "plan",
             Action::Origin => "origin",
             Action::RejectedFiles => "rejected-files",
+            Action::Alerts => "alerts",
+            Action::QuietAlerts => "quiet-alerts",
             Action::Help => "help",
             Action::Quit => "quit",
             Action::Accept => "accept",
@@ -135,6 +141,8 @@ impl Action {
                 "where an unbound candidate comes from: original orbit, arrival, Galactic orbit"
             }
             Action::RejectedFiles => "list rejected files and lines",
+            Action::Alerts => "the night's alerts, newest first",
+            Action::QuietAlerts => "quiet alerts on or off (listed, but no bell, flash or command)",
             Action::Help => "this help",
             Action::Quit => "quit (decisions are already saved)",
             Action::Accept => "accept the typed text",

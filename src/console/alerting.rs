@@ -66,6 +66,18 @@ impl Alerts {
         Some((alert, effects))
     }
 
+    /// Whether the screen must be drawn again for the flash (while it lasts, and once when it ends).
+    pub fn tick(&mut self, now: Instant) -> bool {
+        match self.flash_until {
+            Some(t) if now >= t => {
+                self.flash_until = None;
+                true
+            }
+            Some(_) => true,
+            None => false,
+        }
+    }
+
     /// Whether the status line should be drawn flashed now.
     pub fn flashing(&self, now: Instant) -> bool {
         self.flash_until.is_some_and(|t| now < t)

@@ -52,6 +52,8 @@ pub struct Runtime {
     engine: Engine,
     journal: Sender<Entry>,
     sites: Arc<SiteTable>,
+    /// Rings the terminal's bell (the terminal set-up supplies it; none on a test backend).
+    bell: Option<Box<dyn Fn() + Send>>,
 }
 
 /// Start the feed, fit workers and journal for a watched directory, as the `$USER` observer; events
@@ -114,6 +116,7 @@ pub fn start_as(
             engine,
             journal: jtx,
             sites,
+            bell: None,
         },
         replay.entries,
         replay.warnings,
@@ -124,6 +127,30 @@ impl Runtime {
     /// Fit under this population model from now on.
     pub fn set_population(&mut self, model: Arc<crate::fitting::population::PopulationModel>) {
         self.engine.set_options(fit_options(model));
+    }
+
+    /// How to ring the terminal's bell when an alert asks for it.
+    pub fn set_bell(&mut self, bell: Box<dyn Fn() + Send>) {
+        self.bell = Some(bell);
+    }
+
+    /// A new fit may raise an alert: shown, logged, and rung, flashed and handed to the user's command
+    /// unless the observer asked for quiet.
+    fn alert(&mut self, app: &mut App, fit: &FitResult) {
+        let Some((alert, fx)) = app.alerts.on_fit(fit) else {
+            return;
+        };
+        tracing::warn!("ALERT {}", alert.text);
+        app.message = Some(format!("ALERT {} (! lists alerts)", alert.text));
+        if fx.bell
+            && let Some(b) = &self.bell
+        {
+            b();
+        }
+        if let Some(cmd) = fx.command {
+            crate::feed::alerts::spawn_command(cmd, crate::feed::alerts::alert_json(fit, &alert));
+        }
+        app.dirty = true;
     }
 
     /// React to one event; returns false to stop.
@@ -138,6 +165,9 @@ impl Runtime {
                 }
             }
             AppEvent::Resize | AppEvent::Tick | AppEvent::Repaint => {
+                if app.alerts.tick(Instant::now()) {
+                    app.dirty = true;
+                }
                 let (w, r) = self.engine.load();
                 if (w, r) != (app.status.waiting, app.status.fitting)
                     || matches!(ev, AppEvent::Resize | AppEvent::Repaint)
@@ -147,7 +177,12 @@ impl Runtime {
                     app.dirty = true;
                 }
             }
-            AppEvent::Engine(ev) => on_engine(app, ev),
+            AppEvent::Engine(ev) => {
+                if let EngineEvent::Fit { fit, .. } = &ev {
+                    self.alert(app, fit);
+                }
+                on_engine(app, ev);
+            }
             AppEvent::Journal(Ok(e)) => app.on_saved(&e),
             AppEvent::JournalRead(entries, warnings) => {
                 if let Some(w) = warnings.first() {

@@ -97,6 +97,7 @@ pub enum Mode {
     Ephemeris,
     Plan,
     Origin,
+    Alerts,
 }
 
 /// Feed counters for the status line.
@@ -152,6 +153,8 @@ pub struct App {
     pub standing: Standing,
     /// The observer at this console (other observers' decisions are shown with their names).
     pub me: String,
+    /// The night's alerts and the rules that raise them.
+    pub alerts: crate::console::alerting::Alerts,
 }
 
 fn now_utc() -> String {
@@ -184,6 +187,7 @@ impl App {
             clock: now_utc,
             standing: Standing::default(),
             me: crate::feed::journal::observer_name(None),
+            alerts: crate::console::alerting::Alerts::new(Default::default()),
         }
     }
 
@@ -341,9 +345,12 @@ impl App {
         match self.mode {
             Mode::List => Context::List,
             Mode::Filter | Mode::Note => Context::Input,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan | Mode::Origin => {
-                Context::Overlay
-            }
+            Mode::Help
+            | Mode::Rejected
+            | Mode::Ephemeris
+            | Mode::Plan
+            | Mode::Origin
+            | Mode::Alerts => Context::Overlay,
         }
     }
 
@@ -428,7 +435,12 @@ impl App {
         let row = self.selected_row().unwrap_or(0);
         if matches!(
             self.mode,
-            Mode::Help | Mode::Rejected | Mode::Ephemeris | Mode::Plan | Mode::Origin
+            Mode::Help
+                | Mode::Rejected
+                | Mode::Ephemeris
+                | Mode::Plan
+                | Mode::Origin
+                | Mode::Alerts
         ) {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
@@ -533,6 +545,18 @@ impl App {
             Action::RejectedFiles => {
                 self.mode = Mode::Rejected;
                 self.overlay_scroll = 0;
+            }
+            Action::Alerts => {
+                self.mode = Mode::Alerts;
+                self.overlay_scroll = 0;
+            }
+            Action::QuietAlerts => {
+                self.alerts.quiet = !self.alerts.quiet;
+                self.message = Some(if self.alerts.quiet {
+                    "alerts quiet: still listed (!), no bell, flash or command".into()
+                } else {
+                    "alerts loud again: bell, flash and command as configured".into()
+                });
             }
             Action::Help => {
                 self.mode = Mode::Help;

@@ -139,6 +139,35 @@ pub fn check(prev: Option<&FitResult>, new: &FitResult, rules: &AlertRules) -> O
     })
 }
 
+/// What the user command reads on stdin: the candidate's whole fit record (the `fit --json` fields) with
+/// an `alert` object beside them (`kind`, `text`, `at_utc`).
+pub fn alert_json(fit: &FitResult, alert: &Alert) -> String {
+    let mut v = serde_json::to_value(fit).unwrap_or_else(|_| serde_json::json!({}));
+    if let Some(m) = v.as_object_mut() {
+        m.insert(
+            "alert".into(),
+            serde_json::json!({
+                "kind": alert.kind.as_str(),
+                "text": alert.text,
+                "at_utc": chrono::DateTime::<chrono::Utc>::from(alert.at)
+                    .to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
+            }),
+        );
+    }
+    v.to_string()
+}
+
+/// Run the user command for an alert on a thread of its own (the caller never waits on it); how it
+/// ended goes to the log.
+pub fn spawn_command(command: String, stdin_text: String) -> std::thread::JoinHandle<()> {
+    std::thread::spawn(
+        move || match run_command(&command, &stdin_text, COMMAND_TIMEOUT) {
+            Ok(m) => tracing::info!("{m}"),
+            Err(m) => tracing::warn!("{m}"),
+        },
+    )
+}
+
 /// Longest a user command may run before it is stopped.
 pub const COMMAND_TIMEOUT: Duration = Duration::from_secs(20);
 

@@ -36,6 +36,11 @@ impl Theme {
     pub fn selected(&self) -> Style {
         Style::default().add_modifier(Modifier::REVERSED)
     }
+    /// A flashed status line: bold and reversed, in colour where colour is allowed.
+    pub fn alert(&self) -> Style {
+        let s = Style::default().add_modifier(Modifier::BOLD | Modifier::REVERSED);
+        if self.color { s.fg(Color::Yellow) } else { s }
+    }
 }
 
 /// Format an optional number or a dash.

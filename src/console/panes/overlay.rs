@@ -190,6 +190,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
             " keys (from the active keymap) ",
             help_lines(app),
         ),
+        Mode::Alerts => panel(f, area, app, " alerts ", app.alerts.lines()),
         Mode::Rejected => {
             let lines = if app.rejected.is_empty() {
                 vec!["nothing rejected".to_string()]

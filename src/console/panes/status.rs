@@ -87,11 +87,17 @@ pub fn hint_text(app: &App, width: usize) -> String {
     }
 }
 
+/// The status line; while an alert flashes it is drawn in the alert's style and starts with ALERT
+/// (so it shows without colour too).
 pub fn draw_status(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
-    f.render_widget(
-        Paragraph::new(status_text(app, area.width as usize)).style(theme.selected()),
-        area,
-    );
+    let flashing = app.alerts.flashing(std::time::Instant::now());
+    let (text, style) = if flashing {
+        let t = status_text(app, (area.width as usize).saturating_sub(6));
+        (format!(" ALERT{t}"), theme.alert())
+    } else {
+        (status_text(app, area.width as usize), theme.selected())
+    };
+    f.render_widget(Paragraph::new(text).style(style), area);
 }
 
 pub fn draw_hints(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
