@@ -198,15 +198,16 @@ pub fn merge(tracklets: Vec<Tracklet>) -> Vec<Tracklet> {
 }
 
 /// Same time, place and position: the same observation reported twice.
-pub fn dedupe(mut obs: Vec<Observation>) -> Vec<Observation> {
-    obs.sort_by(|a, b| a.time.tdb.minus(b.time.tdb).total_cmp(&0.0));
-    obs.dedup_by(|a, b| {
-        a.site_code == b.site_code
-            && (a.time.tdb.minus(b.time.tdb)).abs() < 1e-8
-            && (a.ra - b.ra).abs() < 1e-9
-            && (a.dec - b.dec).abs() < 1e-9
-    });
-    obs
+pub fn dedupe(obs: Vec<Observation>) -> Vec<Observation> {
+    // One identity decides "the same observation" here as everywhere (store, residuals, journal):
+    // sorted by it, the list is in time order and a repeat sits next to its first report.
+    let mut keyed: Vec<(crate::fitting::obsid::ObsId, Observation)> = obs
+        .into_iter()
+        .map(|o| (crate::fitting::obsid::ObsId::of(&o), o))
+        .collect();
+    keyed.sort_by(|a, b| a.0.cmp(&b.0));
+    keyed.dedup_by(|a, b| a.0 == b.0);
+    keyed.into_iter().map(|(_, o)| o).collect()
 }
 
 fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observation, InputError> {
