@@ -330,3 +330,30 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         origin: format!("{}:{}", clean(file), r.line),
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const A: &str = "trkSub|stn|obsTime|ra|dec\nqk0f3ra|TV1|2027-02-26T03:00:00Z|120.5|10.25\nqk0f3ra|TV1|2027-02-26T03:30:00Z|120.51|10.26\n";
+    /// The second position again (from a partner's file), and one at the same time from another site.
+    const B: &str = "trkSub|stn|obsTime|ra|dec\nqk0f3ra|TV1|2027-02-26T03:30:00Z|120.51|10.26\nqk0f3ra|TV2|2027-02-26T03:30:00Z|120.52|10.26\n";
+
+    #[test]
+    fn an_observation_reported_twice_is_kept_once_and_another_sites_is_kept() {
+        let sites = SiteTable::builtin();
+        let mut all = read_bytes("a.psv", A.as_bytes(), &sites, &Limits::default()).tracklets;
+        all.extend(read_bytes("b.psv", B.as_bytes(), &sites, &Limits::default()).tracklets);
+        let merged = merge(all);
+        assert_eq!(merged.len(), 1);
+        let t = &merged[0];
+        assert_eq!(t.obs.len(), 3, "{:?}", t.obs);
+        assert_eq!(t.source, "a.psv; b.psv");
+        // In time order.
+        assert!(
+            t.obs
+                .windows(2)
+                .all(|w| w[0].time.tt.minus(w[1].time.tt) <= 0.0)
+        );
+    }
+}
