@@ -13,6 +13,7 @@ pub enum Action {
     First,
     Last,
     NextUndecided,
+    NextChanged,
     SortNext,
     SortReverse,
     Filter,
@@ -40,7 +41,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 31] = [
+    pub const ALL: [Action; 32] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -48,6 +49,7 @@ impl Action {
         Action::First,
         Action::Last,
         Action::NextUndecided,
+        Action::NextChanged,
         Action::SortNext,
         Action::SortReverse,
         Action::Filter,
@@ -83,6 +85,7 @@ impl Action {
             Action::First => "first",
             Action::Last => "last",
             Action::NextUndecided => "next-undecided",
+            Action::NextChanged => "next-changed",
             Action::SortNext => "sort-next",
             Action::SortReverse => "sort-reverse",
             Action::Filter => "filter",
@@ -119,6 +122,9 @@ impl Action {
             Action::First => "top of the list",
             Action::Last => "bottom of the list",
             Action::NextUndecided => "jump to the next candidate without a decision",
+            Action::NextChanged => {
+                "jump to the next candidate new (+) or updated (~) since you looked"
+            }
             Action::SortNext => "sort by the next column",
             Action::SortReverse => "reverse the sort order",
             Action::Filter => "type a filter (object id, status, method)",

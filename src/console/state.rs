@@ -14,6 +14,7 @@ use tui_input::Input;
 use tui_input::backend::crossterm::EventHandler;
 
 mod changes;
+pub mod fresh;
 pub use changes::ObsRow;
 
 pub use crate::feed::engine::Overrides;
@@ -29,6 +30,8 @@ pub struct Candidate {
     pub overrides: Overrides,
     /// Observations currently known for the object (a decision on fewer is flagged).
     pub n_known: usize,
+    /// When it arrived and changed, whether the observer has seen it since, its answers refit by refit.
+    pub fresh: fresh::Fresh,
 }
 
 /// Columns the list can be sorted by.
@@ -155,6 +158,8 @@ pub struct App {
     pub me: String,
     /// The night's alerts and the rules that raise them.
     pub alerts: crate::console::alerting::Alerts,
+    /// The wall clock for arrival ages (fixed in tests).
+    pub now: fn() -> std::time::SystemTime,
 }
 
 fn now_utc() -> String {
@@ -188,6 +193,7 @@ impl App {
             standing: Standing::default(),
             me: crate::feed::journal::observer_name(None),
             alerts: crate::console::alerting::Alerts::new(Default::default()),
+            now: std::time::SystemTime::now,
         }
     }
 
@@ -206,6 +212,7 @@ impl App {
                 if version < c.version {
                     return;
                 }
+                c.fresh.refit(&fit, (self.now)());
                 c.fit = fit;
                 c.version = version;
                 c.n_known = n_known;
@@ -214,6 +221,7 @@ impl App {
                 self.index.insert(fit.object.clone(), self.candidates.len());
                 let (decision, overrides) = self.stands_for(&fit.object);
                 self.candidates.push(Candidate {
+                    fresh: fresh::Fresh::new(&fit, (self.now)()),
                     fit,
                     version,
                     decision,
@@ -390,10 +398,21 @@ impl App {
                 }
             };
         }
-        match action {
+        let fx = match action {
             Some(a) => self.act(a),
             None => Vec::new(),
+        };
+        // The row under the cursor has been seen as it is now.
+        if self.mode == Mode::List
+            && let Some(i) = self
+                .selected
+                .as_ref()
+                .and_then(|o| self.index.get(o))
+                .copied()
+        {
+            self.candidates[i].fresh.visit();
         }
+        fx
     }
 
     fn accept_input(&mut self) -> Vec<Effect> {
@@ -468,6 +487,17 @@ impl App {
                 match next {
                     Some(r) => self.select_row(r),
                     None => self.message = Some("every shown candidate has a decision".into()),
+                }
+            }
+            Action::NextChanged => {
+                let next = (1..=rows).map(|k| (row + k) % rows.max(1)).find(|&r| {
+                    self.view
+                        .get(r)
+                        .is_some_and(|&i| self.candidates[i].fresh.mark() != fresh::Mark::Seen)
+                });
+                match next {
+                    Some(r) => self.select_row(r),
+                    None => self.message = Some("nothing new or updated since you looked".into()),
                 }
             }
             Action::SortNext => {

@@ -143,6 +143,11 @@ pub fn lines(app: &App) -> Vec<Line<'static>> {
             fewer
         )));
     }
+    // Last, as the least decisive: when it came and how its answer moved.
+    out.push(Line::from(c.fresh.age_line((app.now)())));
+    if c.fresh.history.len() > 1 {
+        out.push(Line::from(c.fresh.history_line(76)));
+    }
     out
 }
 

@@ -168,8 +168,9 @@ fn ephemeris_lines(
 }
 
 /// What the marks on screen mean and how the list is ordered.
-const LEGEND: [&str; 10] = [
+const LEGEND: [&str; 11] = [
     "[what the marks mean]",
+    "  + / ~          before an id: new / refitted since you last had it under the cursor (c jumps to the next)",
     "  order          usable fits first (by log10 odds unbound : bound), then poor fits, then failures",
     "  why: …         under the list: the selected row's tier, P, who decided it (data or prior), what would change it",
     "  odds ▲         P(unbound) ≥ 0.99 on a fit with no quality problem: a reason to follow up, not a discovery",

@@ -97,7 +97,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 _ => "-".into(),
             };
             let mut cells = vec![
-                Cell::from(clean(&fit.object)),
+                Cell::from(format!("{}{}", c.fresh.mark().symbol(), clean(&fit.object))),
                 Cell::from(score_text(c)).style(if strong(fit) {
                     theme.fg(Color::Yellow).patch(theme.strong())
                 } else {

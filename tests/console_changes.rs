@@ -1,0 +1,80 @@
+//! What changed since the observer looked: a row is marked new (`+`) until the cursor has been on it,
+//! updated (`~`) after a refit it has not seen, and `c` jumps to the next such row; the orbit pane says
+//! when the candidate arrived and how its answer moved refit by refit.
+#![allow(clippy::unwrap_used)] // a failed step in a test should stop it loudly
+
+use interloper::console::keymap::Keymap;
+use interloper::console::state::App;
+use interloper::console::state::fresh::Mark;
+use interloper::feed::sites::SiteTable;
+use interloper::feed::tracklets::{Limits, read_bytes};
+use interloper::fitting::fit::{FitOptions, fit_tracklet};
+use interloper::physics::observe::ObserverModel;
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+
+fn fit_of(files: &[&str]) -> interloper::fitting::fit::FitResult {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let sites = SiteTable::builtin();
+    let mut tr = Vec::new();
+    for n in files {
+        let bytes = std::fs::read(dir.join(n)).unwrap();
+        tr.extend(read_bytes(n, &bytes, &sites, &Limits::default()).tracklets);
+    }
+    let t = interloper::feed::tracklets::merge(tr).remove(0);
+    fit_tracklet(&t, &ObserverModel::new(), &FitOptions::default())
+}
+
+fn mark(app: &App, object: &str) -> Mark {
+    app.candidates
+        .iter()
+        .find(|c| c.fit.object == object)
+        .unwrap()
+        .fresh
+        .mark()
+}
+
+#[test]
+fn new_and_updated_rows_are_marked_until_visited_and_c_jumps_to_them() {
+    let mut app = App::new(Keymap::builtin());
+    let a = fit_of(&["003_qka2e7f_n1.psv"]);
+    let b = fit_of(&["001_qk0f3ra_n1.psv"]);
+    app.on_fit(1, a, 5);
+    app.on_fit(1, b, 4);
+    assert_eq!(mark(&app, "qka2e7f"), Mark::New);
+    assert_eq!(mark(&app, "qk0f3ra"), Mark::New);
+    let key = |c: char| KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE);
+    app.on_key(key('g'));
+    let first = app.selected.clone().unwrap();
+    assert_eq!(
+        mark(&app, &first),
+        Mark::Seen,
+        "the row under the cursor is seen"
+    );
+    app.on_key(key('c'));
+    let second = app.selected.clone().unwrap();
+    assert_ne!(first, second, "c went to the other new row");
+    assert_eq!(mark(&app, &second), Mark::Seen);
+    app.on_key(key('c'));
+    assert!(app.message.as_deref().unwrap().contains("nothing new"));
+
+    // A second night refits qka2e7f: updated until visited, and its history shows both answers.
+    let a2 = fit_of(&["003_qka2e7f_n1.psv", "015_qka2e7f_n2.psv"]);
+    app.on_fit(2, a2, 10);
+    assert_eq!(mark(&app, "qka2e7f"), Mark::Updated);
+    let c = app
+        .candidates
+        .iter()
+        .find(|c| c.fit.object == "qka2e7f")
+        .unwrap();
+    let h = c.fresh.history_line(200);
+    assert!(h.contains("(1n,5) → ") && h.contains("(2n,10)"), "{h}");
+    assert!(
+        c.fresh
+            .age_line(std::time::SystemTime::now())
+            .contains("2 fits")
+    );
+    while app.selected.as_deref() != Some("qka2e7f") {
+        app.on_key(key('c'));
+    }
+    assert_eq!(mark(&app, "qka2e7f"), Mark::Seen);
+}
