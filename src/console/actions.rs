@@ -34,6 +34,7 @@ pub enum Action {
     RejectedFiles,
     Alerts,
     QuietAlerts,
+    Export,
     Help,
     Quit,
     Accept,
@@ -41,7 +42,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 32] = [
+    pub const ALL: [Action; 33] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -70,6 +71,7 @@ impl Action {
         Action::RejectedFiles,
         Action::Alerts,
         Action::QuietAlerts,
+        Action::Export,
         Action::Help,
         Action::Quit,
         Action::Accept,
@@ -106,6 +108,7 @@ impl Action {
             Action::RejectedFiles => "rejected-files",
             Action::Alerts => "alerts",
             Action::QuietAlerts => "quiet-alerts",
+            Action::Export => "export",
             Action::Help => "help",
             Action::Quit => "quit",
             Action::Accept => "accept",
@@ -149,6 +152,9 @@ impl Action {
             Action::RejectedFiles => "list rejected files and lines",
             Action::Alerts => "the night's alerts, newest first",
             Action::QuietAlerts => "quiet alerts on or off (listed, but no bell, flash or command)",
+            Action::Export => {
+                "write the list as shown, with decisions, as CSV and JSON in the state directory"
+            }
             Action::Help => "this help",
             Action::Quit => "quit (decisions are already saved)",
             Action::Accept => "accept the typed text",

@@ -3,6 +3,7 @@
 
 pub mod actions;
 pub mod alerting;
+pub mod export;
 pub mod journaltask;
 pub mod keymap;
 pub mod panes;

@@ -54,6 +54,8 @@ pub struct Runtime {
     sites: Arc<SiteTable>,
     /// Rings the terminal's bell (the terminal set-up supplies it; none on a test backend).
     bell: Option<Box<dyn Fn() + Send>>,
+    /// Where exports are written.
+    state_dir: PathBuf,
 }
 
 /// Start the feed, fit workers and journal for a watched directory, as the `$USER` observer; events
@@ -88,6 +90,7 @@ pub fn start_as(
     population: Arc<crate::fitting::population::PopulationModel>,
 ) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
     let (journal, replay) = Journal::open_as(&state_dir, observer)?;
+    let export_dir = state_dir.clone();
     let jtx = super::journaltask::spawn(journal, tx.clone(), stop.clone());
     let sites = Arc::new(sites);
     let events = watcher::spawn(dir, watch, stop.clone());
@@ -117,6 +120,7 @@ pub fn start_as(
             journal: jtx,
             sites,
             bell: None,
+            state_dir: export_dir,
         },
         replay.entries,
         replay.warnings,
@@ -237,6 +241,10 @@ impl Runtime {
                 let fits = app.candidates.iter().map(|c| c.fit.clone()).collect();
                 super::plantask::spawn(fits, self.sites.clone(), self.tx.clone());
             }
+            Effect::Export(rows) => {
+                app.message = Some(export(&self.state_dir, &rows));
+                app.dirty = true;
+            }
             Effect::Ephemeris(object) => {
                 if let Some(c) = app.candidates.iter().find(|c| c.fit.object == object) {
                     spawn_ephemeris(c.fit.clone(), self.sites.clone(), self.tx.clone());
@@ -248,6 +256,26 @@ impl Runtime {
 
     pub fn shutdown(self) {
         self.engine.shutdown();
+    }
+}
+
+/// Write the rows as CSV and JSON beside the journal; the message says where (or why not).
+fn export(dir: &std::path::Path, rows: &[super::export::Row]) -> String {
+    let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%SZ");
+    let csv = dir.join(format!("export-{stamp}.csv"));
+    let json = dir.join(format!("export-{stamp}.json"));
+    let written = std::fs::write(&csv, super::export::csv(rows))
+        .and_then(|_| std::fs::write(&json, super::export::json(rows)));
+    match written {
+        Ok(()) => {
+            tracing::info!("exported {} candidates to {}", rows.len(), csv.display());
+            format!(
+                "exported {} candidates to {} and .json",
+                rows.len(),
+                csv.display()
+            )
+        }
+        Err(e) => format!("EXPORT FAILED in {}: {e}", dir.display()),
     }
 }
 

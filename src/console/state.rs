@@ -125,6 +125,8 @@ pub enum Effect {
     Ephemeris(String),
     /// Tonight's plan over every candidate.
     Plan,
+    /// Write the list as shown (CSV and JSON).
+    Export(Vec<crate::console::export::Row>),
     Quit,
 }
 
@@ -576,6 +578,7 @@ impl App {
                 self.mode = Mode::Rejected;
                 self.overlay_scroll = 0;
             }
+            Action::Export => return vec![Effect::Export(crate::console::export::rows(self))],
             Action::Alerts => {
                 self.mode = Mode::Alerts;
                 self.overlay_scroll = 0;
