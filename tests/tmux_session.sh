@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # A scripted terminal session: the demo in tmux at 100x30, keys sent with send-keys, the screen read with
 # capture-pane. Checks that the ranked list appears, the unbound candidate's alert rings the bell (tmux's
-# bell flag) and runs the configured command with valid JSON on its stdin, a decision reaches the journal, Esc drops a filter
+# bell flag) and runs the configured command with valid JSON on its stdin, a decision reaches the journal and
+# X exports it, Esc drops a filter
 # being typed, the help overlay and the origin pane open, quitting ends the program, and a hang-up closes it cleanly. CI runs it when tmux is installed; it skips (exit 0, saying so)
 # otherwise.
 set -euo pipefail
@@ -45,6 +46,12 @@ for _ in $(seq 1 20); do
     sleep 0.25
 done
 grep -q '"object":"qka2e7f"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
+tmux -L "$sock" send-keys -t demo X
+for _ in $(seq 1 20); do
+    ls "$state"/export-*.csv >/dev/null 2>&1 && break
+    sleep 0.25
+done
+grep -q "^1,qka2e7f,.*,pursue," "$state"/export-*.csv || fail "X did not export the list with the decision"
 tmux -L "$sock" send-keys -t demo /
 sleep 0.2
 tmux -L "$sock" send-keys -t demo z z z
