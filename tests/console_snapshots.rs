@@ -118,6 +118,15 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
         app.on_key(key('f'));
         check(&format!("rejected_{w}x{h}"), &screen(&mut app, w, h));
         app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        // Compare: mark the top candidate, move to the next, open both side by side.
+        app.on_key(key('g'));
+        app.on_key(key('='));
+        app.on_key(key('j'));
+        app.on_key(key('='));
+        check(&format!("compare_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.compare_with = None;
+        app.message = None;
         // The ephemeris panel, with points computed here as the runtime's worker would.
         let fit = app.selected_candidate().unwrap().fit.clone();
         let model = ObserverModel::new();

@@ -35,6 +35,7 @@ pub enum Action {
     Alerts,
     QuietAlerts,
     Export,
+    Compare,
     Help,
     Quit,
     Accept,
@@ -42,7 +43,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 33] = [
+    pub const ALL: [Action; 34] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -72,6 +73,7 @@ impl Action {
         Action::Alerts,
         Action::QuietAlerts,
         Action::Export,
+        Action::Compare,
         Action::Help,
         Action::Quit,
         Action::Accept,
@@ -109,6 +111,7 @@ impl Action {
             Action::Alerts => "alerts",
             Action::QuietAlerts => "quiet-alerts",
             Action::Export => "export",
+            Action::Compare => "compare",
             Action::Help => "help",
             Action::Quit => "quit",
             Action::Accept => "accept",
@@ -152,6 +155,7 @@ impl Action {
             Action::RejectedFiles => "list rejected files and lines",
             Action::Alerts => "the night's alerts, newest first",
             Action::QuietAlerts => "quiet alerts on or off (listed, but no bell, flash or command)",
+            Action::Compare => "mark this candidate; on another, show the two side by side",
             Action::Export => {
                 "write the list as shown, with decisions, as CSV and JSON in the state directory"
             }

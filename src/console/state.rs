@@ -101,6 +101,7 @@ pub enum Mode {
     Plan,
     Origin,
     Alerts,
+    Compare,
 }
 
 /// Feed counters for the status line.
@@ -162,6 +163,8 @@ pub struct App {
     pub alerts: crate::console::alerting::Alerts,
     /// The wall clock for arrival ages (fixed in tests).
     pub now: fn() -> std::time::SystemTime,
+    /// The candidate marked for comparison with the selected one.
+    pub compare_with: Option<String>,
 }
 
 fn now_utc() -> String {
@@ -196,6 +199,7 @@ impl App {
             me: crate::feed::journal::observer_name(None),
             alerts: crate::console::alerting::Alerts::new(Default::default()),
             now: std::time::SystemTime::now,
+            compare_with: None,
         }
     }
 
@@ -360,7 +364,8 @@ impl App {
             | Mode::Ephemeris
             | Mode::Plan
             | Mode::Origin
-            | Mode::Alerts => Context::Overlay,
+            | Mode::Alerts
+            | Mode::Compare => Context::Overlay,
         }
     }
 
@@ -415,6 +420,27 @@ impl App {
             self.candidates[i].fresh.visit();
         }
         fx
+    }
+
+    /// First press marks the selected candidate; a press on another opens the two side by side.
+    fn compare(&mut self) {
+        let Some(sel) = self.selected.clone() else {
+            return;
+        };
+        match &self.compare_with {
+            Some(m) if *m != sel && self.index.contains_key(m) => {
+                self.mode = Mode::Compare;
+                self.overlay_scroll = 0;
+                self.message = None;
+            }
+            _ => {
+                self.message = Some(format!(
+                    "{} marked for comparison: select another and press the compare key again",
+                    clean(&sel)
+                ));
+                self.compare_with = Some(sel);
+            }
+        }
     }
 
     fn accept_input(&mut self) -> Vec<Effect> {
@@ -579,6 +605,7 @@ impl App {
                 self.overlay_scroll = 0;
             }
             Action::Export => return vec![Effect::Export(crate::console::export::rows(self))],
+            Action::Compare => self.compare(),
             Action::Alerts => {
                 self.mode = Mode::Alerts;
                 self.overlay_scroll = 0;

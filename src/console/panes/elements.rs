@@ -18,17 +18,26 @@ fn pm(v: Option<f64>, s: Option<f64>, prec: usize) -> String {
 }
 
 pub fn lines(app: &App) -> Vec<Line<'static>> {
-    let Some(c) = app.selected_candidate() else {
-        return vec![Line::from(if app.candidates.is_empty() {
-            "no candidate yet: waiting for files".to_string()
-        } else {
-            format!(
-                "no candidate matches the filter '{}' ({} hidden); clear it to see them",
-                clean(&app.filter),
-                app.candidates.len()
-            )
-        })];
-    };
+    match app.selected_candidate() {
+        Some(c) => lines_for(app, c),
+        None => nothing_selected(app),
+    }
+}
+
+fn nothing_selected(app: &App) -> Vec<Line<'static>> {
+    vec![Line::from(if app.candidates.is_empty() {
+        "no candidate yet: waiting for files".to_string()
+    } else {
+        format!(
+            "no candidate matches the filter '{}' ({} hidden); clear it to see them",
+            clean(&app.filter),
+            app.candidates.len()
+        )
+    })]
+}
+
+/// The orbit pane's lines for one candidate (the compare panel shows two side by side).
+pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'static>> {
     let f = &c.fit;
     let mut out = Vec::new();
     out.push(Line::from(vec![

@@ -1,5 +1,6 @@
 //! The panes of the console, each drawn from state only (no I/O, no fitting in here).
 
+pub mod compare;
 pub mod elements;
 pub mod nextnight;
 pub mod origin;

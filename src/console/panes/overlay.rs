@@ -8,7 +8,7 @@ use ratatui::Frame;
 use ratatui::layout::Rect;
 use ratatui::widgets::{Block, Borders, Clear, Paragraph};
 
-fn centered(area: Rect, w_pct: u16, h_pct: u16) -> Rect {
+pub(super) fn centered(area: Rect, w_pct: u16, h_pct: u16) -> Rect {
     let w = area.width * w_pct / 100;
     let h = area.height * h_pct / 100;
     Rect::new(
@@ -192,6 +192,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
             help_lines(app),
         ),
         Mode::Alerts => panel(f, area, app, " alerts ", app.alerts.lines()),
+        Mode::Compare => super::compare::draw(f, area, app),
         Mode::Rejected => {
             let lines = if app.rejected.is_empty() {
                 vec!["nothing rejected".to_string()]

@@ -59,6 +59,17 @@ pub fn strip(
     (bars, signs, marks)
 }
 
+/// An angle given in arcminutes, in the unit that reads best.
+fn arcmin(x: f64) -> String {
+    if x >= 60.0 {
+        format!("{:.1}°", x / 60.0)
+    } else if x >= 1.0 {
+        format!("{x:.1}′")
+    } else {
+        format!("{:.0}″", x * 60.0)
+    }
+}
+
 pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     let block = Block::default()
         .borders(Borders::ALL)
@@ -146,6 +157,8 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .filter(|v| v.is_finite())
         .fold(1e-6, f64::max);
     let exaggerate = 0.15 * span / rmax;
+    // The drawing spans `span` arcmin; a residual of 1″ (1/60′) is drawn `exaggerate` arcmin long.
+    let scale = format!("{} across · O−C ×{:.0}", arcmin(span), exaggerate * 60.0);
     let used: Vec<(f64, f64)> = pts
         .iter()
         .zip(res)
@@ -178,6 +191,10 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             for (x, y) in &rejected {
                 ctx.print(*x, *y, "x");
             }
+            // Compass and scale: north up and east left, as on the sky; residuals magnified.
+            let (left, top, bottom) = (cx - span / 2.0, cy + span / 2.0, cy - span / 2.0);
+            ctx.print(left, top, "N↑ E←");
+            ctx.print(left, bottom, scale.clone());
         });
     f.render_widget(canvas, parts[1]);
 }
