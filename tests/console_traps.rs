@@ -15,8 +15,8 @@ fn ctrl_c() -> KeyEvent {
 }
 
 #[test]
-fn ctrl_c_quits_from_the_list_the_help_overlay_and_the_filter_prompt() {
-    for opening in [None, Some('?'), Some('/')] {
+fn ctrl_c_quits_from_the_list_the_help_overlay_the_alert_list_and_the_filter_prompt() {
+    for opening in [None, Some('?'), Some('!'), Some('f'), Some('/')] {
         let mut app = App::new(Keymap::builtin());
         if let Some(k) = opening {
             app.on_key(key(k));
