@@ -78,3 +78,31 @@ fn new_and_updated_rows_are_marked_until_visited_and_c_jumps_to_them() {
     }
     assert_eq!(mark(&app, "qka2e7f"), Mark::Seen);
 }
+
+#[test]
+fn the_cursor_starts_on_the_top_row_and_follows_its_candidate_once_moved() {
+    let mut app = App::new(Keymap::builtin());
+    // The first fit to arrive is an ordinary asteroid; the unbound one arrives later and ranks first.
+    app.on_fit(1, fit_of(&["001_qk0f3ra_n1.psv"]), 4);
+    app.on_fit(
+        1,
+        fit_of(&[
+            "003_qka2e7f_n1.psv",
+            "015_qka2e7f_n2.psv",
+            "023_qka2e7f_n3.psv",
+        ]),
+        15,
+    );
+    let top = app.candidates[app.view[0]].fit.object.clone();
+    assert_eq!(top, "qka2e7f");
+    assert_eq!(
+        app.selected.as_deref(),
+        Some("qka2e7f"),
+        "on the top row, not the first fitted"
+    );
+    // Once the observer moves, the cursor stays on its candidate as the list re-ranks.
+    app.on_key(KeyEvent::new(KeyCode::Char('j'), KeyModifiers::NONE));
+    assert_eq!(app.selected.as_deref(), Some("qk0f3ra"));
+    app.on_fit(1, fit_of(&["002_qk8w3bs_n1.psv"]), 4);
+    assert_eq!(app.selected.as_deref(), Some("qk0f3ra"));
+}

@@ -165,6 +165,8 @@ pub struct App {
     pub now: fn() -> std::time::SystemTime,
     /// The candidate marked for comparison with the selected one.
     pub compare_with: Option<String>,
+    /// Whether the observer has pressed a key yet (until then the cursor keeps to the top row).
+    pub cursor_moved: bool,
 }
 
 fn now_utc() -> String {
@@ -200,6 +202,7 @@ impl App {
             alerts: crate::console::alerting::Alerts::new(Default::default()),
             now: std::time::SystemTime::now,
             compare_with: None,
+            cursor_moved: false,
         }
     }
 
@@ -328,7 +331,9 @@ impl App {
                 .iter()
                 .any(|&i| &self.candidates[i].fit.object == s)
         });
-        if !still {
+        // Until the observer has moved the cursor it stays on the top row as the list re-ranks; after
+        // that it follows the candidate it is on.
+        if !still || !self.cursor_moved {
             self.selected = self
                 .view
                 .first()
@@ -372,6 +377,7 @@ impl App {
     /// One key press.
     pub fn on_key(&mut self, ev: KeyEvent) -> Vec<Effect> {
         self.dirty = true;
+        self.cursor_moved = true;
         // Ctrl-C quits from every mode, prompts and overlays included, whatever the key map says.
         if ev.code == crossterm::event::KeyCode::Char('c')
             && ev
