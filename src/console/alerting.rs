@@ -2,7 +2,7 @@
 //! once when it starts to hold, keeps the night's alerts for their overlay, and says what an alert
 //! should do (bell, flash, command) unless the observer has asked for quiet.
 
-use crate::feed::alerts::{Alert, AlertRules, check};
+use crate::feed::alerts::{Alert, AlertRules, Summary, check};
 use crate::fitting::fit::FitResult;
 use std::collections::HashMap;
 use std::time::{Duration, Instant, SystemTime};
@@ -26,8 +26,8 @@ pub struct Alerts {
     pub quiet: bool,
     /// Every alert of the night, oldest first.
     pub list: Vec<Alert>,
-    /// Each object's previous fit (only what the rules read).
-    previous: HashMap<String, FitResult>,
+    /// What each object's previous fit said (only what the rules read).
+    previous: HashMap<String, Summary>,
     /// The status line is flashed until then.
     flash_until: Option<Instant>,
 }
@@ -47,11 +47,7 @@ impl Alerts {
     pub fn on_fit(&mut self, fit: &FitResult) -> Option<(Alert, AlertEffects)> {
         let prev = self.previous.get(&fit.object);
         let alert = check(prev, fit, &self.rules);
-        let mut kept = fit.clone();
-        // The rules read the summary only; residuals and samples need not be kept twice.
-        kept.residuals = Vec::new();
-        kept.samples = Vec::new();
-        self.previous.insert(fit.object.clone(), kept);
+        self.previous.insert(fit.object.clone(), Summary::of(fit));
         let alert = alert?;
         self.list.push(alert.clone());
         let loud = !self.quiet;

@@ -95,27 +95,44 @@ pub struct Alert {
     pub text: String,
 }
 
-fn usable(r: &FitResult) -> bool {
-    r.status == FitStatus::Ok
+/// What the rules read of a fit (kept per object between fits; the record itself is not).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Summary {
+    pub usable: bool,
+    pub p: Option<f64>,
+    pub prior_dominated: bool,
+    pub n_nights: usize,
 }
 
-fn strong(r: &FitResult, rules: &AlertRules) -> bool {
-    usable(r)
-        && r.p_hyperbolic.is_some_and(|p| p >= rules.min_probability)
+impl Summary {
+    pub fn of(r: &FitResult) -> Summary {
+        Summary {
+            usable: r.status == FitStatus::Ok,
+            p: r.p_hyperbolic,
+            prior_dominated: r.prior_dominated,
+            n_nights: r.n_nights,
+        }
+    }
+}
+
+fn strong(r: &Summary, rules: &AlertRules) -> bool {
+    r.usable
+        && r.p.is_some_and(|p| p >= rules.min_probability)
         && !(rules.data_decided && r.prior_dominated)
 }
 
-fn likely_unbound(r: &FitResult, rules: &AlertRules) -> bool {
-    usable(r) && r.p_hyperbolic.is_some_and(|p| p >= 0.5) && r.n_nights >= rules.min_nights
+fn likely_unbound(r: &Summary, rules: &AlertRules) -> bool {
+    r.usable && r.p.is_some_and(|p| p >= 0.5) && r.n_nights >= rules.min_nights
 }
 
 /// The alert a new fit raises, given the object's previous fit (None for its first): a rule that holds
 /// now and did not before.
-pub fn check(prev: Option<&FitResult>, new: &FitResult, rules: &AlertRules) -> Option<Alert> {
+pub fn check(prev: Option<&Summary>, new: &FitResult, rules: &AlertRules) -> Option<Alert> {
     let p = new.p_hyperbolic?;
-    let kind = if strong(new, rules) && !prev.is_some_and(|o| strong(o, rules)) {
+    let now = Summary::of(new);
+    let kind = if strong(&now, rules) && !prev.is_some_and(|o| strong(o, rules)) {
         AlertKind::Strong
-    } else if likely_unbound(new, rules) && !prev.is_some_and(|o| likely_unbound(o, rules)) {
+    } else if likely_unbound(&now, rules) && !prev.is_some_and(|o| likely_unbound(o, rules)) {
         AlertKind::NewUnbound
     } else {
         return None;
@@ -232,12 +249,15 @@ mod tests {
         let rules = AlertRules::default();
         let low = fit(0.2, 2, false);
         let high = fit(0.97, 3, false);
-        let a = check(Some(&low), &high, &rules).unwrap();
+        let a = check(Some(&Summary::of(&low)), &high, &rules).unwrap();
         assert_eq!(a.kind, AlertKind::Strong);
         assert!(a.text.contains("not a discovery"), "{}", a.text);
-        assert_eq!(check(Some(&high), &fit(0.99, 3, false), &rules), None);
+        assert_eq!(
+            check(Some(&Summary::of(&high)), &fit(0.99, 3, false), &rules),
+            None
+        );
         // Falling below and crossing again fires again.
-        assert!(check(Some(&low), &fit(0.95, 3, false), &rules).is_some());
+        assert!(check(Some(&Summary::of(&low)), &fit(0.95, 3, false), &rules).is_some());
     }
 
     #[test]
@@ -253,7 +273,12 @@ mod tests {
     fn a_new_unbound_candidate_needs_its_nights() {
         let rules = AlertRules::default();
         assert_eq!(check(None, &fit(0.7, 1, false), &rules), None);
-        let a = check(Some(&fit(0.7, 1, false)), &fit(0.7, 2, false), &rules).unwrap();
+        let a = check(
+            Some(&Summary::of(&fit(0.7, 1, false))),
+            &fit(0.7, 2, false),
+            &rules,
+        )
+        .unwrap();
         assert_eq!(a.kind, AlertKind::NewUnbound);
     }
 
