@@ -10,3 +10,6 @@ pub mod fitting;
 pub mod origin_text;
 pub mod physics;
 pub mod report;
+
+#[cfg(test)]
+pub(crate) mod testutil;

@@ -122,22 +122,7 @@ mod tests {
     use super::*;
 
     fn fit(p: f64) -> FitResult {
-        let sites = crate::feed::sites::SiteTable::builtin();
-        let text = "trkSub|stn|obsTime|ra|dec\nqka2e7f|TV1|2027-02-26T03:00:00Z|120.5|10.25\n";
-        let t = crate::feed::tracklets::read_bytes(
-            "t.psv",
-            text.as_bytes(),
-            &sites,
-            &crate::feed::tracklets::Limits::default(),
-        )
-        .tracklets
-        .remove(0);
-        let mut r = FitResult::failed(&t, "made for the test");
-        r.error = None;
-        r.status = crate::fitting::kinds::FitStatus::Ok;
-        r.p_hyperbolic = Some(p);
-        r.n_nights = 3;
-        r
+        crate::testutil::record("qka2e7f", p, 3)
     }
 
     #[test]

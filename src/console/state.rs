@@ -486,15 +486,7 @@ impl App {
     pub fn act(&mut self, a: Action) -> Vec<Effect> {
         let rows = self.view.len();
         let row = self.selected_row().unwrap_or(0);
-        if matches!(
-            self.mode,
-            Mode::Help
-                | Mode::Rejected
-                | Mode::Ephemeris
-                | Mode::Plan
-                | Mode::Origin
-                | Mode::Alerts
-        ) {
+        if self.context() == Context::Overlay {
             match a {
                 Action::Cancel | Action::Help | Action::Quit => self.mode = Mode::List,
                 Action::MoveDown => {

@@ -87,24 +87,10 @@ mod tests {
     use super::*;
 
     fn record(p: f64, nights: usize, prior: bool) -> FitResult {
-        let sites = crate::feed::sites::SiteTable::builtin();
-        let text = "trkSub|stn|obsTime|ra|dec\nqk5t8yn|TV1|2027-02-26T03:00:00Z|120.5|10.25\n";
-        let t = crate::feed::tracklets::read_bytes(
-            "t.psv",
-            text.as_bytes(),
-            &sites,
-            &crate::feed::tracklets::Limits::default(),
-        )
-        .tracklets
-        .remove(0);
-        let mut r = FitResult::failed(&t, "made for the test");
-        r.error = None;
-        r.status = crate::fitting::kinds::FitStatus::Ok;
-        r.p_hyperbolic = Some(p);
+        let mut r = crate::testutil::record("qk5t8yn", p, nights);
         r.log10_odds = Some((p / (1.0 - p)).log10());
         r.log10_bayes_factor = Some(if prior { 0.1 } else { 2.0 });
         r.prior_dominated = prior;
-        r.n_nights = nights;
         r
     }
 

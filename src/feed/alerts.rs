@@ -225,21 +225,8 @@ pub fn run_command(command: &str, stdin_text: &str, timeout: Duration) -> Result
 mod tests {
     use super::*;
 
-    const PSV: &str = "trkSub|stn|obsTime|ra|dec\nqk5t8yn|TV1|2027-02-26T03:00:00Z|120.5|10.25\nqk5t8yn|TV1|2027-02-26T03:30:00Z|120.51|10.26\n";
-
     fn fit(p: f64, nights: usize, prior_dominated: bool) -> FitResult {
-        let sites = crate::feed::sites::SiteTable::builtin();
-        let intake = crate::feed::tracklets::read_bytes(
-            "t.psv",
-            PSV.as_bytes(),
-            &sites,
-            &crate::feed::tracklets::Limits::default(),
-        );
-        let mut r = FitResult::failed(&intake.tracklets[0], "made for the test");
-        r.error = None;
-        r.status = crate::fitting::kinds::FitStatus::Ok;
-        r.p_hyperbolic = Some(p);
-        r.n_nights = nights;
+        let mut r = crate::testutil::record("qk5t8yn", p, nights);
         r.prior_dominated = prior_dominated;
         r
     }

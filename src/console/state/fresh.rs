@@ -164,19 +164,7 @@ mod tests {
     use std::time::Duration;
 
     fn fit(p: f64, nights: usize, n_obs: usize) -> FitResult {
-        let sites = crate::feed::sites::SiteTable::builtin();
-        let text = "trkSub|stn|obsTime|ra|dec\nqk5t8yn|TV1|2027-02-26T03:00:00Z|120.5|10.25\n";
-        let t = crate::feed::tracklets::read_bytes(
-            "t.psv",
-            text.as_bytes(),
-            &sites,
-            &crate::feed::tracklets::Limits::default(),
-        )
-        .tracklets
-        .remove(0);
-        let mut r = FitResult::failed(&t, "made for the test");
-        r.p_hyperbolic = Some(p);
-        r.n_nights = nights;
+        let mut r = crate::testutil::record("qk5t8yn", p, nights);
         r.n_obs = n_obs;
         r
     }
