@@ -5,7 +5,7 @@
 
 use interloper::console::keymap::Keymap;
 use interloper::console::panes::{Theme, elements, residuals, status, table};
-use interloper::console::state::{App, Mode};
+use interloper::console::state::{App, Effect, Mode};
 use interloper::console::view;
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, merge, read_bytes};
@@ -151,8 +151,29 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
             })
             .collect();
         app.ephemeris = Some((fit.object.clone(), pts));
+        app.ephem.window = Some("at TV1, dark 04:00–04:25 UTC (Sun below −12°), every 2 h".into());
         app.mode = Mode::Ephemeris;
         check(&format!("ephemeris_{w}x{h}"), &screen(&mut app, w, h));
+        // d: RA and Dec in h m s and ° ′ ″; X: the request as shown; s: the next site, recomputed.
+        app.on_key(key('d'));
+        check(&format!("ephemeris_hms_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(key('d'));
+        match app.on_key(key('X')).as_slice() {
+            [Effect::Request(obj, lines)] => {
+                assert_eq!(obj, &fit.object);
+                assert!(lines[0].contains("at TV1, dark"), "{lines:?}");
+                assert_eq!(lines.len(), 3 + 6, "header, keys, columns and the rows");
+            }
+            other => panic!("X gave {other:?}"),
+        }
+        let fx = app.on_key(key('s'));
+        assert!(
+            matches!(fx.as_slice(), [Effect::Ephemeris(o)] if *o == fit.object),
+            "{fx:?}"
+        );
+        assert!(app.ephem.site.is_some());
+        assert_eq!(app.mode, Mode::Ephemeris);
+        app.ephem = Default::default();
         // The origin pane of the best-ranked candidate that has an origin sheet.
         app.mode = Mode::List;
         let with_origin = app

@@ -36,6 +36,8 @@ pub enum Action {
     QuietAlerts,
     Export,
     Compare,
+    NextSite,
+    Units,
     Help,
     Quit,
     Accept,
@@ -43,7 +45,7 @@ pub enum Action {
 }
 
 impl Action {
-    pub const ALL: [Action; 34] = [
+    pub const ALL: [Action; 36] = [
         Action::MoveDown,
         Action::MoveUp,
         Action::PageDown,
@@ -74,6 +76,8 @@ impl Action {
         Action::QuietAlerts,
         Action::Export,
         Action::Compare,
+        Action::NextSite,
+        Action::Units,
         Action::Help,
         Action::Quit,
         Action::Accept,
@@ -112,6 +116,8 @@ impl Action {
             Action::QuietAlerts => "quiet-alerts",
             Action::Export => "export",
             Action::Compare => "compare",
+            Action::NextSite => "next-site",
+            Action::Units => "units",
             Action::Help => "help",
             Action::Quit => "quit",
             Action::Accept => "accept",
@@ -156,6 +162,8 @@ impl Action {
             Action::Alerts => "the night's alerts, newest first",
             Action::QuietAlerts => "quiet alerts on or off (listed, but no bell, flash or command)",
             Action::Compare => "mark this candidate; on another, show the two side by side",
+            Action::NextSite => "in the ephemeris: the next site of the feed",
+            Action::Units => "in the ephemeris: RA/Dec in degrees or h m s / ° ′ ″",
             Action::Export => {
                 "write the list as shown, with decisions, as CSV and JSON in the state directory"
             }

@@ -3,6 +3,8 @@
 
 pub mod actions;
 pub mod alerting;
+pub mod ephemtask;
+pub mod ephemtext;
 pub mod export;
 pub mod journaltask;
 pub mod keymap;

@@ -11,10 +11,8 @@ use crate::feed::engine::{Engine, EngineEvent};
 use crate::feed::journal::{Entry, Journal};
 use crate::feed::sites::SiteTable;
 use crate::feed::watcher::{self, WatchOptions};
-use crate::fitting::ephemeris::{EphemerisPoint, point};
+use crate::fitting::ephemeris::EphemerisPoint;
 use crate::fitting::fit::{FitOptions, FitResult};
-use crate::physics::observe::ObserverModel;
-use crate::physics::time::{UtcTime, tt_to_utc};
 use ratatui::Terminal;
 use ratatui::backend::Backend;
 use ratatui::crossterm::event::KeyEvent;
@@ -39,7 +37,8 @@ pub enum AppEvent {
     /// Lines read from the journal (this console's and other processes'), in file order, with
     /// warnings about lines that could not be read.
     JournalRead(Vec<Entry>, Vec<String>),
-    Ephemeris(String, Vec<EphemerisPoint>),
+    /// The ephemeris of an object: the line saying for which site and window, and the rows.
+    Ephemeris(String, String, Vec<EphemerisPoint>),
     Plan(crate::fitting::plan::Plan),
     Tick,
 }
@@ -195,7 +194,8 @@ impl Runtime {
                 self.apply_lines(app, &entries);
             }
             AppEvent::Journal(Err((object, e))) => app.on_save_failed(&object, &e),
-            AppEvent::Ephemeris(obj, pts) => {
+            AppEvent::Ephemeris(obj, window, pts) => {
+                app.ephem.window = Some(window);
                 app.ephemeris = Some((obj, pts));
                 app.dirty = true;
             }
@@ -241,13 +241,22 @@ impl Runtime {
                 let fits = app.candidates.iter().map(|c| c.fit.clone()).collect();
                 super::plantask::spawn(fits, self.sites.clone(), self.tx.clone());
             }
+            Effect::Request(object, lines) => {
+                app.message = Some(write_request(&self.state_dir, &object, &lines));
+                app.dirty = true;
+            }
             Effect::Export(rows) => {
                 app.message = Some(export(&self.state_dir, &rows));
                 app.dirty = true;
             }
             Effect::Ephemeris(object) => {
                 if let Some(c) = app.candidates.iter().find(|c| c.fit.object == object) {
-                    spawn_ephemeris(c.fit.clone(), self.sites.clone(), self.tx.clone());
+                    super::ephemtask::spawn(
+                        c.fit.clone(),
+                        app.ephem.site.clone(),
+                        self.sites.clone(),
+                        self.tx.clone(),
+                    );
                 }
             }
         }
@@ -256,6 +265,27 @@ impl Runtime {
 
     pub fn shutdown(self) {
         self.engine.shutdown();
+    }
+}
+
+/// Write a follow-up request (the ephemeris panel's lines) beside the journal.
+fn write_request(dir: &std::path::Path, object: &str, lines: &[String]) -> String {
+    let stamp = chrono::Utc::now().format("%Y%m%dT%H%M%SZ");
+    let name: String = crate::feed::sanitize::clean(object)
+        .chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
+        .collect();
+    let path = dir.join(format!("followup-{name}-{stamp}.txt"));
+    let mut text = lines.join("\n");
+    text.push_str(
+        "\nA reason to follow up, not a discovery. Cautions defer to the site's own limits.\n",
+    );
+    match std::fs::write(&path, text) {
+        Ok(()) => {
+            tracing::info!("follow-up request written to {}", path.display());
+            format!("follow-up request written to {}", path.display())
+        }
+        Err(e) => format!("REQUEST NOT WRITTEN in {}: {e}", dir.display()),
     }
 }
 
@@ -326,37 +356,6 @@ fn on_engine(app: &mut App, ev: EngineEvent) {
             app.on_fit(version, *fit, n_known);
         }
     }
-}
-
-/// Hourly ephemeris for 24 hours after the last observation, from the site of that observation.
-fn spawn_ephemeris(fit: FitResult, sites: Arc<SiteTable>, tx: Sender<AppEvent>) {
-    std::thread::spawn(move || {
-        let model = ObserverModel::new();
-        let mut pts = Vec::new();
-        if let Some(last) = fit.residuals.last()
-            && let (Some(site), Ok(t0)) = (
-                sites.get(&last.site),
-                UtcTime::parse(&last.time_utc).and_then(|u| u.instant()),
-            )
-        {
-            for k in 1..=24 {
-                let d = f64::from(k) / 24.0;
-                let inst = t0.plus_days(d);
-                if let Some(p) = point(
-                    &fit,
-                    &inst,
-                    tt_to_utc(inst.tt).to_string(),
-                    &site.position,
-                    &model,
-                    None,
-                    20.0,
-                ) {
-                    pts.push(p);
-                }
-            }
-        }
-        let _ = tx.send(AppEvent::Ephemeris(fit.object.clone(), pts));
-    });
 }
 
 /// Run the loop on any backend until quit or `stop`. Draws only when the state changed, at most

@@ -14,6 +14,7 @@ use tui_input::Input;
 use tui_input::backend::crossterm::EventHandler;
 
 mod changes;
+pub mod ephemreq;
 pub mod fresh;
 pub use changes::ObsRow;
 
@@ -128,6 +129,8 @@ pub enum Effect {
     Plan,
     /// Write the list as shown (CSV and JSON).
     Export(Vec<crate::console::export::Row>),
+    /// Write a follow-up request (the ephemeris panel's lines) for an object.
+    Request(String, Vec<String>),
     Quit,
 }
 
@@ -167,6 +170,8 @@ pub struct App {
     pub compare_with: Option<String>,
     /// Whether the observer has pressed a key yet (until then the cursor keeps to the top row).
     pub cursor_moved: bool,
+    /// What the ephemeris panel asks for (site, units) and the window it got.
+    pub ephem: ephemreq::EphemRequest,
 }
 
 fn now_utc() -> String {
@@ -203,6 +208,7 @@ impl App {
             now: std::time::SystemTime::now,
             compare_with: None,
             cursor_moved: false,
+            ephem: ephemreq::EphemRequest::default(),
         }
     }
 
@@ -493,6 +499,9 @@ impl App {
                     self.overlay_scroll = (self.overlay_scroll + 1).min(self.overlay_max.get())
                 }
                 Action::MoveUp => self.overlay_scroll = self.overlay_scroll.saturating_sub(1),
+                Action::NextSite | Action::Units | Action::Export => {
+                    return self.ephemeris_action(a);
+                }
                 _ => {}
             }
             return Vec::new();
@@ -604,6 +613,8 @@ impl App {
             }
             Action::Export => return vec![Effect::Export(crate::console::export::rows(self))],
             Action::Compare => self.compare(),
+            // Keys of the ephemeris panel; nothing in the list.
+            Action::NextSite | Action::Units => {}
             Action::Alerts => {
                 self.mode = Mode::Alerts;
                 self.overlay_scroll = 0;

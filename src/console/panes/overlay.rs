@@ -1,7 +1,7 @@
 //! Panels drawn over the main screen: help (generated from the active keymap), rejected files and lines,
 //! the follow-up ephemeris and plan, the origin sheet, and the one-line prompt for a filter or a note.
 
-use super::{Theme, num};
+use super::Theme;
 use crate::console::state::{App, Mode};
 use crate::feed::sanitize::clean;
 use ratatui::Frame;
@@ -119,54 +119,6 @@ pub fn help_lines(app: &App) -> Vec<String> {
     out
 }
 
-/// The ephemeris panel: the site it is for, then one row per step with the motion's direction, the
-/// sky (airmass, Moon) and the cautions that defer to the site's own limits.
-fn ephemeris_lines(
-    app: &App,
-    obj: &str,
-    pts: &[crate::fitting::ephemeris::EphemerisPoint],
-) -> Vec<String> {
-    let site = app
-        .candidates
-        .iter()
-        .find(|c| c.fit.object == obj)
-        .and_then(|c| c.fit.residuals.last())
-        .map_or_else(|| "?".to_string(), |r| clean(&r.site));
-    let mut v = vec![format!(
-        "{} — next 24 h from {site}, the site of its last observation (3σ region)",
-        clean(obj)
-    )];
-    v.push("time (UTC)                 RA°       Dec°     \"/min E \"/min N  PA°  alt° airm  elong°  V     3σ\"      moon°  obs".into());
-    for p in pts {
-        let mut cautions = String::new();
-        if p.sun_caution {
-            cautions.push_str(" SUN: check your site's solar-avoidance limits");
-        }
-        if p.sky.moon_caution {
-            cautions.push_str(" MOON: bright Moon near; check your site's limits");
-        }
-        v.push(format!(
-            "{:<26} {:>9.4} {:>+9.4} {:>7.2} {:>7.2} {:>4.0} {:>5} {:>4} {:>6.1} {:>5} {:>6}×{:<6} {:>5.0} {}{}",
-            p.time_utc,
-            p.ra_deg,
-            p.dec_deg,
-            p.ra_rate_arcsec_min,
-            p.dec_rate_arcsec_min,
-            p.motion_pa_deg,
-            num(p.alt_deg, 0),
-            num(p.sky.airmass, 2),
-            p.elong_deg,
-            num(p.v_mag, 1),
-            num(p.unc_major_arcsec, 1),
-            num(p.unc_minor_arcsec, 1),
-            p.sky.moon_sep_deg,
-            if p.observable { "yes" } else { "no" },
-            cautions
-        ));
-    }
-    v
-}
-
 /// What the marks on screen mean and how the list is ordered.
 const LEGEND: [&str; 11] = [
     "[what the marks mean]",
@@ -204,7 +156,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, _theme: Theme) {
         Mode::Ephemeris => {
             let lines = match &app.ephemeris {
                 None => vec!["computing…".to_string()],
-                Some((obj, pts)) => ephemeris_lines(app, obj, pts),
+                Some((obj, pts)) => crate::console::ephemtext::lines(app, obj, pts),
             };
             panel(f, area, app, " follow-up ephemeris ", lines)
         }
