@@ -23,6 +23,7 @@ struct ConfigFile {
     threads: Option<usize>,
     min_alt_deg: Option<f64>,
     observer: Option<String>,
+    site: Option<String>,
     alerts: Option<AlertRules>,
 }
 
@@ -76,6 +77,8 @@ pub struct Config {
     pub threads: Setting<usize>,
     pub min_alt_deg: Setting<f64>,
     pub observer: Setting<String>,
+    /// The console ephemeris's site (else the site of each candidate's last observation).
+    pub site: Setting<Option<String>>,
     /// When the console and the headless watcher call the observer back (`[alerts]`).
     pub alerts: Setting<AlertRules>,
 }
@@ -163,6 +166,7 @@ impl Config {
                 interloper::fitting::conditions::Capabilities::default().min_alt_deg,
             ),
             observer: default_observer(),
+            site: Setting::default(None),
             alerts: Setting::default(AlertRules::default()),
         }
     }
@@ -251,6 +255,16 @@ impl Config {
             c.observer = Setting {
                 value: name,
                 from: at("observer"),
+            };
+        }
+        if let Some(code) = f.site {
+            let code = interloper::feed::sanitize::clean(code.trim());
+            if code.is_empty() || code.chars().count() > 8 {
+                return Err(err(line_of(text, "site"), "site is not a site code".into()));
+            }
+            c.site = Setting {
+                value: Some(code),
+                from: at("site"),
             };
         }
         if let Some(a) = f.alerts {

@@ -56,6 +56,18 @@ fn rows(c: &Config) -> Vec<(&'static str, String, serde_json::Value, String)> {
             c.observer.value.clone().into(),
             c.observer.from.to_string(),
         ),
+        (
+            "site",
+            c.site
+                .value
+                .clone()
+                .unwrap_or_else(|| "(last site of each candidate)".into()),
+            c.site
+                .value
+                .clone()
+                .map_or(serde_json::Value::Null, serde_json::Value::from),
+            c.site.from.to_string(),
+        ),
         alerts(&c.alerts),
     ]
 }

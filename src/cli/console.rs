@@ -50,6 +50,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     app.me = cfg.observer.clone();
     app.alerts =
         interloper::console::alerting::Alerts::new(super::config::get().alerts.value.clone());
+    app.ephem.site = super::config::get().site.value.clone();
     // The bell is one byte to the terminal between frames; it moves no cursor.
     rt.set_bell(Box::new(|| {
         use std::io::Write;
