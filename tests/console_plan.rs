@@ -106,7 +106,7 @@ fn the_plan_overlay_opens_draws_and_closes() {
     );
     assert!(!p.items.is_empty());
     app.plan = Some(p);
-    for (w, h) in [(80u16, 24u16), (160, 48)] {
+    for (w, h) in [(80u16, 24u16), (100, 30), (160, 48)] {
         check(&format!("plan_{w}x{h}"), &screen(&mut app, w, h));
     }
     app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));

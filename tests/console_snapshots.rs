@@ -49,6 +49,17 @@ fn demo_app() -> App {
         }
         tracklets.extend(intake.tracklets);
     }
+    // A rejection from deep inside a survey's folder tree, with a long reason: the panel shows the file's
+    // name and wraps the reason.
+    app.on_rejected(interloper::feed::InputError {
+        file: "/data/survey/partner-stations/2027/02/26/incoming/night-3/batch-0041/upload_0041_partial.psv"
+            .into(),
+        line: 17,
+        column: Some("rmsRA".into()),
+        reason: "5e-324 is below the smallest accepted uncertainty (0.001 arcsec); astrometry cannot be that good, \
+                 so the line is refused rather than given an absurd weight"
+            .into(),
+    });
     let tracklets = merge(tracklets);
     for r in fit_all(tracklets, &FitOptions::default(), 2) {
         let n = r.n_obs;
@@ -106,9 +117,15 @@ fn screen(app: &mut App, w: u16, h: u16) -> String {
 }
 
 #[test]
-fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
-    for (w, h) in [(80u16, 24u16), (160, 48)] {
+fn every_screen_at_80x24_100x30_and_160x48_matches_its_snapshot() {
+    for (w, h) in [(80u16, 24u16), (100, 30), (160, 48)] {
         let mut app = demo_app();
+        // One alert in the list (raised quietly, so no status line flashes; its time fixed).
+        let top = app.candidates[app.view[0]].fit.clone();
+        app.alerts.quiet = true;
+        app.alerts.on_fit(&top);
+        app.alerts.quiet = false;
+        app.alerts.list[0].at = std::time::SystemTime::UNIX_EPOCH;
         app.on_key(key('g'));
         app.message = None;
         check(&format!("main_{w}x{h}"), &screen(&mut app, w, h));
@@ -117,6 +134,9 @@ fn every_screen_at_80x24_and_160x48_matches_its_snapshot() {
         app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
         app.on_key(key('f'));
         check(&format!("rejected_{w}x{h}"), &screen(&mut app, w, h));
+        app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
+        app.on_key(key('!'));
+        check(&format!("alerts_{w}x{h}"), &screen(&mut app, w, h));
         app.on_key(KeyEvent::new(KeyCode::Esc, KeyModifiers::NONE));
         // Compare: mark the top candidate, move to the next, open both side by side.
         app.on_key(key('g'));
