@@ -4,19 +4,13 @@
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::path::Path;
-use std::process::Command;
+
+mod util;
 
 fn fit(args: &[&str]) -> (Option<i32>, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
-        .arg("fit")
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    let mut all = vec!["fit"];
+    all.extend_from_slice(args);
+    util::run_bin(&all)
 }
 
 /// The demo night's good files, each night in its own folder, plus three renamed copies of every object

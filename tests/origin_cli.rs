@@ -2,19 +2,9 @@
 //! read), the `origin` subcommand's text and JSON, the solar-motion override, and its exit codes.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
-use std::process::Command;
+mod util;
 
-fn run(args: &[&str]) -> (Option<i32>, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
+use util::run_bin as run;
 
 fn synthetic(name: &str) -> String {
     format!(

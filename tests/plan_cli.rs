@@ -3,19 +3,10 @@
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use serde_json::Value;
-use std::process::Command;
 
-fn run(args: &[&str]) -> (Option<i32>, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code(),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
+mod util;
+
+use util::run_bin as run;
 
 fn synthetic(name: &str) -> String {
     format!(

@@ -1,4 +1,4 @@
-//! Shared helpers for the integration tests: reading the committed reference vectors.
+//! Shared helpers for the integration tests: reading the committed reference vectors, running the binary.
 #![allow(dead_code)]
 
 use std::collections::HashMap;
@@ -91,5 +91,18 @@ pub fn arc(
         t["object"].as_str().expect("object").into(),
         "synthetic".into(),
         obs,
+    )
+}
+
+/// Run the interloper binary with `args`: exit code, stdout, stderr.
+pub fn run_bin(args: &[&str]) -> (Option<i32>, String, String) {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .output()
+        .expect("the interloper binary runs");
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
     )
 }
