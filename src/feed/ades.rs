@@ -50,14 +50,10 @@ const REQUIRED: [&str; 4] = ["stn", "obsTime", "ra", "dec"];
 
 /// Parse a PSV document. Returns the good records and an error per rejected line (or one for the file).
 pub fn parse(file: &str, text: &str) -> (Vec<AdesRecord>, Vec<InputError>) {
-    let file = clean(file);
     let mut good = Vec::new();
     let mut bad = Vec::new();
-    let err = |line: usize, column: Option<&str>, reason: String| InputError {
-        file: file.clone(),
-        line,
-        column: column.map(clean),
-        reason: clean(&reason),
+    let err = |line: usize, column: Option<&str>, reason: String| {
+        InputError::cleaned(file, line, column, &reason)
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let mut header: Option<Vec<String>> = None;

@@ -83,12 +83,8 @@ struct Open {
 /// Parse an ADES XML document: good records and an error per rejected record (or one for the file).
 /// More than `max_records` records stops the read with an error for the file.
 pub fn parse(file: &str, text: &str, max_records: usize) -> (Vec<AdesRecord>, Vec<InputError>) {
-    let file = clean(file);
-    let err = |line: usize, column: Option<&str>, reason: String| InputError {
-        file: file.clone(),
-        line,
-        column: column.map(clean),
-        reason: clean(&reason),
+    let err = |line: usize, column: Option<&str>, reason: String| {
+        InputError::cleaned(file, line, column, &reason)
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     let mut reader = Reader::from_str(text);

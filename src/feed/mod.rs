@@ -23,3 +23,15 @@ pub struct InputError {
     pub column: Option<String>,
     pub reason: String,
 }
+
+impl InputError {
+    /// An error with every text part cleaned (they come from the file and go to a screen or a log).
+    pub fn cleaned(file: &str, line: usize, column: Option<&str>, reason: &str) -> InputError {
+        InputError {
+            file: sanitize::clean(file),
+            line,
+            column: column.map(sanitize::clean),
+            reason: sanitize::clean(reason),
+        }
+    }
+}
