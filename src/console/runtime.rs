@@ -411,20 +411,14 @@ pub fn run_loop<B: Backend>(
     }
 }
 
-/// The keymap to use: `--keymap FILE`, else the user's config file if there is one, over the built-in
-/// map; a bad file falls back to the built-in map with a message saying why.
+/// The keymap to use: the given file (the command line's `--keymap`, else the configuration's, which
+/// the binary resolves with the platform's directories) over the built-in map; a bad file falls back
+/// to the built-in map with a message saying why.
 pub fn keymap_for(path: Option<&std::path::Path>) -> (Keymap, Option<String>) {
-    let user = path.map(PathBuf::from).or_else(|| {
-        let base = std::env::var_os("XDG_CONFIG_HOME")
-            .filter(|v| !v.is_empty())
-            .map(PathBuf::from)
-            .or_else(|| std::env::var_os("HOME").map(|h| PathBuf::from(h).join(".config")))?;
-        Some(base.join("interloper/keymap.toml")).filter(|p| p.exists())
-    });
-    let Some(p) = user else {
+    let Some(p) = path else {
         return (Keymap::builtin(), None);
     };
-    match std::fs::read_to_string(&p) {
+    match std::fs::read_to_string(p) {
         Ok(text) => {
             let (map, err) = super::keymap::load(Some((&p.display().to_string(), &text)));
             (map, err.map(|e| format!("{e} — using the default keys")))

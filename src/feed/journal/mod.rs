@@ -51,15 +51,6 @@ impl Replay {
     }
 }
 
-/// The default state directory: $XDG_STATE_HOME/interloper, else ~/.local/state/interloper.
-pub fn default_state_dir() -> PathBuf {
-    if let Some(x) = std::env::var_os("XDG_STATE_HOME").filter(|v| !v.is_empty()) {
-        return PathBuf::from(x).join("interloper");
-    }
-    let home = std::env::var_os("HOME").map_or_else(|| PathBuf::from("."), PathBuf::from);
-    home.join(".local/state/interloper")
-}
-
 /// An observer's name as the journal keeps it: cleaned of anything a terminal would act on, at most
 /// 32 characters, `$USER` when none is given, "unknown" when that is empty too.
 pub fn observer_name(given: Option<&str>) -> String {
