@@ -24,6 +24,7 @@ pub mod planeval;
 pub mod population;
 pub mod posterior;
 pub mod profile;
+pub mod profilequad;
 pub mod quality;
 pub mod rangescan;
 pub mod ranging;

@@ -11,23 +11,24 @@
 use super::lsq::Problem;
 use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior};
+use super::profilequad::SliceQuadrature;
 use super::shortarc::tangent_axes;
-use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_BARY_OVER_SUN, MU_SUN};
+use crate::physics::constants::{MU_BARY_OVER_SUN, MU_SUN};
 use crate::physics::observe::ObserverState;
 use crate::physics::{S6, V3};
 use nalgebra::{SMatrix, SVector};
 
-const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
+pub(super) const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
 pub type M5 = SMatrix<f64, 5, 5>;
 pub type V5 = SVector<f64, 5>;
 
-const GL_X: [f64; 4] = [
+pub(super) const GL_X: [f64; 4] = [
     -0.861_136_311_594_052_6,
     -0.339_981_043_584_856_3,
     0.339_981_043_584_856_3,
     0.861_136_311_594_052_6,
 ];
-const GL_W: [f64; 4] = [
+pub(super) const GL_W: [f64; 4] = [
     0.347_854_845_137_453_9,
     0.652_145_154_862_546_1,
     0.652_145_154_862_546_1,
@@ -284,120 +285,30 @@ pub fn profile(
     ctx: &DensityContext,
     opts: &ProfileOptions,
 ) -> Option<Profile> {
-    let all = super::rangescan::slices(p, frame, start, used, opts);
+    let mut all = super::rangescan::slices(p, frame, start, used, opts);
+    let nc = SliceQuadrature {
+        frame,
+        ctx,
+        opts,
+        breaks: ctx.model.inverse_a_breaks(),
+    };
+    super::profilequad::refine_steep(p, frame, &mut all, used, &nc);
     let best = all
         .iter()
         .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
         .copied()?;
     let rhos: Vec<f64> = all.iter().map(|s| s.rho).collect();
     let cell = trapezoid(&rhos);
-    let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
-    let breaks = ctx.model.inverse_a_breaks();
-    let sun_p = V3::new(ctx.sun_bary[0], ctx.sun_bary[1], ctx.sun_bary[2]);
-    let sun_v = V3::new(ctx.sun_bary[3], ctx.sun_bary[4], ctx.sun_bary[5]);
-    let mut nodes = Vec::new();
-    for (k, s) in all.iter().enumerate() {
-        let var_rd = s.cov[(4, 4)];
-        if !(var_rd.is_finite() && var_rd > 0.0) {
-            continue;
-        }
-        let sd = var_rd.sqrt();
-        // Conditional shift of the direction and rate per unit ρ̇, and their conditional volume.
-        let shift = V5::from_fn(|i, _| s.cov[(i, 4)] / var_rd);
-        let cond = M5::from_fn(|i, j| s.cov[(i, j)] - s.cov[(i, 4)] * s.cov[(j, 4)] / var_rd);
-        let det4 = cond.fixed_view::<4, 4>(0, 0).determinant();
-        if !(det4.is_finite() && det4 > 0.0) {
-            continue;
-        }
-        let ln_cell = cell[k].ln() + 5.0 * s.rho.ln() + 0.5 * det4.ln();
-        // ρ̇ window, cut at the speed cap, with breaks where the energy crosses population edges.
-        let x0 = frame.state(&s.a, s.rho);
-        let r_b = V3::new(x0[0], x0[1], x0[2]) + sun_p;
-        let u = (r_b - sun_p - frame.observer.helio_pos).normalize();
-        let w_b = V3::new(x0[3], x0[4], x0[5]) + sun_v - s.a[4] * u;
-        let c1 = w_b.dot(&u);
-        let x_max = 2.0 / r_b.norm() - (w_b.norm_squared() - c1 * c1) / MU_BARY;
-        let y_cap = (MU_BARY * x_max + v_cap * v_cap).max(0.0).sqrt();
-        let (lo, hi) = (
-            (s.a[4] - opts.window_sigma * sd).max(-c1 - y_cap),
-            (s.a[4] + opts.window_sigma * sd).min(-c1 + y_cap),
-        );
-        if hi <= lo {
-            continue;
-        }
-        let mut edges = vec![lo, hi];
-        for c in [-3.0, -1.5, -0.5, 0.5, 1.5, 3.0] {
-            edges.push(s.a[4] + c * sd);
-        }
-        // A class boundary beyond the window still gets its Gaussian tail, which lies within a few
-        // σ²/distance of the boundary: without it the other class would have no weight at all.
-        let mut tails: Vec<(f64, f64)> = Vec::new();
-        if x_max > 0.0 {
-            let yb = (MU_BARY * x_max).sqrt();
-            for b in [-c1 - yb, -c1 + yb] {
-                let dist = (b - s.a[4]).abs();
-                let reach = 30.0 * sd * sd / dist.max(sd);
-                if b > hi && b < -c1 + y_cap {
-                    tails.push((b, (b + reach).min(-c1 + y_cap)));
-                } else if b < lo && b > -c1 - y_cap {
-                    tails.push(((b - reach).max(-c1 - y_cap), b));
-                }
-            }
-        }
-        for xb in &breaks {
-            if *xb < x_max {
-                let y = (MU_BARY * (x_max - xb)).sqrt();
-                edges.extend([-c1 - y, -c1 + y]);
-            }
-        }
-        edges.retain(|e| *e >= lo && *e <= hi);
-        edges.sort_by(f64::total_cmp);
-        edges.dedup();
-        let mut intervals: Vec<(f64, f64)> = edges.windows(2).map(|w| (w[0], w[1])).collect();
-        for (a, b) in tails {
-            // Geometric pieces from the boundary outwards.
-            let (near, far) = if (a - s.a[4]).abs() < (b - s.a[4]).abs() {
-                (a, b)
-            } else {
-                (b, a)
-            };
-            let mut prev = near;
-            for f in [0.01, 0.03, 0.1, 0.3, 1.0] {
-                let next = near + (far - near) * f;
-                intervals.push((prev.min(next), prev.max(next)));
-                prev = next;
-            }
-        }
-        for w in intervals.iter().map(|(a, b)| [*a, *b]) {
-            let half = 0.5 * (w[1] - w[0]);
-            if half <= 0.0 {
-                continue;
-            }
-            for (gx, gw) in GL_X.iter().zip(GL_W) {
-                let rd = 0.5 * (w[0] + w[1]) + half * gx;
-                let a = s.a + shift * (rd - s.a[4]);
-                let x = frame.state(&a, s.rho);
-                let r = V3::new(x[0], x[1], x[2]);
-                let h = ctx
-                    .model
-                    .absolute_magnitude(ctx.v_mag, &r, &frame.observer.helio_pos);
-                let d = ctx.model.density(&x, &ctx.sun_bary, h);
-                if d.ln_f == f64::NEG_INFINITY {
-                    continue;
-                }
-                let ln_prior = d.ln_f + ln_cell + (gw * half).ln();
-                let dchi2 = s.chi2 - best.chi2 + ((rd - s.a[4]) / sd).powi(2);
-                nodes.push(ProfileNode {
-                    state: x,
-                    rho: s.rho,
-                    unbound: d.unbound,
-                    ln_w: ln_prior - 0.5 * dchi2,
-                    ln_prior,
-                    k_rho: k,
-                });
-            }
-        }
-    }
+    let nodes: Vec<ProfileNode> = all
+        .iter()
+        .enumerate()
+        .flat_map(|(k, s)| nc.nodes(k, s, best.chi2))
+        .map(|mut n| {
+            n.ln_w += cell[n.k_rho].ln();
+            n.ln_prior += cell[n.k_rho].ln();
+            n
+        })
+        .collect();
     if nodes.is_empty() {
         return Some(Profile {
             slices: all,

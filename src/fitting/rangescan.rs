@@ -153,6 +153,15 @@ pub fn slices(
     opts: &ProfileOptions,
 ) -> Vec<Slice> {
     let mut all = coarse_slices(p, frame, start, used, opts, SLICE_ITERATIONS);
+    // The start is often a least-squares minimum: its valley can be narrower than the coarse spacing
+    // and fall between two slices on its walls, so a slice at the start itself makes it a floor.
+    if (opts.rho_min_au..=opts.rho_max_au).contains(&start.1)
+        && !all.iter().any(|s| s.rho == start.1)
+        && let Some(s) = solve_slice(p, frame, start.1, start.0, used, SLICE_ITERATIONS)
+    {
+        all.push(s);
+        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+    }
     // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
     // its least bad distance would buy nothing.
     let dof = (2 * used.iter().filter(|u| **u).count())
@@ -162,7 +171,7 @@ pub fn slices(
     if lowest > super::fit::NO_ORBIT_CHI2_PER_DOF * dof {
         return all;
     }
-    let floors: Vec<Slice> = valley_floors(&all, false)
+    let floors: Vec<Slice> = valley_floors(&all, true)
         .into_iter()
         .map(|k| all[k])
         .collect();
@@ -176,8 +185,9 @@ pub fn slices(
     all
 }
 
-/// Twice: refine about a valley's floor; the second pass zooms in when the first shows the valley
-/// narrower than its own spacing (two nights pin ρ to a fraction of a per cent when far apart).
+/// Refine about a valley's floor across its coarse walls, then zoom in on every floor that first pass
+/// shows inside its span (lowest first): the span can hold two valleys narrower than the coarse
+/// spacing, and two nights pin ρ to a fraction of a per cent when far apart.
 fn refine_valley(
     p: &Problem,
     frame: &Frame,
@@ -186,37 +196,57 @@ fn refine_valley(
     used: &[bool],
     opts: &ProfileOptions,
 ) {
-    let mut best = floor;
-    for pass in 0..2 {
-        // The first pass spans the valley between its coarse walls: a parabola through coarse slices
-        // can put a narrow valley's floor a whole cell away from where it is.
-        let (lo, hi) = refine_range(all, &best, opts, pass > 0);
-        let m = 24;
-        let fine: Vec<f64> = (1..m)
-            .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
-            .collect();
-        all.retain(|s| s.rho.ln() < lo || s.rho.ln() > hi || s.rho == best.rho);
-        let new = slices_at(
-            p,
-            frame,
-            &fine,
-            (best.a, best.rho),
-            used,
-            false,
-            SLICE_ITERATIONS,
-        );
-        all.retain(|s| s.rho != best.rho || new.is_empty());
-        all.extend(new);
-        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
-        match all
-            .iter()
-            .filter(|s| s.rho.ln() >= lo && s.rho.ln() <= hi)
-            .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
-        {
-            Some(b) => best = *b,
-            None => return,
+    // A parabola through coarse slices can put a narrow valley's floor a whole cell away from where
+    // it is, so the first pass spans the valley between its coarse walls.
+    let (lo, hi) = refine_range(all, &floor, opts, false);
+    refine_between(p, frame, all, &floor, (lo, hi), used);
+    let mut inner: Vec<Slice> = floors_by_rho(all, true)
+        .into_iter()
+        .map(|k| all[k])
+        .filter(|s| (lo..=hi).contains(&s.rho.ln()))
+        .collect();
+    inner.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
+    for best in inner.into_iter().take(ZOOMS_PER_VALLEY) {
+        // An earlier zoom may have replaced this floor already.
+        if all.iter().any(|s| s.rho == best.rho) {
+            let range = refine_range(all, &best, opts, true);
+            refine_between(p, frame, all, &best, range, used);
         }
     }
+}
+
+/// Floors found inside one refined span that are zoomed in on.
+const ZOOMS_PER_VALLEY: usize = 2;
+
+/// Replace the slices strictly between `lo` and `hi` (ln ρ) by a finer even grid, solved outwards
+/// from `best`.
+fn refine_between(
+    p: &Problem,
+    frame: &Frame,
+    all: &mut Vec<Slice>,
+    best: &Slice,
+    (lo, hi): (f64, f64),
+    used: &[bool],
+) {
+    let m = 24;
+    let fine: Vec<f64> = (1..m)
+        .map(|k| (lo + (hi - lo) * k as f64 / m as f64).exp())
+        .collect();
+    let new = slices_at(
+        p,
+        frame,
+        &fine,
+        (best.a, best.rho),
+        used,
+        false,
+        SLICE_ITERATIONS,
+    );
+    if new.is_empty() {
+        return;
+    }
+    all.retain(|s| s.rho.ln() <= lo || s.rho.ln() >= hi);
+    all.extend(new);
+    all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
 }
 
 /// The ln ρ range to refine about one valley's lowest slice: where χ² is within 60 of it, bounded by

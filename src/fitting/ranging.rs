@@ -36,6 +36,8 @@ pub struct RangingOptions {
     pub n_rho: usize,
     pub n_rhodot: usize,
     pub seed: u64,
+    /// Distances of the multi-night range profile's coarse grid (refined where it matters).
+    pub profile_n_rho: usize,
 }
 
 impl Default for RangingOptions {
@@ -45,6 +47,7 @@ impl Default for RangingOptions {
             n_rho: 100,
             n_rhodot: 100,
             seed: 0x1A7E_2026,
+            profile_n_rho: super::profile::ProfileOptions::default().n_rho,
         }
     }
 }

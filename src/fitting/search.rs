@@ -59,9 +59,18 @@ pub fn least_squares(
     } else {
         correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best)
     };
+    // Other minima are compared on the observations the best one kept: a point rejected from the
+    // best fit would otherwise count against every other solution alone.
+    let rejected = best_fit.used.iter().any(|u| !u);
     let others = minima
         .into_iter()
         .skip(1)
+        .filter_map(|m| match rejected {
+            true => correct(p, &m.state, &best_fit.used, &opts.lsq)
+                .ok()
+                .filter(|f| f.converged && !same_minimum(&best_fit, f)),
+            false => Some(m),
+        })
         .filter(|m| m.chi2 - best_fit.chi2 < ALTERNATIVE_DCHI2 && m.cov.is_some())
         .collect();
     Some((best_fit, others))

@@ -68,12 +68,26 @@ pub fn fit_by_profile(
     let used = vec![true; tr.obs.len()];
     let popts = ProfileOptions {
         v_cap_km_s: opts.ranging.v_cap_km_s,
+        n_rho: opts.ranging.profile_n_rho,
         ..ProfileOptions::default()
     };
     let prof = profile(&p, &frame, start, &used, &ctx, &popts)?;
-    let best_state = frame.state(&prof.best.a, prof.best.rho);
-    let fit = correct_with_outliers(&p, &best_state, &opts.lsq).ok()?;
-    let others = other_valleys(&p, &frame, &prof, &fit, opts);
+    let (ids, share) = valley_shares(&prof);
+    // The answer is the valley the posterior favours (the prior and the volume of orbits can outweigh
+    // a small Δχ²), so that its elements and the most probable sample agree; the others are listed.
+    let home = (0..share.len())
+        .filter(|&v| share[v] > 0.0)
+        .max_by(|&a, &b| share[a].total_cmp(&share[b]));
+    let floor = prof
+        .slices
+        .iter()
+        .zip(&ids)
+        .filter(|(_, id)| home.is_none_or(|h| **id == h))
+        .map(|(s, _)| s)
+        .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
+        .unwrap_or(&prof.best);
+    let fit = correct_with_outliers(&p, &frame.state(&floor.a, floor.rho), &opts.lsq).ok()?;
+    let others = other_valleys(&p, &frame, &prof, (&ids, &share), &fit, opts);
     // A profile without a posterior is a gross misfit: the record still shows the best attempt and
     // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
     let given = prof.posterior.map(|posterior| {
@@ -107,18 +121,8 @@ pub fn fit_by_profile(
     Some(out)
 }
 
-/// Posterior share below which another valley of the scan is not worth reporting.
-pub const MIN_VALLEY_SHARE: f64 = 1e-3;
-
-/// Least-squares minima of the scan's other valleys that hold at least `MIN_VALLEY_SHARE` of the
-/// posterior or fit within `ALTERNATIVE_DCHI2` of the best, each with its posterior share.
-fn other_valleys(
-    p: &Problem,
-    frame: &Frame,
-    prof: &Profile,
-    fit: &LsqFit,
-    opts: &FitOptions,
-) -> Vec<(LsqFit, f64)> {
+/// Valley number of every slice and each valley's (unnormalised) posterior weight.
+fn valley_shares(prof: &Profile) -> (Vec<usize>, Vec<f64>) {
     let ids = valley_ids(&prof.slices);
     let n = ids.last().map_or(0, |l| l + 1);
     let top = prof
@@ -130,6 +134,23 @@ fn other_valleys(
     for node in &prof.nodes {
         share[ids[node.k_rho]] += (node.ln_w - top).exp();
     }
+    (ids, share)
+}
+
+/// Posterior share below which another valley of the scan is not worth reporting.
+pub const MIN_VALLEY_SHARE: f64 = 1e-3;
+
+/// Least-squares minima of the scan's other valleys that hold at least `MIN_VALLEY_SHARE` of the
+/// posterior or fit within `ALTERNATIVE_DCHI2` of the best, each with its posterior share.
+fn other_valleys(
+    p: &Problem,
+    frame: &Frame,
+    prof: &Profile,
+    (ids, share): (&[usize], &[f64]),
+    fit: &LsqFit,
+    opts: &FitOptions,
+) -> Vec<(LsqFit, f64)> {
+    let n = share.len();
     let total: f64 = share.iter().sum::<f64>().max(1e-300);
     let (_, rho_fit) = frame.params(&fit.state);
     let home = prof
@@ -144,7 +165,7 @@ fn other_valleys(
             let floor = prof
                 .slices
                 .iter()
-                .zip(&ids)
+                .zip(ids)
                 .filter(|(_, id)| **id == v)
                 .map(|(s, _)| s)
                 .min_by(|a, b| a.chi2.total_cmp(&b.chi2))?;

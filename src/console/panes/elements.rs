@@ -123,6 +123,9 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
             clean(&f.distrust_linear.join("; "))
         )));
     }
+    for a in f.alternatives.iter().take(MAX_ALTERNATIVE_LINES) {
+        out.push(Line::from(alternative_line(a)));
+    }
     if !f.poor_fit.is_empty() {
         out.push(Line::from(Span::raw(format!(
             "POOR FIT: {}",
@@ -160,6 +163,23 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
     out
 }
 
+/// Other solutions listed one per line, best first (the JSON has them all).
+const MAX_ALTERNATIVE_LINES: usize = 3;
+
+/// One other solution: its orbit, how much worse (or better) it fits, and its share of P.
+fn alternative_line(a: &crate::fitting::result::Alternative) -> String {
+    format!(
+        "or: e {:.4}  q {:.4} AU  i {:.2}°  Δχ² {:+.1}{}  {}",
+        a.e,
+        a.q_au,
+        a.i_deg,
+        a.delta_chi2,
+        a.probability
+            .map_or(String::new(), |w| format!("  share {:.0} %", 100.0 * w)),
+        if a.unbound { "unbound" } else { "bound" }
+    )
+}
+
 pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     let p = Paragraph::new(lines(app)).wrap(Wrap { trim: true }).block(
         Block::default()
@@ -168,4 +188,36 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             .border_style(theme.fg(Color::Blue)),
     );
     f.render_widget(p, area);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fitting::result::Alternative;
+
+    #[test]
+    fn another_solution_shows_its_orbit_fit_share_and_class() {
+        let a = Alternative {
+            delta_chi2: -1.12,
+            e: 2.3457,
+            q_au: 1.0889,
+            i_deg: 62.596,
+            unbound: true,
+            probability: Some(0.469),
+        };
+        assert_eq!(
+            alternative_line(&a),
+            "or: e 2.3457  q 1.0889 AU  i 62.60°  Δχ² -1.1  share 47 %  unbound"
+        );
+        let b = Alternative {
+            probability: None,
+            unbound: false,
+            delta_chi2: 4.0,
+            ..a
+        };
+        assert_eq!(
+            alternative_line(&b),
+            "or: e 2.3457  q 1.0889 AU  i 62.60°  Δχ² +4.0  bound"
+        );
+    }
 }

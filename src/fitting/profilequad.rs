@@ -1,0 +1,229 @@
+//! The posterior's quadrature across one slice of the range profile, and the slices added where the
+//! posterior changes faster along ρ than the grid can follow.
+//!
+//! Across a slice the fit is Gaussian in ρ̇ (the direction and rate follow it, their volume kept) and
+//! the population density is integrated by Gauss–Legendre nodes between the energies where
+//! populations begin or end. Along ρ the slices are summed by the trapezoid rule in ln ρ, which fails
+//! where a class of orbits appears or vanishes within one spacing: at the edge of the bound region a
+//! thin band of near-parabolic orbits can hold most of the bound weight. There the interval is halved
+//! until neighbouring slices agree.
+
+use super::lsq::Problem;
+use super::profile::{
+    DensityContext, Frame, GL_W, GL_X, M5, MU_BARY, ProfileNode, ProfileOptions, SLICE_ITERATIONS,
+    Slice, V5, solve_slice,
+};
+use crate::physics::V3;
+use crate::physics::constants::AU_PER_DAY_TO_KM_S;
+
+/// The fixed parts of a slice's quadrature.
+pub struct SliceQuadrature<'a> {
+    pub frame: &'a Frame,
+    pub ctx: &'a DensityContext<'a>,
+    pub opts: &'a ProfileOptions,
+    /// Energies (1/a, barycentric) where a population begins or ends.
+    pub breaks: Vec<f64>,
+}
+
+impl SliceQuadrature<'_> {
+    /// Weighted nodes of slice `k` per unit ln ρ (the trapezoid cell is applied once the grid is
+    /// final), relative to the best χ² of the profile.
+    pub fn nodes(&self, k: usize, s: &Slice, best_chi2: f64) -> Vec<ProfileNode> {
+        let mut out = Vec::new();
+        let v_cap = self.opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+        let sun = self.ctx.sun_bary;
+        let (sun_p, sun_v) = (
+            V3::new(sun[0], sun[1], sun[2]),
+            V3::new(sun[3], sun[4], sun[5]),
+        );
+        let var_rd = s.cov[(4, 4)];
+        if !(var_rd.is_finite() && var_rd > 0.0) {
+            return out;
+        }
+        let sd = var_rd.sqrt();
+        // Conditional shift of the direction and rate per unit ρ̇, and their conditional volume.
+        let shift = V5::from_fn(|i, _| s.cov[(i, 4)] / var_rd);
+        let cond = M5::from_fn(|i, j| s.cov[(i, j)] - s.cov[(i, 4)] * s.cov[(j, 4)] / var_rd);
+        let det4 = cond.fixed_view::<4, 4>(0, 0).determinant();
+        if !(det4.is_finite() && det4 > 0.0) {
+            return out;
+        }
+        let ln_cell = 5.0 * s.rho.ln() + 0.5 * det4.ln();
+        // ρ̇ window, cut at the speed cap, with breaks where the energy crosses population edges.
+        let x0 = self.frame.state(&s.a, s.rho);
+        let r_b = V3::new(x0[0], x0[1], x0[2]) + sun_p;
+        let u = (r_b - sun_p - self.frame.observer.helio_pos).normalize();
+        let w_b = V3::new(x0[3], x0[4], x0[5]) + sun_v - s.a[4] * u;
+        let c1 = w_b.dot(&u);
+        let x_max = 2.0 / r_b.norm() - (w_b.norm_squared() - c1 * c1) / MU_BARY;
+        let y_cap = (MU_BARY * x_max + v_cap * v_cap).max(0.0).sqrt();
+        let (lo, hi) = (
+            (s.a[4] - self.opts.window_sigma * sd).max(-c1 - y_cap),
+            (s.a[4] + self.opts.window_sigma * sd).min(-c1 + y_cap),
+        );
+        if hi <= lo {
+            return out;
+        }
+        let mut edges = vec![lo, hi];
+        for c in [-3.0, -1.5, -0.5, 0.5, 1.5, 3.0] {
+            edges.push(s.a[4] + c * sd);
+        }
+        // A class boundary beyond the window still gets its Gaussian tail, which lies within a few
+        // σ²/distance of the boundary: without it the other class would have no weight at all.
+        let mut tails: Vec<(f64, f64)> = Vec::new();
+        if x_max > 0.0 {
+            let yb = (MU_BARY * x_max).sqrt();
+            for b in [-c1 - yb, -c1 + yb] {
+                let dist = (b - s.a[4]).abs();
+                let reach = 30.0 * sd * sd / dist.max(sd);
+                if b > hi && b < -c1 + y_cap {
+                    tails.push((b, (b + reach).min(-c1 + y_cap)));
+                } else if b < lo && b > -c1 - y_cap {
+                    tails.push(((b - reach).max(-c1 - y_cap), b));
+                }
+            }
+        }
+        for xb in &self.breaks {
+            if *xb < x_max {
+                let y = (MU_BARY * (x_max - xb)).sqrt();
+                edges.extend([-c1 - y, -c1 + y]);
+            }
+        }
+        edges.retain(|e| *e >= lo && *e <= hi);
+        edges.sort_by(f64::total_cmp);
+        edges.dedup();
+        let mut intervals: Vec<(f64, f64)> = edges.windows(2).map(|w| (w[0], w[1])).collect();
+        for (a, b) in tails {
+            // Geometric pieces from the boundary outwards.
+            let (near, far) = if (a - s.a[4]).abs() < (b - s.a[4]).abs() {
+                (a, b)
+            } else {
+                (b, a)
+            };
+            let mut prev = near;
+            for f in [0.01, 0.03, 0.1, 0.3, 1.0] {
+                let next = near + (far - near) * f;
+                intervals.push((prev.min(next), prev.max(next)));
+                prev = next;
+            }
+        }
+        for w in intervals.iter().map(|(a, b)| [*a, *b]) {
+            let half = 0.5 * (w[1] - w[0]);
+            if half <= 0.0 {
+                continue;
+            }
+            for (gx, gw) in GL_X.iter().zip(GL_W) {
+                let rd = 0.5 * (w[0] + w[1]) + half * gx;
+                let a = s.a + shift * (rd - s.a[4]);
+                let x = self.frame.state(&a, s.rho);
+                let r = V3::new(x[0], x[1], x[2]);
+                let h = self.ctx.model.absolute_magnitude(
+                    self.ctx.v_mag,
+                    &r,
+                    &self.frame.observer.helio_pos,
+                );
+                let d = self.ctx.model.density(&x, &self.ctx.sun_bary, h);
+                if d.ln_f == f64::NEG_INFINITY {
+                    continue;
+                }
+                let ln_prior = d.ln_f + ln_cell + (gw * half).ln();
+                let dchi2 = s.chi2 - best_chi2 + ((rd - s.a[4]) / sd).powi(2);
+                out.push(ProfileNode {
+                    state: x,
+                    rho: s.rho,
+                    unbound: d.unbound,
+                    ln_w: ln_prior - 0.5 * dchi2,
+                    ln_prior,
+                    k_rho: k,
+                });
+            }
+        }
+        out
+    }
+}
+
+/// A class's weight per unit ln ρ within this many e-folds of its largest is resolved.
+const RESOLVE_WITHIN: f64 = 15.0;
+/// Neighbouring slices whose weights of a class differ by more than this many e-folds get a slice
+/// between them.
+const MAX_STEP: f64 = 2.0;
+/// Halving stops at this spacing in ln ρ (a true jump in the weight stays a jump).
+const MIN_SPACING: f64 = 2e-4;
+/// At most this many slices are added to one profile, in at most this many rounds of halving.
+const MAX_ADDED: usize = 48;
+const MAX_ROUNDS: usize = 14;
+
+/// ln of the bound and the unbound weight of a slice per unit ln ρ (−∞ where it has none).
+fn class_weights(nodes: &[ProfileNode]) -> [f64; 2] {
+    let mut out = [f64::NEG_INFINITY; 2];
+    for (c, w) in out.iter_mut().enumerate() {
+        let ws = nodes.iter().filter(|n| usize::from(n.unbound) == c);
+        let top = ws.clone().map(|n| n.ln_w).fold(f64::NEG_INFINITY, f64::max);
+        if top.is_finite() {
+            *w = top + ws.map(|n| (n.ln_w - top).exp()).sum::<f64>().ln();
+        }
+    }
+    out
+}
+
+/// Whether the interval between two slices' class weights is too coarse for the trapezoid rule.
+fn steep(a: [f64; 2], b: [f64; 2], top: [f64; 2]) -> bool {
+    (0..2).any(|c| {
+        let hi = a[c].max(b[c]);
+        let lo = a[c].min(b[c]);
+        top[c].is_finite() && hi >= top[c] - RESOLVE_WITHIN && hi - lo > MAX_STEP
+    })
+}
+
+/// Halve every interval of the slices (sorted by ρ) across which a class's weight changes by more than
+/// `MAX_STEP` e-folds where it matters, until none does, the spacing reaches `MIN_SPACING` or
+/// `MAX_ADDED` slices have been added.
+pub fn refine_steep(
+    p: &Problem,
+    frame: &Frame,
+    all: &mut Vec<Slice>,
+    used: &[bool],
+    q: &SliceQuadrature,
+) {
+    let Some(best_chi2) = all.iter().map(|s| s.chi2).reduce(f64::min) else {
+        return;
+    };
+    let mut w: Vec<[f64; 2]> = all
+        .iter()
+        .enumerate()
+        .map(|(k, s)| class_weights(&q.nodes(k, s, best_chi2)))
+        .collect();
+    let mut added = 0;
+    // Each round halves every coarse interval once; a slice that cannot be solved leaves its interval
+    // as it is, so the rounds are bounded too.
+    for _ in 0..MAX_ROUNDS {
+        if added >= MAX_ADDED {
+            return;
+        }
+        let top = w.iter().fold([f64::NEG_INFINITY; 2], |t, x| {
+            [t[0].max(x[0]), t[1].max(x[1])]
+        });
+        let coarse: Vec<usize> = (0..all.len().saturating_sub(1))
+            .filter(|&k| (all[k + 1].rho / all[k].rho).ln() > MIN_SPACING)
+            .filter(|&k| steep(w[k], w[k + 1], top))
+            .collect();
+        if coarse.is_empty() {
+            return;
+        }
+        // From the far end, so that the indices still to come stay valid.
+        for &k in coarse.iter().rev().take(MAX_ADDED - added) {
+            let rho = (all[k].rho * all[k + 1].rho).sqrt();
+            let from = if all[k].chi2 <= all[k + 1].chi2 {
+                all[k].a
+            } else {
+                all[k + 1].a
+            };
+            let Some(s) = solve_slice(p, frame, rho, from, used, SLICE_ITERATIONS) else {
+                continue;
+            };
+            w.insert(k + 1, class_weights(&q.nodes(k + 1, &s, best_chi2)));
+            all.insert(k + 1, s);
+            added += 1;
+        }
+    }
+}
