@@ -175,7 +175,7 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
     // Every later way out of least squares is the same: answer along the range profile (ranging if
     // even that finds nothing) and say why.
     let fallback = |why: &str| {
-        super::twonight::fit_by_profile(&inputs, None, &TwoBody)
+        super::twonight::fit_by_profile(&inputs, None, &[], &TwoBody)
             .map(|mut r| {
                 r.distrust_linear.push(why.to_string());
                 r
@@ -192,10 +192,10 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
     let two_body = TwoBody;
     let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
     let scan = super::twonight::scan_start(&inputs, None);
-    let Some((mut fit, alternatives)) = super::search::least_squares(&problem, opts, scan.as_ref())
-    else {
+    let Some(found) = super::search::least_squares(&problem, opts, scan.as_ref()) else {
         return fallback("no initial orbit converged");
     };
+    let (mut fit, alternatives) = (found.best, found.alternatives);
     // Perturbations, by arc length or a close approach to Earth.
     let nbody = NBody::new();
     let close = problem
@@ -247,7 +247,8 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
     if distrusted
         && !decided
         && !hopeless
-        && let Some(r) = super::twonight::fit_by_profile(&inputs, Some(fit.state), dynamics)
+        && let Some(r) =
+            super::twonight::fit_by_profile(&inputs, Some(fit.state), &found.elsewhere, dynamics)
     {
         return r;
     }

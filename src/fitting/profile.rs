@@ -281,11 +281,12 @@ pub fn profile(
     p: &Problem,
     frame: &Frame,
     start: (V5, f64),
+    seeds: &[(V5, f64)],
     used: &[bool],
     ctx: &DensityContext,
     opts: &ProfileOptions,
 ) -> Option<Profile> {
-    let mut all = super::rangescan::slices(p, frame, start, used, opts);
+    let mut all = super::rangescan::slices(p, frame, start, seeds, used, opts);
     let nc = SliceQuadrature {
         frame,
         ctx,

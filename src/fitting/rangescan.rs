@@ -144,24 +144,28 @@ pub fn valley_floors(all: &[Slice], slopes: bool) -> Vec<usize> {
 }
 
 /// Slices over the whole ρ grid, then finer grids inside each of the lowest `MAX_VALLEYS` valleys
-/// (two nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ.
+/// (two nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ. The
+/// start and each of `seeds` (other known minima) get a slice of their own: a valley narrower than the
+/// coarse spacing falls between two slices on its walls, and one behind a high ridge can lie where the
+/// coarse pass gave up.
 pub fn slices(
     p: &Problem,
     frame: &Frame,
     start: (V5, f64),
+    seeds: &[(V5, f64)],
     used: &[bool],
     opts: &ProfileOptions,
 ) -> Vec<Slice> {
     let mut all = coarse_slices(p, frame, start, used, opts, SLICE_ITERATIONS);
-    // The start is often a least-squares minimum: its valley can be narrower than the coarse spacing
-    // and fall between two slices on its walls, so a slice at the start itself makes it a floor.
-    if (opts.rho_min_au..=opts.rho_max_au).contains(&start.1)
-        && !all.iter().any(|s| s.rho == start.1)
-        && let Some(s) = solve_slice(p, frame, start.1, start.0, used, SLICE_ITERATIONS)
-    {
-        all.push(s);
-        all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
+    for (a, rho) in std::iter::once(&start).chain(seeds) {
+        if (opts.rho_min_au..=opts.rho_max_au).contains(rho)
+            && !all.iter().any(|s| s.rho == *rho)
+            && let Some(s) = solve_slice(p, frame, *rho, *a, used, SLICE_ITERATIONS)
+        {
+            all.push(s);
+        }
     }
+    all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
     // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
     // its least bad distance would buy nothing.
     let dof = (2 * used.iter().filter(|u| **u).count())
@@ -218,8 +222,8 @@ fn refine_valley(
 /// Floors found inside one refined span that are zoomed in on.
 const ZOOMS_PER_VALLEY: usize = 2;
 
-/// Replace the slices strictly between `lo` and `hi` (ln ρ) by a finer even grid, solved outwards
-/// from `best`.
+/// Replace the slices strictly between `lo` and `hi` (ln ρ), except `best`, by a finer even grid
+/// solved outwards from `best`.
 fn refine_between(
     p: &Problem,
     frame: &Frame,
@@ -244,7 +248,8 @@ fn refine_between(
     if new.is_empty() {
         return;
     }
-    all.retain(|s| s.rho.ln() <= lo || s.rho.ln() >= hi);
+    // The slice the grid was solved from stays: it may be the floor itself.
+    all.retain(|s| s.rho.ln() <= lo || s.rho.ln() >= hi || s.rho == best.rho);
     all.extend(new);
     all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
 }

@@ -38,12 +38,23 @@ pub struct ScanStart {
     pub start: (V5, f64),
 }
 
-/// The best least-squares orbit of the arc and the other distinct minima within `ALTERNATIVE_DCHI2`.
-pub fn least_squares(
-    p: &Problem,
-    opts: &FitOptions,
-    scan: Option<&ScanStart>,
-) -> Option<(LsqFit, Vec<LsqFit>)> {
+/// Distinct minima up to this Δχ² above the best are handed to the range profile: a valley that fits
+/// this much worse can still hold the posterior when the population favours it by orders of magnitude.
+pub const PROFILE_SEED_DCHI2: f64 = 100.0;
+
+/// What the global search found.
+pub struct Found {
+    /// The best minimum, refined with outlier handling.
+    pub best: LsqFit,
+    /// The other distinct minima within `ALTERNATIVE_DCHI2` of it, on the same observations.
+    pub alternatives: Vec<LsqFit>,
+    /// Every other distinct minimum within `PROFILE_SEED_DCHI2` (all observations), for the profile.
+    pub elsewhere: Vec<S6>,
+}
+
+/// The best least-squares orbit of the arc, the other distinct minima within `ALTERNATIVE_DCHI2`, and
+/// where the other minima lie.
+pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -> Option<Found> {
     let mut minima = gauss_minima(p, opts);
     // Arcs of many nights pin the distance with no second valley to fall into.
     if let Some(scan) = scan
@@ -53,6 +64,12 @@ pub fn least_squares(
     }
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     let best = minima.first()?.clone();
+    let elsewhere = minima
+        .iter()
+        .skip(1)
+        .filter(|m| m.chi2 - best.chi2 < PROFILE_SEED_DCHI2)
+        .map(|m| m.state)
+        .collect();
     // Outlier rejection cannot rescue a fit no orbit explains (every point looks like an outlier).
     let best_fit = if best.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
         best
@@ -73,7 +90,11 @@ pub fn least_squares(
         })
         .filter(|m| m.chi2 - best_fit.chi2 < ALTERNATIVE_DCHI2 && m.cov.is_some())
         .collect();
-    Some((best_fit, others))
+    Some(Found {
+        best: best_fit,
+        alternatives: others,
+        elsewhere,
+    })
 }
 
 /// A seed corrected briefly: a good seed converges in a handful of iterations; the winner is
@@ -84,7 +105,15 @@ fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions) -> Option<LsqFit> {
         max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
         ..opts.lsq
     };
-    correct(p, seed, &used, &seed_opts)
+    let f = correct(p, seed, &used, &seed_opts)
+        .ok()
+        .filter(|f| f.chi2.is_finite())?;
+    // A seed still walking down a long curved valley when its brief correction ends is continued if
+    // it already fits like an orbit; the others are given up.
+    if f.converged || f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
+        return f.converged.then_some(f);
+    }
+    correct(p, &f.state, &used, &opts.lsq)
         .ok()
         .filter(|f| f.chi2.is_finite() && f.converged)
 }

@@ -8,7 +8,7 @@ use super::kinds::ProbabilitySource;
 use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
-use super::profile::{DensityContext, Frame, Profile, ProfileOptions, profile};
+use super::profile::{DensityContext, Frame, Profile, ProfileOptions, V5, profile};
 use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
@@ -35,17 +35,18 @@ pub struct ArcInputs<'a> {
 /// back to the general path (a profile that found nothing).
 pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
     if inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
-        return fit_by_profile(inp, None, &super::perturb::NBody::new());
+        return fit_by_profile(inp, None, &[], &super::perturb::NBody::new());
     }
-    fit_by_profile(inp, None, &TwoBody)
+    fit_by_profile(inp, None, &[], &TwoBody)
 }
 
 /// Any multi-night arc along its range profile (the answer for two nights, for arcs whose linear
 /// answer cannot be trusted, and the way out when least squares finds no orbit), from `start` or a
-/// straight line through the positions.
+/// straight line through the positions, with a slice at each of the other known minima `elsewhere`.
 pub fn fit_by_profile(
     inp: &ArcInputs,
     start: Option<S6>,
+    elsewhere: &[S6],
     dynamics: &dyn Dynamics,
 ) -> Option<FitResult> {
     let (tr, opts, epoch) = (inp.tr, inp.opts, inp.epoch);
@@ -71,7 +72,8 @@ pub fn fit_by_profile(
         n_rho: opts.ranging.profile_n_rho,
         ..ProfileOptions::default()
     };
-    let prof = profile(&p, &frame, start, &used, &ctx, &popts)?;
+    let seeds: Vec<(V5, f64)> = elsewhere.iter().map(|x| frame.params(x)).collect();
+    let prof = profile(&p, &frame, start, &seeds, &used, &ctx, &popts)?;
     let (ids, share) = valley_shares(&prof);
     // The answer is the valley the posterior favours (the prior and the volume of orbits can outweigh
     // a small Δχ²), so that its elements and the most probable sample agree; the others are listed.
