@@ -1,5 +1,6 @@
 //! The console's own fits of the demo night (its event loop on a TestBackend, fed by its watcher) carry
-//! the same probability, odds and elements as `fit` computes for the same files.
+//! every field of the record `fit` computes for the same files: probability, odds, elements and their
+//! σ, alternatives, residuals and the rest (all but the path the files were read from).
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use interloper::console::keymap::Keymap;
@@ -11,6 +12,7 @@ use interloper::feed::tracklets::{Limits, merge, read_bytes};
 use interloper::feed::watcher::WatchOptions;
 use interloper::fitting::batch::fit_all;
 use interloper::fitting::fit::FitOptions;
+use interloper::fitting::result::FitResult;
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
 use std::collections::HashMap;
@@ -19,7 +21,14 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, Mutex};
 use std::time::{Duration, Instant};
 
-type Numbers = (Option<f64>, Option<f64>, Option<f64>, Option<f64>, usize);
+type Numbers = serde_json::Value;
+
+/// Every field of a record but where its files were read from (the console watches a copy).
+fn numbers(r: &FitResult) -> Numbers {
+    let mut v = serde_json::to_value(r).unwrap();
+    v.as_object_mut().unwrap().remove("source");
+    v
+}
 
 #[test]
 fn the_console_and_fit_agree_on_every_number() {
@@ -40,12 +49,7 @@ fn the_console_and_fit_agree_on_every_number() {
         .collect();
     let batch: HashMap<String, Numbers> = fit_all(merge(tracklets), &FitOptions::default(), 2)
         .into_iter()
-        .map(|r| {
-            (
-                r.object.clone(),
-                (r.p_hyperbolic, r.log10_odds, r.e, r.e_sigma, r.n_obs),
-            )
-        })
+        .map(|r| (r.object.clone(), numbers(&r)))
         .collect();
     // What the console shows, once every file is in and fitted.
     let watched = tempfile::tempdir().unwrap();
@@ -87,13 +91,7 @@ fn the_console_and_fit_agree_on_every_number() {
                 *seen_loop.lock().unwrap() = a
                     .candidates
                     .iter()
-                    .map(|c| {
-                        let f = &c.fit;
-                        (
-                            f.object.clone(),
-                            (f.p_hyperbolic, f.log10_odds, f.e, f.e_sigma, f.n_obs),
-                        )
-                    })
+                    .map(|c| (c.fit.object.clone(), numbers(&c.fit)))
                     .collect();
             },
         )
@@ -105,7 +103,7 @@ fn the_console_and_fit_agree_on_every_number() {
         let s = seen.lock().unwrap().clone();
         let complete = batch
             .iter()
-            .all(|(k, v)| s.get(k).is_some_and(|c| c.4 == v.4));
+            .all(|(k, v)| s.get(k).is_some_and(|c| c["n_obs"] == v["n_obs"]));
         if complete && s.len() == batch.len() {
             // Let any refit in flight land, then take the final numbers.
             std::thread::sleep(Duration::from_millis(500));
