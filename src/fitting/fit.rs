@@ -3,31 +3,28 @@
 //! under the population model is estimated, and gathers everything the console and the batch output
 //! show.
 
-use super::covariance::{eccentricity_gradient, elements_with_sigmas};
+use super::covariance::eccentricity_gradient;
 use super::input::Tracklet;
 use super::kinds::{FitMethod, FitStatus, ProbabilitySource};
-use super::linear::{LineContext, line_posterior};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct_with_outliers};
+use super::lsqrecord::{LINEAR_DECIDES, NO_ORBIT_CHI2_PER_DOF, lsq_result, residual_list, rms};
 use super::onenight::{fit_one_night, instant_at, night_v_mag};
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::population::PopulationModel;
-use super::quality::{night_means, poor_fit_reasons};
 use super::ranging::{RangingOptions, RangingResult, range};
 use super::result::elements_out;
 pub use super::result::{
     Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
-use super::sampling::PriorContext;
-use super::sampling::{distrust_reasons, importance_sample};
-use super::significance::{MU_BARY, incoming};
+use super::sampling::distrust_reasons;
+use super::significance::MU_BARY;
 use super::stats::weighted_quantile;
-use crate::physics::constants::AU_PER_DAY_TO_KM_S;
 use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
 use crate::physics::observe::{ObserverModel, ObserverState};
-use crate::physics::time::{Jd2, tt_to_utc};
-use crate::physics::{M3, S6, V3, split_state};
+use crate::physics::time::Jd2;
+use crate::physics::{S6, V3, split_state};
 use std::sync::{Arc, OnceLock};
 
 /// Which method to use.
@@ -172,47 +169,27 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
     {
         return r;
     }
-    // Every later way out of least squares is the same: answer along the range profile (ranging if
-    // even that finds nothing) and say why.
-    let fallback = |why: &str| {
-        super::twonight::fit_by_profile(&inputs, None, &[], &TwoBody)
-            .map(|mut r| {
-                r.distrust_linear.push(why.to_string());
-                r
-            })
-            .unwrap_or_else(|| {
-                FitResult::failed(
-                    tr,
-                    format!(
-                        "{why}; no orbit fits all positions (a false linkage or a bad position?)"
-                    ),
-                )
-            })
-    };
+    fit_multi_night(&inputs)
+}
+
+/// Arcs of three nights or more (and two-night arcs the profile could not answer): the global search,
+/// perturbations where the arc or an approach to Earth needs them, and the range profile wherever the
+/// linear answer cannot be trusted.
+fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
+    let (tr, opts) = (inputs.tr, inputs.opts);
+    let shift = inputs.shift;
+    let fallback = |why: &str| profile_instead(inputs, why);
     let two_body = TwoBody;
-    let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, &two_body);
-    let scan = super::twonight::scan_start(&inputs, None);
+    let problem = inputs.problem(&two_body);
+    let scan = super::twonight::scan_start(inputs, None);
     let Some(found) = super::search::least_squares(&problem, opts, scan.as_ref()) else {
         return fallback("no initial orbit converged");
     };
     let (mut fit, alternatives) = (found.best, found.alternatives);
-    // Perturbations, by arc length or a close approach to Earth.
     let nbody = NBody::new();
-    let close = problem
-        .evaluate_all(&fit.state)
-        .map(|ev| {
-            ev.iter()
-                .map(|e| e.0.topo.norm())
-                .fold(f64::INFINITY, f64::min)
-        })
-        .unwrap_or(f64::INFINITY);
-    let perturb = match opts.perturbations {
-        PerturbChoice::On => true,
-        PerturbChoice::Off => false,
-        PerturbChoice::Auto => tr.arc_days() > PERTURB_ARC_DAYS || close < PERTURB_EARTH_AU,
-    };
+    let perturb = needs_perturbations(&problem, &fit, opts.perturbations);
     let dynamics: &dyn Dynamics = if perturb { &nbody } else { &two_body };
-    let problem = Problem::new(tr, observers.clone(), cov.clone(), epoch, MU_SUN, dynamics);
+    let problem = inputs.problem(dynamics);
     if perturb {
         match correct_with_outliers(&problem, &fit.state, &opts.lsq) {
             Ok(f) => fit = f,
@@ -248,7 +225,7 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         && !decided
         && !hopeless
         && let Some(r) =
-            super::twonight::fit_by_profile(&inputs, Some(fit.state), &found.elsewhere, dynamics)
+            super::twonight::fit_by_profile(inputs, Some(fit.state), &found.elsewhere, dynamics)
     {
         return r;
     }
@@ -261,6 +238,41 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         dynamics.model(),
         None,
     )
+}
+
+/// Every way out of least squares is the same: answer along the range profile (ranging if even that
+/// finds nothing) and say why.
+fn profile_instead(inputs: &super::twonight::ArcInputs, why: &str) -> FitResult {
+    super::twonight::fit_by_profile(inputs, None, &[], &TwoBody)
+        .map(|mut r| {
+            r.distrust_linear.push(why.to_string());
+            r
+        })
+        .unwrap_or_else(|| {
+            FitResult::failed(
+                inputs.tr,
+                format!("{why}; no orbit fits all positions (a false linkage or a bad position?)"),
+            )
+        })
+}
+
+/// Perturbations, by arc length or a close approach to Earth (unless the user chose).
+fn needs_perturbations(problem: &Problem, fit: &LsqFit, choice: PerturbChoice) -> bool {
+    let close = problem
+        .evaluate_all(&fit.state)
+        .map(|ev| {
+            ev.iter()
+                .map(|e| e.0.topo.norm())
+                .fold(f64::INFINITY, f64::min)
+        })
+        .unwrap_or(f64::INFINITY);
+    match choice {
+        PerturbChoice::On => true,
+        PerturbChoice::Off => false,
+        PerturbChoice::Auto => {
+            problem.tracklet.arc_days() > PERTURB_ARC_DAYS || close < PERTURB_EARTH_AU
+        }
+    }
 }
 
 /// (e_bary − 1)/σ of a least-squares fit, where it has a covariance.
@@ -276,312 +288,6 @@ fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
 
 /// Relative range uncertainty beyond which a short arc is handed to ranging.
 pub const DEGENERATE_RANGE: f64 = 0.3;
-
-/// |z| from which the linear score stands even when the linear model is distrusted (see lsq_result).
-pub const LINEAR_DECIDES: f64 = 6.0;
-
-fn rms(fit_res: &[[f64; 2]], used: &[bool]) -> f64 {
-    let (mut s, mut n) = (0.0, 0usize);
-    for (r, u) in fit_res.iter().zip(used) {
-        if *u {
-            s += r[0] * r[0] + r[1] * r[1];
-            n += 2;
-        }
-    }
-    (s / n.max(1) as f64).sqrt() / ARCSEC
-}
-
-/// Every observation's residual as printed (chi2 NaN where the path has none).
-pub fn residual_list(
-    tr: &Tracklet,
-    res: &[[f64; 2]],
-    used: &[bool],
-    chi2: &[f64],
-) -> Vec<ResidualOut> {
-    tr.obs
-        .iter()
-        .enumerate()
-        .map(|(i, o)| ResidualOut {
-            id: super::obsid::ObsId::of(o),
-            time_utc: tt_to_utc(o.time.tt).to_string(),
-            site: o.site_code.clone(),
-            night: tr.night[i],
-            ra_deg: o.ra.to_degrees(),
-            dec_deg: o.dec.to_degrees(),
-            ra_arcsec: res[i][0] / ARCSEC,
-            dec_arcsec: res[i][1] / ARCSEC,
-            used: used[i],
-            chi2: chi2.get(i).copied().unwrap_or(f64::NAN),
-        })
-        .collect()
-}
-
-/// A probability worked out before the record (the range profile of a two-night arc): the posterior,
-/// its path and weighted states at the fit's epoch.
-pub struct Given {
-    pub posterior: super::posterior::Posterior,
-    pub from: super::kinds::ProbabilitySource,
-    pub states: Vec<S6>,
-    pub weights: Vec<f64>,
-}
-
-pub fn lsq_result(
-    p: &Problem,
-    fit: &LsqFit,
-    alternatives: &[LsqFit],
-    shift: &S6,
-    opts: &FitOptions,
-    dynamics: super::forcemodel::ForceModel,
-    given: Option<Given>,
-) -> FitResult {
-    let tr = p.tracklet;
-    let mut out = FitResult::empty(tr);
-    out.dynamics = dynamics;
-    out.method = FitMethod::LeastSquares;
-    let ecl: M3 = equatorial_to_ecliptic();
-    let (el, sig) = elements_with_sigmas(
-        &fit.state,
-        fit.cov.as_ref(),
-        fit.epoch.value(),
-        MU_SUN,
-        &ecl,
-    );
-    let xb = fit.state + shift;
-    let (elb, sigb) = elements_with_sigmas(&xb, fit.cov.as_ref(), fit.epoch.value(), MU_BARY, &ecl);
-    let (rb, vb) = split_state(&xb);
-    let sigma_eb = fit.cov.map(|c| {
-        let g = eccentricity_gradient(&rb, &vb, MU_BARY);
-        (g * c * g.transpose())[0].max(0.0).sqrt()
-    });
-    out.n_used = fit.n_used();
-    out.e = Some(el.e);
-    out.e_sigma = sig.map(|s| s.e);
-    out.q_au = Some(el.q);
-    out.q_sigma = sig.map(|s| s.q);
-    out.i_deg = Some(el.i);
-    out.i_sigma = sig.map(|s| s.i);
-    out.e_bary = Some(elb.e);
-    out.e_bary_sigma = sigma_eb;
-    out.inv_a_bary = Some(elb.inv_a);
-    out.rms_arcsec = Some(rms(&fit.residuals, &fit.used));
-    out.chi2_per_dof = Some(fit.chi2_per_dof());
-    out.epoch_jd_tdb = Some(fit.epoch.value());
-    out.elements = Some(elements_out(&el, sig, MU_SUN));
-    out.barycentric = Some(elements_out(&elb, sigb, MU_BARY));
-    out.incoming = incoming(&xb, MU_BARY, sigb.map(|s| s.inv_a));
-    out.residuals = residual_list(tr, &fit.residuals, &fit.used, &fit.obs_chi2);
-    out.night_means = night_means(p, fit);
-    out.state = Some([
-        fit.state[0],
-        fit.state[1],
-        fit.state[2],
-        fit.state[3],
-        fit.state[4],
-        fit.state[5],
-    ]);
-    out.covariance = fit.cov.map(|c| {
-        (0..6)
-            .map(|i| [0, 1, 2, 3, 4, 5].map(|j| c[(i, j)]))
-            .collect()
-    });
-    out.distrust_linear = distrust_reasons(p, fit, shift);
-    let ecl_alt = equatorial_to_ecliptic();
-    out.alternatives = alternatives
-        .iter()
-        .map(|a| {
-            let (r, v) = split_state(&a.state);
-            let el = CometaryElements::from_state(
-                &(ecl_alt * r),
-                &(ecl_alt * v),
-                a.epoch.value(),
-                MU_SUN,
-            );
-            let (rb, vb) = split_state(&(a.state + shift));
-            Alternative {
-                delta_chi2: a.chi2 - fit.chi2,
-                e: el.e,
-                q_au: el.q,
-                i_deg: el.i,
-                unbound: CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e >= 1.0,
-                probability: None,
-            }
-        })
-        .collect();
-    if !alternatives.is_empty() {
-        let flips = out
-            .alternatives
-            .iter()
-            .filter(|a| a.unbound != (elb.e >= 1.0))
-            .count();
-        out.distrust_linear.push(if flips > 0 {
-            format!(
-                "{} other solution(s) fit as well, {flips} of them {}: P weighs them all",
-                alternatives.len(),
-                if elb.e >= 1.0 { "bound" } else { "unbound" }
-            )
-        } else {
-            format!("{} other solution(s) fit as well", alternatives.len())
-        });
-    }
-    let z_linear = sigma_eb.filter(|s| *s > 0.0).map(|s| (elb.e - 1.0) / s);
-    // Beyond ±6σ a nonlinearity of a fifth of σ (the distrust trigger) cannot carry e across 1: keep
-    // the linear answer there for three nights or more.
-    let decided = z_linear.is_some_and(|z| z.abs() >= LINEAR_DECIDES)
-        && tr.n_nights() >= 3
-        && alternatives.is_empty();
-    let trusted = out.distrust_linear.is_empty() || decided;
-    let sampled = given.is_some();
-    match given {
-        Some(g) => {
-            let (v_mag, assumed) = night_v_mag(tr, &opts.population);
-            out.v_mag = Some(v_mag);
-            out.v_mag_assumed = assumed;
-            out.set_posterior(&g.posterior, g.from, &opts.population.source);
-            super::spreads::sample_spreads(
-                &mut out,
-                &g.states,
-                &g.weights,
-                fit.epoch.value(),
-                opts.seed,
-            );
-        }
-        // A fit no orbit explains gets no probability (withheld below): do not compute one.
-        None if fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF => {}
-        None => lsq_probability(&mut out, p, fit, alternatives, shift, opts, trusted),
-    }
-    if trusted {
-        out.z_linear = z_linear;
-    }
-    // A linear answer that stands although the elements curve within 1σ: its σ come from draws.
-    if !sampled
-        && decided
-        && out.samples.is_empty()
-        && !distrust_reasons(p, fit, shift).is_empty()
-        && let Some(c) = fit.cov
-    {
-        super::spreads::gaussian_spreads(&mut out, fit, &c, opts.seed);
-    }
-    out.poor_fit = poor_fit_reasons(p, fit, el.e, &opts.lsq);
-    out.status = if out.poor_fit.is_empty() {
-        FitStatus::Ok
-    } else {
-        FitStatus::PoorFit
-    };
-    if fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
-        withhold_probability(&mut out);
-    }
-    out
-}
-
-/// χ²/dof beyond which no orbit fits the positions at all (a false linkage or a broken position):
-/// the probability of such a "fit" being unbound means nothing and is not shown.
-pub const NO_ORBIT_CHI2_PER_DOF: f64 = 100.0;
-
-fn withhold_probability(out: &mut FitResult) {
-    out.p_hyperbolic = None;
-    out.p_hyperbolic_error = None;
-    out.z_hyperbolic = None;
-    out.log10_odds = None;
-    out.z_linear = None;
-    out.bayes_factor = None;
-    out.log10_bayes_factor = None;
-    out.z_is_bound = false;
-    out.probability_from = ProbabilitySource::NoProbability;
-    out.poor_fit
-        .push("no probability: no orbit fits these positions".into());
-}
-
-/// P(unbound) of a least-squares fit under the population model: along the energy line where the
-/// linear fit is trusted, by importance sampling where it is not (with the line's answer when the
-/// samples leave one class empty, since they cannot weigh its tail).
-fn lsq_probability(
-    out: &mut FitResult,
-    p: &Problem,
-    fit: &LsqFit,
-    alternatives: &[LsqFit],
-    shift: &S6,
-    opts: &FitOptions,
-    trusted: bool,
-) {
-    let tr = p.tracklet;
-    let model = &opts.population;
-    let (v_mag, assumed) = night_v_mag(tr, model);
-    out.v_mag = Some(v_mag);
-    out.v_mag_assumed = assumed;
-    if assumed {
-        out.distrust_linear
-            .push(format!("no magnitude reported: V {v_mag:.1} assumed"));
-    }
-    let dt = |i: usize| tr.obs[i].time.tdb.minus(fit.epoch).abs();
-    let mid = (0..tr.obs.len())
-        .min_by(|&a, &b| dt(a).total_cmp(&dt(b)))
-        .unwrap_or(0);
-    let observer = p.observers[mid].helio_pos;
-    let line = fit.cov.and_then(|c| {
-        line_posterior(
-            &fit.state,
-            &c,
-            &LineContext {
-                model,
-                sun_bary: *shift,
-                observer,
-                v_mag,
-                v_cap_au_day: opts.ranging.v_cap_km_s / AU_PER_DAY_TO_KM_S,
-            },
-        )
-    });
-    if trusted {
-        match line {
-            Some(post) => out.set_posterior(&post, ProbabilitySource::Linear, &model.source),
-            None => out.error = Some("the covariance gives no spread in energy".into()),
-        }
-        return;
-    }
-    let mut all: Vec<&LsqFit> = vec![fit];
-    all.extend(alternatives.iter());
-    let ctx = PriorContext {
-        model,
-        v_mag,
-        observer,
-    };
-    let Some(set) = importance_sample(p, &all, opts.samples, opts.seed, shift, &ctx) else {
-        if let Some(post) = line {
-            out.set_posterior(&post, ProbabilitySource::Linear, &model.source);
-            out.distrust_linear
-                .push("sampling found no weight: answer from the linear fit".into());
-        }
-        return;
-    };
-    match (set.n_unbound == 0 || set.n_bound == 0, line) {
-        (true, Some(post)) => {
-            out.set_posterior(&post, ProbabilitySource::Linear, &model.source);
-            out.distrust_linear.push(format!(
-                "no sampled orbit was {}: that tail is from the linear fit",
-                if set.n_unbound == 0 {
-                    "unbound"
-                } else {
-                    "bound"
-                }
-            ));
-        }
-        _ => {
-            out.set_posterior(
-                &set.posterior,
-                ProbabilitySource::ImportanceSampling,
-                &model.source,
-            );
-            // The sampling budget ran out before the error was small: say how uncertain P is.
-            if set.posterior.ln_odds_error > super::sampling::TARGET_LN_ODDS_ERROR {
-                out.distrust_linear.push(format!(
-                    "probability uncertain by a factor {:.1} in the odds ({:.0} effective samples)",
-                    set.posterior.ln_odds_error.exp(),
-                    set.n_eff
-                ));
-            }
-        }
-    }
-    super::spreads::sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
-}
 
 fn ranging_result(
     tr: &Tracklet,

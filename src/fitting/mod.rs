@@ -14,6 +14,7 @@ pub mod kinds;
 pub mod leaveout;
 pub mod linear;
 pub mod lsq;
+pub mod lsqrecord;
 pub mod nextnight;
 pub mod obsid;
 pub mod onenight;

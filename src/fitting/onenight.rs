@@ -256,7 +256,7 @@ fn summarise(
     let att = &arc.attributable;
     let chi2_dof = att.chi2 / att.dof.max(1) as f64;
     out.chi2_per_dof = Some(chi2_dof);
-    out.residuals = super::fit::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
+    out.residuals = super::lsqrecord::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
     if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF {
         out.poor_fit.push(format!(
             "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"

@@ -74,7 +74,7 @@ pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) ->
     }
     // Leave one night out only where three or more remain: two nights alone do not fix e; and not for
     // a fit no orbit explains (refitting its pieces cannot make it more of a misfit).
-    if p.tracklet.n_nights() >= 4 && fit.chi2_per_dof() <= super::fit::NO_ORBIT_CHI2_PER_DOF {
+    if p.tracklet.n_nights() >= 4 && fit.chi2_per_dof() <= super::lsqrecord::NO_ORBIT_CHI2_PER_DOF {
         let nights = p.tracklet.n_nights();
         let keeps: Vec<Vec<bool>> = (0..nights)
             .map(|k| {

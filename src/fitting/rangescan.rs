@@ -172,7 +172,7 @@ pub fn slices(
         .saturating_sub(6)
         .max(1) as f64;
     let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
-    if lowest > super::fit::NO_ORBIT_CHI2_PER_DOF * dof {
+    if lowest > super::lsqrecord::NO_ORBIT_CHI2_PER_DOF * dof {
         return all;
     }
     let floors: Vec<Slice> = valley_floors(&all, true)

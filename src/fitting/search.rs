@@ -3,9 +3,10 @@
 //! are kept, the best is refined with outlier handling, and the others that fit nearly as well are
 //! returned as alternatives.
 
-use super::fit::{FitOptions, NO_ORBIT_CHI2_PER_DOF};
+use super::fit::FitOptions;
 use super::gauss::{Sight, gauss};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
 use super::profile::{Frame, ProfileOptions, V5};
 use super::rangescan::{coarse_slices, valley_floors};
 use crate::physics::S6;

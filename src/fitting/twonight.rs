@@ -2,10 +2,11 @@
 //! ephemeris) and its most probable slice starts the full least-squares fit that supplies residuals,
 //! outliers and the record's elements.
 
-use super::fit::{FitOptions, Given, lsq_result};
+use super::fit::FitOptions;
 use super::input::Tracklet;
 use super::kinds::ProbabilitySource;
 use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
+use super::lsqrecord::{Given, lsq_result};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
 use super::profile::{DensityContext, Frame, Profile, ProfileOptions, V5, profile};
@@ -31,6 +32,23 @@ pub struct ArcInputs<'a> {
     pub opts: &'a FitOptions,
 }
 
+impl<'a> ArcInputs<'a> {
+    /// The least-squares problem of the arc under `dynamics`.
+    pub fn problem<'b>(&self, dynamics: &'b dyn Dynamics) -> Problem<'b>
+    where
+        'a: 'b,
+    {
+        Problem::new(
+            self.tr,
+            self.observers.to_vec(),
+            self.cov.to_vec(),
+            self.epoch,
+            MU_SUN,
+            dynamics,
+        )
+    }
+}
+
 /// Fit a two-night arc by its range profile (with the planets beyond ten days of arc); None hands it
 /// back to the general path (a profile that found nothing).
 pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
@@ -49,16 +67,9 @@ pub fn fit_by_profile(
     elsewhere: &[S6],
     dynamics: &dyn Dynamics,
 ) -> Option<FitResult> {
-    let (tr, opts, epoch) = (inp.tr, inp.opts, inp.epoch);
+    let (tr, opts) = (inp.tr, inp.opts);
     let shift = &inp.shift;
-    let p = Problem::new(
-        tr,
-        inp.observers.to_vec(),
-        inp.cov.to_vec(),
-        epoch,
-        MU_SUN,
-        dynamics,
-    );
+    let p = inp.problem(dynamics);
     let ScanStart { frame, start } = scan_start(inp, start)?;
     let (v_mag, _) = night_v_mag(tr, &opts.population);
     let ctx = DensityContext {
