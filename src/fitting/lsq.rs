@@ -242,7 +242,8 @@ fn lm_step(red: &Reduced, lambda: f64) -> Option<S6> {
     let qr = a.qr();
     let mut qtb = b;
     qr.q_tr_mul(&mut qtb);
-    qr.r().solve_upper_triangular(&qtb.fixed_rows::<6>(0).into_owned())
+    qr.r()
+        .solve_upper_triangular(&qtb.fixed_rows::<6>(0).into_owned())
 }
 
 /// Covariance of the (unscaled) state from R (the rows' singular values and right vectors), None if
@@ -310,6 +311,9 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
     let mut lin = linearise(p, &x, used, vscale)?;
     let mut red = reduce(&lin);
     let mut lambda = 1e-3;
+    // Undamped steps are tried first, until one fails to lower χ²: the damping (scaled by the
+    // diagonal) holds back the weak distance direction of a short arc for many iterations.
+    let mut undamped = true;
     let mut converged = false;
     let mut iterations = 0;
     while iterations < opts.max_iterations {
@@ -318,13 +322,21 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
             break;
         };
         // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6).
-        if let Some(gn) = lm_step(rd, 0.0)
+        let gn = lm_step(rd, 0.0);
+        if let Some(gn) = gn
             && (rd.r * gn).norm_squared() / 6.0 < 1e-6
         {
             converged = true;
             break;
         }
-        let Some(dp) = lm_step(rd, lambda) else {
+        let step = match gn {
+            Some(gn) if undamped => Some(gn),
+            _ => {
+                undamped = false;
+                lm_step(rd, lambda)
+            }
+        };
+        let Some(dp) = step else {
             break;
         };
         let mut trial = x;
@@ -343,6 +355,7 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
                     break;
                 }
             }
+            _ if undamped => undamped = false,
             _ => {
                 lambda *= 10.0;
                 if lambda > 1e10 {
