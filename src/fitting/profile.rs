@@ -140,28 +140,52 @@ pub fn solve_slice(
     // The normal equations at the current `a` (None once a step has moved it).
     let mut here: Option<Normal> = None;
     let mut prev_chi2: Option<f64> = None;
+    let mut undamped = true;
     for _ in 0..iterations {
         let cur = match here {
             Some(h) => h,
             None => normal(p, frame, rho, &a, used)?,
         };
         here = Some(cur);
-        if prev_chi2.is_some_and(|prev| (prev - cur.chi2).abs() <= 1e-5 * cur.chi2.max(1.0)) {
+        // Jacobi-scaled steps: the undamped one first, while such steps keep lowering χ² (damping
+        // scaled by the diagonal holds back the weakly determined ρ̇ for many iterations); then damped
+        // ones, accepted if χ² falls, else with the damping raised.
+        let (n, g) = (cur.n, cur.g);
+        let d = V5::from_fn(|i, _| n[(i, i)].sqrt().max(1e-300));
+        let step = |lambda: f64| {
+            let ns =
+                M5::from_fn(|i, j| n[(i, j)] / (d[i] * d[j]) + if i == j { lambda } else { 0.0 });
+            ns.cholesky()
+                .map(|c| c.solve(&g.component_div(&d)).component_div(&d))
+        };
+        let gn = step(0.0);
+        // Converged when the last step, or the one the linear model still promises, lowers χ² by less
+        // than 1e-5 of it.
+        let tol = 1e-5 * cur.chi2.max(1.0);
+        if prev_chi2.is_some_and(|prev| (prev - cur.chi2).abs() <= tol)
+            || gn.is_some_and(|s| g.dot(&s) <= tol)
+        {
             break;
         }
         prev_chi2 = Some(cur.chi2);
-        // Jacobi-scaled damped step; accept if χ² falls, else raise the damping.
-        let (n, g) = (cur.n, cur.g);
-        let d = V5::from_fn(|i, _| n[(i, i)].sqrt().max(1e-300));
+        if undamped {
+            let trial = gn.map(|s| a + s);
+            match trial.and_then(|t| chi2_at(p, frame, rho, &t, used).map(|c| (t, c))) {
+                Some((t, c)) if c <= cur.chi2 => {
+                    a = t;
+                    here = None;
+                    continue;
+                }
+                _ => undamped = false,
+            }
+        }
         let mut accepted = false;
         for _ in 0..8 {
-            let ns =
-                M5::from_fn(|i, j| n[(i, j)] / (d[i] * d[j]) + if i == j { lambda } else { 0.0 });
-            let Some(step) = ns.cholesky().map(|c| c.solve(&g.component_div(&d))) else {
+            let Some(s) = step(lambda) else {
                 lambda *= 10.0;
                 continue;
             };
-            let trial = a + step.component_div(&d);
+            let trial = a + s;
             match chi2_at(p, frame, rho, &trial, used) {
                 Some(c) if c <= cur.chi2 => {
                     a = trial;
