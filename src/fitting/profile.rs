@@ -169,15 +169,17 @@ pub fn solve_slice(
         }
         prev_chi2 = Some(cur.chi2);
         if undamped {
-            let trial = gn.map(|s| a + s);
-            match trial.and_then(|t| chi2_at(p, frame, rho, &t, used).map(|c| (t, c))) {
-                Some((t, c)) if c <= cur.chi2 => {
-                    a = t;
-                    here = None;
-                    continue;
-                }
-                _ => undamped = false,
+            // Judged by the normal equations at the trial, which the next iteration needs anyway
+            // (undamped steps are nearly always accepted).
+            if let Some(t) = gn.map(|s| a + s)
+                && let Some(next) = normal(p, frame, rho, &t, used)
+                && next.chi2 <= cur.chi2
+            {
+                a = t;
+                here = Some(next);
+                continue;
             }
+            undamped = false;
         }
         let mut accepted = false;
         for _ in 0..8 {
