@@ -181,27 +181,13 @@ pub fn solve_slice(
             }
             undamped = false;
         }
-        let mut accepted = false;
-        for _ in 0..8 {
-            let Some(s) = step(lambda) else {
-                lambda *= 10.0;
-                continue;
-            };
-            let trial = a + s;
-            match chi2_at(p, frame, rho, &trial, used) {
-                Some(c) if c <= cur.chi2 => {
-                    a = trial;
-                    here = None;
-                    lambda = (lambda / 10.0).max(1e-9);
-                    accepted = true;
-                    break;
-                }
-                _ => lambda *= 10.0,
-            }
-        }
-        if !accepted {
+        let Some(trial) = damped(&step, &mut lambda, |t| {
+            chi2_at(p, frame, rho, &(a + t), used).is_some_and(|c| c <= cur.chi2)
+        }) else {
             break;
-        }
+        };
+        a += trial;
+        here = None;
     }
     let at = match here {
         Some(h) => h,
@@ -215,6 +201,25 @@ pub fn solve_slice(
         cov,
         slope: at.slope,
     })
+}
+
+/// A damped step that `lowers` accepts, raising the damping tenfold after each refusal (at most
+/// eight tries); on acceptance the damping is lowered tenfold for the next iteration.
+fn damped(
+    step: &impl Fn(f64) -> Option<V5>,
+    lambda: &mut f64,
+    lowers: impl Fn(&V5) -> bool,
+) -> Option<V5> {
+    for _ in 0..8 {
+        match step(*lambda) {
+            Some(s) if lowers(&s) => {
+                *lambda = (*lambda / 10.0).max(1e-9);
+                return Some(s);
+            }
+            _ => *lambda *= 10.0,
+        }
+    }
+    None
 }
 
 fn chi2_at(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<f64> {
