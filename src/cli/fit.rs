@@ -1,6 +1,6 @@
 //! `interloper fit`: batch fit of files, ranked table or JSON lines.
 
-use super::inputs::{PopulationArgs, SiteArgs, expand, read_file};
+use super::inputs::{PopulationArgs, SiteArgs, expand, read_files};
 use interloper::feed::tracklets::Limits;
 use interloper::fitting::batch::{fit_all, fit_all_observed};
 use interloper::fitting::fit::{FitOptions, MethodChoice, PerturbChoice, rank};
@@ -118,8 +118,8 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let limits = Limits::default();
     let mut tracklets = Vec::new();
     let mut input_errors = 0;
-    for f in &inputs.files {
-        let intake = read_file(f, &sites, &limits);
+    let threads = args.threads.unwrap_or(super::config::get().threads.value);
+    for intake in read_files(&inputs.files, &sites, &limits, threads) {
         for e in &intake.errors {
             eprintln!("rejected: {e}");
         }
@@ -130,7 +130,6 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     if let Some(shard) = args.shard {
         tracklets.retain(|t| shard.holds(&t.object));
     }
-    let threads = args.threads.unwrap_or(super::config::get().threads.value);
     let mut results = with_progress(tracklets, &options, threads);
     rank(&mut results);
     let stdout = std::io::stdout();

@@ -204,6 +204,33 @@ pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake 
     }
 }
 
+/// Read files on up to `threads` threads (times are converted while reading, which costs), each
+/// file's intake in the order of `paths`.
+pub fn read_files(
+    paths: &[PathBuf],
+    sites: &SiteTable,
+    limits: &Limits,
+    threads: usize,
+) -> Vec<FileIntake> {
+    let per = paths.len().div_ceil(threads.max(1)).max(1);
+    std::thread::scope(|s| {
+        let handles: Vec<_> = paths
+            .chunks(per)
+            .map(|part| {
+                s.spawn(move || {
+                    part.iter()
+                        .map(|f| read_file(f, sites, limits))
+                        .collect::<Vec<_>>()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .flat_map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)))
+            .collect()
+    })
+}
+
 /// When the console may use colour.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
 pub enum ColorChoice {

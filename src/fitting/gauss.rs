@@ -36,11 +36,12 @@ fn positive_roots(a: f64, b: f64, c: f64, scale: f64) -> Vec<f64> {
     let mut roots = Vec::new();
     let n = 4000;
     let (lo, hi) = (1e-4 * scale, 1e4 * scale);
-    let step = (hi / lo).ln() / n as f64;
+    // Grid points by a constant ratio (the exponential of every step was most of the cost).
+    let ratio = ((hi / lo).ln() / n as f64).exp();
     let mut x0 = lo;
     let mut f0 = f(x0);
-    for k in 1..=n {
-        let x1 = lo * (step * k as f64).exp();
+    for _ in 1..=n {
+        let x1 = x0 * ratio;
         let f1 = f(x1);
         if f0 == 0.0 {
             roots.push(x0);
@@ -48,6 +49,10 @@ fn positive_roots(a: f64, b: f64, c: f64, scale: f64) -> Vec<f64> {
             let (mut a0, mut b0, mut fa) = (x0, x1, f0);
             for _ in 0..100 {
                 let m = 0.5 * (a0 + b0);
+                // The bracket is down to adjacent floating-point numbers.
+                if m <= a0 || m >= b0 {
+                    break;
+                }
                 let fm = f(m);
                 if fa * fm <= 0.0 {
                     b0 = m;

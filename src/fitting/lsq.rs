@@ -204,28 +204,52 @@ pub(super) fn linearise(
     })
 }
 
-/// Least-squares solution of [J; √λ·D] Δ = [r; 0] by QR (D = column norms of J).
-fn lm_step(lin: &Linearised, lambda: f64) -> Option<DVector<f64>> {
-    let n = lin.rows.nrows();
-    let mut a = DMatrix::zeros(n + 6, 6);
-    a.rows_mut(0, n).copy_from(&lin.rows);
-    let mut b = DVector::zeros(n + 6);
-    b.rows_mut(0, n).copy_from(&lin.rhs);
+/// The whitened rows reduced once by QR: R and Qᵀr, from which every damped step is a 12×6
+/// problem instead of one over all rows; D are the column norms of J (equal to those of R).
+struct Reduced {
+    r: M6,
+    qtr: S6,
+    d: S6,
+}
+
+fn reduce(lin: &Linearised) -> Option<Reduced> {
+    if lin.rows.nrows() < 6 {
+        return None;
+    }
+    let qr = lin.rows.clone().qr();
+    let mut qtr = lin.rhs.clone();
+    qr.q_tr_mul(&mut qtr);
+    let r = qr.r();
+    Some(Reduced {
+        r: M6::from_fn(|i, j| r[(i, j)]),
+        qtr: S6::from_fn(|i, _| qtr[i]),
+        d: S6::from_fn(|c, _| lin.rows.column(c).norm().max(1e-300)),
+    })
+}
+
+/// Least-squares solution of [J; √λ·D] Δ = [r; 0], as [R; √λ·D] Δ = [Qᵀr; 0] by QR.
+fn lm_step(red: &Reduced, lambda: f64) -> Option<S6> {
+    if lambda == 0.0 {
+        return red.r.solve_upper_triangular(&red.qtr);
+    }
+    let mut a = nalgebra::SMatrix::<f64, 12, 6>::zeros();
+    a.fixed_view_mut::<6, 6>(0, 0).copy_from(&red.r);
+    let mut b = nalgebra::SVector::<f64, 12>::zeros();
+    b.fixed_rows_mut::<6>(0).copy_from(&red.qtr);
     for c in 0..6 {
-        a[(n + c, c)] = lambda.sqrt() * lin.rows.column(c).norm().max(1e-300);
+        a[(6 + c, c)] = lambda.sqrt() * red.d[c];
     }
     let qr = a.qr();
     let mut qtb = b;
     qr.q_tr_mul(&mut qtb);
-    qr.r().solve_upper_triangular(&qtb.rows(0, 6).into_owned())
+    qr.r()
+        .solve_upper_triangular(&qtb.fixed_rows::<6>(0).into_owned())
 }
 
-/// Covariance of the (unscaled) state from the whitened rows, None if singular.
-fn covariance(lin: &Linearised, vscale: f64) -> Option<M6> {
-    if lin.rows.nrows() < 6 {
-        return None;
-    }
-    let svd = lin.rows.clone().svd(false, true);
+/// Covariance of the (unscaled) state from R (the rows' singular values and right vectors), None if
+/// singular.
+fn covariance(red: &Reduced, vscale: f64) -> Option<M6> {
+    let svd = red.r.svd(false, true);
     let smax = svd.singular_values.max();
     if svd.singular_values.min() <= 1e-13 * smax {
         return None;
@@ -285,19 +309,34 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
     let vscale = p.tracklet.arc_days().max(1.0);
     let mut x = *x0;
     let mut lin = linearise(p, &x, used, vscale)?;
+    let mut red = reduce(&lin);
     let mut lambda = 1e-3;
+    // Undamped steps are tried first, until one fails to lower χ²: the damping (scaled by the
+    // diagonal) holds back the weak distance direction of a short arc for many iterations.
+    let mut undamped = true;
     let mut converged = false;
     let mut iterations = 0;
     while iterations < opts.max_iterations {
         iterations += 1;
+        let Some(rd) = red.as_ref() else {
+            break;
+        };
         // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6).
-        if let Some(gn) = lm_step(&lin, 0.0)
-            && (&lin.rows * &gn).norm_squared() / 6.0 < 1e-6
+        let gn = lm_step(rd, 0.0);
+        if let Some(gn) = gn
+            && (rd.r * gn).norm_squared() / 6.0 < 1e-6
         {
             converged = true;
             break;
         }
-        let Some(dp) = lm_step(&lin, lambda) else {
+        let step = match gn {
+            Some(gn) if undamped => Some(gn),
+            _ => {
+                undamped = false;
+                lm_step(rd, lambda)
+            }
+        };
+        let Some(dp) = step else {
             break;
         };
         let mut trial = x;
@@ -309,12 +348,14 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
                 let rel = (lin.chi2 - next.chi2) / lin.chi2.max(1e-300);
                 x = trial;
                 lin = next;
+                red = reduce(&lin);
                 lambda = (lambda / 10.0).max(1e-12);
                 if rel < 1e-10 && lambda < 1e-2 {
                     converged = true;
                     break;
                 }
             }
+            _ if undamped => undamped = false,
             _ => {
                 lambda *= 10.0;
                 if lambda > 1e10 {
@@ -323,7 +364,7 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
             }
         }
     }
-    let cov = covariance(&lin, vscale);
+    let cov = red.as_ref().and_then(|r| covariance(r, vscale));
     let obs_chi2 = per_observation_chi2(p, &lin, cov.as_ref(), used);
     Ok(LsqFit {
         state: x,

@@ -138,67 +138,108 @@ pub fn solve_slice(
 ) -> Option<Slice> {
     let mut a = start;
     let mut lambda = 1e-3;
-    let mut last: Option<(f64, M5, V5)> = None;
+    // The normal equations at the current `a` (None once a step has moved it).
+    let mut here: Option<Normal> = None;
+    let mut prev_chi2: Option<f64> = None;
+    let mut undamped = true;
     for _ in 0..iterations {
-        let (chi2, n, g) = normal(p, frame, rho, &a, used)?;
-        if let Some((prev, _, _)) = last
-            && (prev - chi2).abs() <= 1e-5 * chi2.max(1.0)
-        {
-            last = Some((chi2, n, g));
-            break;
-        }
-        // Jacobi-scaled damped step; accept if χ² falls, else raise the damping.
+        let cur = match here {
+            Some(h) => h,
+            None => normal(p, frame, rho, &a, used)?,
+        };
+        here = Some(cur);
+        // Jacobi-scaled steps: the undamped one first, while such steps keep lowering χ² (damping
+        // scaled by the diagonal holds back the weakly determined ρ̇ for many iterations); then damped
+        // ones, accepted if χ² falls, else with the damping raised.
+        let (n, g) = (cur.n, cur.g);
         let d = V5::from_fn(|i, _| n[(i, i)].sqrt().max(1e-300));
-        let mut accepted = false;
-        for _ in 0..8 {
+        let step = |lambda: f64| {
             let ns =
                 M5::from_fn(|i, j| n[(i, j)] / (d[i] * d[j]) + if i == j { lambda } else { 0.0 });
-            let Some(step) = ns.cholesky().map(|c| c.solve(&g.component_div(&d))) else {
-                lambda *= 10.0;
-                continue;
-            };
-            let trial = a + step.component_div(&d);
-            match chi2_at(p, frame, rho, &trial, used) {
-                Some(c) if c <= chi2 => {
-                    a = trial;
-                    lambda = (lambda / 10.0).max(1e-9);
-                    accepted = true;
-                    break;
-                }
-                _ => lambda *= 10.0,
-            }
-        }
-        last = Some((chi2, n, g));
-        if !accepted {
+            ns.cholesky()
+                .map(|c| c.solve(&g.component_div(&d)).component_div(&d))
+        };
+        let gn = step(0.0);
+        // Converged when the last step, or the one the linear model still promises, lowers χ² by less
+        // than 1e-5 of it.
+        let tol = 1e-5 * cur.chi2.max(1.0);
+        if prev_chi2.is_some_and(|prev| (prev - cur.chi2).abs() <= tol)
+            || gn.is_some_and(|s| g.dot(&s) <= tol)
+        {
             break;
         }
+        prev_chi2 = Some(cur.chi2);
+        if undamped {
+            // Judged by the normal equations at the trial, which the next iteration needs anyway
+            // (undamped steps are nearly always accepted).
+            if let Some(t) = gn.map(|s| a + s)
+                && let Some(next) = normal(p, frame, rho, &t, used)
+                && next.chi2 <= cur.chi2
+            {
+                a = t;
+                here = Some(next);
+                continue;
+            }
+            undamped = false;
+        }
+        let Some(trial) = damped(&step, &mut lambda, |t| {
+            chi2_at(p, frame, rho, &(a + t), used).is_some_and(|c| c <= cur.chi2)
+        }) else {
+            break;
+        };
+        a += trial;
+        here = None;
     }
-    let (chi2, n, _) = normal(p, frame, rho, &a, used)?;
-    let _ = last;
-    let cov = n.try_inverse()?;
-    let h = 1e-4;
-    let slope = match (
-        chi2_at(p, frame, rho * (1.0 + h), &a, used),
-        chi2_at(p, frame, rho * (1.0 - h), &a, used),
-    ) {
-        (Some(up), Some(down)) => (up - down) / ((1.0 + h) / (1.0 - h)).ln(),
-        _ => 0.0,
+    let at = match here {
+        Some(h) => h,
+        None => normal(p, frame, rho, &a, used)?,
     };
+    let cov = at.n.try_inverse()?;
     Some(Slice {
         rho,
         a,
-        chi2,
+        chi2: at.chi2,
         cov,
-        slope,
+        slope: at.slope,
     })
+}
+
+/// A damped step that `lowers` accepts, raising the damping tenfold after each refusal (at most
+/// eight tries); on acceptance the damping is lowered tenfold for the next iteration.
+fn damped(
+    step: &impl Fn(f64) -> Option<V5>,
+    lambda: &mut f64,
+    lowers: impl Fn(&V5) -> bool,
+) -> Option<V5> {
+    for _ in 0..8 {
+        match step(*lambda) {
+            Some(s) if lowers(&s) => {
+                *lambda = (*lambda / 10.0).max(1e-9);
+                return Some(s);
+            }
+            _ => *lambda *= 10.0,
+        }
+    }
+    None
 }
 
 fn chi2_at(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<f64> {
     p.chi2(&frame.state(a, rho), used).ok()
 }
 
-/// χ², normal matrix and right-hand side of the five at (a, ρ).
-fn normal(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<(f64, M5, V5)> {
+/// The linearised slice at (a, ρ).
+#[derive(Debug, Clone, Copy)]
+struct Normal {
+    chi2: f64,
+    /// Normal matrix and right-hand side of the five.
+    n: M5,
+    g: V5,
+    /// ∂χ²/∂ln ρ at fixed `a`.
+    slope: f64,
+}
+
+/// χ², normal matrix and right-hand side of the five at (a, ρ), and the slope in ln ρ.
+fn normal(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option<Normal> {
     let x = frame.state(a, rho);
     // ∂state/∂(five) by central differences of the (cheap, smooth) map.
     let steps = [1e-7, 1e-7, 1e-6, 1e-6, 1e-7];
@@ -214,6 +255,8 @@ fn normal(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option
     let ev = p.evaluate_all(&x).ok()?;
     let mut n = M5::zeros();
     let mut g = V5::zeros();
+    // Σ (W J)ᵀ W r over the full state: −½ ∂χ²/∂state.
+    let mut gx = S6::zeros();
     let mut chi2 = 0.0;
     for (i, (pred, res, jac)) in ev.iter().enumerate() {
         if pred.obj_pos.norm() < 0.005 {
@@ -224,12 +267,17 @@ fn normal(p: &Problem, frame: &Frame, rho: f64, a: &V5, used: &[bool]) -> Option
         }
         let w = &p.whiten[i];
         let wr = w * nalgebra::Vector2::new(res[0], res[1]);
-        let wj = w * jac * jm;
+        let wjx = w * jac;
+        let wj = wjx * jm;
         chi2 += wr.norm_squared();
         n += wj.transpose() * wj;
         g += wj.transpose() * wr;
+        gx += wjx.transpose() * wr;
     }
-    Some((chi2, n, g))
+    // The state is linear in ρ at fixed `a`: ∂state/∂ρ = (state − state at ρ = 0)/ρ.
+    let dx_drho = (x - frame.state(a, 0.0)) / rho;
+    let slope = -2.0 * rho * gx.dot(&dx_drho);
+    Some(Normal { chi2, n, g, slope })
 }
 
 /// One weighted trial orbit of the profile.

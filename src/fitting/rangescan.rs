@@ -39,13 +39,24 @@ pub fn slices_at(
     let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
     for dir in [1i64, -1] {
         let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
+        // The slice before `prev` in this direction (ln ρ, five): with it the next start is
+        // extrapolated along the valley, linearly in ln ρ.
+        let mut before: Option<(f64, V5)> = None;
+        let mut prev_x = rhos[k0].ln();
         let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
         let mut run = 0;
         let mut k = k0 as i64 + dir;
         while k >= 0 && (k as usize) < rhos.len() {
             let ku = k as usize;
-            out[ku] = solve_slice(p, frame, rhos[ku], prev, used, iterations);
+            let x = rhos[ku].ln();
+            let guess = match before {
+                Some((x0, a0)) => prev + (prev - a0) * ((x - prev_x) / (prev_x - x0)),
+                _ => prev,
+            };
+            out[ku] = solve_slice(p, frame, rhos[ku], guess, used, iterations);
             if let Some(s) = out[ku] {
+                before = Some((prev_x, prev));
+                prev_x = x;
                 prev = s.a;
                 best = best.min(s.chi2);
                 let rising = s.chi2 > last_chi2 && s.chi2 > best + GIVE_UP_DCHI2;

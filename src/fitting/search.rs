@@ -128,6 +128,13 @@ pub fn same_minimum(m: &LsqFit, f: &LsqFit) -> bool {
     }
 }
 
+/// Whether two seeds are one orbit (position and velocity each equal to 1e-8 of their size).
+fn same_seed(a: &S6, b: &S6) -> bool {
+    let d = a - b;
+    d.fixed_rows::<3>(0).norm() <= 1e-8 * a.fixed_rows::<3>(0).norm()
+        && d.fixed_rows::<3>(3).norm() <= 1e-8 * a.fixed_rows::<3>(3).norm()
+}
+
 /// Add a minimum unless one already found is the same; keep the lower.
 fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
     let same = minima.iter().position(|m| same_minimum(m, &f));
@@ -159,6 +166,9 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
     let hopeless =
         |m: &[LsqFit]| !m.is_empty() && m.iter().all(|f| f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF);
     let mut corrections = 0;
+    // Different roots of one triplet's polynomial often refine to the same orbit: a seed met before
+    // would only repeat its correction (it still counts against the budget, as it always did).
+    let mut tried: Vec<S6> = Vec::new();
     'triplets: for t in night_triplets(p) {
         for s in gauss_seeds(p, t) {
             if (settle && good(&minima))
@@ -168,6 +178,10 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
                 break 'triplets;
             }
             corrections += 1;
+            if tried.iter().any(|t| same_seed(t, &s)) {
+                continue;
+            }
+            tried.push(s);
             if let Some(f) = correct_seed(p, &s, opts) {
                 merge(&mut minima, f);
             }
