@@ -29,6 +29,7 @@ pub mod profilequad;
 pub mod quality;
 pub mod rangescan;
 pub mod ranging;
+pub mod rejection;
 pub mod result;
 pub mod sampling;
 pub mod search;
