@@ -82,20 +82,15 @@ fn benches(c: &mut Criterion) {
     .unwrap();
     let stop = Arc::new(AtomicBool::new(false));
     let (tx, rx) = std::sync::mpsc::channel();
-    let (mut rt, _, _) = runtime::start(
-        watched.path().to_path_buf(),
-        SiteTable::builtin(),
-        state.path().to_path_buf(),
-        WatchOptions {
+    let setup = runtime::Setup {
+        watch: WatchOptions {
             settle: Duration::from_millis(100),
             scan_interval: Duration::from_millis(50),
             ..WatchOptions::default()
         },
-        2,
-        stop.clone(),
-        tx.clone(),
-    )
-    .unwrap();
+        ..runtime::Setup::new(watched.path().to_path_buf(), state.path().to_path_buf())
+    };
+    let (mut rt, _, _) = runtime::start(setup, stop.clone(), tx.clone()).unwrap();
     let frames: Arc<Mutex<(Option<String>, Vec<Instant>)>> = Arc::default();
     let f2 = frames.clone();
     let stop_ui = stop.clone();

@@ -11,7 +11,6 @@ use interloper::console::panes::Theme;
 use interloper::console::runtime::{self, AppEvent};
 use interloper::console::state::App;
 use interloper::feed::journal::{Entry, Journal, Verdict};
-use interloper::feed::sites::SiteTable;
 use interloper::feed::watcher::WatchOptions;
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
@@ -60,18 +59,12 @@ fn console(watched: &std::path::Path, state: &std::path::Path) -> Console {
         scan_interval: Duration::from_millis(50),
         ..WatchOptions::default()
     };
-    let (mut rt, decisions, _) = runtime::start_as(
-        watched.to_path_buf(),
-        SiteTable::builtin(),
-        state.to_path_buf(),
-        opts,
-        2,
-        stop.clone(),
-        tx.clone(),
-        "alice",
-        interloper::fitting::fit::builtin_population(),
-    )
-    .unwrap();
+    let setup = runtime::Setup {
+        watch: opts,
+        observer: "alice".into(),
+        ..runtime::Setup::new(watched.to_path_buf(), state.to_path_buf())
+    };
+    let (mut rt, decisions, _) = runtime::start(setup, stop.clone(), tx.clone()).unwrap();
     let seen = Arc::new(Mutex::new(Seen::default()));
     let seen_loop = seen.clone();
     let stop_loop = stop.clone();

@@ -64,16 +64,11 @@ fn the_console_and_fit_agree_on_every_number() {
         scan_interval: Duration::from_millis(50),
         ..WatchOptions::default()
     };
-    let (mut rt, decisions, _) = runtime::start(
-        watched.path().to_path_buf(),
-        SiteTable::builtin(),
-        state.path().to_path_buf(),
-        opts,
-        2,
-        stop.clone(),
-        tx,
-    )
-    .unwrap();
+    let setup = runtime::Setup {
+        watch: opts,
+        ..runtime::Setup::new(watched.path().to_path_buf(), state.path().to_path_buf())
+    };
+    let (mut rt, decisions, _) = runtime::start(setup, stop.clone(), tx).unwrap();
     let seen: Arc<Mutex<HashMap<String, Numbers>>> = Arc::default();
     let (seen_loop, stop_loop) = (seen.clone(), stop.clone());
     let ui = std::thread::spawn(move || {

@@ -2,6 +2,8 @@
 //! field of every object's record (probability, odds, elements and their σ, alternatives, residuals, …).
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
+mod util;
+
 use std::collections::HashMap;
 use std::process::Command;
 
@@ -37,20 +39,8 @@ fn fit_and_the_headless_watcher_report_identical_numbers() {
         .arg(dir.path())
         .output()
         .unwrap();
-    let watch = Command::new(exe)
-        .args([
-            "watch",
-            "--headless",
-            "--json",
-            "--stop-after-idle",
-            "2",
-            "--state",
-        ])
-        .arg(state.path())
-        .arg(dir.path())
-        .output()
-        .unwrap();
-    let (a, b) = (records(&fit.stdout), records(&watch.stdout));
+    let watch = util::watch_once(state.path(), dir.path());
+    let (a, b) = (records(&fit.stdout), records(watch.as_bytes()));
     assert!(a.len() >= 10, "{} fits", a.len());
     assert_eq!(a.len(), b.len());
     // Every field of every record; the watcher adds only when the record arrived and its kind.

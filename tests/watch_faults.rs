@@ -5,6 +5,8 @@
 //! everything, so that part needs root to drop privileges with setpriv; CI runs as root).
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
+mod util;
+
 use interloper::feed::watcher::{WatchEvent, WatchOptions, spawn_counted};
 use std::os::unix::fs::PermissionsExt;
 use std::process::Command;
@@ -138,14 +140,7 @@ fn an_unreadable_file_is_reported_once_with_its_reason() {
     let out = Command::new("setpriv")
         .args(["--reuid=65534", "--regid=65534", "--clear-groups"])
         .arg(env!("CARGO_BIN_EXE_interloper"))
-        .args([
-            "watch",
-            "--headless",
-            "--json",
-            "--stop-after-idle",
-            "2",
-            "--state",
-        ])
+        .args(util::WATCH_ONCE)
         .arg(state.path())
         .arg(dir.path())
         .output()

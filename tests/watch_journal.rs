@@ -2,28 +2,16 @@
 //! directory it is given leaves that observation out of its fit, as the console's fit does.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
+mod util;
+
 use interloper::feed::journal::{Entry, Journal, Kind};
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{Limits, merge, read_bytes};
 use interloper::fitting::obsid::ObsId;
 use std::path::PathBuf;
-use std::process::Command;
 
 fn n_obs_of_k27db01(dir: &std::path::Path, state: &std::path::Path) -> u64 {
-    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
-        .args([
-            "watch",
-            "--headless",
-            "--json",
-            "--stop-after-idle",
-            "2",
-            "--state",
-        ])
-        .arg(state)
-        .arg(dir)
-        .output()
-        .unwrap();
-    let text = String::from_utf8_lossy(&out.stdout);
+    let text = util::watch_once(state, dir);
     let fits: Vec<serde_json::Value> = text
         .lines()
         .filter_map(|l| serde_json::from_str::<serde_json::Value>(l).ok())

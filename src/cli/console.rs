@@ -30,17 +30,16 @@ pub struct ConsoleConfig {
 pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     let (keymap, warning) = runtime::keymap_for(cfg.keymap.as_deref());
     let (tx, rx) = std::sync::mpsc::channel();
-    let (mut rt, decisions, warnings) = runtime::start_as(
-        cfg.dir.clone(),
-        cfg.sites,
-        cfg.state.clone(),
-        cfg.watch,
-        cfg.threads,
-        stop.clone(),
-        tx.clone(),
-        &cfg.observer,
-        cfg.population.clone(),
-    )?;
+    let setup = runtime::Setup {
+        dir: cfg.dir.clone(),
+        sites: cfg.sites,
+        state_dir: cfg.state.clone(),
+        watch: cfg.watch,
+        threads: cfg.threads,
+        observer: cfg.observer.clone(),
+        population: cfg.population.clone(),
+    };
+    let (mut rt, decisions, warnings) = runtime::start(setup, stop.clone(), tx.clone())?;
     let log_warning = super::logging::init(Some(&cfg.state), super::logging::Sink::FileOnly);
     tracing::info!(dir = %clean(&cfg.dir.display().to_string()), "console opened");
     for w in &warnings {

@@ -57,38 +57,51 @@ pub struct Runtime {
     state_dir: PathBuf,
 }
 
-/// Start the feed, fit workers and journal for a watched directory, as the `$USER` observer; events
-/// go to `tx`. Returns the journal's lines so far (for [`Runtime::replayed`]) and its warnings.
-pub fn start(
-    dir: PathBuf,
-    sites: SiteTable,
-    state_dir: PathBuf,
-    watch: WatchOptions,
-    threads: usize,
-    stop: Arc<AtomicBool>,
-    tx: Sender<AppEvent>,
-) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
-    let me = crate::feed::journal::observer_name(None);
-    let population = crate::fitting::fit::builtin_population();
-    start_as(
-        dir, sites, state_dir, watch, threads, stop, tx, &me, population,
-    )
+/// What a console runtime watches, where it keeps its state, and as whom and under which population it
+/// fits.
+pub struct Setup {
+    pub dir: PathBuf,
+    pub sites: SiteTable,
+    pub state_dir: PathBuf,
+    pub watch: WatchOptions,
+    pub threads: usize,
+    /// Who writes to the journal (already cleaned).
+    pub observer: String,
+    pub population: Arc<crate::fitting::population::PopulationModel>,
 }
 
-/// As [`start`], writing to the journal as `observer` and fitting under `population`.
-#[allow(clippy::too_many_arguments)]
-pub fn start_as(
-    dir: PathBuf,
-    sites: SiteTable,
-    state_dir: PathBuf,
-    watch: WatchOptions,
-    threads: usize,
+impl Setup {
+    /// Watch `dir` with the built-in sites and population, as the `$USER` observer, on two threads.
+    pub fn new(dir: PathBuf, state_dir: PathBuf) -> Setup {
+        Setup {
+            dir,
+            sites: SiteTable::builtin(),
+            state_dir,
+            watch: WatchOptions::default(),
+            threads: 2,
+            observer: crate::feed::journal::observer_name(None),
+            population: crate::fitting::fit::builtin_population(),
+        }
+    }
+}
+
+/// Start the feed, fit workers and journal of a console; events go to `tx`. Returns the journal's lines
+/// so far (for [`Runtime::replayed`]) and its warnings.
+pub fn start(
+    setup: Setup,
     stop: Arc<AtomicBool>,
     tx: Sender<AppEvent>,
-    observer: &str,
-    population: Arc<crate::fitting::population::PopulationModel>,
 ) -> anyhow::Result<(Runtime, Vec<Entry>, Vec<String>)> {
-    let (journal, replay) = Journal::open_as(&state_dir, observer)?;
+    let Setup {
+        dir,
+        sites,
+        state_dir,
+        watch,
+        threads,
+        observer,
+        population,
+    } = setup;
+    let (journal, replay) = Journal::open_as(&state_dir, &observer)?;
     let export_dir = state_dir.clone();
     let jtx = super::journaltask::spawn(journal, tx.clone(), stop.clone());
     let sites = Arc::new(sites);

@@ -95,6 +95,28 @@ pub fn arc(
 }
 
 /// Run the interloper binary with `args`: exit code, stdout, stderr.
+/// Arguments of a headless watch of one directory that prints JSON lines and stops after 2 s idle; the
+/// state directory and the watched directory follow.
+pub const WATCH_ONCE: [&str; 6] = [
+    "watch",
+    "--headless",
+    "--json",
+    "--stop-after-idle",
+    "2",
+    "--state",
+];
+
+/// Standard output of a headless watch of `dir` with state in `state` (see [`WATCH_ONCE`]).
+pub fn watch_once(state: &std::path::Path, dir: &std::path::Path) -> String {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(WATCH_ONCE)
+        .arg(state)
+        .arg(dir)
+        .output()
+        .expect("the interloper binary runs");
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
 pub fn run_bin(args: &[&str]) -> (Option<i32>, String, String) {
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_interloper"))
         .args(args)
