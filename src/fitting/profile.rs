@@ -341,18 +341,21 @@ pub fn profile(
         opts,
         breaks: ctx.model.inverse_a_breaks(),
     };
-    super::profilequad::refine_steep(p, frame, &mut all, used, &nc);
+    let first_best = all.iter().map(|s| s.chi2).reduce(f64::min)?;
+    let per_slice = super::profilequad::refine_steep(p, frame, &mut all, used, &nc, first_best);
     let best = all
         .iter()
         .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
         .copied()?;
     let rhos: Vec<f64> = all.iter().map(|s| s.rho).collect();
     let cell = trapezoid(&rhos);
-    let nodes: Vec<ProfileNode> = all
-        .iter()
-        .enumerate()
-        .flat_map(|(k, s)| nc.nodes(k, s, best.chi2))
+    // Weights relative to the best slice of the final grid (an added slice may fit better).
+    let shift = 0.5 * (best.chi2 - first_best);
+    let nodes: Vec<ProfileNode> = per_slice
+        .into_iter()
+        .flatten()
         .map(|mut n| {
+            n.ln_w += shift;
             n.ln_w += cell[n.k_rho].ln();
             n.ln_prior += cell[n.k_rho].ln();
             n

@@ -177,28 +177,28 @@ fn steep(a: [f64; 2], b: [f64; 2], top: [f64; 2]) -> bool {
 
 /// Halve every interval of the slices (sorted by ρ) across which a class's weight changes by more than
 /// `MAX_STEP` e-folds where it matters, until none does, the spacing reaches `MIN_SPACING` or
-/// `MAX_ADDED` slices have been added.
+/// `MAX_ADDED` slices have been added. Returns each slice's nodes (weights per unit ln ρ, relative to
+/// `best_chi2`), made once here and kept for the posterior.
 pub fn refine_steep(
     p: &Problem,
     frame: &Frame,
     all: &mut Vec<Slice>,
     used: &[bool],
     q: &SliceQuadrature,
-) {
-    let Some(best_chi2) = all.iter().map(|s| s.chi2).reduce(f64::min) else {
-        return;
-    };
-    let mut w: Vec<[f64; 2]> = all
+    best_chi2: f64,
+) -> Vec<Vec<ProfileNode>> {
+    let mut nodes: Vec<Vec<ProfileNode>> = all
         .iter()
         .enumerate()
-        .map(|(k, s)| class_weights(&q.nodes(k, s, best_chi2)))
+        .map(|(k, s)| q.nodes(k, s, best_chi2))
         .collect();
+    let mut w: Vec<[f64; 2]> = nodes.iter().map(|n| class_weights(n)).collect();
     let mut added = 0;
     // Each round halves every coarse interval once; a slice that cannot be solved leaves its interval
     // as it is, so the rounds are bounded too.
     for _ in 0..MAX_ROUNDS {
         if added >= MAX_ADDED {
-            return;
+            break;
         }
         let top = w.iter().fold([f64::NEG_INFINITY; 2], |t, x| {
             [t[0].max(x[0]), t[1].max(x[1])]
@@ -208,7 +208,7 @@ pub fn refine_steep(
             .filter(|&k| steep(w[k], w[k + 1], top))
             .collect();
         if coarse.is_empty() {
-            return;
+            break;
         }
         // From the far end, so that the indices still to come stay valid.
         for &k in coarse.iter().rev().take(MAX_ADDED - added) {
@@ -221,9 +221,16 @@ pub fn refine_steep(
             let Some(s) = solve_slice(p, frame, rho, from, used, SLICE_ITERATIONS) else {
                 continue;
             };
-            w.insert(k + 1, class_weights(&q.nodes(k + 1, &s, best_chi2)));
+            let n = q.nodes(k + 1, &s, best_chi2);
+            w.insert(k + 1, class_weights(&n));
+            nodes.insert(k + 1, n);
             all.insert(k + 1, s);
             added += 1;
         }
     }
+    // Slices were inserted: number the nodes by their slice's place in the final grid.
+    for (k, n) in nodes.iter_mut().enumerate() {
+        n.iter_mut().for_each(|n| n.k_rho = k);
+    }
+    nodes
 }
