@@ -20,6 +20,8 @@ pub enum LsqError {
     Propagation(String),
     #[error("too few observations ({0}) for six parameters")]
     TooFew(usize),
+    #[error("correction abandoned on the way into a minimum already known")]
+    Abandoned,
 }
 
 /// Everything fixed during a fit of one tracklet.
@@ -303,6 +305,19 @@ impl Default for LsqOptions {
 
 /// Levenberg–Marquardt from `x0` with the given observations in use.
 pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result<LsqFit, LsqError> {
+    correct_unless(p, x0, used, opts, |_| false)
+}
+
+/// Levenberg–Marquardt from `x0`, given up (`LsqError::Abandoned`) as soon as an accepted state
+/// satisfies `abandon`: a seed that has walked into the basin of a minimum already found would only
+/// converge to it again.
+pub fn correct_unless(
+    p: &Problem,
+    x0: &S6,
+    used: &[bool],
+    opts: &LsqOptions,
+    abandon: impl Fn(&S6) -> bool,
+) -> Result<LsqFit, LsqError> {
     let n_used = used.iter().filter(|u| **u).count();
     if 2 * n_used < 6 {
         return Err(LsqError::TooFew(n_used));
@@ -348,6 +363,9 @@ pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result
             Ok(next) if next.chi2 <= lin.chi2 => {
                 let rel = (lin.chi2 - next.chi2) / lin.chi2.max(1e-300);
                 x = trial;
+                if abandon(&x) {
+                    return Err(LsqError::Abandoned);
+                }
                 lin = next;
                 red = reduce(&lin);
                 lambda = (lambda / 10.0).max(1e-12);

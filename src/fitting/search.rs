@@ -5,15 +5,15 @@
 
 use super::fit::FitOptions;
 use super::gauss::{Sight, gauss};
-use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_with_outliers};
+use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_unless, correct_with_outliers};
 use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
 use super::profile::{Frame, ProfileOptions, V5};
 use super::rangescan::{coarse_slices, valley_floors};
-use crate::physics::S6;
 use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::propagate::propagate;
 use crate::physics::time::Jd2;
+use crate::physics::{M6, S6};
 
 /// Levenberg–Marquardt iterations allowed a seed before it is judged.
 pub const SEED_ITERATIONS: usize = 20;
@@ -99,14 +99,16 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
 }
 
 /// A seed corrected briefly: a good seed converges in a handful of iterations; the winner is
-/// refined in full afterwards.
-fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions) -> Option<LsqFit> {
+/// refined in full afterwards. A seed that walks into the basin of a minimum in `known` is given up:
+/// it would only find that minimum again.
+fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions, known: &[Basin]) -> Option<LsqFit> {
     let used = vec![true; p.len()];
     let seed_opts = LsqOptions {
         max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
         ..opts.lsq
     };
-    let f = correct(p, seed, &used, &seed_opts)
+    let inside = |x: &S6| known.iter().any(|b| b.holds(x));
+    let f = correct_unless(p, seed, &used, &seed_opts, inside)
         .ok()
         .filter(|f| f.chi2.is_finite())?;
     // A seed still walking down a long curved valley when its brief correction ends is continued if
@@ -114,17 +116,48 @@ fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions) -> Option<LsqFit> {
     if f.converged || f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
         return f.converged.then_some(f);
     }
-    correct(p, &f.state, &used, &opts.lsq)
+    correct_unless(p, &f.state, &used, &opts.lsq, inside)
         .ok()
         .filter(|f| f.chi2.is_finite() && f.converged)
 }
 
+/// Where a known minimum's basin certainly lies: within `SAME_MINIMUM_M2` of it (Mahalanobis², its
+/// own covariance), the region `same_minimum` counts as that minimum.
+struct Basin {
+    state: S6,
+    inverse: M6,
+}
+
+impl Basin {
+    fn of(m: &LsqFit) -> Option<Basin> {
+        let inverse = m.cov.and_then(|c| c.try_inverse())?;
+        Some(Basin {
+            state: m.state,
+            inverse,
+        })
+    }
+
+    fn holds(&self, x: &S6) -> bool {
+        let d = x - self.state;
+        (d.transpose() * self.inverse * d)[0] < SAME_MINIMUM_M2
+    }
+}
+
+fn basins(minima: &[LsqFit]) -> Vec<Basin> {
+    minima.iter().filter_map(Basin::of).collect()
+}
+
+/// Two minima closer than this (Mahalanobis², the first one's covariance) are one: 3σ.
+const SAME_MINIMUM_M2: f64 = 9.0;
+
 /// Whether two minima are the same (within 3σ of the first, Mahalanobis).
 pub fn same_minimum(m: &LsqFit, f: &LsqFit) -> bool {
-    let d = m.state - f.state;
-    match m.cov.and_then(|c| c.try_inverse()) {
-        Some(ci) => (d.transpose() * ci * d)[0] < 9.0,
-        None => d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm(),
+    match Basin::of(m) {
+        Some(b) => b.holds(&f.state),
+        None => {
+            let d = m.state - f.state;
+            d.fixed_rows::<3>(0).norm() < 1e-4 * m.state.fixed_rows::<3>(0).norm()
+        }
     }
 }
 
@@ -170,6 +203,13 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
     // would only repeat its correction (it still counts against the budget, as it always did).
     let mut tried: Vec<S6> = Vec::new();
     'triplets: for t in night_triplets(p) {
+        // A triplet with two positions from one night has a short baseline and its roots are poor
+        // starts that walk far; an arc of three or more nights needs them only when its night triplets
+        // gave no minimum that fits as well as the errors allow (the distance scan then looks for the
+        // other valleys).
+        if tr.n_nights() >= 3 && shares_a_night(p, t) && good(&minima) {
+            break;
+        }
         for s in gauss_seeds(p, t) {
             if (settle && good(&minima))
                 || corrections >= MAX_CORRECTIONS
@@ -182,7 +222,7 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
                 continue;
             }
             tried.push(s);
-            if let Some(f) = correct_seed(p, &s, opts) {
+            if let Some(f) = correct_seed(p, &s, opts, &basins(&minima)) {
                 merge(&mut minima, f);
             }
         }
@@ -205,7 +245,7 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
     // one spacing of the scan (merge() keeps distinct minima only).
     for k in valley_floors(&coarse, true) {
         let s = coarse[k];
-        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts) {
+        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
             merge(minima, f);
         }
     }
@@ -261,6 +301,12 @@ pub fn night_triplets(p: &Problem) -> Vec<[usize; 3]> {
         }
     }
     triplets
+}
+
+/// Whether two positions of a triplet are from the same night.
+fn shares_a_night(p: &Problem, t: [usize; 3]) -> bool {
+    let night = &p.tracklet.night;
+    night[t[0]] == night[t[1]] || night[t[1]] == night[t[2]] || night[t[0]] == night[t[2]]
 }
 
 /// Gauss solutions of one triplet, propagated to the epoch.
