@@ -34,6 +34,8 @@ pub struct Problem<'a> {
     pub epoch: Jd2,
     pub mu: f64,
     pub dynamics: &'a dyn Dynamics,
+    /// The observations' times (TDB), in order.
+    times: Vec<Jd2>,
 }
 
 impl<'a> Problem<'a> {
@@ -56,6 +58,7 @@ impl<'a> Problem<'a> {
             })
             .collect();
         Problem {
+            times: tracklet.obs.iter().map(|o| o.time.tdb).collect(),
             tracklet,
             observers,
             cov,
@@ -76,28 +79,22 @@ impl<'a> Problem<'a> {
 
     /// Prediction, O − C (radians) and partials for every observation.
     pub fn evaluate_all(&self, x: &S6) -> Result<Vec<Evaluated>, LsqError> {
-        let times: Vec<Jd2> = self.tracklet.obs.iter().map(|o| o.time.tdb).collect();
-        let states = self
-            .dynamics
-            .states(x, self.epoch, &times)
-            .map_err(|e| LsqError::Propagation(e.to_string()))?;
-        Ok(states
-            .into_iter()
-            .enumerate()
-            .map(|(i, st)| {
+        let mut out = Vec::with_capacity(self.len());
+        self.dynamics
+            .visit_states(x, self.epoch, &self.times, &mut |i, st| {
                 let o = &self.tracklet.obs[i];
                 let (p, jac) = project(st, &self.observers[i], self.mu);
-                (p, residual(o.ra, o.dec, &p), jac)
+                out.push((p, residual(o.ra, o.dec, &p), jac));
             })
-            .collect())
+            .map_err(|e| LsqError::Propagation(e.to_string()))?;
+        Ok(out)
     }
 
     /// χ² of a state over the given observations (positions only, no partials).
     pub fn chi2(&self, x: &S6, used: &[bool]) -> Result<f64, LsqError> {
-        let times: Vec<Jd2> = self.tracklet.obs.iter().map(|o| o.time.tdb).collect();
         let states = self
             .dynamics
-            .positions(x, self.epoch, &times)
+            .positions(x, self.epoch, &self.times)
             .map_err(|e| LsqError::Propagation(e.to_string()))?;
         Ok(states
             .iter()

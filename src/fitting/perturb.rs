@@ -31,6 +31,19 @@ pub trait Dynamics {
             .map(|t| self.state_and_stm(x0, epoch, *t))
             .collect()
     }
+    /// Each state and STM handed to `f` in turn (with its index), without collecting them first.
+    fn visit_states(
+        &self,
+        x0: &S6,
+        epoch: Jd2,
+        times: &[Jd2],
+        f: &mut dyn FnMut(usize, (V3, V3, M6)),
+    ) -> Result<(), PropagationError> {
+        for (i, st) in self.states(x0, epoch, times)?.into_iter().enumerate() {
+            f(i, st);
+        }
+        Ok(())
+    }
     /// States without the STM (sampling needs many and no partials).
     fn positions(
         &self,
@@ -55,6 +68,19 @@ impl Dynamics for TwoBody {
     fn state_and_stm(&self, x0: &S6, epoch: Jd2, t: Jd2) -> Result<(V3, V3, M6), PropagationError> {
         let (r, v) = split_state(x0);
         propagate_with_stm(&r, &v, t.minus(epoch), MU_SUN)
+    }
+    fn visit_states(
+        &self,
+        x0: &S6,
+        epoch: Jd2,
+        times: &[Jd2],
+        f: &mut dyn FnMut(usize, (V3, V3, M6)),
+    ) -> Result<(), PropagationError> {
+        let (r, v) = split_state(x0);
+        for (i, t) in times.iter().enumerate() {
+            f(i, propagate_with_stm(&r, &v, t.minus(epoch), MU_SUN)?);
+        }
+        Ok(())
     }
     fn positions(
         &self,

@@ -210,7 +210,7 @@ fn light_time(r: &V3, v: &V3, obs: &ObserverState, mu: f64) -> (V3, f64, V3, V3)
 fn prediction(rho: V3, tau: f64, obj_pos: V3, obj_vel: V3) -> Prediction {
     let u = rho / rho.norm();
     Prediction {
-        ra: rho.y.atan2(rho.x).rem_euclid(std::f64::consts::TAU),
+        ra: within_turn(rho.y.atan2(rho.x)),
         dec: u.z.clamp(-1.0, 1.0).asin(),
         topo: rho,
         light_time: tau,
@@ -259,10 +259,23 @@ pub fn predict(
     predict_with_partials(x0, epoch, t, obs, mu).map(|p| p.0)
 }
 
+/// `x.rem_euclid(2π)`, bit for bit, with the one-turn cases that atan2 and angle differences give
+/// done by one addition instead of a (software) floating remainder.
+fn within_turn(x: f64) -> f64 {
+    use std::f64::consts::TAU;
+    if (0.0..TAU).contains(&x) {
+        x
+    } else if x > -TAU && x < 0.0 {
+        x + TAU
+    } else {
+        x.rem_euclid(TAU)
+    }
+}
+
 /// Residual (O − C) in (RA·cos Dec, Dec), radians, with RA wrapped to ±π.
 pub fn residual(obs_ra: f64, obs_dec: f64, pred: &Prediction) -> [f64; 2] {
     let mut dra = obs_ra - pred.ra;
-    dra = (dra + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU) - std::f64::consts::PI;
+    dra = within_turn(dra + std::f64::consts::PI) - std::f64::consts::PI;
     [dra * pred.dec.cos(), obs_dec - pred.dec]
 }
 
@@ -271,6 +284,19 @@ mod tests {
     use super::*;
     use crate::physics::constants::{ARCSEC, AU_KM, MU_SUN};
     use crate::physics::propagate::propagate;
+
+    #[test]
+    fn within_turn_equals_the_euclidean_remainder_bit_for_bit() {
+        use std::f64::consts::{PI, TAU};
+        let mut x = -3.0 * TAU;
+        while x < 3.0 * TAU {
+            assert_eq!(within_turn(x).to_bits(), x.rem_euclid(TAU).to_bits(), "{x}");
+            x += 0.0123;
+        }
+        for x in [-1e-300, -0.0, 0.0, -TAU, TAU, PI, -PI, TAU - 1e-16, -1e-17] {
+            assert_eq!(within_turn(x).to_bits(), x.rem_euclid(TAU).to_bits(), "{x}");
+        }
+    }
 
     fn sample() -> (S6, Jd2, ObserverState) {
         let x0 = S6::new(1.2, 0.9, 0.2, -0.008, 0.011, 0.002);
