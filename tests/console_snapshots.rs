@@ -3,117 +3,37 @@
 //! changed snapshot fails; UPDATE_SNAPSHOTS=1 rewrites them (review the diff before committing).
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
-use interloper::console::keymap::Keymap;
+mod util;
+
 use interloper::console::panes::{Theme, elements, residuals, status, table};
 use interloper::console::state::{App, Effect, Mode};
-use interloper::console::view;
 use interloper::feed::sites::SiteTable;
-use interloper::feed::tracklets::{Limits, merge, read_bytes};
-use interloper::fitting::batch::fit_all;
 use interloper::fitting::ephemeris::point;
-use interloper::fitting::fit::FitOptions;
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::time::{UtcTime, tt_to_utc};
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
 use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-use std::path::PathBuf;
-
-fn fixed_clock() -> String {
-    "2027-02-26T12:00:00Z".into()
-}
+use util::screens::{check, screen, text};
 
 fn demo_app() -> App {
-    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
-    let mut files: Vec<PathBuf> = std::fs::read_dir(&root)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .collect();
-    files.sort();
-    let sites = SiteTable::builtin();
-    let mut tracklets = Vec::new();
-    let mut app = App::new(Keymap::builtin());
-    // Arrival ages read "just now" whatever the machine's speed.
-    app.now = || std::time::SystemTime::UNIX_EPOCH;
-    app.clock = fixed_clock;
-    for f in &files {
-        let name = f.file_name().unwrap().to_string_lossy().to_string();
-        let intake = read_bytes(
-            &name,
-            &std::fs::read(f).unwrap(),
-            &sites,
-            &Limits::default(),
-        );
-        for e in intake.errors {
-            app.on_rejected(e);
-        }
-        tracklets.extend(intake.tracklets);
-    }
-    // A rejection from deep inside a survey's folder tree, with a long reason: the panel shows the file's
-    // name and wraps the reason.
-    app.on_rejected(interloper::feed::InputError {
-        file: "/data/survey/partner-stations/2027/02/26/incoming/night-3/batch-0041/upload_0041_partial.psv"
-            .into(),
-        line: 17,
-        column: Some("rmsRA".into()),
-        reason: "5e-324 is below the smallest accepted uncertainty (0.001 arcsec); astrometry cannot be that good, \
-                 so the line is refused rather than given an absurd weight"
-            .into(),
-    });
-    let tracklets = merge(tracklets);
-    for r in fit_all(tracklets, &FitOptions::default(), 2) {
-        let n = r.n_obs;
-        app.on_fit(1, r, n);
-    }
-    app.status.files_seen = files.len();
-    app.status.last_arrival = Some("03:12:55Z".into());
-    app.message = None;
-    app
+    util::screens::demo_app(|app| {
+        // A rejection from deep inside a survey's folder tree, with a long reason: the panel shows the file's
+        // name and wraps the reason.
+        app.on_rejected(interloper::feed::InputError {
+            file: "/data/survey/partner-stations/2027/02/26/incoming/night-3/batch-0041/upload_0041_partial.psv"
+                .into(),
+            line: 17,
+            column: Some("rmsRA".into()),
+            reason: "5e-324 is below the smallest accepted uncertainty (0.001 arcsec); astrometry cannot be that good, \
+                     so the line is refused rather than given an absurd weight"
+                .into(),
+        });
+    })
 }
 
 fn key(c: char) -> KeyEvent {
     KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE)
-}
-
-fn text(t: &Terminal<TestBackend>) -> String {
-    let b = t.backend().buffer();
-    let mut s = String::new();
-    for y in 0..b.area.height {
-        let mut line = String::new();
-        for x in 0..b.area.width {
-            line.push_str(b.cell((x, y)).map_or(" ", |c| c.symbol()));
-        }
-        s.push_str(line.trim_end());
-        s.push('\n');
-    }
-    s
-}
-
-fn check(name: &str, got: &str) {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/snapshots")
-        .join(format!("{name}.txt"));
-    if std::env::var_os("UPDATE_SNAPSHOTS").is_some() {
-        std::fs::write(&path, got).unwrap();
-        return;
-    }
-    let want = std::fs::read_to_string(&path).unwrap_or_else(|_| {
-        panic!(
-            "missing snapshot {}; run with UPDATE_SNAPSHOTS=1",
-            path.display()
-        )
-    });
-    assert_eq!(
-        got, want,
-        "snapshot {name} differs (UPDATE_SNAPSHOTS=1 to accept)"
-    );
-}
-
-fn screen(app: &mut App, w: u16, h: u16) -> String {
-    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
-    t.draw(|f| view::draw(f, app, Theme { color: false }))
-        .unwrap();
-    text(&t)
 }
 
 #[test]

@@ -1,6 +1,8 @@
 //! Shared helpers for the integration tests: reading the committed reference vectors, running the binary.
 #![allow(dead_code)]
 
+pub mod screens;
+
 use std::collections::HashMap;
 use std::path::PathBuf;
 
