@@ -7,7 +7,7 @@ use super::fit::FitOptions;
 use super::gauss::{Sight, gauss};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_unless, correct_with_outliers};
 use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
-use super::profile::{Frame, ProfileOptions, V5};
+use super::profile::{Frame, ProfileOptions, V5, solve_slice};
 use super::rangescan::{coarse_slices, valley_floors};
 use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
 use crate::physics::frames::unit_from_radec;
@@ -248,7 +248,64 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
         if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
             merge(minima, f);
         }
+        // The valley's bracket: the scan's neighbours of its floor.
+        let lo = k.checked_sub(1).map_or(s.rho / 1.3, |j| coarse[j].rho);
+        let hi = coarse.get(k + 1).map_or(s.rho * 1.3, |n| n.rho);
+        probe_bracket(p, opts, scan, (lo, hi), minima);
     }
+}
+
+/// A probe counts as a second minimum's sign when its χ² has risen less than this share of what the
+/// known minimum's own curvature in ln ρ predicts there.
+const PROBE_RISE_SHARE: f64 = 0.5;
+
+/// One valley of the scan can hold two minima closer than its spacing (near-Earth arcs have shown it):
+/// on each side of the minima known inside the bracket, a slice halfway (in ln ρ) to the bracket's end.
+/// Where χ² there has risen much less than the known minimum's curvature predicts, the profile
+/// flattens or dips again, and a correction starts from that slice.
+fn probe_bracket(
+    p: &Problem,
+    opts: &FitOptions,
+    scan: &ScanStart,
+    (lo, hi): (f64, f64),
+    minima: &mut Vec<LsqFit>,
+) {
+    let used = vec![true; p.len()];
+    let frame = &scan.frame;
+    let inside: Vec<(V5, f64, f64, f64)> = minima
+        .iter()
+        .filter_map(|m| {
+            let (a, rho) = frame.params(&m.state);
+            let sigma = ln_rho_sigma(frame, m)?;
+            (rho > lo && rho < hi).then_some((a, rho, m.chi2, sigma))
+        })
+        .collect();
+    let by_rho = |x: &&(V5, f64, f64, f64), y: &&(V5, f64, f64, f64)| x.1.total_cmp(&y.1);
+    let (Some(first), Some(last)) = (inside.iter().min_by(by_rho), inside.iter().max_by(by_rho))
+    else {
+        return;
+    };
+    for ((a, rho, chi2, sigma), end) in [(*last, hi), (*first, lo)] {
+        let probe = (rho * end).sqrt();
+        let predicted = ((probe / rho).ln() / sigma).powi(2);
+        let Some(s) = solve_slice(p, frame, probe, a, &used, SCAN_ITERATIONS) else {
+            continue;
+        };
+        if s.chi2 - chi2 < PROBE_RISE_SHARE * predicted
+            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, &basins(minima))
+        {
+            merge(minima, f);
+        }
+    }
+}
+
+/// σ of ln ρ at a minimum (ρ the distance from the frame's observer), from its covariance.
+fn ln_rho_sigma(frame: &Frame, m: &LsqFit) -> Option<f64> {
+    let cov = m.cov?;
+    let d = m.state.fixed_rows::<3>(0) - frame.observer.helio_pos;
+    let u = d / d.norm();
+    let var = (u.transpose() * cov.fixed_view::<3, 3>(0, 0) * u)[0];
+    (var > 0.0).then(|| var.sqrt() / d.norm())
 }
 
 fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
