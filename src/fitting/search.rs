@@ -248,10 +248,18 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
         if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
             merge(minima, f);
         }
-        // The valley's bracket: the scan's neighbours of its floor.
-        let lo = k.checked_sub(1).map_or(s.rho / 1.3, |j| coarse[j].rho);
-        let hi = coarse.get(k + 1).map_or(s.rho * 1.3, |n| n.rho);
-        probe_bracket(p, opts, scan, (lo, hi), minima);
+        // The valley's bracket: the scan's neighbours of its floor (mirrored at an end of the scan).
+        let below = k.checked_sub(1).map(|j| coarse[j].rho);
+        let above = coarse.get(k + 1).map(|n| n.rho);
+        let bracket = match (below, above) {
+            (Some(lo), Some(hi)) => Some((lo, hi)),
+            (Some(lo), None) => Some((lo, s.rho * s.rho / lo)),
+            (None, Some(hi)) => Some((s.rho * s.rho / hi, hi)),
+            (None, None) => None,
+        };
+        if let Some(bracket) = bracket {
+            probe_bracket(p, opts, scan, bracket, minima);
+        }
     }
 }
 
