@@ -216,9 +216,14 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
     let distrusted =
         !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
+    // A decisive linear z settles the class, but where the range is known to worse than 10 % its
+    // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
+    let range_known = super::sampling::relative_range_sigma(&problem, &fit)
+        .is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED);
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
-        && alternatives.is_empty();
+        && alternatives.is_empty()
+        && range_known;
     // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
     let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
     if distrusted

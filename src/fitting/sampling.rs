@@ -40,6 +40,10 @@ fn bary_e(x: &S6, shift: &S6) -> f64 {
     .e
 }
 
+/// A range known to this (relative σ) or better: the linear answer's draws can follow e along the
+/// valley.
+pub const RANGE_TRUSTED: f64 = 0.1;
+
 /// Why the linear answer cannot be trusted, if it cannot.
 pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<String> {
     let mut why = Vec::new();
@@ -51,7 +55,7 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
         return why;
     };
     if let Some(rel) = relative_range_sigma(p, fit)
-        && rel > 0.1
+        && rel > RANGE_TRUSTED
     {
         why.push(format!("range known to {:.0} %", 100.0 * rel));
     }
