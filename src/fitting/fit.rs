@@ -201,7 +201,8 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     }
     // A range known to worse than this is a nearly degenerate problem: its minimum means little and
     // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
-    if let Some(rel) = super::sampling::relative_range_sigma(&problem, &fit)
+    let range_sigma = super::sampling::relative_range_sigma(&problem, &fit);
+    if let Some(rel) = range_sigma
         && rel > DEGENERATE_RANGE
         && tr.n_nights() < 3
     {
@@ -218,8 +219,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
     // A decisive linear z settles the class, but where the range is known to worse than 10 % its
     // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
-    let range_known = super::sampling::relative_range_sigma(&problem, &fit)
-        .is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED);
+    let range_known = range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED);
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty()

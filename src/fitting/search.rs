@@ -9,6 +9,7 @@ use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_unless, correct_w
 use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
 use super::profile::{Frame, ProfileOptions, V5, solve_slice};
 use super::rangescan::{coarse_slices, valley_floors};
+use super::sampling::relative_range_sigma;
 use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::propagate::propagate;
@@ -284,7 +285,8 @@ fn probe_bracket(
         .iter()
         .filter_map(|m| {
             let (a, rho) = frame.params(&m.state);
-            let sigma = ln_rho_sigma(frame, m)?;
+            // σ of ln ρ: the relative σ of the range.
+            let sigma = relative_range_sigma(p, m)?;
             (rho > lo && rho < hi).then_some((a, rho, m.chi2, sigma))
         })
         .collect();
@@ -305,15 +307,6 @@ fn probe_bracket(
             merge(minima, f);
         }
     }
-}
-
-/// σ of ln ρ at a minimum (ρ the distance from the frame's observer), from its covariance.
-fn ln_rho_sigma(frame: &Frame, m: &LsqFit) -> Option<f64> {
-    let cov = m.cov?;
-    let d = m.state.fixed_rows::<3>(0) - frame.observer.helio_pos;
-    let u = d / d.norm();
-    let var = (u.transpose() * cov.fixed_view::<3, 3>(0, 0) * u)[0];
-    (var > 0.0).then(|| var.sqrt() / d.norm())
 }
 
 fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
