@@ -27,45 +27,62 @@ pub struct GaussSolution {
     pub ranges: [f64; 3],
 }
 
-/// Positive real roots of x⁸ + a x⁶ + b x³ + c on (1e-4, 1e4), found by scanning a log grid and bisecting.
+/// Bisection of a sign change of `f` on [a, b] down to adjacent floating-point numbers.
+fn bisect(f: &dyn Fn(f64) -> f64, a: f64, b: f64) -> Option<f64> {
+    let (mut a0, mut b0, mut fa) = (a, b, f(a));
+    let fb = f(b);
+    if fa == 0.0 {
+        return Some(a);
+    }
+    if fa * fb > 0.0 {
+        return None;
+    }
+    loop {
+        let m = 0.5 * (a0 + b0);
+        if m <= a0 || m >= b0 {
+            return Some(m);
+        }
+        let fm = f(m);
+        if fa * fm <= 0.0 {
+            b0 = m;
+        } else {
+            a0 = m;
+            fa = fm;
+        }
+    }
+}
+
+/// The roots of `f` on [lo, hi], given the points between which it is monotonic (ascending).
+fn roots_between(f: &dyn Fn(f64) -> f64, lo: f64, turns: &[f64], hi: f64) -> Vec<f64> {
+    let mut edges = vec![lo];
+    edges.extend(turns.iter().copied().filter(|x| *x > lo && *x < hi));
+    edges.push(hi);
+    edges
+        .windows(2)
+        .filter_map(|w| bisect(f, w[0], w[1]))
+        .collect()
+}
+
+/// Positive real roots of x⁸ + a x⁶ + b x³ + c on (1e-4, 1e4)·`scale`. The polynomial is monotonic
+/// between the positive roots of its derivative x²(8x⁵ + 6a x³ + 3b), and that quintic between the
+/// root of its own derivative x²(40x² + 18a); so each root is bracketed exactly and bisected (no grid
+/// that two close roots could slip through).
 fn positive_roots(a: f64, b: f64, c: f64, scale: f64) -> Vec<f64> {
     let f = |x: f64| {
         let x3 = x * x * x;
         x3 * x3 * x * x + a * x3 * x3 + b * x3 + c
     };
-    let mut roots = Vec::new();
-    let n = 4000;
+    let quintic = |x: f64| 8.0 * x.powi(5) + 6.0 * a * x * x * x + 3.0 * b;
     let (lo, hi) = (1e-4 * scale, 1e4 * scale);
-    // Grid points by a constant ratio (the exponential of every step was most of the cost).
-    let ratio = ((hi / lo).ln() / n as f64).exp();
-    let mut x0 = lo;
-    let mut f0 = f(x0);
-    for _ in 1..=n {
-        let x1 = x0 * ratio;
-        let f1 = f(x1);
-        if f0 == 0.0 {
-            roots.push(x0);
-        } else if f0 * f1 < 0.0 {
-            let (mut a0, mut b0, mut fa) = (x0, x1, f0);
-            for _ in 0..100 {
-                let m = 0.5 * (a0 + b0);
-                // The bracket is down to adjacent floating-point numbers.
-                if m <= a0 || m >= b0 {
-                    break;
-                }
-                let fm = f(m);
-                if fa * fm <= 0.0 {
-                    b0 = m;
-                } else {
-                    a0 = m;
-                    fa = fm;
-                }
-            }
-            roots.push(0.5 * (a0 + b0));
-        }
-        x0 = x1;
-        f0 = f1;
-    }
+    let quintic_turn: Vec<f64> = if a < 0.0 {
+        vec![(-0.45 * a).sqrt()]
+    } else {
+        Vec::new()
+    };
+    let turns = roots_between(&quintic, lo, &quintic_turn, hi);
+    let mut roots = roots_between(&f, lo, &turns, hi);
+    // A root on a shared edge is found from both sides.
+    roots.dedup_by(|x, y| (*x - *y).abs() <= 1e-12 * y.abs());
     roots
 }
 
@@ -228,6 +245,51 @@ pub fn herrick_gibbs(r1: &V3, r2: &V3, r3: &V3, t1: f64, t2: f64, t3: f64, mu: f
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Sign changes of the octic on a fine logarithmic grid (an independent, slow count).
+    fn grid_roots(a: f64, b: f64, c: f64) -> Vec<f64> {
+        let f = |x: f64| x.powi(8) + a * x.powi(6) + b * x.powi(3) + c;
+        let n = 400_000;
+        let step = (1e8f64).ln() / n as f64;
+        (0..n)
+            .map(|k| 1e-4 * (step * k as f64).exp())
+            .collect::<Vec<_>>()
+            .windows(2)
+            .filter(|w| f(w[0]) * f(w[1]) < 0.0)
+            .map(|w| w[0])
+            .collect()
+    }
+
+    #[test]
+    fn octic_roots_match_a_fine_grid_including_three_close_roots() {
+        // The first case has three positive roots, two of them 1.2 % apart (near 1.0 and 1.012).
+        let mut cases = vec![(-1.75, 0.8, -0.05), (-1.0, 0.5, -1e-3), (2.0, 1.0, -5.0)];
+        let mut rng = super::super::ranging::SplitMix::new(7);
+        for _ in 0..40 {
+            let a = -4.0 + 8.0 * rng.uniform();
+            let b = -4.0 + 8.0 * rng.uniform();
+            let c = -(10f64).powf(-3.0 + 4.0 * rng.uniform());
+            cases.push((a, b, c));
+        }
+        let mut three = 0;
+        for (a, b, c) in cases {
+            let grid = grid_roots(a, b, c);
+            let found = positive_roots(a, b, c, 1.0);
+            assert_eq!(
+                found.len(),
+                grid.len(),
+                "a {a} b {b} c {c}: {found:?} vs {grid:?}"
+            );
+            for (x, g) in found.iter().zip(&grid) {
+                assert!((x / g - 1.0).abs() < 1e-4, "{x} vs {g}");
+                let fx = x.powi(8) + a * x.powi(6) + b * x.powi(3) + c;
+                let size = x.powi(8) + (a * x.powi(6)).abs() + (b * x.powi(3)).abs() + c.abs();
+                assert!(fx.abs() <= 1e-13 * size, "f({x}) = {fx}");
+            }
+            three += usize::from(grid.len() == 3);
+        }
+        assert!(three >= 1, "no case with three positive roots was tried");
+    }
 
     #[test]
     fn vallado_4th_ex_7_3_gibbs() {

@@ -238,10 +238,20 @@ pub fn project(state: (V3, V3, M6), obs: &ObserverState, mu: f64) -> (Prediction
     let w = obj_vel + obs.sun_bary_vel;
     let u_a = u.transpose() * phi_r / (1.0 + u.dot(&w) / C_AU_PER_DAY);
     let a = phi_r - w * u_a / C_AU_PER_DAY;
-    let (sa, ca) = pred.ra.sin_cos();
-    let (sd, cd) = pred.dec.sin_cos();
-    let e_ra = RowVector3::new(-sa, ca, 0.0);
-    let e_dec = RowVector3::new(-sd * ca, -sd * sa, cd);
+    // The unit vectors of increasing RA and Dec, from ρ's components (no trigonometry).
+    // At a pole RA is 0 (atan2(0, 0)), whose axes these are.
+    let rho_xy = (rho.x * rho.x + rho.y * rho.y).sqrt();
+    let (e_ra, e_dec) = if rho_xy > 0.0 {
+        (
+            RowVector3::new(-rho.y, rho.x, 0.0) / rho_xy,
+            RowVector3::new(-u.z * rho.x, -u.z * rho.y, rho_xy * rho_xy / dist) / rho_xy,
+        )
+    } else {
+        (
+            RowVector3::new(0.0, 1.0, 0.0),
+            RowVector3::new(-u.z, 0.0, 0.0),
+        )
+    };
     let mut jac = Matrix2x6::zeros();
     jac.set_row(0, &(e_ra * a / dist));
     jac.set_row(1, &(e_dec * a / dist));
