@@ -38,26 +38,22 @@ pub fn slices_at(
     out[k0] = solve_slice(p, frame, rhos[k0], start.0, used, iterations);
     let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
     for dir in [1i64, -1] {
-        let mut prev = out[k0].map(|s| s.a).unwrap_or(start.0);
-        // The slice before `prev` in this direction (ln ρ, five): with it the next start is
-        // extrapolated along the valley, linearly in ln ρ.
-        let mut before: Option<(f64, V5)> = None;
-        let mut prev_x = rhos[k0].ln();
+        // The last slices in this direction (ln ρ, five), latest last: the next start is extrapolated
+        // along the valley through them, quadratically in ln ρ once there are three.
+        let mut trail: Vec<(f64, V5)> =
+            vec![(rhos[k0].ln(), out[k0].map(|s| s.a).unwrap_or(start.0))];
         let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
         let mut run = 0;
         let mut k = k0 as i64 + dir;
         while k >= 0 && (k as usize) < rhos.len() {
             let ku = k as usize;
             let x = rhos[ku].ln();
-            let guess = match before {
-                Some((x0, a0)) => prev + (prev - a0) * ((x - prev_x) / (prev_x - x0)),
-                _ => prev,
-            };
-            out[ku] = solve_slice(p, frame, rhos[ku], guess, used, iterations);
+            out[ku] = solve_slice(p, frame, rhos[ku], extrapolate(&trail, x), used, iterations);
             if let Some(s) = out[ku] {
-                before = Some((prev_x, prev));
-                prev_x = x;
-                prev = s.a;
+                if trail.len() == 3 {
+                    trail.remove(0);
+                }
+                trail.push((x, s.a));
                 best = best.min(s.chi2);
                 let rising = s.chi2 > last_chi2 && s.chi2 > best + GIVE_UP_DCHI2;
                 run = if rising { run + 1 } else { 0 };
@@ -70,6 +66,21 @@ pub fn slices_at(
         }
     }
     out.into_iter().flatten().collect()
+}
+
+/// The Lagrange polynomial through the points (x, five) evaluated at `x`.
+fn extrapolate(points: &[(f64, V5)], x: f64) -> V5 {
+    let mut sum = V5::zeros();
+    for (i, (xi, ai)) in points.iter().enumerate() {
+        let w: f64 = points
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| *j != i)
+            .map(|(_, (xj, _))| (x - xj) / (xi - xj))
+            .product();
+        sum += ai * w;
+    }
+    sum
 }
 
 /// At most this many valleys of the coarse pass are refined (lowest first).
