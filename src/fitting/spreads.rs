@@ -78,13 +78,20 @@ pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);
     out.i_sigma = Some(sig.i);
-    // The values beside those σ: the most probable sampled orbit (one consistent set of elements),
-    // not the least-squares minimum, which the posterior may not favour.
-    let best = weights
-        .iter()
-        .enumerate()
-        .max_by(|a, b| a.1.total_cmp(b.1))
-        .map(|(k, _)| k);
+    // The values beside those σ: the sampled orbit whose e is nearest the posterior median of e (one
+    // consistent set of elements), not the least-squares minimum, which the posterior may not favour.
+    // Not the most probable sample: where the posterior has two modes of like height (a near-parabolic
+    // spike and a hyperbolic hump) that one jumps between them on the last bits of the data.
+    let e_values: Vec<f64> = els.iter().map(|el| el.e).collect();
+    let best = super::stats::weighted_quantile(&e_values, weights, 0.5).and_then(|median| {
+        (0..els.len())
+            .filter(|&k| weights[k] > 0.0)
+            .min_by(|&a, &b| {
+                (e_values[a] - median)
+                    .abs()
+                    .total_cmp(&(e_values[b] - median).abs())
+            })
+    });
     match best.and_then(|k| els.get(k)) {
         Some(el) => {
             out.e = Some(el.e);
@@ -139,4 +146,31 @@ pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, seed: u64) 
         KEPT_SAMPLES,
         seed,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fitting::input::Tracklet;
+
+    /// A state at perihelion (1 au, in the ecliptic) with eccentricity `e`: v² = μ(1 + e)/q.
+    fn at_perihelion(e: f64) -> S6 {
+        S6::new(1.0, 0.0, 0.0, 0.0, (MU_SUN * (1.0 + e)).sqrt(), 0.0)
+    }
+
+    #[test]
+    fn the_headline_orbit_is_the_sample_at_the_median_e_not_the_heaviest_one() {
+        // Two modes: one heavy sample far out (e 3) and a near-parabolic clump that holds most of the
+        // weight between its samples. The weighted median (cumulative 0.2, 0.4, 0.6 at 1.006) lies in
+        // the clump; the heaviest sample does not.
+        let es = [3.0, 1.004, 1.005, 1.006];
+        let weights = [0.4, 0.2, 0.2, 0.2];
+        let states: Vec<S6> = es.iter().map(|e| at_perihelion(*e)).collect();
+        let mut out = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        sample_spreads(&mut out, &states, &weights, 0.0, 1);
+        let e = out.e.unwrap();
+        assert!((e - 1.006).abs() < 1e-9, "{e}");
+        // Its other elements are that same orbit's (q 1 au at perihelion).
+        assert!((out.q_au.unwrap() - 1.0).abs() < 1e-9);
+    }
 }
