@@ -197,23 +197,47 @@ pub fn slices(
     if lowest > super::lsqrecord::NO_ORBIT_CHI2_PER_DOF * dof {
         return all;
     }
+    // A floor this far above the lowest slice holds less than e^-30 of the posterior: refining it
+    // would buy nothing, and its span (no wall rises 60 above a floor high on a flat tail) would
+    // replace the fine grid of the valley that matters with a coarse one.
     let floors: Vec<Slice> = valley_floors(&all, true)
         .into_iter()
         .map(|k| all[k])
+        .filter(|s| s.chi2 - lowest < OUT_OF_REACH_DCHI2)
         .collect();
-    for floor in floors {
-        // A neighbouring valley's refinement may have replaced this floor already.
-        if !all.iter().any(|s| s.rho == floor.rho) {
-            continue;
+    // Highest floor first: a refinement replaces the slices across its span, so the valley holding
+    // most of the posterior is refined last and keeps its fine grid whatever the others' spans cover.
+    for floor in floors.into_iter().rev() {
+        if let Some(now) = floor_now(&all, &floor) {
+            refine_valley(p, frame, &mut all, now, used, opts);
         }
-        refine_valley(p, frame, &mut all, floor, used, opts);
     }
     all
 }
 
-/// Refine about a valley's floor across its coarse walls, then zoom in on every floor that first pass
-/// shows inside its span (lowest first): the span can hold two valleys narrower than the coarse
-/// spacing, and two nights pin ρ to a fraction of a per cent when far apart.
+/// `floor` if it is still in the grid; if a wider refinement has replaced it by a coarser grid, the
+/// lowest slice of the valley it lay in as that grid shows it.
+fn floor_now(all: &[Slice], floor: &Slice) -> Option<Slice> {
+    if all.iter().any(|s| s.rho == floor.rho) {
+        return Some(*floor);
+    }
+    let rho = floor.rho;
+    let ids = valley_ids(all);
+    let off = |k: usize| (all[k].rho / rho).ln().abs();
+    let near = (0..all.len()).min_by(|&a, &b| off(a).total_cmp(&off(b)))?;
+    (0..all.len())
+        .filter(|&k| ids[k] == ids[near])
+        .min_by(|&a, &b| all[a].chi2.total_cmp(&all[b].chi2))
+        .map(|k| all[k])
+}
+
+/// χ² this far above a valley's floor bounds its span; a floor this far above the lowest slice is not
+/// refined at all.
+const OUT_OF_REACH_DCHI2: f64 = 60.0;
+
+/// Refine about a valley's floor across its coarse walls, then zoom in on the lowest floors that first
+/// pass shows inside its span: the span can hold two valleys narrower than the coarse spacing, and two
+/// nights pin ρ to a fraction of a per cent when far apart.
 fn refine_valley(
     p: &Problem,
     frame: &Frame,
@@ -226,17 +250,19 @@ fn refine_valley(
     // it is, so the first pass spans the valley between its coarse walls.
     let (lo, hi) = refine_range(all, &floor, opts, false);
     refine_between(p, frame, all, &floor, (lo, hi), used);
+    let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
     let mut inner: Vec<Slice> = floors_by_rho(all, true)
         .into_iter()
         .map(|k| all[k])
-        .filter(|s| (lo..=hi).contains(&s.rho.ln()))
+        .filter(|s| (lo..=hi).contains(&s.rho.ln()) && s.chi2 - lowest < OUT_OF_REACH_DCHI2)
         .collect();
     inner.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
-    for best in inner.into_iter().take(ZOOMS_PER_VALLEY) {
-        // An earlier zoom may have replaced this floor already.
-        if all.iter().any(|s| s.rho == best.rho) {
-            let range = refine_range(all, &best, opts, true);
-            refine_between(p, frame, all, &best, range, used);
+    inner.truncate(ZOOMS_PER_VALLEY);
+    // Highest first, as for the valleys: the lowest floor's zoom is the one no other replaces.
+    for best in inner.into_iter().rev() {
+        if let Some(now) = floor_now(all, &best) {
+            let range = refine_range(all, &now, opts, true);
+            refine_between(p, frame, all, &now, range, used);
         }
     }
 }
@@ -276,7 +302,10 @@ fn refine_between(
     all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
 }
 
-/// The ln ρ range to refine about one valley's lowest slice: where χ² is within 60 of it, bounded by
+/// The least spacing in ln ρ of the three slices a zoom's parabola passes through.
+const PARABOLA_BASE: f64 = 0.01;
+
+/// The ln ρ range to refine about one valley's lowest slice: where χ² is within `OUT_OF_REACH_DCHI2` of it, bounded by
 /// the neighbouring slices, and (with `parabola`) no wider than ±8 σ of a parabola through it and its
 /// neighbours when that is narrower.
 fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions, parabola: bool) -> (f64, f64) {
@@ -284,17 +313,22 @@ fn refine_range(all: &[Slice], best: &Slice, opts: &ProfileOptions, parabola: bo
     let x = |i: usize| all[i].rho.ln();
     let lo_n = all
         .iter()
-        .rposition(|s| s.rho < best.rho && s.chi2 - best.chi2 >= 60.0)
+        .rposition(|s| s.rho < best.rho && s.chi2 - best.chi2 >= OUT_OF_REACH_DCHI2)
         .map_or(opts.rho_min_au.ln(), x);
     let hi_n = all
         .iter()
-        .position(|s| s.rho > best.rho && s.chi2 - best.chi2 >= 60.0)
+        .position(|s| s.rho > best.rho && s.chi2 - best.chi2 >= OUT_OF_REACH_DCHI2)
         .map_or(opts.rho_max_au.ln(), x);
-    if !parabola || k == 0 || k + 1 >= all.len() {
+    // The parabola's other points: the nearest slices at least `PARABOLA_BASE` away on each side (a
+    // neighbour a hair away, such as a kept slice beside a new grid node, makes χ²'s last digits
+    // look like a steep valley and the zoom a sliver).
+    let below = (0..k).rev().find(|&i| x(k) - x(i) >= PARABOLA_BASE);
+    let above = (k + 1..all.len()).find(|&i| x(i) - x(k) >= PARABOLA_BASE);
+    let (Some(kl), Some(kh), true) = (below, above, parabola) else {
         return (lo_n, hi_n);
-    }
-    let (x0, x1, x2) = (x(k - 1), x(k), x(k + 1));
-    let (y0, y1, y2) = (all[k - 1].chi2, all[k].chi2, all[k + 1].chi2);
+    };
+    let (x0, x1, x2) = (x(kl), x(k), x(kh));
+    let (y0, y1, y2) = (all[kl].chi2, all[k].chi2, all[kh].chi2);
     // Second derivative of the parabola through the three points; χ² ≈ c (x − v)² near the bottom.
     let d = (y2 - y1) / (x2 - x1) - (y1 - y0) / (x1 - x0);
     let curv = d / (0.5 * (x2 - x0));
