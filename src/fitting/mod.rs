@@ -38,3 +38,4 @@ pub mod significance;
 pub mod spreads;
 pub mod stats;
 pub mod twonight;
+pub mod valleyzoom;

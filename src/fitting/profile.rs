@@ -334,7 +334,7 @@ pub fn profile(
     ctx: &DensityContext,
     opts: &ProfileOptions,
 ) -> Option<Profile> {
-    let mut all = super::rangescan::slices(p, frame, start, seeds, used, opts);
+    let mut all = super::valleyzoom::slices(p, frame, start, seeds, used, opts);
     let nc = SliceQuadrature {
         frame,
         ctx,
