@@ -11,7 +11,7 @@
 use super::lsq::Problem;
 use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior};
-use super::profilequad::SliceQuadrature;
+use super::profilequad::{SliceQuadrature, trapezoid};
 use super::shortarc::tangent_axes;
 use crate::physics::constants::{MU_BARY_OVER_SUN, MU_SUN};
 use crate::physics::observe::ObserverState;
@@ -308,22 +308,6 @@ pub struct DensityContext<'a> {
     pub v_mag: f64,
 }
 
-/// Trapezoid weights in ln ρ for nodes at arbitrary (sorted) distances.
-fn trapezoid(rhos: &[f64]) -> Vec<f64> {
-    let x: Vec<f64> = rhos.iter().map(|r| r.ln()).collect();
-    (0..x.len())
-        .map(|k| {
-            let left = if k > 0 { x[k] - x[k - 1] } else { 0.0 };
-            let right = if k + 1 < x.len() {
-                x[k + 1] - x[k]
-            } else {
-                0.0
-            };
-            0.5 * (left + right)
-        })
-        .collect()
-}
-
 /// The posterior along the profile.
 pub fn profile(
     p: &Problem,
@@ -342,7 +326,13 @@ pub fn profile(
         breaks: ctx.model.inverse_a_breaks(),
     };
     let first_best = all.iter().map(|s| s.chi2).reduce(f64::min)?;
-    let per_slice = super::profilequad::refine_steep(p, frame, &mut all, used, &nc, first_best);
+    let per_slice = if super::valleyzoom::no_orbit_near(&all, used) {
+        (0..all.len())
+            .map(|k| nc.nodes(k, &all[k], first_best))
+            .collect()
+    } else {
+        super::profilequad::refine_steep(p, frame, &mut all, used, &nc, first_best)
+    };
     let best = all
         .iter()
         .min_by(|a, b| a.chi2.total_cmp(&b.chi2))

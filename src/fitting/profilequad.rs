@@ -234,3 +234,19 @@ pub fn refine_steep(
     }
     nodes
 }
+
+/// Trapezoid weights in ln ρ for nodes at arbitrary (sorted) distances.
+pub fn trapezoid(rhos: &[f64]) -> Vec<f64> {
+    let x: Vec<f64> = rhos.iter().map(|r| r.ln()).collect();
+    (0..x.len())
+        .map(|k| {
+            let left = if k > 0 { x[k] - x[k - 1] } else { 0.0 };
+            let right = if k + 1 < x.len() {
+                x[k + 1] - x[k]
+            } else {
+                0.0
+            };
+            0.5 * (left + right)
+        })
+        .collect()
+}

@@ -1,7 +1,7 @@
 //! The scan of a multi-night arc over distance: slices (the best fit of the other five at fixed ρ) on
-//! a coarse logarithmic grid, then finer grids inside every valley that can matter. A valley narrower
-//! than the coarse spacing shows only as a coarse slice lower than both neighbours, however deep it
-//! really is, so every such local minimum is refined, not only the lowest.
+//! a coarse logarithmic grid, and its valleys. A valley narrower than the coarse spacing shows only as
+//! a coarse slice lower than both neighbours, however deep it really is, so every such local minimum
+//! counts as a floor (`valleyzoom.rs` refines them), not only the lowest.
 
 use super::lsq::Problem;
 use super::profile::{Frame, ProfileOptions, Slice, V5, solve_slice};
@@ -39,17 +39,29 @@ pub fn slices_at(
     let mut best = out[k0].map_or(f64::INFINITY, |s| s.chi2);
     for dir in [1i64, -1] {
         // The last slices in this direction (ln ρ, five), latest last: the next start is extrapolated
-        // along the valley through them, quadratically in ln ρ once there are three.
+        // along the valley through them, linearly in ln ρ, or quadratically while that predicted the
+        // last slice better (smooth valleys; a jagged one, as of a false linkage, makes it overshoot).
         let mut trail: Vec<(f64, V5)> =
             vec![(rhos[k0].ln(), out[k0].map(|s| s.a).unwrap_or(start.0))];
+        let mut quadratic = false;
         let mut last_chi2 = out[k0].map_or(f64::INFINITY, |s| s.chi2);
         let mut run = 0;
         let mut k = k0 as i64 + dir;
         while k >= 0 && (k as usize) < rhos.len() {
             let ku = k as usize;
             let x = rhos[ku].ln();
-            out[ku] = solve_slice(p, frame, rhos[ku], extrapolate(&trail, x), used, iterations);
+            let linear = extrapolate(&trail[trail.len().saturating_sub(2)..], x);
+            let curved = extrapolate(&trail, x);
+            let guess = if quadratic { curved } else { linear };
+            out[ku] = solve_slice(p, frame, rhos[ku], guess, used, iterations);
             if let Some(s) = out[ku] {
+                // Misses in units of the slice's own σ of each of the five.
+                let miss = |g: &V5| {
+                    (0..5)
+                        .map(|i| (s.a[i] - g[i]).powi(2) / s.cov[(i, i)].max(1e-300))
+                        .sum::<f64>()
+                };
+                quadratic = miss(&curved) <= miss(&linear);
                 if trail.len() == 3 {
                     trail.remove(0);
                 }
@@ -83,7 +95,7 @@ fn extrapolate(points: &[(f64, V5)], x: f64) -> V5 {
     sum
 }
 
-/// At most this many valleys of the coarse pass are refined (lowest first).
+/// At most this many valleys of the coarse pass are refined (the lowest ones).
 pub const MAX_VALLEYS: usize = 3;
 
 /// Slices over the whole ρ grid (the coarse pass), sorted by ρ, each in at most `iterations` steps

@@ -28,15 +28,10 @@ pub fn slices(
         }
     }
     all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
-    // No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on
-    // its least bad distance would buy nothing.
-    let dof = (2 * used.iter().filter(|u| **u).count())
-        .saturating_sub(6)
-        .max(1) as f64;
-    let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
-    if lowest > super::lsqrecord::NO_ORBIT_CHI2_PER_DOF * dof {
+    if no_orbit_near(&all, used) {
         return all;
     }
+    let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
     // A floor this far above the lowest slice holds less than e^-30 of the posterior: refining it
     // would buy nothing, and its span (no wall rises 60 above a floor high on a flat tail) would
     // replace the fine grid of the valley that matters with a coarse one.
@@ -53,6 +48,16 @@ pub fn slices(
         }
     }
     all
+}
+
+/// No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on its
+/// least bad distance, or on where its weight changes, would buy nothing.
+pub fn no_orbit_near(all: &[Slice], used: &[bool]) -> bool {
+    let dof = (2 * used.iter().filter(|u| **u).count())
+        .saturating_sub(6)
+        .max(1) as f64;
+    let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
+    lowest > super::lsqrecord::NO_ORBIT_CHI2_PER_DOF * dof
 }
 
 /// `floor` if it is still in the grid; if a wider refinement has replaced it by a coarser grid, the
