@@ -179,9 +179,14 @@ fn a_decisive_linear_answer_with_a_poorly_known_range_takes_its_spread_from_the_
     // neo187r_p013n, second draw of a survey with seed 777: one minimum at ρ 0.71 AU whose range is
     // known to 10 %, and e climbs from 0.12 to 0.29 towards the truth at 0.93 AU (Δχ² 3.7 on the profile).
     // Gaussian draws about the minimum gave e 0.116 ± 0.033 (pull −5.5); the profile follows the valley.
-    let (t, tr) = survey_draw(777, "neo187r_p013n", 1);
-    let r = fit_tracklet(&tr, &ObserverModel::new(), &FitOptions::default());
-    let (e, s) = (r.e.unwrap(), r.e_sigma.unwrap());
-    let pull = (e - t["e"].as_f64().unwrap()) / s;
-    assert!(pull.abs() < 3.0, "e {e} ± {s}, pull {pull}");
+    // The third draw of seed 31337 is the same arc with its range known to between 5 and 10 %: there the
+    // draws gave e 0.111 ± 0.022 against a true 0.295 (pull −8.4) until the threshold came down to 5 %.
+    for (seed, draw) in [(777, 1), (31337, 2)] {
+        let (t, tr) = survey_draw(seed, "neo187r_p013n", draw);
+        let r = fit_tracklet(&tr, &ObserverModel::new(), &FitOptions::default());
+        let (e, s) = (r.e.unwrap(), r.e_sigma.unwrap());
+        let pull = (e - t["e"].as_f64().unwrap()) / s;
+        eprintln!("seed {seed} draw {draw}: e {e:.4} ± {s:.4}, pull {pull:+.2}");
+        assert!(pull.abs() < 3.0, "seed {seed}: e {e} ± {s}, pull {pull}");
+    }
 }

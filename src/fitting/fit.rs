@@ -217,7 +217,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
     let distrusted =
         !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
-    // A decisive linear z settles the class, but where the range is known to worse than 10 % its
+    // A decisive linear z settles the class, but where the range is known to worse than 5 % its
     // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
     let range_known = range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED);
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)

@@ -42,7 +42,7 @@ fn bary_e(x: &S6, shift: &S6) -> f64 {
 
 /// A range known to this (relative σ) or better: the linear answer's draws can follow e along the
 /// valley.
-pub const RANGE_TRUSTED: f64 = 0.1;
+pub const RANGE_TRUSTED: f64 = 0.05;
 
 /// Why the linear answer cannot be trusted, if it cannot.
 pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<String> {
