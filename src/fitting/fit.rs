@@ -186,6 +186,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         return fallback("no initial orbit converged");
     };
     let (mut fit, alternatives) = (found.best, found.alternatives);
+    let flatter = found.flatter_than_linear;
     let nbody = NBody::new();
     let perturb = needs_perturbations(&problem, &fit, opts.perturbations);
     let dynamics: &dyn Dynamics = if perturb { &nbody } else { &two_body };
@@ -216,10 +217,11 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
     let distrusted =
-        !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
+        !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty() || flatter;
     // A decisive linear z settles the class, but where the range is known to worse than 5 % its
     // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
-    let range_known = range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED);
+    let range_known =
+        range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED) && !flatter;
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty()
@@ -229,9 +231,12 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     if distrusted
         && !decided
         && !hopeless
-        && let Some(r) =
+        && let Some(mut r) =
             super::twonight::fit_by_profile(inputs, Some(fit.state), &found.elsewhere, dynamics)
     {
+        if flatter {
+            r.distrust_linear.push(FLATTER_REASON.into());
+        }
         return r;
     }
     lsq_result(
@@ -290,6 +295,10 @@ fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
     let e = CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e;
     (s > 0.0).then(|| (e - 1.0) / s)
 }
+
+/// Why a fit whose χ² beside the minimum rose well short of its covariance's prediction went to the
+/// range profile.
+pub const FLATTER_REASON: &str = "χ² along the distance flatter than the covariance predicts";
 
 /// Relative range uncertainty beyond which a short arc is handed to ranging.
 pub const DEGENERATE_RANGE: f64 = 0.3;

@@ -52,6 +52,9 @@ pub struct Found {
     pub alternatives: Vec<LsqFit>,
     /// Every other distinct minimum within `PROFILE_SEED_DCHI2` (all observations), for the profile.
     pub elsewhere: Vec<S6>,
+    /// χ² beside the best minimum, along the distance, rose well short of what its covariance
+    /// predicts: the linear σ understates how far the data let the orbit go.
+    pub flatter_than_linear: bool,
 }
 
 /// The best least-squares orbit of the arc, the other distinct minima within `ALTERNATIVE_DCHI2`, and
@@ -59,13 +62,15 @@ pub struct Found {
 pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -> Option<Found> {
     let mut minima = gauss_minima(p, opts);
     // Arcs of many nights pin the distance with no second valley to fall into.
-    if let Some(scan) = scan
-        && p.tracklet.n_nights() <= MAX_SCAN_NIGHTS
-    {
-        valley_minima(p, opts, scan, &mut minima);
-    }
+    let flat_sided = match scan {
+        Some(scan) if p.tracklet.n_nights() <= MAX_SCAN_NIGHTS => {
+            valley_minima(p, opts, scan, &mut minima)
+        }
+        _ => Vec::new(),
+    };
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     let best = minima.first()?.clone();
+    let flatter_than_linear = flat_sided.iter().any(|m| same_minimum(&best, m));
     let elsewhere = minima
         .iter()
         .skip(1)
@@ -96,6 +101,7 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
         best: best_fit,
         alternatives: others,
         elsewhere,
+        flatter_than_linear,
     })
 }
 
@@ -233,8 +239,14 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
 
 /// Minima from the valleys of a coarse scan over distance that no minimum found so far sits in: a
 /// valley narrower than the scan's spacing can hold the true orbit while Gauss's roots all lead to
-/// a wider, shallower one.
-fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut Vec<LsqFit>) {
+/// a wider, shallower one. Returns the minima whose χ² rose beside them well short of their linear
+/// prediction.
+fn valley_minima(
+    p: &Problem,
+    opts: &FitOptions,
+    scan: &ScanStart,
+    minima: &mut Vec<LsqFit>,
+) -> Vec<LsqFit> {
     let used = vec![true; p.len()];
     let popts = ProfileOptions {
         v_cap_km_s: opts.ranging.v_cap_km_s,
@@ -244,6 +256,7 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
     let coarse = coarse_slices(p, &scan.frame, scan.start, &used, &popts, SCAN_ITERATIONS);
     // Every floor is corrected, even next to a minimum already found: two valleys can lie within
     // one spacing of the scan (merge() keeps distinct minima only).
+    let mut flat_sided = Vec::new();
     for k in valley_floors(&coarse, true) {
         let s = coarse[k];
         if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
@@ -259,54 +272,88 @@ fn valley_minima(p: &Problem, opts: &FitOptions, scan: &ScanStart, minima: &mut 
             (None, None) => None,
         };
         if let Some(bracket) = bracket {
-            probe_bracket(p, opts, scan, bracket, minima);
+            flat_sided.extend(probe_bracket(p, opts, scan, bracket, minima));
         }
     }
+    flat_sided
 }
 
 /// A probe counts as a second minimum's sign when its χ² has risen less than this share of what the
 /// known minimum's own curvature in ln ρ predicts there.
 const PROBE_RISE_SHARE: f64 = 0.5;
+/// A probe that rose less than this share of the prediction, where the prediction is at least
+/// `FLAT_MIN_PREDICTED` (2σ) and the rise below `FLAT_MAX_RISE` (5σ: the data still allow that
+/// distance), marks its minimum's covariance as too narrow along the distance.
+const FLAT_RISE_SHARE: f64 = 0.75;
+const FLAT_MIN_PREDICTED: f64 = 4.0;
+const FLAT_MAX_RISE: f64 = 25.0;
+
+/// A known minimum seen from the scan's frame: its other five parameters, distance, χ² and σ of ln ρ.
+#[derive(Clone, Copy)]
+struct Inside {
+    a: V5,
+    rho: f64,
+    chi2: f64,
+    sigma: f64,
+    index: usize,
+}
 
 /// One valley of the scan can hold two minima closer than its spacing (near-Earth arcs have shown it):
 /// on each side of the minima known inside the bracket, a slice halfway (in ln ρ) to the bracket's end.
 /// Where χ² there has risen much less than the known minimum's curvature predicts, the profile
-/// flattens or dips again, and a correction starts from that slice.
+/// flattens or dips again, and a correction starts from that slice. Returns the minima whose probe
+/// rose well short of the prediction.
 fn probe_bracket(
     p: &Problem,
     opts: &FitOptions,
     scan: &ScanStart,
     (lo, hi): (f64, f64),
     minima: &mut Vec<LsqFit>,
-) {
+) -> Vec<LsqFit> {
     let used = vec![true; p.len()];
     let frame = &scan.frame;
-    let inside: Vec<(V5, f64, f64, f64)> = minima
+    let inside: Vec<Inside> = minima
         .iter()
-        .filter_map(|m| {
+        .enumerate()
+        .filter_map(|(index, m)| {
             let (a, rho) = frame.params(&m.state);
             // σ of ln ρ: the relative σ of the range.
             let sigma = relative_range_sigma(p, m)?;
-            (rho > lo && rho < hi).then_some((a, rho, m.chi2, sigma))
+            (rho > lo && rho < hi).then_some(Inside {
+                a,
+                rho,
+                chi2: m.chi2,
+                sigma,
+                index,
+            })
         })
         .collect();
-    let by_rho = |x: &&(V5, f64, f64, f64), y: &&(V5, f64, f64, f64)| x.1.total_cmp(&y.1);
+    let by_rho = |x: &&Inside, y: &&Inside| x.rho.total_cmp(&y.rho);
     let (Some(first), Some(last)) = (inside.iter().min_by(by_rho), inside.iter().max_by(by_rho))
     else {
-        return;
+        return Vec::new();
     };
-    for ((a, rho, chi2, sigma), end) in [(*last, hi), (*first, lo)] {
-        let probe = (rho * end).sqrt();
-        let predicted = ((probe / rho).ln() / sigma).powi(2);
-        let Some(s) = solve_slice(p, frame, probe, a, &used, SCAN_ITERATIONS) else {
+    let mut flat = Vec::new();
+    for (m, end) in [(*last, hi), (*first, lo)] {
+        let probe = (m.rho * end).sqrt();
+        let predicted = ((probe / m.rho).ln() / m.sigma).powi(2);
+        let Some(s) = solve_slice(p, frame, probe, m.a, &used, SCAN_ITERATIONS) else {
             continue;
         };
-        if s.chi2 - chi2 < PROBE_RISE_SHARE * predicted
+        let rise = s.chi2 - m.chi2;
+        if predicted >= FLAT_MIN_PREDICTED
+            && rise < FLAT_RISE_SHARE * predicted
+            && rise < FLAT_MAX_RISE
+        {
+            flat.push(minima[m.index].clone());
+        }
+        if rise < PROBE_RISE_SHARE * predicted
             && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, &basins(minima))
         {
             merge(minima, f);
         }
     }
+    flat
 }
 
 fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {
