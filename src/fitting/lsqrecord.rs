@@ -104,7 +104,7 @@ pub fn lsq_result(
                 &mut out,
                 &g.states,
                 &g.weights,
-                fit.epoch.value(),
+                (fit.epoch.value(), shift),
                 opts.seed,
             );
         }
@@ -122,7 +122,7 @@ pub fn lsq_result(
         && !distrust_reasons(p, fit, shift).is_empty()
         && let Some(c) = fit.cov
     {
-        super::spreads::gaussian_spreads(&mut out, fit, &c, opts.seed);
+        super::spreads::gaussian_spreads(&mut out, fit, &c, shift, opts.seed);
     }
     out.poor_fit = poor_fit_reasons(p, fit, e_helio, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {
@@ -327,5 +327,11 @@ fn lsq_probability(
             }
         }
     }
-    super::spreads::sample_spreads(out, &set.states, &set.weights, fit.epoch.value(), opts.seed);
+    super::spreads::sample_spreads(
+        out,
+        &set.states,
+        &set.weights,
+        (fit.epoch.value(), shift),
+        opts.seed,
+    );
 }

@@ -2,11 +2,13 @@
 //! acceleration, the Sun's barycentric motion, the night's magnitude), a refinement loop that keeps
 //! the quadrature error small against the decision, and the record the console and `fit` show.
 
+use super::covariance::ElementSigmas;
 use super::input::Tracklet;
 use super::kinds::{FitMethod, FitStatus, ProbabilitySource};
 use super::population::PopulationModel;
 use super::result::{FitResult, KEPT_SAMPLES, RangingOut, elements_out};
-use super::shortarc::{Geometry, Node, ShortArc, ShortArcOptions, one_night};
+use super::shortarc::{Geometry, ShortArc, ShortArcOptions, one_night};
+use super::significance::{MU_BARY, incoming};
 use super::stats::weighted_quantile;
 use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
@@ -182,18 +184,13 @@ fn summarise(
             1.0 / picks.len() as f64,
         ));
     }
-    let eq = vec![1.0; els.len()];
-    let q3 = |f: &dyn Fn(&CometaryElements) -> f64| {
-        let v: Vec<f64> = els.iter().map(f).collect();
-        [0.025, 0.1587, 0.5, 0.8413, 0.975]
-            .map(|q| weighted_quantile(&v, &eq, q).unwrap_or(f64::NAN))
-    };
-    let (qe, qq, qi) = (q3(&|e| e.e), q3(&|e| e.q), q3(&|e| e.i));
-    out.e = Some(qe[2]);
+    let (qe, qq, qi) = (
+        quantiles(&els, |e| e.e),
+        quantiles(&els, |e| e.q),
+        quantiles(&els, |e| e.i),
+    );
     out.e_sigma = Some((qe[3] - qe[1]) / 2.0);
-    out.q_au = Some(qq[2]);
     out.q_sigma = Some((qq[3] - qq[1]) / 2.0);
-    out.i_deg = Some(qi[2]);
     out.i_sigma = Some((qi[3] - qi[1]) / 2.0);
     out.ranging = Some(RangingOut {
         trials: arc.evaluations,
@@ -203,41 +200,32 @@ fn summarise(
         q_interval: [qq[0], qq[2], qq[4]],
         i_interval: [qi[0], qi[2], qi[4]],
     });
-    out.samples = kept;
-    // The most probable node stands for the orbit in the panes and residuals.
-    let best: &Node = arc
-        .nodes
-        .iter()
-        .max_by(|a, b| a.ln_w.total_cmp(&b.ln_w))
-        .unwrap_or(&arc.nodes[0]);
-    let (x, t) = arc.state(g, best, [0.0; 4]);
-    let (r, v) = split_state(&x);
-    let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), t.value(), MU_SUN);
-    let xb = x + g.sun_bary;
-    let (rb, vb) = split_state(&xb);
-    let elb = CometaryElements::from_state(&rb, &vb, t.value(), super::significance::MU_BARY);
-    out.e_bary = Some(elb.e);
-    out.inv_a_bary = Some(elb.inv_a);
-    out.epoch_jd_tdb = Some(t.value());
     // One σ per quantity: half the central 68 % of the kept orbits, the same in every view.
-    let half68 = |f: &dyn Fn(&CometaryElements) -> f64| {
-        let v: Vec<f64> = els.iter().map(f).collect();
-        let (a, b) = (
-            weighted_quantile(&v, &eq, 0.1587).unwrap_or(f64::NAN),
-            weighted_quantile(&v, &eq, 0.8413).unwrap_or(f64::NAN),
-        );
-        (b - a) / 2.0
+    let sig = half_widths(&els, [qq, qe, qi]);
+    // The orbit that stands for the answer in the table, the panes and the residuals: of the kept
+    // orbits' nodes, each at the night's own attributable, the one whose e is nearest the median e
+    // (so that e, q, i and the residuals are one orbit's, e near the middle of its interval).
+    let mut nodes = picks.clone();
+    nodes.dedup();
+    let at_node = |k: usize| {
+        let (x, t) = arc.state(g, &arc.nodes[k], [0.0; 4]);
+        let (r, v) = split_state(&x);
+        let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), t.value(), MU_SUN);
+        (x, t, el)
     };
-    let sig = super::covariance::ElementSigmas {
-        q: (qq[3] - qq[1]) / 2.0,
-        e: (qe[3] - qe[1]) / 2.0,
-        i: (qi[3] - qi[1]) / 2.0,
-        node: half68(&|e| e.node),
-        peri: half68(&|e| e.peri),
-        tp: half68(&|e| e.tp),
-        inv_a: half68(&|e| e.inv_a),
-    };
+    let (x, t, el) = nodes
+        .into_iter()
+        .map(at_node)
+        .min_by(|a, b| (a.2.e - qe[2]).abs().total_cmp(&(b.2.e - qe[2]).abs()))
+        .unwrap_or_else(|| at_node(0));
+    let (r, v) = split_state(&x);
+    out.e = Some(el.e);
+    out.q_au = Some(el.q);
+    out.i_deg = Some(el.i);
+    out.epoch_jd_tdb = Some(t.value());
     out.elements = Some(elements_out(&el, Some(sig), MU_SUN));
+    barycentric_line(out, &kept, &x, t, &g.sun_bary);
+    out.samples = kept;
     out.state = Some([x[0], x[1], x[2], x[3], x[4], x[5]]);
     out.n_used = tr.obs.len();
     let mut res = Vec::with_capacity(tr.obs.len());
@@ -267,6 +255,65 @@ fn summarise(
     } else {
         FitStatus::PoorFit
     };
+}
+
+/// The 2.5, 15.87, 50, 84.13 and 97.5 % points of an element over equally weighted orbits.
+fn quantiles(els: &[CometaryElements], f: impl Fn(&CometaryElements) -> f64) -> [f64; 5] {
+    let v: Vec<f64> = els.iter().map(f).collect();
+    let eq = vec![1.0; v.len()];
+    [0.025, 0.1587, 0.5, 0.8413, 0.975].map(|q| weighted_quantile(&v, &eq, q).unwrap_or(f64::NAN))
+}
+
+/// Half the central 68 % of the orbits' elements (q, e and i from their quantiles `[q, e, i]` already
+/// worked out).
+fn half_widths(els: &[CometaryElements], [qq, qe, qi]: [[f64; 5]; 3]) -> ElementSigmas {
+    let half68 = |f: fn(&CometaryElements) -> f64| {
+        let q = quantiles(els, f);
+        (q[3] - q[1]) / 2.0
+    };
+    ElementSigmas {
+        q: (qq[3] - qq[1]) / 2.0,
+        e: (qe[3] - qe[1]) / 2.0,
+        i: (qi[3] - qi[1]) / 2.0,
+        node: half68(|e| e.node),
+        peri: half68(|e| e.peri),
+        tp: half68(|e| e.tp),
+        inv_a: half68(|e| e.inv_a),
+    }
+}
+
+/// The barycentric line from the same orbits: the values of the orbit `x` shown (epoch `t`), the
+/// half-widths of the kept orbits' barycentric elements, and the arrival where that orbit is unbound.
+fn barycentric_line(
+    out: &mut FitResult,
+    kept: &[([f64; 6], f64, f64)],
+    x: &S6,
+    t: Jd2,
+    sun_bary: &S6,
+) {
+    let ecl = equatorial_to_ecliptic();
+    let bary = |x: &S6, t: f64| {
+        let (rb, vb) = split_state(&(x + sun_bary));
+        CometaryElements::from_state(&(ecl * rb), &(ecl * vb), t, MU_BARY)
+    };
+    let els: Vec<CometaryElements> = kept
+        .iter()
+        .map(|(s, t, _)| bary(&S6::from(*s), *t))
+        .collect();
+    let sig = half_widths(
+        &els,
+        [
+            quantiles(&els, |e| e.q),
+            quantiles(&els, |e| e.e),
+            quantiles(&els, |e| e.i),
+        ],
+    );
+    let elb = bary(x, t.value());
+    out.e_bary = Some(elb.e);
+    out.e_bary_sigma = Some(sig.e);
+    out.inv_a_bary = Some(elb.inv_a);
+    out.barycentric = Some(elements_out(&elb, Some(sig), MU_BARY));
+    out.incoming = incoming(&(x + sun_bary), MU_BARY, Some(sig.inv_a));
 }
 
 /// Indices picked by systematic resampling of `n` from weights (deterministic for a seed).

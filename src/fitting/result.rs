@@ -144,7 +144,8 @@ pub struct FitResult {
     pub poor_fit: Vec<String>,
     pub night_means: Vec<NightMean>,
     pub residuals: Vec<ResidualOut>,
-    /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides.
+    /// Heliocentric ICRF state at the epoch (AU, AU/day) and its covariance, for ephemerides: the
+    /// least-squares answer where there is one (even when the elements shown are a sample's).
     pub state: Option<[f64; 6]>,
     pub covariance: Option<Vec<[f64; 6]>>,
     /// What one more night from the last site is expected to buy (open candidates of 2+ nights).

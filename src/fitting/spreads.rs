@@ -6,6 +6,7 @@ use super::covariance::ElementSigmas;
 use super::lsq::LsqFit;
 use super::ranging::SplitMix;
 use super::result::{FitResult, KEPT_SAMPLES, elements_out, resample};
+use super::significance::{MU_BARY, incoming};
 use crate::physics::constants::MU_SUN;
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
@@ -40,16 +41,60 @@ fn angular_spread(
     var.sqrt().to_degrees()
 }
 
-/// Heliocentric ecliptic elements of equatorial states at `epoch`.
-fn elements_of(states: &[S6], epoch: f64) -> Vec<CometaryElements> {
+/// Ecliptic elements of equatorial heliocentric states at `epoch`: heliocentric, or barycentric with
+/// the Sun's barycentric state `shift`.
+fn elements_of(states: &[S6], epoch: f64, centre: Centre) -> Vec<CometaryElements> {
     let ecl = equatorial_to_ecliptic();
+    let (shift, mu) = match centre {
+        Centre::Sun => (S6::zeros(), MU_SUN),
+        Centre::Barycentre(shift) => (*shift, MU_BARY),
+    };
     states
         .iter()
         .map(|x| {
-            let (r, v) = split_state(x);
-            CometaryElements::from_state(&(ecl * r), &(ecl * v), epoch, MU_SUN)
+            let (r, v) = split_state(&(x + shift));
+            CometaryElements::from_state(&(ecl * r), &(ecl * v), epoch, mu)
         })
         .collect()
+}
+
+/// About which centre elements are taken.
+#[derive(Clone, Copy)]
+enum Centre<'a> {
+    Sun,
+    /// The barycentre, with the Sun's barycentric state.
+    Barycentre(&'a S6),
+}
+
+/// The barycentric line of a record from the same orbits as its heliocentric one: the spreads of the
+/// samples' barycentric elements, and, where the heliocentric values are those of sample `headline`,
+/// that sample's barycentric values and arrival (else the values already there keep their place).
+fn barycentric_spreads(
+    out: &mut FitResult,
+    states: &[S6],
+    weights: &[f64],
+    epoch: f64,
+    shift: &S6,
+    headline: Option<usize>,
+) {
+    let els = elements_of(states, epoch, Centre::Barycentre(shift));
+    let sig = element_sigmas(&els, weights);
+    out.e_bary_sigma = Some(sig.e);
+    let state = match headline.and_then(|k| Some((els.get(k)?, states[k]))) {
+        Some((el, x)) => {
+            out.e_bary = Some(el.e);
+            out.inv_a_bary = Some(el.inv_a);
+            out.barycentric = Some(elements_out(el, Some(sig), MU_BARY));
+            Some(x)
+        }
+        None => {
+            if let Some(b) = out.barycentric.as_mut() {
+                b.sigma = Some(sig);
+            }
+            out.state.map(S6::from)
+        }
+    };
+    out.incoming = state.and_then(|x| incoming(&(x + shift), MU_BARY, Some(sig.inv_a)));
 }
 
 /// Weighted spreads of every element (angles about their circular means).
@@ -72,8 +117,14 @@ fn element_sigmas(els: &[CometaryElements], weights: &[f64]) -> ElementSigmas {
 /// Element uncertainties from weighted samples (which follow the real, curved distribution), and
 /// the orbits kept for ephemerides. One σ per quantity: the samples' spreads stand in the table, the
 /// orbit pane and the JSON alike.
-pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch: f64, seed: u64) {
-    let els = elements_of(states, epoch);
+pub fn sample_spreads(
+    out: &mut FitResult,
+    states: &[S6],
+    weights: &[f64],
+    (epoch, shift): (f64, &S6),
+    seed: u64,
+) {
+    let els = elements_of(states, epoch, Centre::Sun);
     let sig = element_sigmas(&els, weights);
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);
@@ -105,6 +156,7 @@ pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch
             }
         }
     }
+    barycentric_spreads(out, states, weights, epoch, shift, best);
     out.samples = resample(
         states
             .iter()
@@ -119,7 +171,7 @@ pub fn sample_spreads(out: &mut FitResult, states: &[S6], weights: &[f64], epoch
 /// Where the elements curve within the fit's 1σ (the linear σ of e can be several times too small at a
 /// low-e estimate), their σ come from orbits drawn from the fit's Gaussian N(x, C): the values stay
 /// the least-squares ones, only the spreads (and the orbits kept for ephemerides) change.
-pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, seed: u64) {
+pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, shift: &S6, seed: u64) {
     let Some(chol) = cov.cholesky() else {
         return;
     };
@@ -130,13 +182,14 @@ pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, seed: u64) 
         .map(|_| state + l * S6::from_fn(|_, _| rng.normal()))
         .collect();
     let weights = vec![1.0 / GAUSSIAN_DRAWS as f64; GAUSSIAN_DRAWS];
-    let sig = element_sigmas(&elements_of(&states, epoch), &weights);
+    let sig = element_sigmas(&elements_of(&states, epoch, Centre::Sun), &weights);
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);
     out.i_sigma = Some(sig.i);
     if let Some(el) = out.elements.as_mut() {
         el.sigma = Some(sig);
     }
+    barycentric_spreads(out, &states, &weights, epoch, shift, None);
     out.samples = resample(
         states
             .iter()
@@ -167,7 +220,7 @@ mod tests {
         let weights = [0.4, 0.2, 0.2, 0.2];
         let states: Vec<S6> = es.iter().map(|e| at_perihelion(*e)).collect();
         let mut out = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
-        sample_spreads(&mut out, &states, &weights, 0.0, 1);
+        sample_spreads(&mut out, &states, &weights, (0.0, &S6::zeros()), 1);
         let e = out.e.unwrap();
         assert!((e - 1.006).abs() < 1e-9, "{e}");
         // Its other elements are that same orbit's (q 1 au at perihelion).
