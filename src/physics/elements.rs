@@ -97,13 +97,19 @@ impl CometaryElements {
             q,
             e,
             i: i / DEG,
-            node: (node / DEG).rem_euclid(360.0),
-            peri: (peri / DEG).rem_euclid(360.0),
+            node: turn_positive(node / DEG),
+            peri: turn_positive(peri / DEG),
             tp,
             inv_a: alpha,
             epoch,
         }
     }
+}
+
+/// An angle from atan2 in degrees, [−180°, 180°], taken to [0°, 360°): the same value as
+/// `rem_euclid(360.0)` there, without its floating-point remainder.
+fn turn_positive(deg: f64) -> f64 {
+    if deg < 0.0 { deg + 360.0 } else { deg }
 }
 
 /// t − Tp (days) from r, r·v, q, e, α, uniform in e.
@@ -141,6 +147,25 @@ pub(crate) fn rx(a: f64) -> M3 {
 mod tests {
     use super::*;
     use crate::physics::constants::MU_SUN;
+
+    #[test]
+    fn angles_from_atan2_are_turned_positive_exactly_as_the_remainder_would() {
+        let (mut n, mut edge) = (0, 0);
+        for k in 0..=20_000 {
+            let t = std::f64::consts::PI * (k as f64 / 10_000.0 - 1.0);
+            for (y, x) in [(t.sin(), t.cos()), (-0.0, -1.0), (0.0, -1.0), (-0.0, 1.0)] {
+                let deg = y.atan2(x) / DEG;
+                edge += usize::from(deg.abs() >= 180.0 || deg == 0.0);
+                assert_eq!(
+                    turn_positive(deg).to_bits(),
+                    deg.rem_euclid(360.0).to_bits(),
+                    "{deg}"
+                );
+                n += 1;
+            }
+        }
+        assert!(n > 80_000 && edge > 0, "{n} {edge}");
+    }
 
     #[test]
     fn perihelion_state_gives_back_its_elements() {
