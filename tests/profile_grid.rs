@@ -8,7 +8,7 @@ mod util;
 
 use interloper::fitting::fit::FitOptions;
 use interloper::fitting::perturb::TwoBody;
-use interloper::fitting::profile::{DensityContext, ProfileOptions, profile};
+use interloper::fitting::profile::{DensityContext, GridInputs, ProfileOptions, profile};
 use interloper::fitting::ranging::SplitMix;
 use interloper::fitting::significance::barycentric_with;
 use interloper::fitting::twonight::{ArcInputs, scan_start};
@@ -44,16 +44,15 @@ fn near_peak(tr: &interloper::fitting::input::Tracklet) -> (usize, f64) {
         v_mag: 21.0,
     };
     let used = vec![true; tr.obs.len()];
-    let prof = profile(
-        &p,
-        &start.frame,
-        start.start,
-        &[],
-        &used,
-        &ctx,
-        &ProfileOptions::default(),
-    )
-    .unwrap();
+    let grid = GridInputs {
+        p: &p,
+        frame: &start.frame,
+        start: start.start,
+        seeds: &[],
+        used: &used,
+        opts: &ProfileOptions::default(),
+    };
+    let prof = profile(&grid, &ctx).unwrap();
     let best = prof.best.chi2;
     let n = prof.slices.iter().filter(|s| s.chi2 <= best + 4.0).count();
     (n, prof.best.rho)

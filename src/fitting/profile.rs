@@ -13,6 +13,7 @@ use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior};
 use super::profilequad::{SliceQuadrature, trapezoid};
 use super::shortarc::tangent_axes;
+pub use super::valleyzoom::GridInputs;
 use crate::physics::constants::{MU_BARY_OVER_SUN, MU_SUN};
 use crate::physics::observe::ObserverState;
 use crate::physics::{S6, V3};
@@ -309,16 +310,10 @@ pub struct DensityContext<'a> {
 }
 
 /// The posterior along the profile.
-pub fn profile(
-    p: &Problem,
-    frame: &Frame,
-    start: (V5, f64),
-    seeds: &[(V5, f64)],
-    used: &[bool],
-    ctx: &DensityContext,
-    opts: &ProfileOptions,
-) -> Option<Profile> {
-    let mut all = super::valleyzoom::slices(p, frame, start, seeds, used, opts);
+pub fn profile(g: &GridInputs, ctx: &DensityContext) -> Option<Profile> {
+    let (p, frame, used, opts) = (g.p, g.frame, g.used, g.opts);
+    let grid = super::valleyzoom::slices(g);
+    let mut all = grid.slices;
     let nc = SliceQuadrature {
         frame,
         ctx,
@@ -326,7 +321,7 @@ pub fn profile(
         breaks: ctx.model.inverse_a_breaks(),
     };
     let first_best = all.iter().map(|s| s.chi2).reduce(f64::min)?;
-    let per_slice = if super::valleyzoom::no_orbit_near(&all, used) {
+    let per_slice = if !grid.orbit_near {
         (0..all.len())
             .map(|k| nc.nodes(k, &all[k], first_best))
             .collect()

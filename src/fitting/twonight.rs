@@ -9,7 +9,7 @@ use super::lsq::{LsqFit, Problem, correct, correct_with_outliers};
 use super::lsqrecord::{Given, lsq_result};
 use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
-use super::profile::{DensityContext, Frame, Profile, ProfileOptions, V5, profile};
+use super::profile::{DensityContext, Frame, GridInputs, Profile, ProfileOptions, V5, profile};
 use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
@@ -84,7 +84,15 @@ pub fn fit_by_profile(
         ..ProfileOptions::default()
     };
     let seeds: Vec<(V5, f64)> = elsewhere.iter().map(|x| frame.params(x)).collect();
-    let prof = profile(&p, &frame, start, &seeds, &used, &ctx, &popts)?;
+    let grid = GridInputs {
+        p: &p,
+        frame: &frame,
+        start,
+        seeds: &seeds,
+        used: &used,
+        opts: &popts,
+    };
+    let prof = profile(&grid, &ctx)?;
     let (ids, share) = valley_shares(&prof);
     // The answer is the valley the posterior favours (the prior and the volume of orbits can outweigh
     // a small Δχ²), so that its elements and the most probable sample agree; the others are listed.

@@ -10,14 +10,33 @@ use super::rangescan::{coarse_slices, floors_by_rho, slices_at, valley_floors, v
 /// start and each of `seeds` (other known minima) get a slice of their own: a valley narrower than the
 /// coarse spacing falls between two slices on its walls, and one behind a high ridge can lie where the
 /// coarse pass gave up.
-pub fn slices(
-    p: &Problem,
-    frame: &Frame,
-    start: (V5, f64),
-    seeds: &[(V5, f64)],
-    used: &[bool],
-    opts: &ProfileOptions,
-) -> Vec<Slice> {
+/// What a profile's grid is made from: the arc, its frame, the first slice's start, the other known
+/// minima, the observations used and the grid's options.
+pub struct GridInputs<'a> {
+    pub p: &'a Problem<'a>,
+    pub frame: &'a Frame,
+    pub start: (V5, f64),
+    pub seeds: &'a [(V5, f64)],
+    pub used: &'a [bool],
+    pub opts: &'a ProfileOptions,
+}
+
+/// The slices, sorted by ρ, and whether any of them comes near an acceptable fit (without one the
+/// valleys are not refined: see `no_orbit_near`).
+pub struct Grid {
+    pub slices: Vec<Slice>,
+    pub orbit_near: bool,
+}
+
+pub fn slices(g: &GridInputs) -> Grid {
+    let GridInputs {
+        p,
+        frame,
+        start,
+        seeds,
+        used,
+        opts,
+    } = *g;
     let mut all = coarse_slices(p, frame, start, used, opts, SLICE_ITERATIONS);
     for (a, rho) in std::iter::once(&start).chain(seeds) {
         if (opts.rho_min_au..=opts.rho_max_au).contains(rho)
@@ -29,7 +48,10 @@ pub fn slices(
     }
     all.sort_by(|a, b| a.rho.total_cmp(&b.rho));
     if no_orbit_near(&all, used) {
-        return all;
+        return Grid {
+            slices: all,
+            orbit_near: false,
+        };
     }
     let lowest = all.iter().map(|s| s.chi2).fold(f64::INFINITY, f64::min);
     // A floor this far above the lowest slice holds less than e^-30 of the posterior: refining it
@@ -47,12 +69,15 @@ pub fn slices(
             refine_valley(p, frame, &mut all, now, used, opts);
         }
     }
-    all
+    Grid {
+        slices: all,
+        orbit_near: true,
+    }
 }
 
 /// No slice anywhere near an acceptable fit: a false linkage or a broken position. Zooming in on its
 /// least bad distance, or on where its weight changes, would buy nothing.
-pub fn no_orbit_near(all: &[Slice], used: &[bool]) -> bool {
+fn no_orbit_near(all: &[Slice], used: &[bool]) -> bool {
     let dof = (2 * used.iter().filter(|u| **u).count())
         .saturating_sub(6)
         .max(1) as f64;
