@@ -204,8 +204,11 @@ pub fn point_with(
     let (major, minor, pa, from) = if !fit.samples.is_empty() {
         let (a, b, c) = sample_region(fit, dyn_.as_ref(), inst, &obs, p.ra, p.dec)?;
         (Some(a), Some(b), Some(c), "samples")
-    } else if let Some(cov) = fit.covariance.as_ref() {
-        let (a, b, c) = covariance_region(cov, &jac);
+    } else if let Some((a, b, c)) = fit
+        .covariance
+        .as_ref()
+        .and_then(|cov| covariance_region(cov, &jac))
+    {
         (Some(a), Some(b), Some(c), "covariance")
     } else {
         (None, None, None, "none")
@@ -252,10 +255,11 @@ pub fn point_with(
 
 /// 3σ semi-axes (arcsec) and position angle (degrees, north through east) of the sky ellipse of a
 /// state covariance under the partials `jac`.
-fn covariance_region(cov: &[[f64; 6]], jac: &nalgebra::Matrix2x6<f64>) -> (f64, f64, f64) {
+fn covariance_region(cov: &[[f64; 6]], jac: &nalgebra::Matrix2x6<f64>) -> Option<(f64, f64, f64)> {
     let g = M6::from_fn(|i, j| cov[i][j]);
     let sky = jac * g * jac.transpose();
-    let eig = sky.symmetric_eigen();
+    // Bounded: an iterative decomposition never settles on a non-finite matrix.
+    let eig = sky.try_symmetric_eigen(f64::EPSILON, super::lsqstep::MAX_SVD_SWEEPS)?;
     let (k_major, k_minor) = if eig.eigenvalues[0] >= eig.eigenvalues[1] {
         (0, 1)
     } else {
@@ -264,7 +268,7 @@ fn covariance_region(cov: &[[f64; 6]], jac: &nalgebra::Matrix2x6<f64>) -> (f64, 
     let u = eig.eigenvectors.column(k_major);
     let pa = u[0].atan2(u[1]).rem_euclid(std::f64::consts::PI) / DEG;
     let s = |k: usize| REGION_SIGMA * eig.eigenvalues[k].max(0.0).sqrt() / ARCSEC;
-    (s(k_major), s(k_minor), pa)
+    Some((s(k_major), s(k_minor), pa))
 }
 
 /// Extents of the propagated sample cloud: principal direction from the weighted scatter, then the

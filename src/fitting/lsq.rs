@@ -4,6 +4,7 @@
 //! the χ² test of Carpino, Milani & Chesley (2003, Icarus 166, 248).
 
 use super::input::Tracklet;
+use super::lsqstep::{covariance, lm_step, reduce};
 use super::perturb::Dynamics;
 pub use super::rejection::{correct_with_outliers, reject_threshold};
 use crate::physics::observe::{ObserverState, Prediction, project, residual};
@@ -174,6 +175,11 @@ pub(super) fn linearise(
         if pred.obj_pos.norm() < 0.005 {
             return Err(LsqError::TooClose);
         }
+        // A state far outside the arc's reach can propagate to non-finite partials: a step there is
+        // refused like any failed propagation.
+        if !(res.iter().all(|v| v.is_finite()) && jac.iter().all(|v| v.is_finite())) {
+            return Err(LsqError::Propagation("non-finite prediction".into()));
+        }
         residuals.push(res);
         partials.push(jac);
         if !used[i] {
@@ -202,71 +208,6 @@ pub(super) fn linearise(
         residuals,
         partials,
     })
-}
-
-/// The whitened rows reduced once by QR: R and Qᵀr, from which every damped step is a 12×6
-/// problem instead of one over all rows; D are the column norms of J (equal to those of R).
-struct Reduced {
-    r: M6,
-    qtr: S6,
-    d: S6,
-}
-
-fn reduce(lin: &Linearised) -> Option<Reduced> {
-    if lin.rows.nrows() < 6 {
-        return None;
-    }
-    let qr = lin.rows.clone().qr();
-    let mut qtr = lin.rhs.clone();
-    qr.q_tr_mul(&mut qtr);
-    let r = qr.r();
-    Some(Reduced {
-        r: M6::from_fn(|i, j| r[(i, j)]),
-        qtr: S6::from_fn(|i, _| qtr[i]),
-        d: S6::from_fn(|c, _| lin.rows.column(c).norm().max(1e-300)),
-    })
-}
-
-/// Least-squares solution of [J; √λ·D] Δ = [r; 0], as [R; √λ·D] Δ = [Qᵀr; 0] by QR.
-fn lm_step(red: &Reduced, lambda: f64) -> Option<S6> {
-    if lambda == 0.0 {
-        return red.r.solve_upper_triangular(&red.qtr);
-    }
-    let mut a = nalgebra::SMatrix::<f64, 12, 6>::zeros();
-    a.fixed_view_mut::<6, 6>(0, 0).copy_from(&red.r);
-    let mut b = nalgebra::SVector::<f64, 12>::zeros();
-    b.fixed_rows_mut::<6>(0).copy_from(&red.qtr);
-    for c in 0..6 {
-        a[(6 + c, c)] = lambda.sqrt() * red.d[c];
-    }
-    let qr = a.qr();
-    let mut qtb = b;
-    qr.q_tr_mul(&mut qtb);
-    qr.r()
-        .solve_upper_triangular(&qtb.fixed_rows::<6>(0).into_owned())
-}
-
-/// Covariance of the (unscaled) state from R (the rows' singular values and right vectors), None if
-/// singular.
-fn covariance(red: &Reduced, vscale: f64) -> Option<M6> {
-    let svd = red.r.svd(false, true);
-    let smax = svd.singular_values.max();
-    if svd.singular_values.min() <= 1e-13 * smax {
-        return None;
-    }
-    let vt = svd.v_t.as_ref()?;
-    let mut g = M6::zeros();
-    for k in 0..6 {
-        let s2 = svd.singular_values[k].powi(2);
-        let v = vt.row(k);
-        for i in 0..6 {
-            for j in 0..6 {
-                g[(i, j)] += v[i] * v[j] / s2;
-            }
-        }
-    }
-    let d = S6::new(1.0, 1.0, 1.0, 1.0 / vscale, 1.0 / vscale, 1.0 / vscale);
-    Some(M6::from_fn(|i, j| g[(i, j)] * d[i] * d[j]))
 }
 
 /// Options of the differential correction.
@@ -302,18 +243,23 @@ impl Default for LsqOptions {
 
 /// Levenberg–Marquardt from `x0` with the given observations in use.
 pub fn correct(p: &Problem, x0: &S6, used: &[bool], opts: &LsqOptions) -> Result<LsqFit, LsqError> {
-    correct_unless(p, x0, used, opts, |_| false)
+    correct_unless(p, x0, used, opts, |_, _| false)
 }
 
-/// Levenberg–Marquardt from `x0`, given up (`LsqError::Abandoned`) as soon as an accepted state
-/// satisfies `abandon`: a seed that has walked into the basin of a minimum already found would only
-/// converge to it again.
+/// Damping beyond which a correction whose linear model promises a fall of χ² below `STALL_PROMISE`
+/// counts as converged: every step, down to steps this short, raised χ².
+const STALL_LAMBDA: f64 = 1e4;
+const STALL_PROMISE: f64 = 0.1;
+
+/// Levenberg–Marquardt from `x0`, given up (`LsqError::Abandoned`) as soon as an accepted state and
+/// its χ² satisfy `abandon`: a seed that has walked into the basin of a minimum already found would
+/// only converge to it again.
 pub fn correct_unless(
     p: &Problem,
     x0: &S6,
     used: &[bool],
     opts: &LsqOptions,
-    abandon: impl Fn(&S6) -> bool,
+    abandon: impl Fn(&S6, f64) -> bool,
 ) -> Result<LsqFit, LsqError> {
     let n_used = used.iter().filter(|u| **u).count();
     if 2 * n_used < 6 {
@@ -334,11 +280,11 @@ pub fn correct_unless(
         let Some(rd) = red.as_ref() else {
             break;
         };
-        // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6).
+        // Distance to the minimum measured by the undamped step: ΔxᵀCΔx/6 (brief: < 1e-6). It is also
+        // the fall of χ² the linear model promises.
         let gn = lm_step(rd, 0.0);
-        if let Some(gn) = gn
-            && (rd.r * gn).norm_squared() / 6.0 < 1e-6
-        {
+        let promised = gn.map_or(f64::INFINITY, |gn| (rd.r * gn).norm_squared());
+        if promised / 6.0 < 1e-6 {
             converged = true;
             break;
         }
@@ -360,7 +306,7 @@ pub fn correct_unless(
             Ok(next) if next.chi2 <= lin.chi2 => {
                 let rel = (lin.chi2 - next.chi2) / lin.chi2.max(1e-300);
                 x = trial;
-                if abandon(&x) {
+                if abandon(&x, next.chi2) {
                     return Err(LsqError::Abandoned);
                 }
                 lin = next;
@@ -374,6 +320,13 @@ pub fn correct_unless(
             _ if undamped => undamped = false,
             _ => {
                 lambda *= 10.0;
+                // Stalled at the bottom: no step, however short, lowers χ² (the partials and χ² part
+                // at the level of rounding there), and the linear model promises less than
+                // `STALL_PROMISE`: the minimum to well within its own σ.
+                if lambda > STALL_LAMBDA && promised < STALL_PROMISE {
+                    converged = true;
+                    break;
+                }
                 if lambda > 1e10 {
                     break;
                 }

@@ -91,7 +91,10 @@ fn eccentricity_nonlinear(fit: &LsqFit, cov: &M6, bary_shift: &S6) -> bool {
     );
     let e0 = bary_e(&fit.state, bary_shift);
     let sigma_e = (grad * cov * grad.transpose())[0].max(0.0).sqrt();
-    let eig = cov.symmetric_eigen();
+    // A covariance the decomposition cannot settle is no ground for trusting the linear answer.
+    let Some(eig) = cov.try_symmetric_eigen(f64::EPSILON, super::lsqstep::MAX_SVD_SWEEPS) else {
+        return true;
+    };
     (0..6).any(|k| {
         let dx: S6 = eig.eigenvectors.column(k) * eig.eigenvalues[k].max(0.0).sqrt();
         let lin = (grad * dx)[0];

@@ -7,9 +7,7 @@ use super::fit::FitOptions;
 use super::gauss::{Sight, gauss};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_unless, correct_with_outliers};
 use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
-use super::profile::{Frame, ProfileOptions, V5, solve_slice};
-use super::rangescan::{coarse_slices, valley_floors};
-use super::sampling::relative_range_sigma;
+use super::profile::{Frame, V5};
 use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::propagate::propagate;
@@ -64,7 +62,7 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
     // Arcs of many nights pin the distance with no second valley to fall into.
     let flat_sided = match scan {
         Some(scan) if p.tracklet.n_nights() <= MAX_SCAN_NIGHTS => {
-            valley_minima(p, opts, scan, &mut minima)
+            super::valleyseeds::valley_minima(p, opts, scan, &mut minima)
         }
         _ => Vec::new(),
     };
@@ -108,13 +106,20 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
 /// A seed corrected briefly: a good seed converges in a handful of iterations; the winner is
 /// refined in full afterwards. A seed that walks into the basin of a minimum in `known` is given up:
 /// it would only find that minimum again.
-fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions, known: &[Basin]) -> Option<LsqFit> {
+pub(super) fn correct_seed(
+    p: &Problem,
+    seed: &S6,
+    opts: &FitOptions,
+    known: &[Basin],
+) -> Option<LsqFit> {
     let used = vec![true; p.len()];
     let seed_opts = LsqOptions {
         max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
         ..opts.lsq
     };
-    let inside = |x: &S6| known.iter().any(|b| b.holds(x));
+    // A state that already fits better than a known minimum cannot be on its way down to it, however
+    // wide that minimum's ellipsoid (a gross misfit's covers whole valleys of good orbits).
+    let inside = |x: &S6, chi2: f64| known.iter().any(|b| chi2 >= b.chi2 && b.holds(x));
     let f = correct_unless(p, seed, &used, &seed_opts, inside)
         .ok()
         .filter(|f| f.chi2.is_finite())?;
@@ -123,16 +128,26 @@ fn correct_seed(p: &Problem, seed: &S6, opts: &FitOptions, known: &[Basin]) -> O
     if f.converged || f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
         return f.converged.then_some(f);
     }
+    // One still creeping along its valley after the full correction, yet fitting as well as the
+    // stated errors allow, stands as that valley's minimum: the range profile follows the valley
+    // from there (an arc had its only good valley lost this way behind a misfit of χ² 11 000).
     correct_unless(p, &f.state, &used, &opts.lsq, inside)
         .ok()
-        .filter(|f| f.chi2.is_finite() && f.converged)
+        .filter(|f| f.chi2.is_finite() && (f.converged || fits_as_stated(f)))
+}
+
+/// χ² consistent with the stated errors: within 3σ of its χ² distribution.
+fn fits_as_stated(m: &LsqFit) -> bool {
+    let dof = m.dof().max(1) as f64;
+    m.cov.is_some() && m.chi2_per_dof() < 1.0 + 3.0 * (2.0 / dof).sqrt()
 }
 
 /// Where a known minimum's basin certainly lies: within `SAME_MINIMUM_M2` of it (Mahalanobis², its
 /// own covariance), the region `same_minimum` counts as that minimum.
-struct Basin {
+pub(super) struct Basin {
     state: S6,
     inverse: M6,
+    chi2: f64,
 }
 
 impl Basin {
@@ -141,6 +156,7 @@ impl Basin {
         Some(Basin {
             state: m.state,
             inverse,
+            chi2: m.chi2,
         })
     }
 
@@ -150,7 +166,7 @@ impl Basin {
     }
 }
 
-fn basins(minima: &[LsqFit]) -> Vec<Basin> {
+pub(super) fn basins(minima: &[LsqFit]) -> Vec<Basin> {
     minima.iter().filter_map(Basin::of).collect()
 }
 
@@ -176,7 +192,7 @@ fn same_seed(a: &S6, b: &S6) -> bool {
 }
 
 /// Add a minimum unless one already found is the same; keep the lower.
-fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
+pub(super) fn merge(minima: &mut Vec<LsqFit>, f: LsqFit) {
     let same = minima.iter().position(|m| same_minimum(m, &f));
     match same {
         Some(k) if minima[k].chi2 <= f.chi2 => {}
@@ -195,12 +211,7 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
     let settle = tr.n_nights() > MAX_SCAN_NIGHTS;
     // "Good" means χ² consistent with the stated errors (3σ of the χ² distribution). A wrong basin can
     // still fit that well, which is why the distance scan follows.
-    let good = |minima: &[LsqFit]| {
-        minima.iter().any(|m| {
-            let dof = m.dof().max(1) as f64;
-            m.cov.is_some() && m.chi2_per_dof() < 1.0 + 3.0 * (2.0 / dof).sqrt()
-        })
-    };
+    let good = |minima: &[LsqFit]| minima.iter().any(fits_as_stated);
     // Real arcs settle within the first few seeds; a false linkage would try them all. Half way
     // through, if every minimum is still a gross misfit, more seeds will not help.
     let hopeless =
@@ -235,125 +246,6 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
         }
     }
     minima
-}
-
-/// Minima from the valleys of a coarse scan over distance that no minimum found so far sits in: a
-/// valley narrower than the scan's spacing can hold the true orbit while Gauss's roots all lead to
-/// a wider, shallower one. Returns the minima whose χ² rose beside them well short of their linear
-/// prediction.
-fn valley_minima(
-    p: &Problem,
-    opts: &FitOptions,
-    scan: &ScanStart,
-    minima: &mut Vec<LsqFit>,
-) -> Vec<LsqFit> {
-    let used = vec![true; p.len()];
-    let popts = ProfileOptions {
-        v_cap_km_s: opts.ranging.v_cap_km_s,
-        n_rho: SCAN_POINTS,
-        ..ProfileOptions::default()
-    };
-    let coarse = coarse_slices(p, &scan.frame, scan.start, &used, &popts, SCAN_ITERATIONS);
-    // Every floor is corrected, even next to a minimum already found: two valleys can lie within
-    // one spacing of the scan (merge() keeps distinct minima only).
-    let mut flat_sided = Vec::new();
-    for k in valley_floors(&coarse, true) {
-        let s = coarse[k];
-        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
-            merge(minima, f);
-        }
-        // The valley's bracket: the scan's neighbours of its floor (mirrored at an end of the scan).
-        let below = k.checked_sub(1).map(|j| coarse[j].rho);
-        let above = coarse.get(k + 1).map(|n| n.rho);
-        let bracket = match (below, above) {
-            (Some(lo), Some(hi)) => Some((lo, hi)),
-            (Some(lo), None) => Some((lo, s.rho * s.rho / lo)),
-            (None, Some(hi)) => Some((s.rho * s.rho / hi, hi)),
-            (None, None) => None,
-        };
-        if let Some(bracket) = bracket {
-            flat_sided.extend(probe_bracket(p, opts, scan, bracket, minima));
-        }
-    }
-    flat_sided
-}
-
-/// A probe counts as a second minimum's sign when its χ² has risen less than this share of what the
-/// known minimum's own curvature in ln ρ predicts there.
-const PROBE_RISE_SHARE: f64 = 0.5;
-/// A probe that rose less than this share of the prediction, where the prediction is at least
-/// `FLAT_MIN_PREDICTED` (2σ) and the rise below `FLAT_MAX_RISE` (5σ: the data still allow that
-/// distance), marks its minimum's covariance as too narrow along the distance.
-const FLAT_RISE_SHARE: f64 = 0.75;
-const FLAT_MIN_PREDICTED: f64 = 4.0;
-const FLAT_MAX_RISE: f64 = 25.0;
-
-/// A known minimum seen from the scan's frame: its other five parameters, distance, χ² and σ of ln ρ.
-#[derive(Clone, Copy)]
-struct Inside {
-    a: V5,
-    rho: f64,
-    chi2: f64,
-    sigma: f64,
-    index: usize,
-}
-
-/// One valley of the scan can hold two minima closer than its spacing (near-Earth arcs have shown it):
-/// on each side of the minima known inside the bracket, a slice halfway (in ln ρ) to the bracket's end.
-/// Where χ² there has risen much less than the known minimum's curvature predicts, the profile
-/// flattens or dips again, and a correction starts from that slice. Returns the minima whose probe
-/// rose well short of the prediction.
-fn probe_bracket(
-    p: &Problem,
-    opts: &FitOptions,
-    scan: &ScanStart,
-    (lo, hi): (f64, f64),
-    minima: &mut Vec<LsqFit>,
-) -> Vec<LsqFit> {
-    let used = vec![true; p.len()];
-    let frame = &scan.frame;
-    let inside: Vec<Inside> = minima
-        .iter()
-        .enumerate()
-        .filter_map(|(index, m)| {
-            let (a, rho) = frame.params(&m.state);
-            // σ of ln ρ: the relative σ of the range.
-            let sigma = relative_range_sigma(p, m)?;
-            (rho > lo && rho < hi).then_some(Inside {
-                a,
-                rho,
-                chi2: m.chi2,
-                sigma,
-                index,
-            })
-        })
-        .collect();
-    let by_rho = |x: &&Inside, y: &&Inside| x.rho.total_cmp(&y.rho);
-    let (Some(first), Some(last)) = (inside.iter().min_by(by_rho), inside.iter().max_by(by_rho))
-    else {
-        return Vec::new();
-    };
-    let mut flat = Vec::new();
-    for (m, end) in [(*last, hi), (*first, lo)] {
-        let probe = (m.rho * end).sqrt();
-        let predicted = ((probe / m.rho).ln() / m.sigma).powi(2);
-        let Some(s) = solve_slice(p, frame, probe, m.a, &used, SCAN_ITERATIONS) else {
-            continue;
-        };
-        let rise = s.chi2 - m.chi2;
-        if predicted >= FLAT_MIN_PREDICTED
-            && rise < FLAT_RISE_SHARE * predicted
-            && rise < FLAT_MAX_RISE
-        {
-            flat.push(minima[m.index].clone());
-        }
-        if rise < PROBE_RISE_SHARE * predicted
-            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, &basins(minima))
-        {
-            merge(minima, f);
-        }
-    }
-    flat
 }
 
 fn sight(p: &Problem, i: usize, t_ref: Jd2) -> Sight {

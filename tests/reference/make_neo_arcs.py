@@ -2,7 +2,8 @@
 i 0-40 deg, random angles and perihelion times; 3-5 positions a night, four night spacings) observed
 exactly as make_synthetic.py observes its set (scipy DOP853 on JPL DE421, ERFA sites, light time),
 noiseless positions only; the tests add noise. Two arcs whose geometry trapped an earlier search in a
-wrong minimum are listed explicitly (they are regression cases).
+wrong minimum are listed explicitly, and three from a later draw are appended (they are regression
+cases).
 
 Run:  python tests/reference/make_neo_arcs.py   (writes tests/reference/data/neo_arcs/truth.json)
 """
@@ -26,6 +27,19 @@ TRAPPED = [
                            75.78227246871229, -55.33321990477384)),
     ("neo273", "p013", 3, (0.9132768409083709, 0.6070316066687255, 6.894995208872179, 155.28278912639541,
                            267.056096030804, 22.895393978978177)),
+]
+
+# Arcs of orbits drawn later in the same way (another seed) whose search went wrong, kept with their
+# drawn node as the random set is: neo377f had its true minimum between two scan slices that both
+# fell towards a wrong one; neo171f and neo567f had the seed from their valley given up inside the
+# wide ellipsoid of a grossly misfitting minimum, and then stalled at the valley's bottom.
+LATER = [
+    ("neo377f", "p048", 3, (0.7061349134380412, 0.3985808699663985, 24.544960393771046, 56.53588058898907,
+                            73.00738554239719, -113.12592399743579)),
+    ("neo171f", "p013", 5, (1.131292031045144, 0.35081034259288046, 23.18001295210292, 185.4363374560137,
+                            233.15519802670494, -89.37943656398733)),
+    ("neo567f", "p013", 4, (0.9069007833934123, 0.38453582802540887, 32.16509211944156, 124.93989459680276,
+                            273.3485826111471, 112.87940597709814)),
 ]
 
 
@@ -58,6 +72,7 @@ def main():
         truth = case(f"neo{k:03d}r", plan, int(rng.integers(3, 6)), elements)
         if visible(truth):
             truths.append(truth)
+    truths.extend(case(*t) for t in LATER)
     make_synthetic.choose_node = turn
     with open(os.path.join(OUT, "truth.json"), "w") as fh:
         json.dump(truths, fh, indent=1)
