@@ -73,22 +73,35 @@ fn lower_quantile(p: f64) -> f64 {
 
 /// Weighted quantile of values (weights need not be normalised).
 pub fn weighted_quantile(values: &[f64], weights: &[f64], q: f64) -> Option<f64> {
+    weighted_quantiles(values, weights, [q])[0]
+}
+
+/// Several weighted quantiles of the same values from one sort (`qs` ascending or not): each the
+/// first value, in ascending order, at which the cumulative weight reaches q of the total.
+pub fn weighted_quantiles<const N: usize>(
+    values: &[f64],
+    weights: &[f64],
+    qs: [f64; N],
+) -> [Option<f64>; N] {
     let mut idx: Vec<usize> = (0..values.len())
         .filter(|&i| weights[i] > 0.0 && values[i].is_finite())
         .collect();
     if idx.is_empty() {
-        return None;
+        return [None; N];
     }
     idx.sort_by(|&a, &b| values[a].total_cmp(&values[b]));
     let total: f64 = idx.iter().map(|&i| weights[i]).sum();
-    let mut acc = 0.0;
-    for &i in &idx {
-        acc += weights[i];
-        if acc >= q * total {
-            return Some(values[i]);
-        }
-    }
-    idx.last().map(|&i| values[i])
+    let cumulative: Vec<f64> = idx
+        .iter()
+        .scan(0.0, |acc, &i| {
+            *acc += weights[i];
+            Some(*acc)
+        })
+        .collect();
+    qs.map(|q| {
+        let k = cumulative.partition_point(|&c| c < q * total);
+        Some(values[idx[k.min(idx.len() - 1)]])
+    })
 }
 
 /// Kish's effective sample size of a set of weights.
