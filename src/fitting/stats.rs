@@ -116,6 +116,39 @@ mod tests {
     use super::*;
 
     #[test]
+    fn quantiles_from_one_sort_equal_the_quantile_taken_one_at_a_time() {
+        // Values with ties, a zero weight and a non-finite value, weights not normalised.
+        let values = [3.0, 1.0, 2.0, 2.0, f64::NAN, 5.0, 4.0, 1.5, 0.5, 2.5];
+        let weights = [0.3, 1.0, 0.0, 2.0, 1.0, 0.7, 0.1, 0.4, 0.9, 0.6];
+        let qs = [0.0, 0.025, 0.1587, 0.5, 0.8413, 0.975, 1.0];
+        // The rule written out: sort the finite values of positive weight, walk up, and stop at the
+        // first whose cumulative weight reaches q of the total.
+        let one_at_a_time = |q: f64| {
+            let mut v: Vec<(f64, f64)> = values
+                .iter()
+                .copied()
+                .zip(weights.iter().copied())
+                .filter(|(x, w)| *w > 0.0 && x.is_finite())
+                .collect();
+            v.sort_by(|a, b| a.0.total_cmp(&b.0));
+            let total: f64 = v.iter().map(|p| p.1).sum();
+            let mut acc = 0.0;
+            for (x, w) in &v {
+                acc += w;
+                if acc >= q * total {
+                    return *x;
+                }
+            }
+            v[v.len() - 1].0
+        };
+        let all = weighted_quantiles(&values, &weights, qs);
+        for (q, got) in qs.iter().zip(all) {
+            assert_eq!(got, Some(one_at_a_time(*q)), "q {q}");
+        }
+        assert_eq!(weighted_quantiles(&[f64::NAN], &[1.0], [0.5]), [None]);
+    }
+
+    #[test]
     fn normal_quantile_matches_scipy_norm_ppf() {
         // scipy.stats.norm.ppf (scipy 1.17.1): values computed with the pinned reference environment.
         for (p, want) in [
