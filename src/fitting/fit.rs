@@ -235,11 +235,13 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
             super::twonight::fit_by_profile(inputs, Some(fit.state), &found.elsewhere, dynamics)
     {
         if flatter {
+            // The profile's refit may look linear again; the covariance was found too narrow here.
             r.distrust_linear.push(FLATTER_REASON.into());
+            r.z_linear = None;
         }
         return r;
     }
-    lsq_result(
+    let mut r = lsq_result(
         &problem,
         &fit,
         &alternatives,
@@ -247,7 +249,12 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         opts,
         dynamics.model(),
         None,
-    )
+    );
+    // The profile could not answer (or no orbit fits): the linear answer stands, with the warning.
+    if flatter {
+        r.distrust_linear.push(FLATTER_REASON.into());
+    }
+    r
 }
 
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that

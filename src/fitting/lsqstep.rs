@@ -4,7 +4,8 @@
 use super::lsq::Linearised;
 use crate::physics::{M6, S6};
 
-/// Iterations the singular value decomposition of a 6×6 factor may take (it needs a few dozen).
+/// Iterations an iterative decomposition of a small matrix may take (the SVD of a 6×6 factor, the
+/// symmetric eigen-decompositions of a covariance or a sky ellipse; they need a few dozen).
 pub const MAX_SVD_SWEEPS: usize = 1000;
 
 /// The whitened rows reduced once by QR: R and Qᵀr, from which every damped step is a 12×6

@@ -271,12 +271,27 @@ fn half_widths(els: &[CometaryElements], [qq, qe, qi]: [[f64; 5]; 3]) -> Element
         let q = quantiles(els, f);
         (q[3] - q[1]) / 2.0
     };
+    // Angles about their circular mean, so that orbits either side of 0°/360° are not half a turn
+    // apart.
+    let half68_angle = |f: fn(&CometaryElements) -> f64| {
+        let (s, c) = els.iter().fold((0.0, 0.0), |(s, c), el| {
+            let a = f(el).to_radians();
+            (s + a.sin(), c + a.cos())
+        });
+        let mean = f64::atan2(s, c).to_degrees();
+        let v: Vec<f64> = els
+            .iter()
+            .map(|el| (f(el) - mean + 180.0).rem_euclid(360.0) - 180.0)
+            .collect();
+        let q = weighted_quantiles(&v, &vec![1.0; v.len()], [0.1587, 0.8413]);
+        (q[1].unwrap_or(f64::NAN) - q[0].unwrap_or(f64::NAN)) / 2.0
+    };
     ElementSigmas {
         q: (qq[3] - qq[1]) / 2.0,
         e: (qe[3] - qe[1]) / 2.0,
         i: (qi[3] - qi[1]) / 2.0,
-        node: half68(|e| e.node),
-        peri: half68(|e| e.peri),
+        node: half68_angle(|e| e.node),
+        peri: half68_angle(|e| e.peri),
         tp: half68(|e| e.tp),
         inv_a: half68(|e| e.inv_a),
     }
@@ -335,4 +350,33 @@ fn systematic(weights: &[f64], n: usize, seed: u64) -> Vec<usize> {
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn angle_spreads_of_orbits_either_side_of_zero_are_not_half_a_turn() {
+        // Nodes 357°…3° and perihelia 177°…183°: the same spread, one of them across 0°/360°.
+        let els: Vec<CometaryElements> = (0..61)
+            .map(|k| {
+                let d = (k as f64 - 30.0) * 0.1;
+                CometaryElements {
+                    q: 1.0,
+                    e: 0.5,
+                    i: 10.0,
+                    node: (d + 360.0).rem_euclid(360.0),
+                    peri: 180.0 + d,
+                    tp: 0.0,
+                    inv_a: 0.5,
+                    epoch: 0.0,
+                }
+            })
+            .collect();
+        let q5 = |f: fn(&CometaryElements) -> f64| quantiles(&els, f);
+        let s = half_widths(&els, [q5(|e| e.q), q5(|e| e.e), q5(|e| e.i)]);
+        assert!((s.node - s.peri).abs() < 1e-9, "{} {}", s.node, s.peri);
+        assert!(s.node > 0.5 && s.node < 3.0, "{}", s.node);
+    }
 }

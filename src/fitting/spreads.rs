@@ -179,6 +179,9 @@ const NEGLIGIBLE_WEIGHT: f64 = 1e-12;
 /// The states and weights that matter (the weights scaled back to their former total).
 fn weighty(states: &[S6], weights: &[f64]) -> (Vec<S6>, Vec<f64>) {
     let total: f64 = weights.iter().sum();
+    if !(total.is_finite() && total > 0.0) {
+        return (states.to_vec(), weights.to_vec());
+    }
     let mut order: Vec<usize> = (0..weights.len()).collect();
     order.sort_by(|&a, &b| weights[a].total_cmp(&weights[b]));
     let mut keep = vec![true; weights.len()];
@@ -257,9 +260,12 @@ mod tests {
         assert_eq!(kept, vec![states[0], states[2], states[4]]);
         let total: f64 = weights.iter().sum();
         assert!((w.iter().sum::<f64>() - total).abs() < 1e-15, "{w:?}");
-        // Nothing negligible: everything stays, unscaled.
+        // Nothing negligible: everything stays, unscaled; weights without a finite positive total
+        // are left as they came.
         let (kept, w) = weighty(&states[..2], &[0.5, 0.5]);
         assert_eq!((kept.len(), w), (2, vec![0.5, 0.5]));
+        let (kept, _) = weighty(&states[..2], &[f64::NAN, 0.5]);
+        assert_eq!(kept.len(), 2);
     }
 
     #[test]

@@ -5,11 +5,6 @@ use super::lsq::Problem;
 use super::profile::{Frame, ProfileOptions, SLICE_ITERATIONS, Slice, V5, solve_slice};
 use super::rangescan::{coarse_slices, floors_by_rho, slices_at, valley_floors, valley_ids};
 
-/// Slices over the whole ρ grid, then finer grids inside each of the lowest `MAX_VALLEYS` valleys
-/// (two nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ. The
-/// start and each of `seeds` (other known minima) get a slice of their own: a valley narrower than the
-/// coarse spacing falls between two slices on its walls, and one behind a high ridge can lie where the
-/// coarse pass gave up.
 /// What a profile's grid is made from: the arc, its frame, the first slice's start, the other known
 /// minima, the observations used and the grid's options.
 pub struct GridInputs<'a> {
@@ -28,6 +23,11 @@ pub struct Grid {
     pub orbit_near: bool,
 }
 
+/// Slices over the whole ρ grid, then finer grids inside each of the lowest `MAX_VALLEYS` valleys
+/// (two nights pin ρ to a few per cent, far finer than the coarse grid), merged and sorted by ρ. The
+/// start and each of `seeds` (other known minima) get a slice of their own: a valley narrower than the
+/// coarse spacing falls between two slices on its walls, and one behind a high ridge can lie where the
+/// coarse pass gave up.
 pub fn slices(g: &GridInputs) -> Grid {
     let GridInputs {
         p,
