@@ -1,5 +1,5 @@
 //! The global search against near-Earth three-night arcs made outside the project
-//! (tests/reference/make_neo_arcs.py: 150 invented orbits over four night spacings and two regression arcs, integrated with scipy
+//! (tests/reference/make_neo_arcs.py: 150 invented orbits over four night spacings and six regression arcs, integrated with scipy
 //! DOP853 on JPL DE421 and observed with ERFA site vectors and light time). Each arc is fitted noise-free
 //! and with 0.2″ noise drawn here. A fit far from the truth (|pull| > 5) must never be reported as a
 //! clean single answer, and the arcs whose geometry once trapped the search in a wrong minimum (found by

@@ -2,8 +2,8 @@
 i 0-40 deg, random angles and perihelion times; 3-5 positions a night, four night spacings) observed
 exactly as make_synthetic.py observes its set (scipy DOP853 on JPL DE421, ERFA sites, light time),
 noiseless positions only; the tests add noise. Two arcs whose geometry trapped an earlier search in a
-wrong minimum are listed explicitly, and three from a later draw are appended (they are regression
-cases).
+wrong minimum are listed explicitly, and three from a later draw are appended, then one asteroid
+orbit from outside the set (they are regression cases).
 
 Run:  python tests/reference/make_neo_arcs.py   (writes tests/reference/data/neo_arcs/truth.json)
 """
@@ -42,6 +42,14 @@ LATER = [
                             273.3485826111471, 112.87940597709814)),
 ]
 
+# An asteroid just inside the main belt (a 1.89 au, i 22 deg, q 1.81 au), drawn with the same generator
+# over q 1.8-3.2 au and e 0.02-0.3: the population model then had no density for such an orbit, and
+# the range profile answered its arc from a near-Earth valley of nearly the same chi2.
+OUTSIDE = [
+    ("hun094", "p025", 3, (1.814027566502781, 0.038729935245507885, 22.098059025104615, 113.32717051287432,
+                           341.3661511358669, 97.62985467510964)),
+]
+
 
 def case(name, plan, per_night, elements):
     NIGHT_PLANS[plan] = PLANS[plan]
@@ -73,6 +81,7 @@ def main():
         if visible(truth):
             truths.append(truth)
     truths.extend(case(*t) for t in LATER)
+    truths.extend(case(*t) for t in OUTSIDE)
     make_synthetic.choose_node = turn
     with open(os.path.join(OUT, "truth.json"), "w") as fh:
         json.dump(truths, fh, indent=1)
