@@ -171,6 +171,33 @@ fn each_pane_alone_matches_its_snapshot() {
 }
 
 #[test]
+fn an_answer_from_the_range_profile_shows_what_the_positions_alone_allow() {
+    // qk5t8yn (a near-parabolic comet-like orbit of the demo night, e 0.93 in its truth): the posterior
+    // stands on the spike near e = 1; the orbit pane shows beside it the range of e the positions allow.
+    let mut app = demo_app();
+    app.on_key(key('g'));
+    while app.selected.as_deref() != Some("qk5t8yn") {
+        app.on_key(key('j'));
+    }
+    app.message = None;
+    let c = app
+        .candidates
+        .iter()
+        .find(|c| c.fit.object == "qk5t8yn")
+        .unwrap();
+    let [lo, hi] = c.fit.e_data_interval.unwrap();
+    let mut t = Terminal::new(TestBackend::new(160, 24)).unwrap();
+    t.draw(|f| elements::draw(f, f.area(), &app, Theme { color: false }))
+        .unwrap();
+    let shown = text(&t);
+    assert!(
+        shown.contains(&format!("positions alone allow e {lo:.3}–{hi:.3}")),
+        "{shown}"
+    );
+    check("pane_orbit_range_profile_160x24", &shown);
+}
+
+#[test]
 fn the_cursor_stays_on_its_candidate_when_results_stream_in() {
     let mut app = demo_app();
     app.on_key(key('G')); // the last row

@@ -65,6 +65,8 @@ pub struct Given {
     pub from: super::kinds::ProbabilitySource,
     pub states: Vec<S6>,
     pub weights: Vec<f64>,
+    /// The range of e the positions alone allow among those states (`FitResult::e_data_interval`).
+    pub e_data: Option<[f64; 2]>,
 }
 
 pub fn lsq_result(
@@ -100,6 +102,7 @@ pub fn lsq_result(
             out.v_mag = Some(v_mag);
             out.v_mag_assumed = assumed;
             out.set_posterior(&g.posterior, g.from, &opts.population.source);
+            out.e_data_interval = g.e_data;
             super::spreads::sample_spreads(
                 &mut out,
                 &g.states,

@@ -18,7 +18,7 @@ use crate::physics::constants::MU_SUN;
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::{ObserverModel, ObserverState};
 use crate::physics::time::Jd2;
-use crate::physics::{S6, V3};
+use crate::physics::{S6, V3, split_state};
 use nalgebra::SVector;
 
 /// What every multi-night path shares about one tracklet.
@@ -124,6 +124,7 @@ pub fn fit_by_profile(
             from: ProbabilitySource::RangeProfile,
             states: prof.nodes.iter().map(|n| n.state).collect(),
             weights: raw.iter().map(|w| w / total).collect(),
+            e_data: data_interval(&prof),
         }
     });
     let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
@@ -140,6 +141,36 @@ pub fn fit_by_profile(
         a.probability = Some(*share);
     }
     Some(out)
+}
+
+/// Δχ² from the best orbit within which a trial orbit is allowed by the positions alone (95 % for one
+/// parameter).
+const DATA_DCHI2: f64 = 3.84;
+
+/// The least and greatest heliocentric e among the profile's trial orbits whose χ² is within
+/// `DATA_DCHI2` of the best slice's: a profile-likelihood interval, free of the population model and
+/// of any measure on the orbits. Each node's Δχ² is 2(ln prior − ln w), since its weight is its prior
+/// weight times e^(−Δχ²/2).
+fn data_interval(prof: &Profile) -> Option<[f64; 2]> {
+    let mut out: Option<[f64; 2]> = None;
+    for n in &prof.nodes {
+        if 2.0 * (n.ln_prior - n.ln_w) > DATA_DCHI2 {
+            continue;
+        }
+        let e = eccentricity(&n.state, MU_SUN);
+        if !e.is_finite() {
+            continue;
+        }
+        out = Some(out.map_or([e, e], |[lo, hi]| [lo.min(e), hi.max(e)]));
+    }
+    out
+}
+
+/// |e| of a state: the eccentricity vector's length.
+fn eccentricity(x: &S6, mu: f64) -> f64 {
+    let (r, v) = split_state(x);
+    let rm = r.norm();
+    (((v.norm_squared() - mu / rm) * r - r.dot(&v) * v) / mu).norm()
 }
 
 /// Valley number of every slice and each valley's (unnormalised) posterior weight.

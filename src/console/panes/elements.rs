@@ -94,6 +94,11 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
             r.e_interval[0], r.e_interval[2], r.q_interval[0], r.q_interval[2], r.i_interval[0], r.i_interval[2], r.trials, r.v_cap_km_s
         )));
     }
+    if let Some([lo, hi]) = f.e_data_interval {
+        out.push(Line::from(format!(
+            "positions alone allow e {lo:.3}–{hi:.3} (Δχ² ≤ 3.84; e ± σ above are the posterior's)"
+        )));
+    }
     out.push(Line::from(format!(
         "P(unbound) {}±{}  log₁₀ odds {}  z {}{}  rms {}\"  χ²/dof {}",
         num(f.p_hyperbolic, 4),
