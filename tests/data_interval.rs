@@ -3,10 +3,11 @@
 //! orbits integrated with scipy DOP853 on JPL DE421 and observed with ERFA site vectors and light
 //! time), 100 noise draws each, noise drawn here.
 //!
-//! The interval holds the e of every trial orbit of the range profile within Δχ² 3.84 of the best: a
-//! profile-likelihood interval, 95 % for one parameter where the likelihood is regular, taken at the
-//! profile's nodes (so a little narrow). Where the population model rather than the positions narrowed
-//! e, the two disagree, and the interval is the one that still holds the truth.
+//! The interval holds the e of every orbit along the range profile's slices within Δχ² 3.84 of the
+//! best: a profile-likelihood interval, 95 % for one parameter where the likelihood is regular (it
+//! is not quite, where two nights barely tie the distance), and a little narrow where the slices are
+//! sparse. Where the population model rather than the positions
+//! narrowed e, the two disagree, and the interval is the one that still holds the truth.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 mod util;
@@ -49,7 +50,7 @@ fn coverage(name: &str) -> (usize, usize, usize) {
 }
 
 #[test]
-fn the_positions_alone_interval_holds_the_true_e_on_two_night_arcs() {
+fn the_positions_alone_interval_holds_the_true_e_where_the_posterior_may_not() {
     for name in [
         "mainbelt_2n",
         "near_earth_2n",
@@ -58,23 +59,22 @@ fn the_positions_alone_interval_holds_the_true_e_on_two_night_arcs() {
         "hyp_weak_2n",
         "hyp_strong_2n",
     ] {
-        let (n, data, _) = coverage(name);
+        let (n, data, posterior) = coverage(name);
         // Every two-night answer comes from the range profile.
         assert_eq!(n, DRAWS, "{name}");
-        // Nominal 95 %, less the nodes' spacing: at least 75 of 100 (the lowest seen is 81).
-        assert!(data >= 75, "{name}: {data} of {n}");
+        // Nominal 95 %, less what falls between the profile's slices, and less where two nights
+        // barely tie the distance: the best of many nearly independent distances fits the noise and
+        // Δχ² outgrows its χ²(1) calibration (the main-belt arc: 83 of 100, the least of the six).
+        assert!(data >= 80, "{name}: {data} of {n}");
+        if name == "hyp_weak_2n" {
+            // e 1.08, q 1.9 au, v∞ 6 km/s: the model's near-parabolic comets outweigh interstellar
+            // objects that slow, so the posterior stands on the spike near e = 1 and its e ± 1.96σ
+            // misses the truth in most draws; the positions alone allow it.
+            assert!(
+                posterior * 2 < n,
+                "posterior holds the truth in {posterior} of {n}"
+            );
+            assert!(data >= 90, "{data} of {n}");
+        }
     }
-}
-
-#[test]
-fn where_the_model_narrows_e_the_positions_interval_still_holds_the_truth() {
-    // The weakly hyperbolic two-night arc (e 1.08, q 1.9 au, v∞ 6 km/s): the model's near-parabolic
-    // comets outweigh interstellar objects that slow, so the posterior stands on the spike near e = 1
-    // and its e ± 1.96σ misses the truth in most draws; the positions alone allow it.
-    let (n, data, posterior) = coverage("hyp_weak_2n");
-    assert!(
-        posterior * 2 < n,
-        "posterior holds the truth in {posterior} of {n}"
-    );
-    assert!(data >= 90, "{data} of {n}");
 }

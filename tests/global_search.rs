@@ -1,4 +1,5 @@
-//! The global search against near-Earth three-night arcs made outside the project
+//! The global search against three-night arcs (near-Earth orbits, and one asteroid beyond them) made
+//! outside the project
 //! (tests/reference/make_neo_arcs.py: 150 invented orbits over four night spacings and six regression arcs, integrated with scipy
 //! DOP853 on JPL DE421 and observed with ERFA site vectors and light time). Each arc is fitted noise-free
 //! and with 0.2″ noise drawn here. A fit far from the truth (|pull| > 5) must never be reported as a
@@ -106,7 +107,7 @@ fn five_noisy_draws_of_every_near_earth_arc_give_no_far_off_single_answer_and_no
             fits += 1;
             let alternatives = !r.alternatives.is_empty();
             listed += usize::from(alternatives);
-            // Every arc of this set is bound (near-Earth asteroids).
+            // Every arc of this set is bound (near-Earth asteroids and one Hungaria-like asteroid).
             unbound += usize::from(r.p_hyperbolic.unwrap_or(0.0) > 0.5);
             if !alternatives && ((e - te) / s).abs() >= 5.0 {
                 bad.push(format!(

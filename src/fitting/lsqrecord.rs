@@ -65,8 +65,8 @@ pub struct Given {
     pub from: super::kinds::ProbabilitySource,
     pub states: Vec<S6>,
     pub weights: Vec<f64>,
-    /// The range of e the positions alone allow among those states (`FitResult::e_data_interval`).
-    pub e_data: Option<[f64; 2]>,
+    /// The range of e the positions alone allow (`FitResult::e_data_interval`).
+    pub e_data_interval: Option<[f64; 2]>,
 }
 
 pub fn lsq_result(
@@ -102,7 +102,7 @@ pub fn lsq_result(
             out.v_mag = Some(v_mag);
             out.v_mag_assumed = assumed;
             out.set_posterior(&g.posterior, g.from, &opts.population.source);
-            out.e_data_interval = g.e_data;
+            out.e_data_interval = g.e_data_interval;
             super::spreads::sample_spreads(
                 &mut out,
                 &g.states,
@@ -236,6 +236,7 @@ fn withhold_probability(out: &mut FitResult) {
     out.bayes_factor = None;
     out.log10_bayes_factor = None;
     out.z_is_bound = false;
+    out.e_data_interval = None;
     out.probability_from = ProbabilitySource::NoProbability;
     out.poor_fit
         .push("no probability: no orbit fits these positions".into());

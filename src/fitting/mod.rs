@@ -4,6 +4,7 @@
 pub mod batch;
 pub mod conditions;
 pub mod covariance;
+pub mod datainterval;
 pub mod ephemeris;
 pub mod fit;
 pub mod followup;

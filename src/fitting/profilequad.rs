@@ -13,8 +13,32 @@ use super::profile::{
     DensityContext, Frame, GL_W, GL_X, M5, MU_BARY, ProfileNode, ProfileOptions, SLICE_ITERATIONS,
     Slice, V5, solve_slice,
 };
-use crate::physics::V3;
 use crate::physics::constants::AU_PER_DAY_TO_KM_S;
+use crate::physics::{S6, V3};
+
+/// A slice's speed cap along ρ̇ (see `speed_cap`).
+#[derive(Debug, Clone, Copy)]
+pub struct SpeedCap {
+    pub c1: f64,
+    pub x_max: f64,
+    pub y_cap: f64,
+}
+
+/// Where along ρ̇ a slice's orbit arrives no faster than `v_cap` (au/day, barycentric v∞): with the
+/// direction and rate held at the slice's, the barycentric radial speed ρ̇ + c1 may reach ±y_cap;
+/// x_max is the barycentric 1/a at ρ̇ = −c1, the most bound orbit of the slice.
+pub fn speed_cap(frame: &Frame, s: &Slice, sun_bary: &S6, v_cap: f64) -> SpeedCap {
+    let sun_p = V3::new(sun_bary[0], sun_bary[1], sun_bary[2]);
+    let sun_v = V3::new(sun_bary[3], sun_bary[4], sun_bary[5]);
+    let x0 = frame.state(&s.a, s.rho);
+    let r_b = V3::new(x0[0], x0[1], x0[2]) + sun_p;
+    let u = (r_b - sun_p - frame.observer.helio_pos).normalize();
+    let w_b = V3::new(x0[3], x0[4], x0[5]) + sun_v - s.a[4] * u;
+    let c1 = w_b.dot(&u);
+    let x_max = 2.0 / r_b.norm() - (w_b.norm_squared() - c1 * c1) / MU_BARY;
+    let y_cap = (MU_BARY * x_max + v_cap * v_cap).max(0.0).sqrt();
+    SpeedCap { c1, x_max, y_cap }
+}
 
 /// The fixed parts of a slice's quadrature.
 pub struct SliceQuadrature<'a> {
@@ -31,11 +55,6 @@ impl SliceQuadrature<'_> {
     pub fn nodes(&self, k: usize, s: &Slice, best_chi2: f64) -> Vec<ProfileNode> {
         let mut out = Vec::new();
         let v_cap = self.opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
-        let sun = self.ctx.sun_bary;
-        let (sun_p, sun_v) = (
-            V3::new(sun[0], sun[1], sun[2]),
-            V3::new(sun[3], sun[4], sun[5]),
-        );
         let var_rd = s.cov[(4, 4)];
         if !(var_rd.is_finite() && var_rd > 0.0) {
             return out;
@@ -50,13 +69,8 @@ impl SliceQuadrature<'_> {
         }
         let ln_cell = 5.0 * s.rho.ln() + 0.5 * det4.ln();
         // ρ̇ window, cut at the speed cap, with breaks where the energy crosses population edges.
-        let x0 = self.frame.state(&s.a, s.rho);
-        let r_b = V3::new(x0[0], x0[1], x0[2]) + sun_p;
-        let u = (r_b - sun_p - self.frame.observer.helio_pos).normalize();
-        let w_b = V3::new(x0[3], x0[4], x0[5]) + sun_v - s.a[4] * u;
-        let c1 = w_b.dot(&u);
-        let x_max = 2.0 / r_b.norm() - (w_b.norm_squared() - c1 * c1) / MU_BARY;
-        let y_cap = (MU_BARY * x_max + v_cap * v_cap).max(0.0).sqrt();
+        let cap = speed_cap(self.frame, s, &self.ctx.sun_bary, v_cap);
+        let (c1, x_max, y_cap) = (cap.c1, cap.x_max, cap.y_cap);
         let (lo, hi) = (
             (s.a[4] - self.opts.window_sigma * sd).max(-c1 - y_cap),
             (s.a[4] + self.opts.window_sigma * sd).min(-c1 + y_cap),

@@ -97,10 +97,10 @@ pub struct FitResult {
     pub dynamics: super::forcemodel::ForceModel,
     pub e: Option<f64>,
     pub e_sigma: Option<f64>,
-    /// The least and greatest e among the range profile's trial orbits that the positions alone allow
-    /// (χ² within 3.84 of the best: 95 % for one parameter), whatever the population model thinks of
-    /// them; null on other paths. Beside e ± σ, which are the posterior's, it shows where the model
-    /// rather than the data narrowed e.
+    /// The least and greatest heliocentric e the positions alone allow where P comes from the range
+    /// profile (χ² within 3.84 of the best: 95 % for one parameter, no density involved; see
+    /// `datainterval.rs`); null on other paths. Beside e ± σ, which are the posterior's, it shows
+    /// where the model rather than the data narrowed e.
     pub e_data_interval: Option<[f64; 2]>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the
     /// same meaning on every path), its one-sigma numerical error, and Φ⁻¹ of it.

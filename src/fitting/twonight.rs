@@ -2,6 +2,7 @@
 //! ephemeris) and its most probable slice starts the full least-squares fit that supplies residuals,
 //! outliers and the record's elements.
 
+use super::datainterval::e_data_interval;
 use super::fit::FitOptions;
 use super::input::Tracklet;
 use super::kinds::ProbabilitySource;
@@ -14,11 +15,11 @@ use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
 use super::search::{ALTERNATIVE_DCHI2, same_minimum};
-use crate::physics::constants::MU_SUN;
+use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::{ObserverModel, ObserverState};
 use crate::physics::time::Jd2;
-use crate::physics::{S6, V3, split_state};
+use crate::physics::{S6, V3};
 use nalgebra::SVector;
 
 /// What every multi-night path shares about one tracklet.
@@ -111,22 +112,8 @@ pub fn fit_by_profile(
     let others = other_valleys(&p, &frame, &prof, (&ids, &share), &fit, opts);
     // A profile without a posterior is a gross misfit: the record still shows the best attempt and
     // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
-    let given = prof.posterior.map(|posterior| {
-        let top = prof
-            .nodes
-            .iter()
-            .map(|n| n.ln_w)
-            .fold(f64::NEG_INFINITY, f64::max);
-        let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
-        let total: f64 = raw.iter().sum();
-        Given {
-            posterior,
-            from: ProbabilitySource::RangeProfile,
-            states: prof.nodes.iter().map(|n| n.state).collect(),
-            weights: raw.iter().map(|w| w / total).collect(),
-            e_data: data_interval(&prof),
-        }
-    });
+    let v_cap = popts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let given = given(&prof, &frame, shift, v_cap);
     let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
     let mut out = lsq_result(
         &p,
@@ -143,34 +130,24 @@ pub fn fit_by_profile(
     Some(out)
 }
 
-/// Δχ² from the best orbit within which a trial orbit is allowed by the positions alone (95 % for one
-/// parameter).
-const DATA_DCHI2: f64 = 3.84;
-
-/// The least and greatest heliocentric e among the profile's trial orbits whose χ² is within
-/// `DATA_DCHI2` of the best slice's: a profile-likelihood interval, free of the population model and
-/// of any measure on the orbits. Each node's Δχ² is 2(ln prior − ln w), since its weight is its prior
-/// weight times e^(−Δχ²/2).
-fn data_interval(prof: &Profile) -> Option<[f64; 2]> {
-    let mut out: Option<[f64; 2]> = None;
-    for n in &prof.nodes {
-        if 2.0 * (n.ln_prior - n.ln_w) > DATA_DCHI2 {
-            continue;
-        }
-        let e = eccentricity(&n.state, MU_SUN);
-        if !e.is_finite() {
-            continue;
-        }
-        out = Some(out.map_or([e, e], |[lo, hi]| [lo.min(e), hi.max(e)]));
-    }
-    out
-}
-
-/// |e| of a state: the eccentricity vector's length.
-fn eccentricity(x: &S6, mu: f64) -> f64 {
-    let (r, v) = split_state(x);
-    let rm = r.norm();
-    (((v.norm_squared() - mu / rm) * r - r.dot(&v) * v) / mu).norm()
+/// The profile's posterior, its weighted nodes and what the positions alone allow, for the record
+/// (None for a profile without a posterior).
+fn given(prof: &Profile, frame: &Frame, sun_bary: &S6, v_cap: f64) -> Option<Given> {
+    let posterior = prof.posterior?;
+    let top = prof
+        .nodes
+        .iter()
+        .map(|n| n.ln_w)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+    let total: f64 = raw.iter().sum();
+    Some(Given {
+        posterior,
+        from: ProbabilitySource::RangeProfile,
+        states: prof.nodes.iter().map(|n| n.state).collect(),
+        weights: raw.iter().map(|w| w / total).collect(),
+        e_data_interval: e_data_interval(prof, frame, sun_bary, v_cap),
+    })
 }
 
 /// Valley number of every slice and each valley's (unnormalised) posterior weight.

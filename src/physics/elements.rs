@@ -72,7 +72,7 @@ impl CometaryElements {
         let rv = r.dot(v);
         let h = r.cross(v);
         let hm = h.norm();
-        let evec = ((v2 - mu / rm) * r - rv * v) / mu;
+        let evec = eccentricity_vector(r, v, mu);
         let e = evec.norm();
         let p = hm * hm / mu;
         let q = p / (1.0 + e);
@@ -104,6 +104,11 @@ impl CometaryElements {
             epoch,
         }
     }
+}
+
+/// The eccentricity vector of a state (pointing to perihelion, of length e).
+pub fn eccentricity_vector(r: &V3, v: &V3, mu: f64) -> V3 {
+    ((v.norm_squared() - mu / r.norm()) * r - r.dot(v) * v) / mu
 }
 
 /// An angle from atan2 in degrees, [−180°, 180°], taken to [0°, 360°): the same value as

@@ -94,11 +94,6 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
             r.e_interval[0], r.e_interval[2], r.q_interval[0], r.q_interval[2], r.i_interval[0], r.i_interval[2], r.trials, r.v_cap_km_s
         )));
     }
-    if let Some([lo, hi]) = f.e_data_interval {
-        out.push(Line::from(format!(
-            "positions alone allow e {lo:.3}–{hi:.3} (Δχ² ≤ 3.84; e ± σ above are the posterior's)"
-        )));
-    }
     out.push(Line::from(format!(
         "P(unbound) {}±{}  log₁₀ odds {}  z {}{}  rms {}\"  χ²/dof {}",
         num(f.p_hyperbolic, 4),
@@ -121,6 +116,9 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
                 ""
             }
         )));
+    }
+    if let Some(interval) = f.e_data_interval {
+        out.push(Line::from(data_interval_line(interval)));
     }
     if !f.distrust_linear.is_empty() {
         out.push(Line::from(format!(
@@ -172,6 +170,14 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
 const MAX_ALTERNATIVE_LINES: usize = 3;
 
 /// One other solution: its orbit, how much worse (or better) it fits, and its share of P.
+/// The range of e the positions alone allow, beside the posterior's e ± σ above it.
+fn data_interval_line([lo, hi]: [f64; 2]) -> String {
+    format!(
+        "positions alone: e {lo:.3}–{hi:.3} (Δχ² ≤ {})",
+        crate::fitting::datainterval::DATA_DCHI2
+    )
+}
+
 fn alternative_line(a: &crate::fitting::result::Alternative) -> String {
     format!(
         "or: e {:.4}  q {:.4} AU  i {:.2}°  Δχ² {:+.1}{}  {}",
@@ -199,6 +205,14 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
 mod tests {
     use super::*;
     use crate::fitting::result::Alternative;
+
+    #[test]
+    fn the_positions_alone_line_names_its_bound_on_chi2() {
+        assert_eq!(
+            data_interval_line([0.6449, 14.0367]),
+            "positions alone: e 0.645–14.037 (Δχ² ≤ 3.84)"
+        );
+    }
 
     #[test]
     fn another_solution_shows_its_orbit_fit_share_and_class() {

@@ -1,0 +1,72 @@
+//! What the positions alone say about e where P comes from the range profile: the least and greatest
+//! heliocentric e over the orbits whose χ² is within `DATA_DCHI2` of the best, a profile-likelihood
+//! interval. It takes no density and no measure on the orbits (only the speed cap every path shares),
+//! so it shows where the population model rather than the data narrowed the posterior's e ± σ.
+
+use super::profile::{Frame, Profile, Slice, V5};
+use super::profilequad::speed_cap;
+use crate::physics::constants::MU_SUN;
+use crate::physics::elements::eccentricity_vector;
+use crate::physics::{S6, split_state};
+
+/// Δχ² from the best orbit within which an orbit is allowed by the positions alone (95 % for one
+/// parameter).
+pub const DATA_DCHI2: f64 = 3.84;
+
+/// Points taken along each slice's allowed range of ρ̇ (e need not be monotonic along it).
+const POINTS: usize = 9;
+
+/// Over every slice of the profile, the orbits along its radial velocity whose χ² (the slice's minimum
+/// plus its quadratic in ρ̇, the other four following ρ̇ by their conditional shift) stays within
+/// `DATA_DCHI2` of the best, among those arriving no faster than `v_cap` (au/day, barycentric v∞: a
+/// bound on what can be in the Solar System at all, not a population); None where none qualifies.
+/// Between slices the edge in ρ falls where the grid has no slice, so the interval is a little narrow
+/// where slices are sparse.
+pub fn e_data_interval(
+    prof: &Profile,
+    frame: &Frame,
+    sun_bary: &S6,
+    v_cap: f64,
+) -> Option<[f64; 2]> {
+    // Each slice's admissible ρ̇ window with its centre and σ: (slice, lo, hi, σ).
+    let windows: Vec<(&Slice, f64, f64, f64)> = prof
+        .slices
+        .iter()
+        .filter_map(|s| {
+            let var = s.cov[(4, 4)];
+            if !(var.is_finite() && var > 0.0) {
+                return None;
+            }
+            let cap = speed_cap(frame, s, sun_bary, v_cap);
+            let (lo, hi) = (-cap.c1 - cap.y_cap, -cap.c1 + cap.y_cap);
+            (lo < hi).then_some((s, lo, hi, var.sqrt()))
+        })
+        .collect();
+    // χ² of an admissible orbit of a slice nearest its own minimum.
+    let least = |(s, lo, hi, sd): &(&Slice, f64, f64, f64)| {
+        s.chi2 + ((s.a[4].clamp(*lo, *hi) - s.a[4]) / sd).powi(2)
+    };
+    let best = windows.iter().map(least).fold(f64::INFINITY, f64::min);
+    let mut out: Option<[f64; 2]> = None;
+    for (s, lo, hi, sd) in &windows {
+        let room = DATA_DCHI2 - (s.chi2 - best);
+        if room.is_nan() || room < 0.0 {
+            continue;
+        }
+        let half = sd * room.sqrt();
+        let (from, to) = ((s.a[4] - half).max(*lo), (s.a[4] + half).min(*hi));
+        if from > to {
+            continue;
+        }
+        let shift = V5::from_fn(|i, _| s.cov[(i, 4)] / (sd * sd));
+        for k in 0..POINTS {
+            let rd = from + (to - from) * k as f64 / (POINTS - 1) as f64;
+            let (r, v) = split_state(&frame.state(&(s.a + shift * (rd - s.a[4])), s.rho));
+            let e = eccentricity_vector(&r, &v, MU_SUN).norm();
+            if e.is_finite() {
+                out = Some(out.map_or([e, e], |[lo, hi]| [lo.min(e), hi.max(e)]));
+            }
+        }
+    }
+    out
+}
