@@ -470,18 +470,33 @@ impl PopulationModel {
             .iter()
             .any(|p| in_range(p.inv_a_range, inv_a_b)))
         .then(|| shape(&(self.ecl * rb), &(self.ecl * vb), MU_BARY).0);
+        // Each term once (log_sum_exp reads its terms twice), and only the families whose 1/a range
+        // holds the state: outside it a family's density is zero.
         let terms = self
             .elements
             .iter()
-            .filter_map(move |p| se.map(|se| p.ln_density(&se, h)))
+            .filter(|p| in_range(p.inv_a_range, inv_a_h))
+            .filter_map(|p| se.map(|se| p.ln_density(&se, h)))
             .chain(
                 self.perihelion
                     .iter()
-                    .filter_map(move |p| sb.map(|sb| p.ln_density(&sb, h))),
+                    .filter(|p| in_range(p.inv_a_range, inv_a_b))
+                    .filter_map(|p| sb.map(|sb| p.ln_density(&sb, h))),
             );
+        let mut buf = [f64::NEG_INFINITY; 16];
+        let mut n = 0;
+        let mut rest = Vec::new();
+        for t in terms {
+            if n < buf.len() {
+                buf[n] = t;
+                n += 1;
+            } else {
+                rest.push(t);
+            }
+        }
         Density {
             unbound,
-            ln_f: log_sum_exp(terms),
+            ln_f: log_sum_exp(buf[..n].iter().chain(&rest).copied()),
         }
     }
 
