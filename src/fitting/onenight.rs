@@ -149,12 +149,9 @@ fn summarise(
     g: &Geometry,
     seed: u64,
 ) {
-    let top = arc
-        .nodes
-        .iter()
-        .map(|n| n.ln_w)
-        .fold(f64::NEG_INFINITY, f64::max);
-    let weights: Vec<f64> = arc.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+    let Some(weights) = super::stats::relative_weights(arc.nodes.iter().map(|n| n.ln_w)) else {
+        return;
+    };
     out.n_eff = Some(super::stats::effective_sample_size(&weights));
     // Kept orbits: systematic resampling, each with the attributable drawn from its uncertainty.
     let picks = systematic(&weights, KEPT_SAMPLES, seed);

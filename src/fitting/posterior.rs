@@ -106,11 +106,9 @@ pub fn z_of_ln_odds(l: f64) -> f64 {
 /// Self-normalised importance-sampling estimate from natural-log weights and classes: the class masses
 /// and the one-sigma error of ln odds (delta method on the weighted indicator).
 pub fn sampled_ln_odds_error(ln_w: &[f64], unbound: &[bool]) -> f64 {
-    let top = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if !top.is_finite() {
+    let Some(w) = super::stats::relative_weights(ln_w.iter().copied()) else {
         return f64::INFINITY;
-    }
-    let w: Vec<f64> = ln_w.iter().map(|l| (l - top).exp()).collect();
+    };
     let total: f64 = w.iter().sum();
     let p: f64 = w
         .iter()

@@ -13,7 +13,7 @@
 use super::input::Tracklet;
 use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior, sampled_ln_odds_error};
-use super::stats::{effective_sample_size, weighted_quantile};
+use super::stats::{effective_sample_size, relative_weights, weighted_quantile};
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, C_AU_PER_DAY, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
@@ -388,11 +388,7 @@ pub fn range(
     let classes: Vec<bool> = nodes.iter().map(|n| n.unbound).collect();
     let post = Masses::of(classes.iter().zip(ln_w.iter().copied()));
     let prior = Masses::of(classes.iter().zip(nodes.iter().map(|n| n.ln_prior)));
-    let top = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if !top.is_finite() {
-        return None;
-    }
-    let raw: Vec<f64> = ln_w.iter().map(|l| (l - top).exp()).collect();
+    let raw = relative_weights(ln_w.iter().copied())?;
     let total: f64 = raw.iter().sum();
     let n_eff_all = effective_sample_size(&raw);
     let posterior = Posterior::new(

@@ -339,11 +339,7 @@ fn draw_batch(ctx: &DrawContext, comps: &[Component], count: usize, rng: &mut Sp
 }
 
 fn summarise(d: &Draws) -> Option<SampleSet> {
-    let top = d.ln_post.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if !top.is_finite() {
-        return None;
-    }
-    let raw: Vec<f64> = d.ln_post.iter().map(|w| (w - top).exp()).collect();
+    let raw = super::stats::relative_weights(d.ln_post.iter().copied())?;
     let total: f64 = raw.iter().sum();
     let weights: Vec<f64> = raw.iter().map(|w| w / total).collect();
     let post = Masses::of(d.unbound.iter().zip(d.ln_post.iter().copied()));

@@ -104,6 +104,15 @@ pub fn weighted_quantiles<const N: usize>(
     })
 }
 
+/// Weights from natural logs, scaled so that the largest is 1 (exp(ln w − max ln w), which neither
+/// overflows nor underflows where the logs are large); None where no log is finite or above −∞.
+pub fn relative_weights(ln_w: impl IntoIterator<Item = f64>) -> Option<Vec<f64>> {
+    let ln_w: Vec<f64> = ln_w.into_iter().collect();
+    let top = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    top.is_finite()
+        .then(|| ln_w.iter().map(|l| (l - top).exp()).collect())
+}
+
 /// Kish's effective sample size of a set of weights.
 pub fn effective_sample_size(weights: &[f64]) -> f64 {
     let s: f64 = weights.iter().sum();
@@ -146,6 +155,22 @@ mod tests {
             assert_eq!(got, Some(one_at_a_time(*q)), "q {q}");
         }
         assert_eq!(weighted_quantiles(&[f64::NAN], &[1.0], [0.5]), [None]);
+    }
+
+    #[test]
+    fn relative_weights_put_the_largest_at_one_whatever_the_scale_of_the_logs() {
+        // exp(−1000) underflows and exp(1000) overflows; their differences do not.
+        let w = relative_weights([-1000.0, -1001.0, f64::NEG_INFINITY]).unwrap();
+        assert_eq!(w[0], 1.0);
+        assert!((w[1] - (-1.0f64).exp()).abs() < 1e-15);
+        assert_eq!(w[2], 0.0);
+        assert_eq!(
+            relative_weights([1000.0, 999.0]).unwrap()[1],
+            (-1.0f64).exp()
+        );
+        assert_eq!(relative_weights([f64::NEG_INFINITY]), None);
+        assert_eq!(relative_weights([f64::INFINITY, 0.0]), None);
+        assert_eq!(relative_weights(std::iter::empty()), None);
     }
 
     #[test]

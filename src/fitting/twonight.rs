@@ -15,6 +15,7 @@ use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
 use super::search::{ALTERNATIVE_DCHI2, same_minimum};
+use super::stats::relative_weights;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::{ObserverModel, ObserverState};
@@ -134,12 +135,7 @@ pub fn fit_by_profile(
 /// (None for a profile without a posterior).
 fn given(prof: &Profile, frame: &Frame, sun_bary: &S6, v_cap: f64) -> Option<Given> {
     let posterior = prof.posterior?;
-    let top = prof
-        .nodes
-        .iter()
-        .map(|n| n.ln_w)
-        .fold(f64::NEG_INFINITY, f64::max);
-    let raw: Vec<f64> = prof.nodes.iter().map(|n| (n.ln_w - top).exp()).collect();
+    let raw = relative_weights(prof.nodes.iter().map(|n| n.ln_w))?;
     let total: f64 = raw.iter().sum();
     Some(Given {
         posterior,
@@ -154,14 +150,11 @@ fn given(prof: &Profile, frame: &Frame, sun_bary: &S6, v_cap: f64) -> Option<Giv
 fn valley_shares(prof: &Profile) -> (Vec<usize>, Vec<f64>) {
     let ids = valley_ids(&prof.slices);
     let n = ids.last().map_or(0, |l| l + 1);
-    let top = prof
-        .nodes
-        .iter()
-        .map(|x| x.ln_w)
-        .fold(f64::NEG_INFINITY, f64::max);
+    let weights = relative_weights(prof.nodes.iter().map(|x| x.ln_w))
+        .unwrap_or_else(|| vec![0.0; prof.nodes.len()]);
     let mut share = vec![0.0; n];
-    for node in &prof.nodes {
-        share[ids[node.k_rho]] += (node.ln_w - top).exp();
+    for (node, w) in prof.nodes.iter().zip(&weights) {
+        share[ids[node.k_rho]] += w;
     }
     (ids, share)
 }

@@ -101,8 +101,7 @@ pub fn membership(uvw_lsr: [f64; 3], comps: &[VelocityComponent]) -> Option<Memb
         }
         ln[k] = l;
     }
-    let top = ln.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
-    let w = ln.map(|l| (l - top).exp());
+    let w = crate::fitting::stats::relative_weights(ln)?;
     let s: f64 = w.iter().sum();
     Some(Membership {
         thin_disc: w[0] / s,
