@@ -171,9 +171,11 @@ fn each_pane_alone_matches_its_snapshot() {
 }
 
 #[test]
-fn an_answer_from_the_range_profile_shows_what_the_positions_alone_allow() {
+fn an_answer_from_the_range_profile_shows_its_lopsided_e_and_what_the_positions_alone_allow() {
     // qk5t8yn (a near-parabolic comet-like orbit of the demo night, e 0.93 in its truth): the posterior
-    // stands on the spike near e = 1; the orbit pane shows beside it the range of e the positions allow.
+    // stands on the spike near e = 1, lopsided (e 1.003 ± 0.030 hides that its 95 % reaches 0.93 below
+    // and no further than 1.0034 above); the orbit pane shows its intervals and beside them the range
+    // of e the positions allow.
     let mut app = demo_app();
     app.on_key(key('g'));
     for _ in 0..app.candidates.len() {
@@ -190,12 +192,19 @@ fn an_answer_from_the_range_profile_shows_what_the_positions_alone_allow() {
         .find(|c| c.fit.object == "qk5t8yn")
         .unwrap();
     let [lo, hi] = c.fit.e_data_interval.unwrap();
+    let ([a, b], [p, q]) = (c.fit.e_interval_68.unwrap(), c.fit.e_interval_95.unwrap());
+    let e = c.fit.e.unwrap();
+    assert!(e - p > 10.0 * (q - e), "{p} {e} {q}");
     let mut t = Terminal::new(TestBackend::new(160, 24)).unwrap();
     t.draw(|f| elements::draw(f, f.area(), &app, Theme { color: false }))
         .unwrap();
     let shown = text(&t);
     assert!(
         shown.contains(&format!("positions alone: e {lo:.3}–{hi:.3}")),
+        "{shown}"
+    );
+    assert!(
+        shown.contains(&format!("e 68 %: {a:.3}–{b:.3}  95 %: {p:.3}–{q:.3}")),
         "{shown}"
     );
     check("pane_orbit_range_profile_160x24", &shown);

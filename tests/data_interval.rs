@@ -26,7 +26,7 @@ fn coverage(name: &str) -> (usize, usize, usize) {
     let t = all.iter().find(|t| t["object"] == name).unwrap();
     let te = t["e"].as_f64().unwrap();
     let mut rng = SplitMix::new(77);
-    let (mut n, mut data, mut posterior) = (0, 0, 0);
+    let (mut n, mut data, mut posterior, mut central) = (0, 0, 0, 0);
     for _ in 0..DRAWS {
         let r = fit_tracklet(
             &util::noisy(t, &mut rng, 0.2),
@@ -41,10 +41,12 @@ fn coverage(name: &str) -> (usize, usize, usize) {
         data += usize::from((lo..=hi).contains(&te));
         let (e, s) = (r.e.unwrap(), r.e_sigma.unwrap());
         posterior += usize::from((e - te).abs() <= 1.96 * s);
+        let [a, b] = r.e_interval_95.unwrap();
+        central += usize::from((a..=b).contains(&te));
     }
     eprintln!(
         "{name}: {n} of {DRAWS} answers from the range profile; truth inside the positions' interval \
-         {data}, inside the posterior's e ± 1.96σ {posterior}"
+         {data}, inside the posterior's e ± 1.96σ {posterior}, inside its central 95 % interval {central}"
     );
     (n, data, posterior)
 }

@@ -113,3 +113,22 @@ fn the_heliocentric_and_barycentric_lines_describe_one_orbit_with_one_spread() {
     }
     assert!(checked >= 10, "{checked}");
 }
+
+#[test]
+fn every_answer_with_a_sigma_of_e_has_nested_intervals_of_e_about_its_e() {
+    // One-night, range-profile, sampled, drawn and linear answers of the demo night alike.
+    let recs = demo_records();
+    let mut checked = 0;
+    for (obj, r) in recs.iter().filter(|(_, r)| r["e_sigma"].is_number()) {
+        let pair = |k: &str| -> [f64; 2] {
+            let a = r[k].as_array().unwrap_or_else(|| panic!("{obj}: no {k}"));
+            [a[0].as_f64().unwrap(), a[1].as_f64().unwrap()]
+        };
+        let ([a, b], [c, d]) = (pair("e_interval_68"), pair("e_interval_95"));
+        let e = r["e"].as_f64().unwrap();
+        assert!(c <= a && a <= b && b <= d, "{obj}: {c} {a} {b} {d}");
+        assert!((c..=d).contains(&e), "{obj}: e {e} outside {c}–{d}");
+        checked += 1;
+    }
+    assert!(checked >= 10, "{checked}");
+}

@@ -379,6 +379,7 @@ fn fill_ranging(
         }
     };
     out.q_sigma = half68(&|s| s.q);
+    out.set_e_intervals(&rr.samples.iter().map(|s| s.e).collect::<Vec<_>>(), &w);
     out.i_sigma = half68(&|s| s.i);
     out.e_bary = Some(rr.best.e_bary);
     out.epoch_jd_tdb = Some(rr.best.epoch.value());

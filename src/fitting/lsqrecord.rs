@@ -161,6 +161,7 @@ fn fill_orbit(
     out.n_used = fit.n_used();
     out.e = Some(el.e);
     out.e_sigma = sig.map(|s| s.e);
+    out.set_linear_e_intervals(el.e, out.e_sigma);
     out.q_au = Some(el.q);
     out.q_sigma = sig.map(|s| s.q);
     out.i_deg = Some(el.i);

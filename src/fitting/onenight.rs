@@ -187,6 +187,7 @@ fn summarise(
         quantiles(&els, |e| e.i),
     );
     out.e_sigma = Some((qe[3] - qe[1]) / 2.0);
+    (out.e_interval_68, out.e_interval_95) = (Some([qe[1], qe[3]]), Some([qe[0], qe[4]]));
     out.q_sigma = Some((qq[3] - qq[1]) / 2.0);
     out.i_sigma = Some((qi[3] - qi[1]) / 2.0);
     out.ranging = Some(RangingOut {

@@ -102,6 +102,12 @@ pub struct FitResult {
     /// `datainterval.rs`); null on other paths. Beside e ± σ, which are the posterior's, it shows
     /// where the model rather than the data narrowed e.
     pub e_data_interval: Option<[f64; 2]>,
+    /// The central 68.27 % and 95 % intervals of the heliocentric e over the same orbits as e_sigma (their
+    /// Φ(∓1) and 2.5/97.5 % points); e ∓ σ and e ∓ 1.96σ (not below 0) where the answer is a trusted
+    /// linear one, whose e is linear in the state within a fifth of σ. Unlike e ± σ they follow a
+    /// skewed e: where e curves within 1σ, one side can be several times the other.
+    pub e_interval_68: Option<[f64; 2]>,
+    pub e_interval_95: Option<[f64; 2]>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the
     /// same meaning on every path), its one-sigma numerical error, and Φ⁻¹ of it.
     pub p_hyperbolic: Option<f64>,
@@ -163,6 +169,19 @@ pub struct FitResult {
 }
 
 impl FitResult {
+    /// The e intervals from weighted values of e (the orbits behind e_sigma).
+    pub fn set_e_intervals(&mut self, e_values: &[f64], weights: &[f64]) {
+        (self.e_interval_68, self.e_interval_95) =
+            super::stats::central_intervals(e_values, weights).unzip();
+    }
+
+    /// The e intervals of a trusted linear answer: e ∓ σ and e ∓ 1.96σ, not below 0.
+    pub fn set_linear_e_intervals(&mut self, e: f64, sigma: Option<f64>) {
+        let around = |k: f64| sigma.map(|s| [(e - k * s).max(0.0), e + k * s]);
+        self.e_interval_68 = around(1.0);
+        self.e_interval_95 = around(1.959_963_984_540_054);
+    }
+
     pub fn empty(tr: &Tracklet) -> FitResult {
         FitResult {
             source: tr.source.clone(),
@@ -177,6 +196,8 @@ impl FitResult {
             e: None,
             e_sigma: None,
             e_data_interval: None,
+            e_interval_68: None,
+            e_interval_95: None,
             p_hyperbolic: None,
             p_hyperbolic_error: None,
             z_hyperbolic: None,

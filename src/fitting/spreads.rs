@@ -136,6 +136,7 @@ pub fn sample_spreads(
     // Not the most probable sample: where the posterior has two modes of like height (a near-parabolic
     // spike and a hyperbolic hump) that one jumps between them on the last bits of the data.
     let e_values: Vec<f64> = els.iter().map(|el| el.e).collect();
+    out.set_e_intervals(&e_values, weights);
     let best = super::stats::weighted_quantile(&e_values, weights, 0.5).and_then(|median| {
         (0..els.len())
             .filter(|&k| weights[k] > 0.0)
@@ -218,8 +219,10 @@ pub fn gaussian_spreads(out: &mut FitResult, fit: &LsqFit, cov: &M6, shift: &S6,
         .map(|_| state + l * S6::from_fn(|_, _| rng.normal()))
         .collect();
     let weights = vec![1.0 / GAUSSIAN_DRAWS as f64; GAUSSIAN_DRAWS];
-    let sig = element_sigmas(&elements_of(&states, epoch, Centre::Sun), &weights);
+    let els = elements_of(&states, epoch, Centre::Sun);
+    let sig = element_sigmas(&els, &weights);
     out.e_sigma = Some(sig.e);
+    out.set_e_intervals(&els.iter().map(|el| el.e).collect::<Vec<_>>(), &weights);
     out.q_sigma = Some(sig.q);
     out.i_sigma = Some(sig.i);
     if let Some(el) = out.elements.as_mut() {

@@ -104,6 +104,20 @@ pub fn weighted_quantiles<const N: usize>(
     })
 }
 
+/// Φ(−1) and Φ(1): the ends of the central 68.27 % of a normal distribution (scipy.stats.norm.cdf).
+pub const ONE_SIGMA_QUANTILES: [f64; 2] = [0.158_655_253_931_457_05, 0.841_344_746_068_542_9];
+
+/// The central 68.27 % and 95 % intervals of weighted values (their Φ(∓1) and 2.5/97.5 % points):
+/// unlike a mean ± σ they follow a skewed distribution, and a monotone function of the values carries
+/// them over unchanged.
+pub fn central_intervals(values: &[f64], weights: &[f64]) -> Option<([f64; 2], [f64; 2])> {
+    let [lo, hi] = ONE_SIGMA_QUANTILES;
+    match weighted_quantiles(values, weights, [0.025, lo, hi, 0.975]) {
+        [Some(a), Some(b), Some(c), Some(d)] => Some(([b, c], [a, d])),
+        _ => None,
+    }
+}
+
 /// Weights from natural logs, scaled so that the largest is 1 (exp(ln w − max ln w), which neither
 /// overflows nor underflows where the logs are large); None where no log is finite or above −∞.
 pub fn relative_weights(ln_w: impl IntoIterator<Item = f64>) -> Option<Vec<f64>> {
@@ -155,6 +169,29 @@ mod tests {
             assert_eq!(got, Some(one_at_a_time(*q)), "q {q}");
         }
         assert_eq!(weighted_quantiles(&[f64::NAN], &[1.0], [0.5]), [None]);
+    }
+
+    #[test]
+    fn central_intervals_follow_a_skewed_sample_and_a_monotone_map() {
+        // 10 000 equally weighted points of a standard normal by its quantiles, and their exp (a
+        // log-normal): the intervals of the exp are the exp of the normal's, lopsided about the median.
+        let n = 10_000;
+        let z: Vec<f64> = (0..n)
+            .map(|k| normal_quantile((k as f64 + 0.5) / n as f64))
+            .collect();
+        let w = vec![1.0; n];
+        let (i68, i95) = central_intervals(&z, &w).unwrap();
+        assert!(
+            (i68[0] + 1.0).abs() < 1e-3 && (i68[1] - 1.0).abs() < 1e-3,
+            "{i68:?}"
+        );
+        assert!((i95[0] + 1.959_964).abs() < 1e-3, "{i95:?}");
+        let x: Vec<f64> = z.iter().map(|v| v.exp()).collect();
+        let (j68, j95) = central_intervals(&x, &w).unwrap();
+        assert_eq!(j68, i68.map(f64::exp));
+        assert_eq!(j95, i95.map(f64::exp));
+        assert!(j95[1] - 1.0 > 3.0 * (1.0 - j95[0]));
+        assert_eq!(central_intervals(&[f64::NAN], &[1.0]), None);
     }
 
     #[test]

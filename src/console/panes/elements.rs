@@ -117,6 +117,9 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
             }
         )));
     }
+    if let Some(line) = posterior_interval_line(f) {
+        out.push(Line::from(line));
+    }
     if let Some(interval) = f.e_data_interval {
         out.push(Line::from(data_interval_line(interval)));
     }
@@ -169,7 +172,20 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
 /// Other solutions listed one per line, best first (the JSON has them all).
 const MAX_ALTERNATIVE_LINES: usize = 3;
 
-/// One other solution: its orbit, how much worse (or better) it fits, and its share of P.
+/// Where e ± σ came from orbits (samples of the posterior or draws about the fit), their central
+/// intervals of e, which show a lopsided e that a symmetric σ hides (a linear answer's are e ± σ; a
+/// one-night answer's ranging line shows its 95 % already).
+fn posterior_interval_line(f: &crate::fitting::result::FitResult) -> Option<String> {
+    let (Some([a, b]), Some([c, d])) = (f.e_interval_68, f.e_interval_95) else {
+        return None;
+    };
+    (!f.samples.is_empty() && f.ranging.is_none()).then(|| {
+        // Enough digits to tell the ends apart, as many as e ± σ shows at most.
+        let p = (2.0 - (d - c).max(1e-12).log10()).clamp(2.0, 5.0) as usize;
+        format!("e 68 %: {a:.p$}–{b:.p$}  95 %: {c:.p$}–{d:.p$}")
+    })
+}
+
 /// The range of e the positions alone allow, beside the posterior's e ± σ above it.
 fn data_interval_line([lo, hi]: [f64; 2]) -> String {
     format!(
@@ -178,6 +194,7 @@ fn data_interval_line([lo, hi]: [f64; 2]) -> String {
     )
 }
 
+/// One other solution: its orbit, how much worse (or better) it fits, and its share of P.
 fn alternative_line(a: &crate::fitting::result::Alternative) -> String {
     format!(
         "or: e {:.4}  q {:.4} AU  i {:.2}°  Δχ² {:+.1}{}  {}",
