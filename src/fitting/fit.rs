@@ -17,7 +17,7 @@ pub use super::result::{
     Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
 use super::sampling::distrust_reasons;
-use super::significance::MU_BARY;
+use super::significance::{MU_BARY, unbound_bary};
 use super::stats::weighted_quantile;
 use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
@@ -214,10 +214,20 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         return fallback(&why);
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
+    // A minimum of the other class that fits worse than the alternatives' Δχ² can still hold the
+    // posterior when the model favours its class by more (a near-Earth asteroid's own valley 11.7 above
+    // a hyperbolic one at twice its distance): the linear answer alone would say P = 1.
+    let unbound = unbound_bary(&fit.state, &shift);
+    let flips = found
+        .elsewhere
+        .iter()
+        .any(|x| unbound_bary(x, &shift) != unbound);
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
-    let distrusted =
-        !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty() || flatter;
+    let distrusted = !distrust_reasons(&problem, &fit, &shift).is_empty()
+        || !alternatives.is_empty()
+        || flatter
+        || flips;
     // A decisive linear z settles the class, but where the range is known to worse than 5 % its
     // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
     let range_known =
@@ -225,6 +235,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty()
+        && !flips
         && range_known;
     // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
     let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
@@ -237,6 +248,10 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         if flatter {
             // The profile's refit may look linear again; the covariance was found too narrow here.
             r.distrust_linear.push(FLATTER_REASON.into());
+            r.z_linear = None;
+        }
+        if flips {
+            r.distrust_linear.push(FLIPS_REASON.into());
             r.z_linear = None;
         }
         return r;
@@ -302,6 +317,10 @@ fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
     let e = CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e;
     (s > 0.0).then(|| (e - 1.0) / s)
 }
+
+/// Why a fit with a distinct minimum of the other class (bound or unbound) within
+/// `search::PROFILE_SEED_DCHI2` went to the range profile.
+pub const FLIPS_REASON: &str = "a minimum of the other class fits within Δχ² 100: P weighs it";
 
 /// Why a fit whose χ² beside the minimum rose well short of its covariance's prediction went to the
 /// range profile.

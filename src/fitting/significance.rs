@@ -24,6 +24,14 @@ pub fn barycentric_with(x_helio: &S6, e: &EarthState) -> S6 {
     )
 }
 
+/// Whether the barycentric orbit of a heliocentric state is unbound (energy ≥ 0), given the Sun's
+/// barycentric state `shift`.
+pub fn unbound_bary(x_helio: &S6, shift: &S6) -> bool {
+    let x = x_helio + shift;
+    let (r, v) = (V3::new(x[0], x[1], x[2]), V3::new(x[3], x[4], x[5]));
+    0.5 * v.norm_squared() >= MU_BARY / r.norm()
+}
+
 /// What an unbound orbit says about where the object came from.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Incoming {
@@ -78,6 +86,18 @@ pub fn incoming(x: &S6, mu: f64, sigma_inv_a: Option<f64>) -> Option<Incoming> {
 mod tests {
     use super::*;
     use crate::physics::propagate::propagate;
+
+    #[test]
+    fn a_state_is_unbound_from_the_escape_speed_about_the_barycentre_on() {
+        // At 1 AU from the barycentre, escape speed is √(2μ/r): a little below it bound, at it and
+        // above unbound; the Sun's offset from the barycentre is added first.
+        let shift = S6::new(0.003, 0.0, 0.0, 0.0, 1e-5, 0.0);
+        let escape = (2.0 * MU_BARY).sqrt();
+        let at = |k: f64| S6::new(0.997, 0.0, 0.0, 0.0, k * escape - 1e-5, 0.0);
+        assert!(!unbound_bary(&at(0.999), &shift));
+        assert!(unbound_bary(&at(1.0), &shift));
+        assert!(unbound_bary(&at(1.001), &shift));
+    }
 
     #[test]
     fn radiant_is_where_the_backward_propagated_object_sits() {
