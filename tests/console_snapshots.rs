@@ -32,6 +32,18 @@ fn demo_app() -> App {
     })
 }
 
+/// Move the cursor from the top to the candidate `name`, as an observer would, row by row.
+fn select(app: &mut App, name: &str) {
+    app.on_key(key('g'));
+    for _ in 0..app.candidates.len() {
+        if app.selected.as_deref() == Some(name) {
+            break;
+        }
+        app.on_key(key('j'));
+    }
+    assert_eq!(app.selected.as_deref(), Some(name));
+}
+
 fn key(c: char) -> KeyEvent {
     KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE)
 }
@@ -177,14 +189,7 @@ fn an_answer_from_the_range_profile_shows_its_lopsided_e_and_what_the_positions_
     // and no further than 1.0034 above); the orbit pane shows its intervals and beside them the range
     // of e the positions allow.
     let mut app = demo_app();
-    app.on_key(key('g'));
-    for _ in 0..app.candidates.len() {
-        if app.selected.as_deref() == Some("qk5t8yn") {
-            break;
-        }
-        app.on_key(key('j'));
-    }
-    assert_eq!(app.selected.as_deref(), Some("qk5t8yn"));
+    select(&mut app, "qk5t8yn");
     app.message = None;
     let c = app
         .candidates
@@ -327,4 +332,27 @@ fn main_screen_at_100x30_matches_its_snapshot() {
     app.on_key(key('g'));
     app.message = None;
     check("main_100x30", &screen(&mut app, 100, 30));
+}
+
+#[test]
+fn a_bound_answer_whose_positions_allow_only_unbound_orbits_is_marked_and_explained() {
+    // A record shaped like a fresh hyperbolic arc's (true e 2.59): its own positions allow e 2.26–3.86
+    // only, the population model puts the posterior on a bound valley (P 0.004, odds −2.4).
+    let mut app = demo_app();
+    let mut f = app.candidates[0].fit.clone();
+    f.object = "qkzz01".into();
+    f.p_hyperbolic = Some(0.004);
+    f.z_hyperbolic = Some(-2.65);
+    f.log10_odds = Some(-2.4);
+    f.e_data_interval = Some([2.26, 3.86]);
+    app.on_fit(1, f, 5);
+    select(&mut app, "qkzz01");
+    let shown = screen(&mut app, 160, 48);
+    let row = shown.lines().find(|l| l.contains("qkzz01")).unwrap();
+    assert!(row.contains("△-2.4"), "{row}");
+    assert!(
+        shown.contains("positions allow only unbound, the model says bound"),
+        "{shown}"
+    );
+    assert!(shown.contains("another night tests the model"), "{shown}");
 }

@@ -13,6 +13,9 @@ fn tier(r: &FitResult) -> &'static str {
 }
 
 fn evidence(r: &FitResult) -> Option<String> {
+    if r.model_overrules_unbound_positions() {
+        return Some("positions allow only unbound, the model says bound".into());
+    }
     let k = r.log10_bayes_factor?;
     Some(if r.prior_dominated {
         "prior decides, not the data".to_string()
@@ -31,6 +34,10 @@ fn what_would_change(r: &FitResult) -> String {
     let p = r.p_hyperbolic.unwrap_or(0.0);
     if r.alternatives.iter().any(|a| a.unbound != (p >= 0.5)) {
         return "another solution flips it".into();
+    }
+    // However small P is, the data have not settled it: the model has.
+    if r.model_overrules_unbound_positions() {
+        return "another night tests the model".into();
     }
     if r.n_nights <= 1 && (0.01..=0.99).contains(&p) {
         return "a 2nd night decides it".into();
@@ -100,6 +107,16 @@ mod tests {
         assert!(w.contains("usable fit"), "{w}");
         assert!(w.contains("prior decides"), "{w}");
         assert!(w.contains("2nd night"), "{w}");
+    }
+
+    #[test]
+    fn a_bound_answer_whose_positions_allow_only_unbound_orbits_is_not_called_settled() {
+        let mut r = record(0.004, 3, false);
+        r.e_data_interval = Some([2.26, 3.86]);
+        let w = why_line(&r, 200);
+        assert!(w.contains("positions allow only unbound"), "{w}");
+        assert!(w.contains("another night tests the model"), "{w}");
+        assert!(!w.contains("settled"), "{w}");
     }
 
     #[test]

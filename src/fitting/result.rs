@@ -83,6 +83,11 @@ pub struct ResidualOut {
     pub chi2: f64,
 }
 
+/// Heliocentric e above which the positions' own range of e counts as unbound: clear of the
+/// heliocentric–barycentric difference of e (under 0.005 for objects a few au from the Sun, the demo's
+/// largest; common practice, no source for the margin).
+pub const POSITIONS_UNBOUND_E: f64 = 1.01;
+
 /// The answer for one tracklet (the `fit --json` record).
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct FitResult {
@@ -169,6 +174,15 @@ pub struct FitResult {
 }
 
 impl FitResult {
+    /// The positions alone allow only unbound orbits (their own range of e starts above
+    /// `POSITIONS_UNBOUND_E`) while the posterior says bound: the population model, not the data, made
+    /// the answer bound.
+    pub fn model_overrules_unbound_positions(&self) -> bool {
+        self.e_data_interval
+            .is_some_and(|[lo, _]| lo > POSITIONS_UNBOUND_E)
+            && self.p_hyperbolic.is_some_and(|p| p < 0.5)
+    }
+
     /// The e intervals from weighted values of e (the orbits behind e_sigma).
     pub fn set_e_intervals(&mut self, e_values: &[f64], weights: &[f64]) {
         (self.e_interval_68, self.e_interval_95) =

@@ -10,10 +10,17 @@ use ratatui::layout::{Constraint, Rect};
 use ratatui::style::Color;
 use ratatui::widgets::{Block, Borders, Cell, Row, Table};
 
-/// The odds column: log₁₀ of the posterior odds, with ▲ where P ≥ 0.99 on a usable fit.
+/// The odds column: log₁₀ of the posterior odds, with ▲ where P ≥ 0.99 on a usable fit and △ where the
+/// positions alone allow only unbound orbits but the model says bound.
 fn score_text(c: &Candidate) -> String {
     let f = &c.fit;
-    let flag = if strong(f) { "▲" } else { " " };
+    let flag = if strong(f) {
+        "▲"
+    } else if f.model_overrules_unbound_positions() {
+        "△"
+    } else {
+        " "
+    };
     format!("{flag}{}", crate::report::odds_text(f))
 }
 
@@ -192,6 +199,33 @@ pub fn value_pm(v: f64, s: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::value_pm;
+
+    #[test]
+    fn the_model_overrules_the_positions_only_where_they_exclude_every_bound_orbit() {
+        use crate::fitting::input::Tracklet;
+        use crate::fitting::result::FitResult;
+        let mut f = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        f.p_hyperbolic = Some(0.004);
+        f.log10_odds = Some(-2.4);
+        // A range of e that reaches below 1.01 allows bound orbits (or barely unbound ones).
+        for (interval, marked) in [
+            (None, false),
+            (Some([2.26, 3.86]), true),
+            (Some([1.005, 3.86]), false),
+            (Some([0.64, 14.0]), false),
+        ] {
+            f.e_data_interval = interval;
+            assert_eq!(
+                f.model_overrules_unbound_positions(),
+                marked,
+                "{interval:?}"
+            );
+        }
+        // Where the posterior too says unbound there is nothing to overrule.
+        f.e_data_interval = Some([2.26, 3.86]);
+        f.p_hyperbolic = Some(0.7);
+        assert!(!f.model_overrules_unbound_positions());
+    }
 
     #[test]
     fn value_and_sigma_fit_their_column_at_every_size() {
