@@ -238,7 +238,7 @@ fn a_better_fitting_minimum_of_the_other_class_does_not_decide_the_probability_a
     // neo672u_p013n (q 0.64 AU, e 0.63, i 39°), one noise draw each from seeds 452 and 2222 (the two
     // of 6000 that fell this way): a hyperbolic minimum at ρ 1.66 AU (e 2.96) fits the three nights
     // better than the asteroid's own valley at ρ 0.74 AU, by Δχ² 11.7 — more than the alternatives'
-    // 9 — so the linear answer stood alone: e 2.99 ± 0.06, P(unbound) 1.0. The answer now comes from
+    // 9 — so the linear answer stood alone: e 2.99–3.02 ± 0.06, P(unbound) 1.0. The answer now comes from
     // the range profile, which weighs both valleys under the population model, and lists the one it
     // does not stand on.
     let all = arcs();

@@ -155,7 +155,7 @@ fn common_checks(name: &str, seed: u64) -> Summary {
     assert!(s.sd <= 1.1, "{name}: sd {}", s.sd);
     assert!(s.within3 >= 0.99, "{name}: within 3σ {}", s.within3);
     // The central intervals hold the truth in their nominal share, within three binomial standard
-    // errors over 250 fits (68.27 ± 8.8 %, 95 ± 4.1 %), lopsided e included.
+    // errors over up to 250 fits (68.27 ± 8.8 %, 95 ± 4.1 %), lopsided e included.
     let [c68, c95] = s.covered;
     assert!((c68 - 0.6827).abs() <= 0.088, "{name}: 68 % interval {c68}");
     assert!((c95 - 0.95).abs() <= 0.041, "{name}: 95 % interval {c95}");

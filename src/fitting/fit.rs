@@ -5,26 +5,22 @@
 
 use super::covariance::eccentricity_gradient;
 use super::input::Tracklet;
-use super::kinds::{FitMethod, FitStatus, ProbabilitySource};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct_with_outliers};
-use super::lsqrecord::{LINEAR_DECIDES, NO_ORBIT_CHI2_PER_DOF, lsq_result, residual_list, rms};
-use super::onenight::{fit_one_night, instant_at, night_v_mag};
+use super::lsqrecord::{LINEAR_DECIDES, NO_ORBIT_CHI2_PER_DOF, lsq_result};
+use super::onenight::fit_one_night;
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::population::PopulationModel;
-use super::ranging::{RangingOptions, RangingResult, range};
-use super::result::elements_out;
+use super::ranging::RangingOptions;
 pub use super::result::{
     Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
 use super::sampling::distrust_reasons;
 use super::significance::{MU_BARY, unbound_bary};
-use super::stats::weighted_quantile;
-use crate::physics::constants::{ARCSEC, MU_SUN};
+use crate::physics::constants::ARCSEC;
 use crate::physics::elements::CometaryElements;
-use crate::physics::frames::{equatorial_to_ecliptic, unit_from_radec};
-use crate::physics::observe::{ObserverModel, ObserverState};
-use crate::physics::time::Jd2;
-use crate::physics::{S6, V3, split_state};
+use crate::physics::frames::unit_from_radec;
+use crate::physics::observe::ObserverModel;
+use crate::physics::{S6, split_state};
 use std::sync::{Arc, OnceLock};
 
 /// Which method to use.
@@ -153,7 +149,9 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         return fit_one_night(tr, model, &observers, &cov, &opts.population, opts.seed);
     }
     if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
-        return ranging_result(tr, model, &observers, &cov, &shift, opts, None);
+        return super::rangingrecord::ranging_result(
+            tr, model, &observers, &cov, &shift, opts, None,
+        );
     }
     let inputs = super::twonight::ArcInputs {
         tr,
@@ -186,7 +184,6 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         return fallback("no initial orbit converged");
     };
     let (mut fit, alternatives) = (found.best, found.alternatives);
-    let flatter = found.flatter_than_linear;
     let nbody = NBody::new();
     let perturb = needs_perturbations(&problem, &fit, opts.perturbations);
     let dynamics: &dyn Dynamics = if perturb { &nbody } else { &two_body };
@@ -214,29 +211,20 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         return fallback(&why);
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
-    // A minimum of the other class that fits worse than the alternatives' Δχ² can still hold the
-    // posterior when the model favours its class by more (a near-Earth asteroid's own valley 11.7 above
-    // a hyperbolic one at twice its distance): the linear answer alone would say P = 1.
-    let unbound = unbound_bary(&fit.state, &shift);
-    let flips = found
-        .elsewhere
-        .iter()
-        .any(|x| unbound_bary(x, &shift) != unbound);
+    let doubts = Doubts::of(&found.elsewhere, found.flatter_than_linear, &fit, &shift);
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
     let distrusted = !distrust_reasons(&problem, &fit, &shift).is_empty()
         || !alternatives.is_empty()
-        || flatter
-        || flips;
-    // A decisive linear z settles the class, but where the range is known to worse than 5 % its
-    // Gaussian draws cannot follow e along the curved valley, so the profile still answers.
-    let range_known =
-        range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED) && !flatter;
-    let decided = linear_z(&fit, &shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
-        && tr.n_nights() >= 3
-        && alternatives.is_empty()
-        && !flips
-        && range_known;
+        || doubts.any();
+    let decided = linear_decides(
+        &fit,
+        &shift,
+        tr.n_nights(),
+        &alternatives,
+        range_sigma,
+        &doubts,
+    );
     // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
     let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
     if distrusted
@@ -245,15 +233,9 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         && let Some(mut r) =
             super::twonight::fit_by_profile(inputs, Some(fit.state), &found.elsewhere, dynamics)
     {
-        if flatter {
-            // The profile's refit may look linear again; the covariance was found too narrow here.
-            r.distrust_linear.push(FLATTER_REASON.into());
-            r.z_linear = None;
-        }
-        if flips {
-            r.distrust_linear.push(FLIPS_REASON.into());
-            r.z_linear = None;
-        }
+        // The profile's refit may look linear again; the doubts were found about this minimum.
+        doubts.mark(&mut r);
+        r.z_linear = r.z_linear.filter(|_| !doubts.any());
         return r;
     }
     let mut r = lsq_result(
@@ -265,11 +247,63 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         dynamics.model(),
         None,
     );
-    // The profile could not answer (or no orbit fits): the linear answer stands, with the warning.
-    if flatter {
-        r.distrust_linear.push(FLATTER_REASON.into());
-    }
+    // The profile could not answer (or no orbit fits): the linear answer stands, with the warnings.
+    doubts.mark(&mut r);
     r
+}
+
+/// Why the linear answer may not stand, beyond its own distrust reasons (`distrust_reasons`).
+struct Doubts {
+    /// χ² beside the minimum, along the distance, rose well short of its covariance's prediction.
+    flatter: bool,
+    /// A distinct minimum of the other class (bound or unbound) lies within `PROFILE_SEED_DCHI2` of
+    /// the best (before its outliers were set aside). It can hold the posterior though it fits worse
+    /// than the alternatives' Δχ², when the model favours its class by more: a near-Earth asteroid's
+    /// own valley 11.7 above a hyperbolic one at twice its distance once left P = 1 to the linear answer.
+    flips: bool,
+}
+
+impl Doubts {
+    /// The doubts about `fit`, given where the search's other minima lie and whether χ² was flatter.
+    fn of(elsewhere: &[S6], flatter: bool, fit: &LsqFit, shift: &S6) -> Doubts {
+        let unbound = unbound_bary(&fit.state, shift);
+        Doubts {
+            flatter,
+            flips: elsewhere.iter().any(|x| unbound_bary(x, shift) != unbound),
+        }
+    }
+
+    fn any(&self) -> bool {
+        self.flatter || self.flips
+    }
+
+    /// Say on the record why the linear answer was doubted.
+    fn mark(&self, r: &mut FitResult) {
+        for (doubted, why) in [(self.flatter, FLATTER_REASON), (self.flips, FLIPS_REASON)] {
+            if doubted {
+                r.distrust_linear.push(why.into());
+            }
+        }
+    }
+}
+
+/// Whether a decisive linear z settles the class. Where the range is known to worse than 5 %, or χ²
+/// along the distance is flatter than the covariance, its Gaussian draws cannot follow e along the
+/// curved valley, and where another solution or a minimum of the other class competes the linear
+/// answer does not weigh it: the profile still answers.
+fn linear_decides(
+    fit: &LsqFit,
+    shift: &S6,
+    nights: usize,
+    alternatives: &[LsqFit],
+    range_sigma: Option<f64>,
+    doubts: &Doubts,
+) -> bool {
+    linear_z(fit, shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
+        && nights >= 3
+        && alternatives.is_empty()
+        && !doubts.any()
+        && range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED)
 }
 
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that
@@ -328,132 +362,3 @@ pub const FLATTER_REASON: &str = "χ² along the distance flatter than the covar
 
 /// Relative range uncertainty beyond which a short arc is handed to ranging.
 pub const DEGENERATE_RANGE: f64 = 0.3;
-
-fn ranging_result(
-    tr: &Tracklet,
-    model: &ObserverModel,
-    observers: &[ObserverState],
-    cov: &[nalgebra::Matrix2<f64>],
-    shift: &S6,
-    opts: &FitOptions,
-    why: Option<&str>,
-) -> FitResult {
-    let location = tr.obs[tr.obs.len() / 2].location;
-    let observer_at = |t: Jd2| model.observer(&location, &instant_at(tr, t)).ok();
-    let sun = (
-        V3::new(shift[0], shift[1], shift[2]),
-        V3::new(shift[3], shift[4], shift[5]),
-    );
-    let (v_mag, assumed) = night_v_mag(tr, &opts.population);
-    let Some(rr) = range(
-        tr,
-        observers,
-        cov,
-        observer_at,
-        sun,
-        &opts.ranging,
-        (&opts.population, v_mag),
-    ) else {
-        let mut f = FitResult::failed(tr, "ranging found no admissible orbit");
-        f.method = FitMethod::Ranging;
-        return f;
-    };
-    let mut out = FitResult::empty(tr);
-    out.method = FitMethod::Ranging;
-    out.probability_from = ProbabilitySource::SystematicRanging;
-    out.v_mag = Some(v_mag);
-    out.v_mag_assumed = assumed;
-    fill_ranging(&mut out, tr, observers, &rr, opts);
-    if let Some(w) = why {
-        out.distrust_linear.push(w.to_string());
-    }
-    out
-}
-
-fn fill_ranging(
-    out: &mut FitResult,
-    tr: &Tracklet,
-    observers: &[ObserverState],
-    rr: &RangingResult,
-    opts: &FitOptions,
-) {
-    out.set_posterior(
-        &rr.posterior,
-        ProbabilitySource::SystematicRanging,
-        &opts.population.source,
-    );
-    out.n_eff = Some(rr.n_eff);
-    out.e = Some(rr.e_interval[1]);
-    out.q_au = Some(rr.q_interval[1]);
-    out.i_deg = Some(rr.i_interval[1]);
-    let w: Vec<f64> = rr.samples.iter().map(|s| s.weight).collect();
-    let half68 = |f: &dyn Fn(&super::ranging::RangingSample) -> f64| {
-        let v: Vec<f64> = rr.samples.iter().map(f).collect();
-        match (
-            weighted_quantile(&v, &w, 0.1587),
-            weighted_quantile(&v, &w, 0.8413),
-        ) {
-            (Some(a), Some(b)) => Some((b - a) / 2.0),
-            _ => None,
-        }
-    };
-    out.q_sigma = half68(&|s| s.q);
-    out.set_e_intervals(&rr.samples.iter().map(|s| s.e).collect::<Vec<_>>(), &w);
-    out.i_sigma = half68(&|s| s.i);
-    out.e_bary = Some(rr.best.e_bary);
-    out.epoch_jd_tdb = Some(rr.best.epoch.value());
-    out.n_used = tr.obs.len();
-    let b = rr.best.state;
-    out.state = Some([b[0], b[1], b[2], b[3], b[4], b[5]]);
-    let ecl = equatorial_to_ecliptic();
-    let (r, v) = split_state(&b);
-    let el = CometaryElements::from_state(&(ecl * r), &(ecl * v), rr.best.epoch.value(), MU_SUN);
-    out.elements = Some(elements_out(&el, None, MU_SUN));
-    // Residuals of the most probable orbit.
-    let mut res = Vec::new();
-    for (i, o) in tr.obs.iter().enumerate() {
-        let p = super::ranging::quick_predict(&r, &v, rr.best.epoch, o.time.tdb, &observers[i]);
-        res.push(p.map_or([f64::NAN; 2], |p| {
-            crate::physics::observe::residual(o.ra, o.dec, &p)
-        }));
-    }
-    let used = vec![true; tr.obs.len()];
-    out.rms_arcsec = Some(rms(&res, &used));
-    out.chi2_per_dof = Some(rr.best.chi2 / ((2 * tr.obs.len()).saturating_sub(4)).max(1) as f64);
-    out.residuals = residual_list(tr, &res, &used, &[]);
-    out.ranging = Some(RangingOut {
-        trials: rr.trials,
-        n_eff: rr.n_eff,
-        v_cap_km_s: opts.ranging.v_cap_km_s,
-        e_interval: rr.e_interval,
-        q_interval: rr.q_interval,
-        i_interval: rr.i_interval,
-    });
-    out.samples = resample(
-        rr.samples
-            .iter()
-            .map(|s| {
-                (
-                    [
-                        s.state[0], s.state[1], s.state[2], s.state[3], s.state[4], s.state[5],
-                    ],
-                    s.epoch.value(),
-                    s.weight,
-                )
-            })
-            .collect(),
-        KEPT_SAMPLES,
-        opts.seed,
-    );
-    if out.chi2_per_dof.unwrap_or(0.0) > super::quality::MAX_CHI2_PER_DOF {
-        out.poor_fit.push(format!(
-            "chi2/dof {:.1} at the best node",
-            out.chi2_per_dof.unwrap_or(0.0)
-        ));
-    }
-    out.status = if out.poor_fit.is_empty() {
-        FitStatus::Ok
-    } else {
-        FitStatus::PoorFit
-    };
-}

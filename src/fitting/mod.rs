@@ -31,6 +31,7 @@ pub mod profilequad;
 pub mod quality;
 pub mod rangescan;
 pub mod ranging;
+pub mod rangingrecord;
 pub mod rejection;
 pub mod result;
 pub mod sampling;

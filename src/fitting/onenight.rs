@@ -9,7 +9,7 @@ use super::population::PopulationModel;
 use super::result::{FitResult, KEPT_SAMPLES, RangingOut, elements_out};
 use super::shortarc::{Geometry, ShortArc, ShortArcOptions, one_night};
 use super::significance::{MU_BARY, incoming};
-use super::stats::weighted_quantiles;
+use super::stats::{ONE_SIGMA_QUANTILES, weighted_quantiles};
 use crate::physics::constants::{ARCSEC, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
@@ -259,7 +259,18 @@ fn summarise(
 fn quantiles(els: &[CometaryElements], f: impl Fn(&CometaryElements) -> f64) -> [f64; 5] {
     let v: Vec<f64> = els.iter().map(f).collect();
     let eq = vec![1.0; v.len()];
-    weighted_quantiles(&v, &eq, [0.025, 0.1587, 0.5, 0.8413, 0.975]).map(|q| q.unwrap_or(f64::NAN))
+    weighted_quantiles(
+        &v,
+        &eq,
+        [
+            0.025,
+            ONE_SIGMA_QUANTILES[0],
+            0.5,
+            ONE_SIGMA_QUANTILES[1],
+            0.975,
+        ],
+    )
+    .map(|q| q.unwrap_or(f64::NAN))
 }
 
 /// Half the central 68 % of the orbits' elements (q, e and i from their quantiles `[q, e, i]` already
@@ -281,7 +292,7 @@ fn half_widths(els: &[CometaryElements], [qq, qe, qi]: [[f64; 5]; 3]) -> Element
             .iter()
             .map(|el| (f(el) - mean + 180.0).rem_euclid(360.0) - 180.0)
             .collect();
-        let q = weighted_quantiles(&v, &vec![1.0; v.len()], [0.1587, 0.8413]);
+        let q = weighted_quantiles(&v, &vec![1.0; v.len()], ONE_SIGMA_QUANTILES);
         (q[1].unwrap_or(f64::NAN) - q[0].unwrap_or(f64::NAN)) / 2.0
     };
     ElementSigmas {

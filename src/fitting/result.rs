@@ -108,9 +108,10 @@ pub struct FitResult {
     /// where the model rather than the data narrowed e.
     pub e_data_interval: Option<[f64; 2]>,
     /// The central 68.27 % and 95 % intervals of the heliocentric e over the same orbits as e_sigma (their
-    /// Φ(∓1) and 2.5/97.5 % points); e ∓ σ and e ∓ 1.96σ (not below 0) where the answer is a trusted
-    /// linear one, whose e is linear in the state within a fifth of σ. Unlike e ± σ they follow a
-    /// skewed e: where e curves within 1σ, one side can be several times the other.
+    /// Φ(∓1) and 2.5/97.5 % points); e ∓ σ and e ∓ 1.96σ (not below 0) wherever e_sigma is the linear
+    /// σ (a trusted linear answer's e is linear in the state within a fifth of σ). Forced grid ranging
+    /// has no e_sigma; its intervals come from its samples. Unlike e ± σ they follow a skewed e: where
+    /// e curves within 1σ, one side can be several times the other.
     pub e_interval_68: Option<[f64; 2]>,
     pub e_interval_95: Option<[f64; 2]>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the
@@ -174,12 +175,14 @@ pub struct FitResult {
 }
 
 impl FitResult {
-    /// The positions alone allow only unbound orbits (their own range of e starts above
-    /// `POSITIONS_UNBOUND_E`) while the posterior says bound: the population model, not the data, made
-    /// the answer bound.
+    /// On a fit with no quality problem, the positions alone allow only unbound orbits (their own range
+    /// of e starts above `POSITIONS_UNBOUND_E`) while the posterior says bound: the population model,
+    /// not the data, made the answer bound.
     pub fn model_overrules_unbound_positions(&self) -> bool {
-        self.e_data_interval
-            .is_some_and(|[lo, _]| lo > POSITIONS_UNBOUND_E)
+        self.status == super::kinds::FitStatus::Ok
+            && self
+                .e_data_interval
+                .is_some_and(|[lo, _]| lo > POSITIONS_UNBOUND_E)
             && self.p_hyperbolic.is_some_and(|p| p < 0.5)
     }
 

@@ -126,7 +126,7 @@ const LEGEND: [&str; 12] = [
     "  order          usable fits first (by log10 odds unbound : bound), then poor fits, then failures",
     "  why: …         under the list: the selected row's tier, P, who decided it (data or prior), what would change it",
     "  odds ▲         P(unbound) ≥ 0.99 on a fit with no quality problem: a reason to follow up, not a discovery",
-    "  odds △         the positions alone allow only unbound orbits, the population model says bound: look again",
+    "  odds △         on a fit with no quality problem, the positions alone allow only unbound orbits, the model says bound",
     "  odds +∞ / -∞   one class got no weight at all: P is 1 or 0 only as far as the trial orbits reach",
     "  odds >+999     the odds are written as a bound past a thousand decades",
     "  e ± σ          σ from the samples behind P wherever the linear fit is not trusted",

@@ -205,6 +205,7 @@ mod tests {
         use crate::fitting::input::Tracklet;
         use crate::fitting::result::FitResult;
         let mut f = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        f.status = crate::fitting::kinds::FitStatus::Ok;
         f.p_hyperbolic = Some(0.004);
         f.log10_odds = Some(-2.4);
         // A range of e that reaches below 1.01 allows bound orbits (or barely unbound ones).
@@ -221,8 +222,12 @@ mod tests {
                 "{interval:?}"
             );
         }
-        // Where the posterior too says unbound there is nothing to overrule.
+        // A poor fit's range of e means little (its why line says to check the linkage).
         f.e_data_interval = Some([2.26, 3.86]);
+        f.status = crate::fitting::kinds::FitStatus::PoorFit;
+        assert!(!f.model_overrules_unbound_positions());
+        // Where the posterior too says unbound there is nothing to overrule.
+        f.status = crate::fitting::kinds::FitStatus::Ok;
         f.p_hyperbolic = Some(0.7);
         assert!(!f.model_overrules_unbound_positions());
     }
