@@ -145,6 +145,15 @@ fn survey_draw(
     panic!("{name} is missing from the reference arcs");
 }
 
+/// The record gives `why` among its reasons to distrust the linear answer.
+fn assert_says(r: &FitResult, why: &str) {
+    assert!(
+        r.distrust_linear.iter().any(|w| w == why),
+        "{why:?} not among {:?}",
+        r.distrust_linear
+    );
+}
+
 /// A replayed survey draw fitted: the result, its e and σ_e, and the pull of e against the truth.
 fn replayed(seed: u64, name: &str, draw: usize) -> (FitResult, f64, f64, f64) {
     let (t, tr) = survey_draw(seed, name, draw);
@@ -204,13 +213,7 @@ fn a_minimum_whose_chi2_rises_short_of_its_covariance_answers_from_the_profile()
         "e {e:.4} ± {s:.4}, pull {pull:+.2}, {:?}",
         r.distrust_linear
     );
-    assert!(
-        r.distrust_linear
-            .iter()
-            .any(|w| w == interloper::fitting::fit::FLATTER_REASON),
-        "{:?}",
-        r.distrust_linear
-    );
+    assert_says(&r, interloper::fitting::fit::FLATTER_REASON);
     assert!(pull.abs() < 4.0, "e {e} ± {s}, pull {pull}");
 }
 
@@ -256,13 +259,7 @@ fn a_better_fitting_minimum_of_the_other_class_does_not_decide_the_probability_a
             r.e_sigma,
             r.alternatives.iter().map(|a| a.e).collect::<Vec<_>>()
         );
-        assert!(
-            r.distrust_linear
-                .iter()
-                .any(|w| w == interloper::fitting::fit::FLIPS_REASON),
-            "{:?}",
-            r.distrust_linear
-        );
+        assert_says(&r, interloper::fitting::fit::FLIPS_REASON);
         assert!(p < 0.99, "seed {seed}: P(unbound) {p}");
         assert!(
             near(r.e.unwrap()) || r.alternatives.iter().any(|a| near(a.e)),
