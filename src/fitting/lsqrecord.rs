@@ -109,6 +109,7 @@ pub fn lsq_result(
                 &g.weights,
                 (fit.epoch.value(), shift),
                 opts.seed,
+                super::spreads::Headline::MedianE,
             );
         }
         // A fit no orbit explains gets no probability (withheld below): do not compute one.
@@ -338,5 +339,6 @@ fn lsq_probability(
         &set.weights,
         (fit.epoch.value(), shift),
         opts.seed,
+        super::spreads::Headline::MedianE,
     );
 }

@@ -29,6 +29,7 @@ pub mod posterior;
 pub mod profile;
 pub mod profilequad;
 pub mod quality;
+pub mod rangecells;
 pub mod rangescan;
 pub mod ranging;
 pub mod rangingrecord;

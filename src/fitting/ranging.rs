@@ -13,11 +13,12 @@
 use super::input::Tracklet;
 use super::population::PopulationModel;
 use super::posterior::{Masses, Posterior, sampled_ln_odds_error};
+use super::rangecells::{Cell, Node, Scan, refine};
 use super::stats::{effective_sample_size, relative_weights, weighted_quantile};
-use crate::physics::constants::{AU_PER_DAY_TO_KM_S, C_AU_PER_DAY, MU_SUN};
+use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_SUN};
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
-use crate::physics::observe::{ObserverState, Prediction, project_position, residual};
+use crate::physics::observe::{ObserverState, Prediction, project_position};
 use crate::physics::propagate::propagate;
 use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
@@ -65,13 +66,6 @@ pub struct RangingSample {
     pub q: f64,
     pub i: f64,
     pub rho: f64,
-}
-
-/// A grid node with its ln prior weight and its class.
-struct Node {
-    sample: RangingSample,
-    ln_prior: f64,
-    unbound: bool,
 }
 
 /// Summary of a ranging run.
@@ -125,19 +119,20 @@ pub fn quick_predict(
     Some(project_position(&r, &v, obs, MU_SUN))
 }
 
-/// The attributable: direction and rate at the mean epoch, from a weighted polynomial fit in the
-/// tangent plane.
-struct Attributable {
-    t0: Jd2,
-    u: V3,
-    udot: V3,
-    e_a: V3,
-    e_d: V3,
+/// The attributable of a multi-night arc: direction and rate at the mean epoch, from a weighted
+/// polynomial fit in the tangent plane (no uncertainties or curvature: the grid's cells profile them
+/// out, unlike one night's quadrature).
+pub(super) struct GridAttributable {
+    pub(super) t0: Jd2,
+    pub(super) u: V3,
+    pub(super) udot: V3,
+    pub(super) e_a: V3,
+    pub(super) e_d: V3,
 }
 
 use super::shortarc::tangent_axes;
 
-fn attributable(tr: &Tracklet) -> Attributable {
+fn attributable(tr: &Tracklet) -> GridAttributable {
     let n = tr.obs.len();
     let t0 = {
         let base = tr.obs[0].time.tdb;
@@ -176,7 +171,7 @@ fn attributable(tr: &Tracklet) -> Attributable {
     let udot_raw = cx[1] * e_a + cy[1] * e_d;
     let udot = udot_raw - u * u.dot(&udot_raw);
     let (e_a, e_d) = tangent_axes(&u);
-    Attributable {
+    GridAttributable {
         t0,
         u,
         udot,
@@ -235,125 +230,48 @@ pub fn range(
     let ata4: nalgebra::Matrix4<f64> = nalgebra::Matrix4::from_fn(|i, j| ata_inv[(i, j)]);
     let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
     let ecl = equatorial_to_ecliptic();
+    let scan = Scan {
+        tr,
+        observers,
+        whiten,
+        a,
+        ata4,
+        att,
+        obs0,
+        model,
+        v_mag,
+        sun6,
+    };
     let mut rng = SplitMix::new(opts.seed);
     let dln = (RHO_MAX_AU / RHO_MIN_AU).ln() / opts.n_rho as f64;
     let mut nodes: Vec<Node> = Vec::new();
     let mut trials = 0;
     let mut xi = DVector::zeros(2 * n);
-    let multi_night = tr.n_nights() >= 2;
     for k in 0..opts.n_rho {
+        // One jittered distance per row of cells, its ρ̇ range from the speed cap there.
+        let row = RHO_MIN_AU.ln() + dln * k as f64;
         let ln_rho = RHO_MIN_AU.ln() + dln * (k as f64 + rng.uniform());
-        let rho = ln_rho.exp();
-        let r = obs0.helio_pos + rho * att.u;
-        let w0 = obs0.helio_vel + rho * att.udot;
-        let c1 = w0.dot(&att.u);
-        let disc = c1 * c1 - w0.norm_squared() + 2.0 * MU_SUN / r.norm() + v_cap * v_cap;
-        if disc <= 0.0 {
+        let Some((lo, hi)) = scan.rhodot_bounds(ln_rho.exp(), v_cap) else {
             continue;
-        }
-        let (lo, hi) = (-c1 - disc.sqrt(), -c1 + disc.sqrt());
+        };
         let drd = (hi - lo) / opts.n_rhodot as f64;
         for j in 0..opts.n_rhodot {
+            let cell = Cell {
+                row: k,
+                ln_rho: row,
+                dln,
+                rhodot: lo + drd * j as f64,
+                drd,
+            };
             let rhodot = lo + drd * (j as f64 + rng.uniform());
-            let epoch = att.t0.plus_days(-rho / C_AU_PER_DAY);
             trials += 1;
-            // Whitened O − C of the node's orbit built from a direction and its rate.
-            let whitened = |u: &V3, udot: &V3, out: &mut DVector<f64>| -> bool {
-                let rr = obs0.helio_pos + rho * u;
-                let vv = obs0.helio_vel + rho * udot + rhodot * u;
-                for i in 0..n {
-                    let Some(p) = quick_predict(&rr, &vv, epoch, tr.obs[i].time.tdb, &observers[i])
-                    else {
-                        return false;
-                    };
-                    let res = residual(tr.obs[i].ra, tr.obs[i].dec, &p);
-                    let wr = whiten[i] * nalgebra::Vector2::new(res[0], res[1]);
-                    out[2 * i] = wr[0];
-                    out[2 * i + 1] = wr[1];
-                }
-                true
-            };
-            if !whitened(&att.u, &att.udot, &mut xi) {
-                continue;
-            }
-            let (u, udot, chi2) = if multi_night {
-                // Over several nights the linear attributable model is not enough: one Gauss–Newton
-                // step on the four parameters with partials taken at this node, then the exact χ².
-                let mut jac = DMatrix::zeros(2 * n, 4);
-                let mut probe = DVector::zeros(2 * n);
-                let mut ok = true;
-                for k in 0..4 {
-                    let h = 1e-7;
-                    let (du, dud) = match k {
-                        0 => (att.e_a * h, V3::zeros()),
-                        1 => (att.e_d * h, V3::zeros()),
-                        2 => (V3::zeros(), att.e_a * h),
-                        _ => (V3::zeros(), att.e_d * h),
-                    };
-                    if !whitened(&(att.u + du).normalize(), &(att.udot + dud), &mut probe) {
-                        ok = false;
-                        break;
-                    }
-                    jac.set_column(k, &((&xi - &probe) / h));
-                }
-                let step = ok
-                    .then(|| {
-                        (jac.transpose() * &jac)
-                            .try_inverse()
-                            .map(|m| m * (jac.transpose() * &xi))
-                    })
-                    .flatten();
-                let Some(c) = step else {
-                    continue;
-                };
-                let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
-                let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
-                if !whitened(&u, &udot, &mut probe) {
-                    continue;
-                }
-                (u, udot, probe.norm_squared())
-            } else {
-                // Aᵀξ and the profiled correction in fixed-size arithmetic (no allocation per trial).
-                let mut atx = nalgebra::Vector4::zeros();
-                for (r, x) in a.row_iter().zip(xi.iter()) {
-                    for k in 0..4 {
-                        atx[k] += r[k] * x;
-                    }
-                }
-                let c = ata4 * atx;
-                let chi2 = (xi.norm_squared() - atx.dot(&c)).max(0.0);
-                // Apply the profiled attributable correction to the node's orbit.
-                let u = (att.u + c[0] * att.e_a + c[1] * att.e_d).normalize();
-                let udot = att.udot + c[2] * att.e_a + c[3] * att.e_d;
-                (u, udot, chi2)
-            };
-            let rr = obs0.helio_pos + rho * u;
-            let vv = obs0.helio_vel + rho * udot + rhodot * u;
-            // Population density at the node's orbit, with the H its distance implies.
-            let x6 = S6::new(rr.x, rr.y, rr.z, vv.x, vv.y, vv.z);
-            let h = model.absolute_magnitude(v_mag, &rr, &obs0.helio_pos);
-            let dens = model.density(&x6, &sun6, h);
-            if dens.ln_f == f64::NEG_INFINITY {
-                continue;
-            }
-            let ln_prior = dens.ln_f + (dln * drd).ln() + 5.0 * rho.ln();
-            nodes.push(Node {
-                sample: RangingSample {
-                    state: x6,
-                    epoch,
-                    chi2,
-                    weight: 0.0,
-                    e: f64::NAN,
-                    e_bary: f64::NAN,
-                    q: f64::NAN,
-                    i: f64::NAN,
-                    rho,
-                },
-                ln_prior,
-                unbound: dens.unbound,
-            });
+            nodes.extend(scan.node(ln_rho, rhodot, cell, &mut xi));
         }
     }
+    if nodes.is_empty() {
+        return None;
+    }
+    trials += refine(&scan, &mut nodes, &mut rng);
     if nodes.is_empty() {
         return None;
     }

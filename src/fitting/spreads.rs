@@ -7,6 +7,7 @@ use super::lsq::LsqFit;
 use super::ranging::SplitMix;
 use super::result::{FitResult, KEPT_SAMPLES, elements_out, resample};
 use super::significance::{MU_BARY, incoming};
+use super::stats::ONE_SIGMA_QUANTILES;
 use crate::physics::constants::MU_SUN;
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::equatorial_to_ecliptic;
@@ -123,6 +124,7 @@ pub fn sample_spreads(
     weights: &[f64],
     (epoch, shift): (f64, &S6),
     seed: u64,
+    headline: Headline,
 ) {
     let (all_states, all_weights) = (states, weights);
     let (states, weights) = &weighty(states, weights);
@@ -131,21 +133,11 @@ pub fn sample_spreads(
     out.e_sigma = Some(sig.e);
     out.q_sigma = Some(sig.q);
     out.i_sigma = Some(sig.i);
-    // The values beside those σ: the sampled orbit whose e is nearest the posterior median of e (one
-    // consistent set of elements), not the least-squares minimum, which the posterior may not favour.
-    // Not the most probable sample: where the posterior has two modes of like height (a near-parabolic
-    // spike and a hyperbolic hump) that one jumps between them on the last bits of the data.
+    // The values beside those σ: one sampled orbit near the posterior's middle (one consistent set
+    // of elements), not the least-squares minimum, which the posterior may not favour.
     let e_values: Vec<f64> = els.iter().map(|el| el.e).collect();
     out.set_e_intervals(&e_values, weights);
-    let best = super::stats::weighted_quantile(&e_values, weights, 0.5).and_then(|median| {
-        (0..els.len())
-            .filter(|&k| weights[k] > 0.0)
-            .min_by(|&a, &b| {
-                (e_values[a] - median)
-                    .abs()
-                    .total_cmp(&(e_values[b] - median).abs())
-            })
-    });
+    let best = headline_index(&els, weights, headline);
     match best.and_then(|k| els.get(k)) {
         Some(el) => {
             out.e = Some(el.e);
@@ -169,6 +161,51 @@ pub fn sample_spreads(
         KEPT_SAMPLES,
         seed,
     );
+}
+
+/// The orbit shown is chosen among those with at least this share of the heaviest one's weight.
+const HEADLINE_SHARE: f64 = 0.01;
+
+/// Which sampled orbit stands for the answer (its e, q, i and elements in the table, the panes and the
+/// JSON). Not the most probable sample: where the posterior has two modes of like height (a
+/// near-parabolic spike and a hyperbolic hump) that one jumps between them on the last bits of the data.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Headline {
+    /// The orbit nearest the median e: orbits along one valley (range-profile nodes, posterior draws
+    /// about one minimum), where e, q and i move together.
+    MedianE,
+    /// The orbit nearest the medians of e, q and i together, each in units of half its central 68 %:
+    /// orbits spread over a plane of ranging cells, where the orbit at the median e can sit at an end
+    /// of q's range.
+    Central,
+}
+
+/// The index of the orbit that stands for the answer, among those with at least HEADLINE_SHARE of the
+/// heaviest one's weight (a light orbit far out in another element can sit at the median e too).
+fn headline_index(els: &[CometaryElements], weights: &[f64], how: Headline) -> Option<usize> {
+    let w_max = weights.iter().copied().fold(0.0, f64::max);
+    let heavy =
+        (0..els.len()).filter(|&k| weights[k] > 0.0 && weights[k] >= HEADLINE_SHARE * w_max);
+    let scaled = |f: fn(&CometaryElements) -> f64| {
+        let v: Vec<f64> = els.iter().map(f).collect();
+        let [lo, mid, hi] = super::stats::weighted_quantiles(
+            &v,
+            weights,
+            [ONE_SIGMA_QUANTILES[0], 0.5, ONE_SIGMA_QUANTILES[1]],
+        );
+        let (mid, half) = (mid?, (hi? - lo?) / 2.0);
+        Some((v, mid, if half > 0.0 { half } else { 1.0 }))
+    };
+    let axes: Vec<(Vec<f64>, f64, f64)> = match how {
+        Headline::MedianE => vec![scaled(|el| el.e)?],
+        Headline::Central => vec![scaled(|el| el.e)?, scaled(|el| el.q)?, scaled(|el| el.i)?],
+    };
+    let distance = |k: usize| -> f64 {
+        axes.iter()
+            .map(|(v, mid, half)| ((v[k] - mid) / half).powi(2))
+            .sum()
+    };
+    heavy.min_by(|&a, &b| distance(a).total_cmp(&distance(b)))
 }
 
 /// The lightest states carrying together less than this share of the weight are left out of the
@@ -280,10 +317,48 @@ mod tests {
         let weights = [0.4, 0.2, 0.2, 0.2];
         let states: Vec<S6> = es.iter().map(|e| at_perihelion(*e)).collect();
         let mut out = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
-        sample_spreads(&mut out, &states, &weights, (0.0, &S6::zeros()), 1);
+        sample_spreads(
+            &mut out,
+            &states,
+            &weights,
+            (0.0, &S6::zeros()),
+            1,
+            Headline::MedianE,
+        );
         let e = out.e.unwrap();
         assert!((e - 1.006).abs() < 1e-9, "{e}");
         // Its other elements are that same orbit's (q 1 au at perihelion).
         assert!((out.q_au.unwrap() - 1.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn the_central_headline_sits_near_the_medians_of_e_q_and_i_not_at_an_end_of_q() {
+        // Orbits on a plane: e and q vary independently. Orbit 0 has the median e exactly but q at
+        // the top of its range; orbit 4 is near both medians.
+        let (es, qs) = (
+            [0.30, 0.10, 0.20, 0.40, 0.32, 0.50, 0.05],
+            [3.00, 2.00, 2.40, 2.60, 2.50, 2.20, 2.45],
+        );
+        let els: Vec<CometaryElements> = es
+            .iter()
+            .zip(qs)
+            .map(|(&e, q)| CometaryElements {
+                q,
+                e,
+                i: 5.0,
+                node: 0.0,
+                peri: 0.0,
+                tp: 0.0,
+                inv_a: (1.0 - e) / q,
+                epoch: 0.0,
+            })
+            .collect();
+        let w = vec![1.0; els.len()];
+        assert_eq!(headline_index(&els, &w, Headline::MedianE), Some(0));
+        assert_eq!(headline_index(&els, &w, Headline::Central), Some(4));
+        // An orbit lighter than HEADLINE_SHARE of the heaviest is never the headline.
+        let mut light = w.clone();
+        light[4] = 1e-3;
+        assert_ne!(headline_index(&els, &light, Headline::Central), Some(4));
     }
 }

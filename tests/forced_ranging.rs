@@ -1,0 +1,101 @@
+//! Grid ranging forced on multi-night arcs (`fit --method ranging`, the console's `r`) against the
+//! synthetic reference arcs: tests/reference/make_synthetic.py integrates invented orbits with scipy
+//! DOP853 under the Sun, planets and Moon of JPL DE421 and observes them from the demo sites with ERFA
+//! site vectors and light time. Noise is drawn here on the reference's noiseless positions.
+#![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
+
+mod util;
+
+use interloper::fitting::fit::{FitOptions, FitResult, MethodChoice, fit_tracklet};
+use interloper::fitting::rangecells::TARGET_N_EFF;
+use interloper::fitting::ranging::SplitMix;
+use interloper::fitting::rangingrecord::THREE_NIGHTS_CAVEAT;
+use interloper::physics::observe::ObserverModel;
+use serde_json::Value;
+
+const DRAWS: usize = 12;
+
+fn truth() -> Vec<Value> {
+    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
+    serde_json::from_str(&text).unwrap()
+}
+
+fn ranged(t: &Value, rng: &mut SplitMix) -> FitResult {
+    let opts = FitOptions {
+        method: MethodChoice::Ranging,
+        ..FitOptions::default()
+    };
+    fit_tracklet(&util::noisy(t, rng, 0.2), &ObserverModel::new(), &opts)
+}
+
+/// Every number the table, the orbit pane and the JSON show is one orbit's and one set of orbits'.
+fn assert_one_number_per_quantity(r: &FitResult) {
+    let el = r.elements.as_ref().unwrap();
+    let sig = el.sigma.unwrap();
+    assert_eq!(r.e, Some(el.e), "{}", r.object);
+    assert_eq!(r.q_au, Some(el.q_au), "{}", r.object);
+    assert_eq!(r.i_deg, Some(el.i_deg), "{}", r.object);
+    assert_eq!(r.e_sigma, Some(sig.e), "{}", r.object);
+    assert_eq!(r.q_sigma, Some(sig.q), "{}", r.object);
+    assert_eq!(r.i_sigma, Some(sig.i), "{}", r.object);
+    let [lo, hi] = r.e_interval_95.unwrap();
+    let [lo68, hi68] = r.e_interval_68.unwrap();
+    assert!(lo <= lo68 && lo68 <= hi68 && hi68 <= hi, "{}", r.object);
+}
+
+#[test]
+fn forced_ranging_of_multi_night_arcs_measures_every_spread_and_its_intervals_hold_the_truth() {
+    // Before the cells were split where the weight is, a grid of 100 × 100 cells left two- and
+    // three-night arcs with 1–20 effective orbits: σ of q and i of 0.0, no σ of e, and the 95 %
+    // interval of e held the truth in 127 of 300 two-night bench fits (near-Earth 6 of 50); now in
+    // 229 of the 250 that the positions decide.
+    let mut rng = SplitMix::new(2026_12_03);
+    let (mut held, mut fits) = (0, 0);
+    for t in truth().iter().filter(|t| {
+        let nights = t["nights"].as_u64().unwrap();
+        (nights == 2 || nights == 3) && t.get("e").is_some_and(Value::is_f64)
+    }) {
+        let name = t["object"].as_str().unwrap();
+        if name == "outlier_3n" || name == "bench_3n15" {
+            continue;
+        }
+        let te = t["e"].as_f64().unwrap();
+        let mut inside = 0;
+        for _ in 0..DRAWS {
+            let r = ranged(t, &mut rng);
+            assert_eq!(r.method, "ranging", "{name}");
+            if r.status != "ok" {
+                continue;
+            }
+            assert!(
+                r.n_eff.unwrap() >= TARGET_N_EFF,
+                "{name}: n_eff {:?}",
+                r.n_eff
+            );
+            assert!(
+                r.e_sigma.unwrap() > 0.0 && r.q_sigma.unwrap() > 0.0,
+                "{name}"
+            );
+            assert_one_number_per_quantity(&r);
+            let [lo, hi] = r.e_interval_95.unwrap();
+            inside += usize::from(lo <= te && te <= hi);
+            let says = r.distrust_linear.iter().any(|w| w == THREE_NIGHTS_CAVEAT);
+            assert_eq!(says, t["nights"] == 3, "{name}: {:?}", r.distrust_linear);
+            // Counted: two nights, where the grid is the tool; not the weakly hyperbolic arc, which the
+            // model decides (the posterior stands on the near-parabolic comets' spike, as on the
+            // automatic path). Three nights are printed: the record says not to lean on them.
+            if t["nights"] == 2 && name != "hyp_weak_2n" {
+                fits += 1;
+                held += usize::from(lo <= te && te <= hi);
+            }
+        }
+        eprintln!("{name}: truth in the 95 % interval of e in {inside} of {DRAWS}");
+    }
+    let share = held as f64 / fits as f64;
+    eprintln!(
+        "two nights but hyp_weak_2n: {held} of {fits} ({:.1} %)",
+        100.0 * share
+    );
+    assert!(fits >= 4 * DRAWS, "{fits} two-night fits with status ok");
+    assert!(share >= 0.85, "{held} of {fits}");
+}
