@@ -144,6 +144,22 @@ fn benches(c: &mut Criterion) {
         b.iter(|| fit_tracklet(black_box(&linked), &model, &opts))
     });
 
+    // Forced grid ranging (`--method ranging`, the console's `r`): the first grid and the splitting
+    // of the cells that hold the weight.
+    let mut group = c.benchmark_group("forced_ranging");
+    group.sample_size(10);
+    let ranging = FitOptions {
+        method: interloper::fitting::fit::MethodChoice::Ranging,
+        ..FitOptions::default()
+    };
+    for name in ["mainbelt_2n", "near_earth_2n", "hyp_strong_3n"] {
+        let (_, t) = load(&format!("{name}.psv"));
+        group.bench_function(name, |b| {
+            b.iter(|| fit_tracklet(black_box(&t), &model, &ranging))
+        });
+    }
+    group.finish();
+
     let mut group = c.benchmark_group("batch");
     group.sample_size(10);
     group.throughput(Throughput::Elements(1000));
