@@ -275,14 +275,21 @@ pub fn range(
     if nodes.is_empty() {
         return None;
     }
-    // Elements only where the likelihood is not negligible (Δχ² > 60 is below e⁻³⁰ of the best).
     let best_chi2 = nodes
         .iter()
         .map(|n| n.sample.chi2)
         .fold(f64::INFINITY, f64::min);
-    for n in nodes
+    let ln_w: Vec<f64> = nodes
+        .iter()
+        .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
+        .collect();
+    // Elements only where the weight is not negligible (below e⁻³⁰ of the heaviest cell's: cells of
+    // split grids differ in area, so χ² alone does not say).
+    let ln_w_max = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    for (n, _) in nodes
         .iter_mut()
-        .filter(|n| n.sample.chi2 - best_chi2 <= 60.0)
+        .zip(&ln_w)
+        .filter(|(_, w)| **w - ln_w_max >= -30.0)
     {
         let st = &n.sample.state;
         let (rr, vv) = (V3::new(st[0], st[1], st[2]), V3::new(st[3], st[4], st[5]));
@@ -299,10 +306,6 @@ pub fn range(
         n.sample.q = el.q;
         n.sample.i = el.i;
     }
-    let ln_w: Vec<f64> = nodes
-        .iter()
-        .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
-        .collect();
     let classes: Vec<bool> = nodes.iter().map(|n| n.unbound).collect();
     let post = Masses::of(classes.iter().zip(ln_w.iter().copied()));
     let prior = Masses::of(classes.iter().zip(nodes.iter().map(|n| n.ln_prior)));
@@ -325,9 +328,15 @@ pub fn range(
         .collect();
     let w: Vec<f64> = samples.iter().map(|s| s.weight).collect();
     let n_eff = effective_sample_size(&w);
+    // Over the cells with elements (the rest weigh below e⁻³⁰ of the heaviest).
     let interval = |f: &dyn Fn(&RangingSample) -> f64| {
-        let v: Vec<f64> = samples.iter().map(f).collect();
-        [0.025, 0.5, 0.975].map(|q| weighted_quantile(&v, &w, q).unwrap_or(f64::NAN))
+        let (v, vw): (Vec<f64>, Vec<f64>) = samples
+            .iter()
+            .zip(&w)
+            .map(|(s, w)| (f(s), *w))
+            .filter(|(x, _)| x.is_finite())
+            .unzip();
+        [0.025, 0.5, 0.975].map(|q| weighted_quantile(&v, &vw, q).unwrap_or(f64::NAN))
     };
     let e_interval = interval(&|s| s.e);
     let q_interval = interval(&|s| s.q);

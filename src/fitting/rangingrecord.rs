@@ -15,7 +15,8 @@ use crate::physics::time::Jd2;
 use crate::physics::{S6, V3, split_state};
 
 /// The answer of grid ranging (forced with `--method ranging`, or for fewer than three positions):
-/// the median sample's elements, the samples' intervals, and the most probable orbit's residuals.
+/// the elements of the orbit nearest the medians of e, q and i, every σ and interval from the weighted
+/// orbits, and the most probable orbit's state and residuals.
 pub(super) fn ranging_result(
     tr: &Tracklet,
     model: &ObserverModel,
@@ -72,7 +73,8 @@ pub const THREE_NIGHTS_CAVEAT: &str = "grid ranging over three nights or more ca
 const MIN_N_EFF: f64 = 10.0;
 
 /// Where the weight stays on a few cells however far they are split (positions no one orbit fits:
-/// every Δχ² is huge), no σ or interval is shown, and the record says why.
+/// every Δχ² is huge), no σ, interval or sample region is shown (the orbits kept for ephemerides
+/// would draw a region of nearly one orbit), and the record says why.
 fn unmeasured_spreads(out: &mut FitResult, n_eff: f64) {
     (out.e_sigma, out.q_sigma, out.i_sigma, out.e_bary_sigma) = (None, None, None, None);
     (out.e_interval_68, out.e_interval_95) = (None, None);
@@ -82,6 +84,11 @@ fn unmeasured_spreads(out: &mut FitResult, n_eff: f64) {
     {
         el.sigma = None;
     }
+    if let Some(inc) = out.incoming.as_mut() {
+        inc.v_inf_sigma_km_s = None;
+    }
+    out.ranging = None;
+    out.samples.clear();
     out.poor_fit.push(format!(
         "the orbits found weigh as {n_eff:.1} independent ones: too few to measure a spread"
     ));
@@ -101,7 +108,8 @@ fn fill_ranging(
     );
     out.n_eff = Some(rr.n_eff);
     // Every quantity from the same weighted orbits as P, as on the other sampled paths: σ, intervals,
-    // the orbit at the median e in the table and the panes, the barycentric line, the kept orbits.
+    // the orbit nearest the medians of e, q and i in the table and the panes, the barycentric line,
+    // the kept orbits.
     // The orbits are carried (two-body) from their light-time epochs to the most probable one's.
     let epoch = rr.best.epoch;
     let (states, weights): (Vec<S6>, Vec<f64>) = rr

@@ -109,9 +109,8 @@ pub struct FitResult {
     pub e_data_interval: Option<[f64; 2]>,
     /// The central 68.27 % and 95 % intervals of the heliocentric e over the same orbits as e_sigma (their
     /// Φ(∓1) and 2.5/97.5 % points); e ∓ σ and e ∓ 1.96σ (not below 0) wherever e_sigma is the linear
-    /// σ (a trusted linear answer's e is linear in the state within a fifth of σ). Forced grid ranging
-    /// has no e_sigma; its intervals come from its samples. Unlike e ± σ they follow a skewed e: where
-    /// e curves within 1σ, one side can be several times the other.
+    /// σ (a trusted linear answer's e is linear in the state within a fifth of σ). Unlike e ± σ they
+    /// follow a skewed e: where e curves within 1σ, one side can be several times the other.
     pub e_interval_68: Option<[f64; 2]>,
     pub e_interval_95: Option<[f64; 2]>,
     /// Posterior probability that the barycentric orbit is unbound under the population model (the

@@ -163,9 +163,6 @@ pub fn sample_spreads(
     );
 }
 
-/// The orbit shown is chosen among those with at least this share of the heaviest one's weight.
-const HEADLINE_SHARE: f64 = 0.01;
-
 /// Which sampled orbit stands for the answer (its e, q, i and elements in the table, the panes and the
 /// JSON). Not the most probable sample: where the posterior has two modes of like height (a
 /// near-parabolic spike and a hyperbolic hump) that one jumps between them on the last bits of the data.
@@ -180,21 +177,40 @@ pub enum Headline {
     Central,
 }
 
-/// The index of the orbit that stands for the answer, among those with at least HEADLINE_SHARE of the
-/// heaviest one's weight (a light orbit far out in another element can sit at the median e too).
+/// The index of the orbit that stands for the answer, among the orbits that, heaviest first, carry
+/// HEADLINE_MASS of the weight (a light orbit far out in another element can sit at the median e too;
+/// the lightest are left out by their share of the total, not of the heaviest orbit's weight, because
+/// split cells and quadrature nodes differ in size).
 fn headline_index(els: &[CometaryElements], weights: &[f64], how: Headline) -> Option<usize> {
-    let w_max = weights.iter().copied().fold(0.0, f64::max);
-    let heavy =
-        (0..els.len()).filter(|&k| weights[k] > 0.0 && weights[k] >= HEADLINE_SHARE * w_max);
+    let finite = |k: usize| {
+        let el = &els[k];
+        weights[k] > 0.0 && el.e.is_finite() && el.q.is_finite() && el.i.is_finite()
+    };
+    let mut order: Vec<usize> = (0..els.len()).filter(|&k| finite(k)).collect();
+    order.sort_by(|&a, &b| weights[b].total_cmp(&weights[a]).then(a.cmp(&b)));
+    let total: f64 = order.iter().map(|&k| weights[k]).sum();
+    let mut carried = 0.0;
+    let heavy: Vec<usize> = order
+        .into_iter()
+        .take_while(|&k| {
+            let before = carried;
+            carried += weights[k];
+            before < HEADLINE_MASS * total
+        })
+        .collect();
     let scaled = |f: fn(&CometaryElements) -> f64| {
         let v: Vec<f64> = els.iter().map(f).collect();
+        let hw: Vec<f64> = (0..els.len())
+            .map(|k| if finite(k) { weights[k] } else { 0.0 })
+            .collect();
         let [lo, mid, hi] = super::stats::weighted_quantiles(
             &v,
-            weights,
+            &hw,
             [ONE_SIGMA_QUANTILES[0], 0.5, ONE_SIGMA_QUANTILES[1]],
         );
         let (mid, half) = (mid?, (hi? - lo?) / 2.0);
-        Some((v, mid, if half > 0.0 { half } else { 1.0 }))
+        // An element every orbit shares does not tell them apart.
+        Some((v, mid, if half > 0.0 { half } else { f64::INFINITY }))
     };
     let axes: Vec<(Vec<f64>, f64, f64)> = match how {
         Headline::MedianE => vec![scaled(|el| el.e)?],
@@ -205,8 +221,13 @@ fn headline_index(els: &[CometaryElements], weights: &[f64], how: Headline) -> O
             .map(|(v, mid, half)| ((v[k] - mid) / half).powi(2))
             .sum()
     };
-    heavy.min_by(|&a, &b| distance(a).total_cmp(&distance(b)))
+    heavy
+        .into_iter()
+        .min_by(|&a, &b| distance(a).total_cmp(&distance(b)).then(a.cmp(&b)))
 }
+
+/// The orbit shown is chosen among the heaviest orbits that together carry this share of the weight.
+const HEADLINE_MASS: f64 = 0.99;
 
 /// The lightest states carrying together less than this share of the weight are left out of the
 /// spreads: a range profile hands over every quadrature node, most of them deep in the tails. (A tail
@@ -356,9 +377,14 @@ mod tests {
         let w = vec![1.0; els.len()];
         assert_eq!(headline_index(&els, &w, Headline::MedianE), Some(0));
         assert_eq!(headline_index(&els, &w, Headline::Central), Some(4));
-        // An orbit lighter than HEADLINE_SHARE of the heaviest is never the headline.
+        // An orbit among the lightest 1 % of the weight is never the headline, nor one without
+        // finite elements.
         let mut light = w.clone();
         light[4] = 1e-3;
         assert_ne!(headline_index(&els, &light, Headline::Central), Some(4));
+        let mut broken = els.clone();
+        broken[2].q = f64::NAN;
+        assert_ne!(headline_index(&broken, &w, Headline::Central), Some(2));
+        assert_eq!(headline_index(&els, &[0.0; 7], Headline::Central), None);
     }
 }

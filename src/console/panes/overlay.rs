@@ -130,7 +130,7 @@ const LEGEND: [&str; 12] = [
     "  odds +∞ / -∞   one class got no weight at all: P is 1 or 0 only as far as the trial orbits reach",
     "  odds >+999     the odds are written as a bound past a thousand decades",
     "  e ± σ          σ from the samples behind P wherever the linear fit is not trusted",
-    "  (rng)          e from grid ranging: an interval, no σ",
+    "  (rng)          e from grid ranging whose orbits are too few to measure a σ (the fit is marked poor)",
     "  x              in the residual strips: a position set aside (outlier or excluded by you)",
     "  ^              in the residual strips: the position under the cursor",
 ];
