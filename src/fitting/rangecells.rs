@@ -28,6 +28,8 @@ const SETTLED_DCHI2: f64 = 1.0;
 /// Once splitting has begun, at least this many rounds, so that the valley is followed through every
 /// distance band before the weight's spread is judged.
 const MIN_ROUNDS: usize = 6;
+/// The cells of lowest χ² split in every distance band each round.
+const PER_BAND: usize = 3;
 /// Each split cell becomes SPLIT × SPLIT cells.
 const SPLIT: usize = 3;
 
@@ -249,20 +251,28 @@ pub(super) fn refine(scan: &Scan, nodes: &mut Vec<Node>, rng: &mut SplitMix) -> 
             split[k] = true;
         }
         // Across nights the valley is a thin curve of ρ̇ against ρ that the first grid misses
-        // everywhere: in every distance band the cell nearest it is split too, so the valley is
-        // followed at every distance, not only where the heaviest cell happened to fall.
-        let mut nearest: std::collections::BTreeMap<usize, usize> =
+        // everywhere: in every distance band the cells nearest it are split too, so the valley is
+        // followed at every distance, not only where the heaviest cell happened to fall. (One a band
+        // left the valley's best part unfound more often: the synthetic three-night comet-like arc's
+        // 95 % interval of e held the truth in 2 of 12 draws, now 10.)
+        let mut bands: std::collections::BTreeMap<usize, Vec<usize>> =
             std::collections::BTreeMap::new();
         for (k, n) in nodes.iter().enumerate() {
-            let e = nearest.entry(n.cell.row).or_insert(k);
-            if n.sample.chi2 < nodes[*e].sample.chi2 {
-                *e = k;
-            }
+            bands.entry(n.cell.row).or_default().push(k);
         }
-        for &k in nearest.values() {
-            if !split[k] {
-                split[k] = true;
-                order.push(k);
+        for band in bands.values_mut() {
+            band.sort_by(|&a, &b| {
+                nodes[a]
+                    .sample
+                    .chi2
+                    .total_cmp(&nodes[b].sample.chi2)
+                    .then(a.cmp(&b))
+            });
+            for &k in band.iter().take(PER_BAND) {
+                if !split[k] {
+                    split[k] = true;
+                    order.push(k);
+                }
             }
         }
         let parents: Vec<Cell> = order.iter().map(|&k| nodes[k].cell).collect();
