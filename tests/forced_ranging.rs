@@ -119,3 +119,41 @@ fn forced_ranging_of_multi_night_arcs_measures_every_spread_and_its_intervals_ho
     assert!(fits >= 4 * DRAWS, "{fits} two-night fits with status ok");
     assert!(share >= 0.85, "{held} of {fits}");
 }
+
+#[test]
+fn forced_ranging_of_a_false_linkage_shows_no_spread_and_says_why() {
+    // Two objects under one id (the reference's false_link_3n): no orbit fits, every Δχ² is huge and
+    // the weight stays on one cell however far it is split. A spread of one orbit would be a σ of 0.
+    let t = truth()
+        .into_iter()
+        .find(|t| t["object"] == "false_link_3n")
+        .unwrap();
+    let bytes = std::fs::read(util::reference_path(&format!(
+        "synthetic/{}",
+        t["file"].as_str().unwrap()
+    )))
+    .unwrap();
+    let intake = interloper::feed::tracklets::read_bytes(
+        "false_link_3n.psv",
+        &bytes,
+        &interloper::feed::sites::SiteTable::builtin(),
+        &interloper::feed::tracklets::Limits::default(),
+    );
+    let opts = FitOptions {
+        method: MethodChoice::Ranging,
+        ..FitOptions::default()
+    };
+    let r = fit_tracklet(&intake.tracklets[0], &ObserverModel::new(), &opts);
+    assert_eq!(r.status, "poor-fit");
+    assert!(r.n_eff.unwrap() < 10.0, "{:?}", r.n_eff);
+    assert_eq!((r.e_sigma, r.q_sigma, r.e_interval_95), (None, None, None));
+    assert!(r.elements.as_ref().unwrap().sigma.is_none());
+    assert!(r.samples.is_empty() && r.ranging.is_none());
+    assert!(
+        r.poor_fit
+            .iter()
+            .any(|w| w.contains("too few to measure a spread")),
+        "{:?}",
+        r.poor_fit
+    );
+}
