@@ -30,6 +30,7 @@ pub mod profile;
 pub mod profilequad;
 pub mod quality;
 pub mod rangecells;
+pub mod rangefloor;
 pub mod rangescan;
 pub mod ranging;
 pub mod rangingrecord;

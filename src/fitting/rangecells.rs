@@ -45,6 +45,12 @@ pub struct Cell {
 }
 
 impl Cell {
+    /// Whether (ln ρ, ρ̇) lies in this cell.
+    fn holds(&self, (ln_rho, rhodot): (f64, f64)) -> bool {
+        (self.ln_rho..self.ln_rho + self.dln).contains(&ln_rho)
+            && (self.rhodot..self.rhodot + self.drd).contains(&rhodot)
+    }
+
     /// The SPLIT × SPLIT cells that tile this one.
     fn children(&self) -> impl Iterator<Item = Cell> + '_ {
         let (dln, drd) = (self.dln / SPLIT as f64, self.drd / SPLIT as f64);
@@ -64,6 +70,8 @@ pub(super) struct Node {
     pub(super) ln_prior: f64,
     pub(super) unbound: bool,
     pub(super) cell: Cell,
+    /// Where in the cell its orbit lies: (ln ρ, ρ̇).
+    pub(super) at: (f64, f64),
 }
 
 /// What every cell's orbit is measured against: the positions, their whitening, the attributable and
@@ -94,7 +102,7 @@ impl Scan<'_> {
 
     /// Whitened O − C of the orbit at (ρ, ρ̇) built from a direction and its rate (false where a
     /// position cannot be predicted).
-    fn whitened(
+    pub(super) fn whitened(
         &self,
         (rho, rhodot): (f64, f64),
         u: &V3,
@@ -210,6 +218,7 @@ impl Scan<'_> {
             ln_prior: dens.ln_f + (cell.dln * cell.drd).ln() + 5.0 * rho.ln(),
             unbound: dens.unbound,
             cell,
+            at: (ln_rho, rhodot),
         })
     }
 }
@@ -222,6 +231,15 @@ pub(super) fn refine(scan: &Scan, nodes: &mut Vec<Node>, rng: &mut SplitMix) -> 
     let mut xi = DVector::zeros(2 * scan.tr.obs.len());
     let mut trials = 0;
     let mut last_best = f64::INFINITY;
+    // Across nights: where the valley's floor lies, from a fit started at the best cell's orbit.
+    let floor = if scan.tr.n_nights() >= 2 {
+        nodes
+            .iter()
+            .min_by(|a, b| a.sample.chi2.total_cmp(&b.sample.chi2))
+            .and_then(|n| scan.floor(n.at))
+    } else {
+        None
+    };
     for round in 0..MAX_ROUNDS {
         let best_chi2 = nodes
             .iter()
@@ -274,6 +292,13 @@ pub(super) fn refine(scan: &Scan, nodes: &mut Vec<Node>, rng: &mut SplitMix) -> 
                     order.push(k);
                 }
             }
+        }
+        // The cell that holds the floor, chosen by where the floor lies, not by its own draw.
+        if let Some(k) = floor.and_then(|f| nodes.iter().position(|n| n.cell.holds(f)))
+            && !split[k]
+        {
+            split[k] = true;
+            order.push(k);
         }
         let parents: Vec<Cell> = order.iter().map(|&k| nodes[k].cell).collect();
         let mut k = 0;
@@ -330,5 +355,10 @@ mod tests {
         corners.sort_unstable();
         corners.dedup();
         assert_eq!(corners.len(), SPLIT * SPLIT);
+        // A point lies in exactly one part (lower edges in, upper edges out).
+        let point = (parent.ln_rho + 0.15, parent.rhodot + 0.003);
+        assert!(parent.holds(point));
+        assert_eq!(parts.iter().filter(|c| c.holds(point)).count(), 1);
+        assert!(!parent.holds((parent.ln_rho + parent.dln, parent.rhodot)));
     }
 }

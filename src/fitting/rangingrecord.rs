@@ -64,8 +64,8 @@ pub(super) fn ranging_result(
 /// Across three nights the valley in (ρ, ρ̇) is narrower than any cell the splitting reaches in a few
 /// rounds; its orbits can sit a few units of χ² off the best part of it, with intervals too narrow
 /// to show that. On 12 noise draws of each synthetic three-night arc (tests/forced_ranging.rs) the
-/// 95 % interval of e held the truth in 0 of 12 near-Earth draws, 7 of 12 weakly hyperbolic ones and
-/// 10–12 of 12 for the others.
+/// 95 % interval of e held the truth in 5 of 12 near-Earth draws, 7 of 12 weakly hyperbolic ones and
+/// 9–12 of 12 for the others.
 pub const THREE_NIGHTS_CAVEAT: &str = "grid ranging over three nights or more can sit off the best part of the valley: the automatic fit follows it";
 
 /// Below this effective number of orbits the cells' spread is not a measurement (one orbit has a
