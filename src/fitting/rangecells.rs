@@ -1,6 +1,7 @@
 //! The cells of systematic ranging: one orbit per cell of (ln ρ, ρ̇), its χ² with the attributable
 //! profiled out and its prior mass (the population density times the cell's area and the Jacobian),
-//! and the refinement that splits the cells holding the weight until the weighted orbits are enough
+//! and the refinement that splits cells (those holding the weight, the lowest in χ² of every distance
+//! band and, across nights, the one holding the valley's floor) until the weighted orbits are enough
 //! to measure a spread. A grid of 100 × 100 cells resolves one night; across nights the valley is far
 //! narrower than a cell, and a few cells carry all the weight (an effective sample size near 1, whose
 //! spread of e would be a σ of 0).
@@ -200,7 +201,7 @@ impl Scan<'_> {
             .model
             .absolute_magnitude(self.v_mag, &rr, &obs0.helio_pos);
         let dens = self.model.density(&x6, &self.sun6, h);
-        if dens.ln_f == f64::NEG_INFINITY {
+        if dens.ln_f == f64::NEG_INFINITY || !chi2.is_finite() {
             return None;
         }
         Some(Node {
@@ -223,7 +224,8 @@ impl Scan<'_> {
     }
 }
 
-/// Split the cells that carry the weight, each into SPLIT × SPLIT cells with one jittered orbit each,
+/// Split the cells that carry the weight, the PER_BAND lowest in χ² of every distance band and the one
+/// that holds the valley's floor, each into SPLIT × SPLIT cells with one jittered orbit each,
 /// until the weighted orbits are worth TARGET_N_EFF draws (or MAX_ROUNDS pass, or nothing is left to
 /// split). A split cell's mass is shared among its parts, so the sum over cells still estimates the
 /// same integral. Returns the orbits tried.

@@ -1,7 +1,9 @@
 //! The floor of the valley grid ranging samples: a Levenberg–Marquardt fit of all six parameters of a
-//! cell's orbit (ln ρ, ρ̇ and the attributable's four) from the best cell. Across three nights the
+//! cell's orbit (ln ρ, ρ̇ and the attributable's four) from the cell of lowest χ². Across nights the
 //! valley is narrower than any cell the splitting reaches in a few rounds; the cell that holds its
-//! floor is then split every round, chosen by where the floor lies and not by its own draw.
+//! floor is then split every round, chosen by where the floor lies and not by its own draw. The fit
+//! knows nothing of the speed cap or the distance range: a floor outside the grid holds no cell and is
+//! not followed.
 
 use super::rangecells::Scan;
 use crate::physics::V3;
@@ -24,8 +26,9 @@ impl Scan<'_> {
         self.whitened((p[0].exp(), p[1]), &u, &udot, out)
     }
 
-    /// The (ln ρ, ρ̇) of the χ² minimum reached from (ln ρ, ρ̇) = `from` (None where the orbit cannot
-    /// be predicted there).
+    /// The (ln ρ, ρ̇) where the fit from (ln ρ, ρ̇) = `from` stopped: the χ² minimum, or the last
+    /// point reached where an orbit beside it could not be predicted or the iterations ran out (None
+    /// where the orbit at `from` cannot be predicted).
     pub(super) fn floor(&self, from: (f64, f64)) -> Option<(f64, f64)> {
         let n2 = 2 * self.tr.obs.len();
         let mut p = P6::from([from.0, from.1, 0.0, 0.0, 0.0, 0.0]);
@@ -47,7 +50,9 @@ impl Scan<'_> {
             }
             let jtj = jac.transpose() * &jac;
             let g = jac.transpose() * &r;
-            let mut improved = false;
+            // Go on while a step was taken and either gained or was held back by the damping (a small
+            // gain under heavy damping is not convergence in a narrow curved valley).
+            let mut go_on = false;
             for _ in 0..8 {
                 let mut a = jtj.clone();
                 for k in 0..6 {
@@ -59,15 +64,15 @@ impl Scan<'_> {
                 let q = p + P6::from_iterator(step.iter().copied());
                 if self.residuals_at(&q, &mut probe) && probe.norm_squared() < chi2 {
                     let gain = chi2 - probe.norm_squared();
+                    go_on = gain > 1e-6 * chi2.max(1.0) || lambda > 1e-2;
                     (p, chi2) = (q, probe.norm_squared());
                     std::mem::swap(&mut r, &mut probe);
                     lambda = (lambda / 10.0).max(1e-9);
-                    improved = gain > 1e-6 * chi2.max(1.0);
                     break;
                 }
                 lambda *= 10.0;
             }
-            if !improved {
+            if !go_on {
                 break;
             }
         }
