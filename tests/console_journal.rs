@@ -53,10 +53,50 @@ fn run(app: &mut App, j: &mut Journal, effects: Vec<Effect>) -> Vec<Effect> {
             for e in j.read_new().unwrap().entries {
                 refits.extend(app.on_entry(&e));
             }
-            app.on_saved(&saved);
+            refits.extend(app.on_saved(&saved));
         }
     }
     refits
+}
+
+/// Regression: an export asked for while a decision was still on its way to the journal left the
+/// decision out (the list's state is the fold of the journal, which had not read it back yet).
+#[test]
+fn an_export_pressed_while_a_decision_is_saving_waits_and_carries_the_decision() {
+    let fits = fit_all(tracklets(), &FitOptions::default(), 2);
+    let dir = tempfile::tempdir().unwrap();
+    let (mut j, _) = Journal::open_as(dir.path(), "tester").unwrap();
+    let mut app = app_with(&fits);
+    let object = app.selected.clone().unwrap();
+    let decided = app.act(Action::Pursue);
+    assert!(
+        app.act(Action::Export).is_empty(),
+        "no export before the save"
+    );
+    assert!(app.message.as_deref().unwrap().contains("waits"));
+    let exports = run(&mut app, &mut j, decided);
+    let [Effect::Export(rows)] = exports.as_slice() else {
+        panic!("one export once saved, got {exports:?}");
+    };
+    let row = rows.iter().find(|r| r.object == object).unwrap();
+    assert_eq!(row.decision.as_deref(), Some("pursue"));
+    assert!(
+        app.act(Action::Export).len() == 1,
+        "with nothing saving it exports at once"
+    );
+}
+
+#[test]
+fn a_failed_save_cancels_the_export_waiting_for_it_and_says_so() {
+    let fits = fit_all(tracklets(), &FitOptions::default(), 2);
+    let mut app = app_with(&fits);
+    let object = app.selected.clone().unwrap();
+    let _ = app.act(Action::Pursue);
+    assert!(app.act(Action::Export).is_empty());
+    app.on_save_failed(&object, "No space left on device");
+    let m = app.message.clone().unwrap();
+    assert!(m.contains("NOT SAVED") && m.contains("export"), "{m}");
+    assert!(!app.export_waiting);
 }
 
 fn excluded(app: &App) -> Vec<ObsId> {

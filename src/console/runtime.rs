@@ -199,7 +199,13 @@ impl Runtime {
                 }
                 on_engine(app, ev);
             }
-            AppEvent::Journal(Ok(e)) => app.on_saved(&e),
+            AppEvent::Journal(Ok(e)) => {
+                for eff in app.on_saved(&e) {
+                    if !self.effect(app, eff) {
+                        return false;
+                    }
+                }
+            }
             AppEvent::JournalRead(entries, warnings) => {
                 if let Some(w) = warnings.first() {
                     app.message = Some(w.clone());
@@ -245,8 +251,8 @@ impl Runtime {
         match e {
             Effect::Quit => return false,
             Effect::Journal(d) => {
-                if self.journal.send(d).is_err() {
-                    app.message = Some("DECISION NOT SAVED: the journal writer stopped".into());
+                if let Err(std::sync::mpsc::SendError(d)) = self.journal.send(d) {
+                    app.on_save_failed(&d.object, "the journal writer stopped");
                 }
             }
             Effect::Refit { object, overrides } => self.engine.set_overrides(&object, overrides),

@@ -167,6 +167,9 @@ pub struct App {
     pub now: fn() -> std::time::SystemTime,
     /// The candidate marked for comparison with the selected one.
     pub compare_with: Option<String>,
+    /// The export key was pressed while a line was still being saved: the export is written once
+    /// the journal confirms it.
+    pub export_waiting: bool,
     /// Whether the observer has pressed a key yet (until then the cursor keeps to the top row).
     pub cursor_moved: bool,
     /// What the ephemeris panel asks for (site, units) and the window it got.
@@ -206,6 +209,7 @@ impl App {
             alerts: crate::console::alerting::Alerts::new(Default::default()),
             now: std::time::SystemTime::now,
             compare_with: None,
+            export_waiting: false,
             cursor_moved: false,
             ephem: ephemreq::EphemRequest::default(),
         }
@@ -253,8 +257,13 @@ impl App {
         if let Some(&i) = self.index.get(object) {
             self.candidates[i].saving = false;
         }
+        let cancelled = if std::mem::take(&mut self.export_waiting) {
+            " — the export waiting for it was not written: press the export key again"
+        } else {
+            ""
+        };
         self.message = Some(format!(
-            "DECISION NOT SAVED for {}: {}",
+            "DECISION NOT SAVED for {}: {}{cancelled}",
             clean(object),
             clean(reason)
         ));

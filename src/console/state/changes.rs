@@ -65,13 +65,36 @@ impl App {
         }]
     }
 
-    /// The journal confirmed this console's line: the row stops saying "saving…".
-    pub fn on_saved(&mut self, e: &Entry) {
+    /// The journal confirmed this console's line: the row stops saying "saving…", and an export that
+    /// waited for it is written now.
+    #[must_use]
+    pub fn on_saved(&mut self, e: &Entry) -> Vec<Effect> {
         if let Some(&i) = self.index.get(&e.object) {
             self.candidates[i].saving = false;
         }
         self.message = Some(format!("{}: {} saved", clean(&e.object), e.describe()));
         self.dirty = true;
+        if self.export_waiting && !self.candidates.iter().any(|c| c.saving) {
+            self.export_waiting = false;
+            return vec![Effect::Export(crate::console::export::rows(self))];
+        }
+        Vec::new()
+    }
+
+    /// X: the list as shown, with its decisions. A line still being saved is not yet in the list's
+    /// state (that is the fold of the journal), so the export waits for it rather than leave out what
+    /// the observer has just decided.
+    pub(super) fn export(&mut self) -> Vec<Effect> {
+        let n = self.candidates.iter().filter(|c| c.saving).count();
+        if n == 0 {
+            return vec![Effect::Export(crate::console::export::rows(self))];
+        }
+        self.export_waiting = true;
+        self.message = Some(format!(
+            "export waits for {n} line{} still being saved…",
+            if n == 1 { "" } else { "s" }
+        ));
+        Vec::new()
     }
 
     /// Send one line about the selected candidate to the journal.

@@ -183,7 +183,7 @@ impl App {
             | Action::RejectedFiles
             | Action::Alerts
             | Action::Help => return self.open(a),
-            Action::Export => return vec![Effect::Export(crate::console::export::rows(self))],
+            Action::Export => return self.export(),
             Action::Compare => self.compare(),
             // Keys of the ephemeris panel; nothing in the list.
             Action::NextSite | Action::Units => {}
