@@ -15,15 +15,12 @@ mod util;
 use interloper::fitting::fit::{FitOptions, fit_tracklet};
 use interloper::fitting::ranging::SplitMix;
 use interloper::physics::observe::ObserverModel;
-use serde_json::Value;
 
 const DRAWS: usize = 100;
 
 /// (draws with an interval, of those the truth inside it, the truth within the posterior's e ± 1.96σ).
 fn coverage(name: &str) -> (usize, usize, usize) {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
-    let t = all.iter().find(|t| t["object"] == name).unwrap();
+    let t = &util::synthetic(name);
     let te = t["e"].as_f64().unwrap();
     let mut rng = SplitMix::new(77);
     let (mut n, mut data, mut posterior, mut central) = (0, 0, 0, 0);

@@ -7,7 +7,6 @@
 mod util;
 
 use interloper::feed::sites::SiteTable;
-use interloper::feed::tracklets::{Limits, read_bytes};
 use interloper::fitting::ephemeris::{EphemerisPoint, point};
 use interloper::fitting::fit::{FitOptions, FitResult, fit_tracklet};
 use interloper::fitting::ranging::SplitMix;
@@ -15,13 +14,6 @@ use interloper::physics::constants::DEG;
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::time::parse_utc;
 use serde_json::Value;
-
-fn truth() -> Vec<Value> {
-    serde_json::from_str(
-        &std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap(),
-    )
-    .unwrap()
-}
 
 /// Offset of the truth from the prediction (arcsec east, north) and whether it lies in the region.
 fn inside(p: &EphemerisPoint, ra: f64, dec: f64) -> (bool, f64) {
@@ -56,7 +48,7 @@ fn positions_1_to_10_days_ahead_fall_inside_their_3_sigma_regions() {
     let model = ObserverModel::new();
     let (mut n, mut hits) = (0, 0);
     let mut worst_10n: f64 = 0.0;
-    for t in truth()
+    for t in util::synthetic_truth()
         .iter()
         .filter(|t| t.get("future").is_some() && t["nights"].as_u64() >= Some(3))
     {
@@ -64,10 +56,7 @@ fn positions_1_to_10_days_ahead_fall_inside_their_3_sigma_regions() {
             continue;
         }
         let name = t["file"].as_str().unwrap();
-        let bytes = std::fs::read(util::reference_path(&format!("synthetic/{name}"))).unwrap();
-        let tr = read_bytes(name, &bytes, &SiteTable::builtin(), &Limits::default())
-            .tracklets
-            .remove(0);
+        let tr = util::synthetic_file(name);
         let fit = fit_tracklet(&tr, &model, &FitOptions::default());
         for f in t["future"].as_array().unwrap() {
             let p = predict(&fit, f, &model);
@@ -88,7 +77,10 @@ fn positions_1_to_10_days_ahead_fall_inside_their_3_sigma_regions() {
 }
 
 fn coverage(object: &str, day: usize, runs: usize, method: &str) -> f64 {
-    let t = truth().into_iter().find(|t| t["object"] == object).unwrap();
+    let t = util::synthetic_truth()
+        .into_iter()
+        .find(|t| t["object"] == object)
+        .unwrap();
     let f = &t["future"][day - 1];
     let model = ObserverModel::new();
     let mut rng = SplitMix::new(77);

@@ -6,25 +6,13 @@
 
 mod util;
 
-use interloper::feed::sites::SiteTable;
-use interloper::feed::tracklets::{Limits, read_bytes};
 use interloper::fitting::fit::{FitOptions, FitResult, fit_tracklet};
 use interloper::fitting::ranging::SplitMix;
 use interloper::physics::observe::ObserverModel;
-use serde_json::Value;
-
-fn truth() -> Vec<Value> {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    serde_json::from_str(&text).unwrap()
-}
 
 fn fit_file(name: &str) -> FitResult {
-    let bytes = std::fs::read(util::reference_path(&format!("synthetic/{name}"))).unwrap();
-    let intake = read_bytes(name, &bytes, &SiteTable::builtin(), &Limits::default());
-    assert!(intake.errors.is_empty(), "{:?}", intake.errors);
-    assert_eq!(intake.tracklets.len(), 1);
     fit_tracklet(
-        &intake.tracklets[0],
+        &util::synthetic_file(name),
         &ObserverModel::new(),
         &FitOptions::default(),
     )
@@ -32,7 +20,7 @@ fn fit_file(name: &str) -> FitResult {
 
 #[test]
 fn three_and_ten_night_fits_recover_e_and_q_within_3_sigma() {
-    for t in truth()
+    for t in util::synthetic_truth()
         .iter()
         .filter(|t| t.get("e").is_some() && t["nights"].as_u64() >= Some(3))
     {
@@ -59,7 +47,10 @@ fn three_and_ten_night_fits_recover_e_and_q_within_3_sigma() {
 
 #[test]
 fn score_sign_is_right_where_e_is_far_from_one_and_data_decide() {
-    for t in truth().iter().filter(|t| t.get("e").is_some()) {
+    for t in util::synthetic_truth()
+        .iter()
+        .filter(|t| t.get("e").is_some())
+    {
         let te = t["e_bary"].as_f64().unwrap();
         if (te - 1.0).abs() < 0.25 || t["object"] == "outlier_3n" {
             continue;
@@ -83,7 +74,7 @@ fn score_sign_is_right_where_e_is_far_from_one_and_data_decide() {
 
 #[test]
 fn a_four_arcsecond_outlier_is_rejected_and_kept_visible() {
-    let t = truth()
+    let t = util::synthetic_truth()
         .into_iter()
         .find(|t| t["object"] == "outlier_3n")
         .unwrap();
@@ -114,7 +105,7 @@ fn a_false_linkage_is_a_poor_fit_and_never_a_confident_candidate() {
 
 #[test]
 fn eccentricity_pulls_are_calibrated_over_300_noise_realisations() {
-    let t = truth()
+    let t = util::synthetic_truth()
         .into_iter()
         .find(|t| t["object"] == "comet_like_3n")
         .unwrap();
@@ -141,7 +132,7 @@ fn eccentricity_pulls_are_calibrated_over_300_noise_realisations() {
 
 #[test]
 fn one_night_main_belt_tracklets_stay_low_in_p_hyperbolic() {
-    let t = truth()
+    let t = util::synthetic_truth()
         .into_iter()
         .find(|t| t["object"] == "mainbelt_1n")
         .unwrap();

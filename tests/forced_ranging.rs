@@ -15,11 +15,6 @@ use serde_json::Value;
 
 const DRAWS: usize = 12;
 
-fn truth() -> Vec<Value> {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    serde_json::from_str(&text).unwrap()
-}
-
 fn ranged(t: &Value, rng: &mut SplitMix) -> FitResult {
     let opts = FitOptions {
         method: MethodChoice::Ranging,
@@ -52,7 +47,7 @@ fn forced_ranging_of_multi_night_arcs_measures_every_spread_and_its_intervals_ho
     let mut rng = SplitMix::new(2026_12_03);
     let (mut held, mut fits) = (0, 0);
     let mut n_effs = Vec::new();
-    for t in truth().iter().filter(|t| {
+    for t in util::synthetic_truth().iter().filter(|t| {
         let nights = t["nights"].as_u64().unwrap();
         (nights == 2 || nights == 3) && t.get("e").is_some_and(Value::is_f64)
     }) {
@@ -124,26 +119,13 @@ fn forced_ranging_of_multi_night_arcs_measures_every_spread_and_its_intervals_ho
 fn forced_ranging_of_a_false_linkage_shows_no_spread_and_says_why() {
     // Two objects under one id (the reference's false_link_3n): no orbit fits, every Δχ² is huge and
     // the weight stays on one cell however far it is split. A spread of one orbit would be a σ of 0.
-    let t = truth()
-        .into_iter()
-        .find(|t| t["object"] == "false_link_3n")
-        .unwrap();
-    let bytes = std::fs::read(util::reference_path(&format!(
-        "synthetic/{}",
-        t["file"].as_str().unwrap()
-    )))
-    .unwrap();
-    let intake = interloper::feed::tracklets::read_bytes(
-        "false_link_3n.psv",
-        &bytes,
-        &interloper::feed::sites::SiteTable::builtin(),
-        &interloper::feed::tracklets::Limits::default(),
-    );
+    let t = util::synthetic("false_link_3n");
+    let tr = util::synthetic_file(t["file"].as_str().unwrap());
     let opts = FitOptions {
         method: MethodChoice::Ranging,
         ..FitOptions::default()
     };
-    let r = fit_tracklet(&intake.tracklets[0], &ObserverModel::new(), &opts);
+    let r = fit_tracklet(&tr, &ObserverModel::new(), &opts);
     assert_eq!(r.status, "poor-fit");
     assert!(r.n_eff.unwrap() < 10.0, "{:?}", r.n_eff);
     assert_eq!((r.e_sigma, r.q_sigma, r.e_interval_95), (None, None, None));

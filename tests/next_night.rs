@@ -120,14 +120,8 @@ fn the_estimate_is_made_only_where_p_is_open_and_its_verdict_follows_its_numbers
     // Decided candidates and one-night arcs get no estimate.
     fit.p_hyperbolic = Some(0.001);
     assert!(next_night(&fit, &tr, &model).is_none());
-    let one = util::noisy(&truth_of("near_parabolic_bound_1n"), &mut rng, 0.3);
+    let one = util::noisy(&util::synthetic("near_parabolic_bound_1n"), &mut rng, 0.3);
     let mut f1 = fit_tracklet(&one, &model, &FitOptions::default());
     f1.p_hyperbolic = Some(0.5);
     assert!(next_night(&f1, &one, &model).is_none());
-}
-
-fn truth_of(name: &str) -> Value {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
-    all.into_iter().find(|t| t["object"] == name).unwrap()
 }

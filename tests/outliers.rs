@@ -23,12 +23,6 @@ use serde_json::Value;
 
 const SIGMA_ARCSEC: f64 = 0.2;
 
-fn truth(name: &str) -> Value {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
-    all.into_iter().find(|t| t["object"] == name).unwrap()
-}
-
 /// The reference arc with noise, cut to `keep` positions spread over every night when it has more.
 fn arc(t: &Value, rng: &mut SplitMix, keep: usize) -> Tracklet {
     let tr = util::noisy(t, rng, SIGMA_ARCSEC);
@@ -61,7 +55,7 @@ fn clean_gaussian_tracklets_of_12_to_20_points_lose_a_point_less_than_one_time_i
     let mut rng = SplitMix::new(2026);
     let (mut fits, mut lost) = (0, 0);
     for (name, keep) in ARCS {
-        let t = truth(name);
+        let t = util::synthetic(name);
         for _ in 0..200 {
             let tr = arc(&t, &mut rng, keep);
             let r = fit_tracklet(&tr, &model, &opts);
@@ -92,7 +86,7 @@ fn a_wild_point_is_caught_as_often_as_the_threshold_allows_and_always_when_far_o
     for k in [4.0, 5.0, 6.0, 8.0, 10.0, 20.0] {
         let (mut tried, mut caught, mut wrong) = (0, 0, 0);
         for (name, keep) in ARCS {
-            let t = truth(name);
+            let t = util::synthetic(name);
             for _ in 0..40 {
                 let mut tr = arc(&t, &mut rng, keep);
                 let w = (rng.uniform() * tr.obs.len() as f64) as usize % tr.obs.len();

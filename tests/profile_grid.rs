@@ -66,9 +66,7 @@ fn a_far_floor_refined_after_the_peak_no_longer_leaves_the_peak_on_a_coarse_grid
     // own zoom, and the next one's, did the same: 4-6 slices were left within 2σ of the floor, the
     // floor itself a coarse node (2.013 au), and e moved by up to 0.5σ with the scan's last digits.
     // The peak's valley is now refined last and far floors are not zoomed: 10-28 slices.
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<serde_json::Value> = serde_json::from_str(&text).unwrap();
-    let t = all.iter().find(|t| t["object"] == "hyp_strong_2n").unwrap();
+    let t = &util::synthetic("hyp_strong_2n");
     let mut rng = SplitMix::new(26);
     for k in 0..=124 {
         let tr = util::noisy(t, &mut rng, 0.2);

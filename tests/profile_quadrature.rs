@@ -12,7 +12,6 @@ mod util;
 use interloper::fitting::fit::{FitOptions, fit_tracklet};
 use interloper::fitting::ranging::SplitMix;
 use interloper::physics::observe::ObserverModel;
-use serde_json::Value;
 
 const REALISATIONS: usize = 8;
 
@@ -22,8 +21,7 @@ fn odds(p: f64) -> f64 {
 
 #[test]
 fn two_night_probabilities_agree_across_profile_grids() {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
+    let all = util::synthetic_truth();
     let model = ObserverModel::new();
     let grids = [29, 41, 53];
     let (mut compared, mut worst_dp, mut worst_dodds) = (0, 0.0f64, 0.0f64);

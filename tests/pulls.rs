@@ -19,15 +19,8 @@ use interloper::fitting::fit::{FitOptions, fit_tracklet};
 use interloper::fitting::ranging::SplitMix;
 use interloper::physics::constants::MU_SUN;
 use interloper::physics::observe::ObserverModel;
-use serde_json::Value;
 
 const REALISATIONS: usize = 250;
-
-fn truth(name: &str) -> Value {
-    let text = std::fs::read_to_string(util::reference_path("synthetic/truth.json")).unwrap();
-    let all: Vec<Value> = serde_json::from_str(&text).unwrap();
-    all.into_iter().find(|t| t["object"] == name).unwrap()
-}
 
 struct Summary {
     n: usize,
@@ -43,7 +36,7 @@ struct Summary {
 }
 
 fn pulls(name: &str, seed: u64) -> Summary {
-    let t = truth(name);
+    let t = util::synthetic(name);
     let te = t["e"].as_f64().unwrap();
     let model = ObserverModel::new();
     let opts = FitOptions::default();
@@ -209,7 +202,7 @@ fn three_night_main_belt_state_covariance_is_calibrated_along_every_axis_and_alo
     // squared whitened error averages 1; and the error projected on the gradient of e at the truth,
     // in units of its linear σ, has unit spread. The e pulls are narrower only because e curves: ê
     // lands higher along the weak direction, where e's σ is larger too.
-    let t = truth("mainbelt_3n");
+    let t = util::synthetic("mainbelt_3n");
     let true_state: Vec<f64> = t["state_helio"]
         .as_array()
         .unwrap()

@@ -260,48 +260,7 @@ pub(super) fn refine(scan: &Scan, nodes: &mut Vec<Node>, rng: &mut SplitMix) -> 
         if (round == 0 || settled) && effective_sample_size(&w) >= TARGET_N_EFF {
             break;
         }
-        let w_max = w.iter().copied().fold(0.0, f64::max);
-        let mut order: Vec<usize> = (0..w.len())
-            .filter(|&k| w[k] >= SPLIT_SHARE * w_max)
-            .collect();
-        order.sort_by(|&a, &b| w[b].total_cmp(&w[a]).then(a.cmp(&b)));
-        order.truncate(MAX_SPLIT);
-        let mut split = vec![false; nodes.len()];
-        for &k in &order {
-            split[k] = true;
-        }
-        // Across nights the valley is a thin curve of ρ̇ against ρ that the first grid misses
-        // everywhere: in every distance band the cells nearest it are split too, so the valley is
-        // followed at every distance, not only where the heaviest cell happened to fall. (One a band
-        // left the valley's best part unfound more often: the synthetic three-night comet-like arc's
-        // 95 % interval of e held the truth in 2 of 12 draws, now 10.)
-        let mut bands: std::collections::BTreeMap<usize, Vec<usize>> =
-            std::collections::BTreeMap::new();
-        for (k, n) in nodes.iter().enumerate() {
-            bands.entry(n.cell.row).or_default().push(k);
-        }
-        for band in bands.values_mut() {
-            band.sort_by(|&a, &b| {
-                nodes[a]
-                    .sample
-                    .chi2
-                    .total_cmp(&nodes[b].sample.chi2)
-                    .then(a.cmp(&b))
-            });
-            for &k in band.iter().take(PER_BAND) {
-                if !split[k] {
-                    split[k] = true;
-                    order.push(k);
-                }
-            }
-        }
-        // The cell that holds the floor, chosen by where the floor lies, not by its own draw.
-        if let Some(k) = floor.and_then(|f| nodes.iter().position(|n| n.cell.holds(f)))
-            && !split[k]
-        {
-            split[k] = true;
-            order.push(k);
-        }
+        let (order, split) = to_split(nodes, &w, floor);
         let parents: Vec<Cell> = order.iter().map(|&k| nodes[k].cell).collect();
         let mut k = 0;
         nodes.retain(|_| {
@@ -318,6 +277,55 @@ pub(super) fn refine(scan: &Scan, nodes: &mut Vec<Node>, rng: &mut SplitMix) -> 
         }
     }
     trials
+}
+
+/// Which cells a round splits, in the order their parts are drawn: the heaviest (at most MAX_SPLIT,
+/// above SPLIT_SHARE of the heaviest), the PER_BAND lowest in χ² of every distance band, and the one
+/// holding the valley's floor. Also a flag per node: whether it is split.
+fn to_split(nodes: &[Node], w: &[f64], floor: Option<(f64, f64)>) -> (Vec<usize>, Vec<bool>) {
+    let w_max = w.iter().copied().fold(0.0, f64::max);
+    let mut order: Vec<usize> = (0..w.len())
+        .filter(|&k| w[k] >= SPLIT_SHARE * w_max)
+        .collect();
+    order.sort_by(|&a, &b| w[b].total_cmp(&w[a]).then(a.cmp(&b)));
+    order.truncate(MAX_SPLIT);
+    let mut split = vec![false; nodes.len()];
+    for &k in &order {
+        split[k] = true;
+    }
+    // Across nights the valley is a thin curve of ρ̇ against ρ that the first grid misses
+    // everywhere: in every distance band the cells nearest it are split too, so the valley is
+    // followed at every distance, not only where the heaviest cell happened to fall. (One a band
+    // left the valley's best part unfound more often: the synthetic three-night comet-like arc's
+    // 95 % interval of e held the truth in 2 of 12 draws, now 10.)
+    let mut bands: std::collections::BTreeMap<usize, Vec<usize>> =
+        std::collections::BTreeMap::new();
+    for (k, n) in nodes.iter().enumerate() {
+        bands.entry(n.cell.row).or_default().push(k);
+    }
+    for band in bands.values_mut() {
+        band.sort_by(|&a, &b| {
+            nodes[a]
+                .sample
+                .chi2
+                .total_cmp(&nodes[b].sample.chi2)
+                .then(a.cmp(&b))
+        });
+        for &k in band.iter().take(PER_BAND) {
+            if !split[k] {
+                split[k] = true;
+                order.push(k);
+            }
+        }
+    }
+    // The cell that holds the floor, chosen by where the floor lies, not by its own draw.
+    if let Some(k) = floor.and_then(|f| nodes.iter().position(|n| n.cell.holds(f)))
+        && !split[k]
+    {
+        split[k] = true;
+        order.push(k);
+    }
+    (order, split)
 }
 
 #[cfg(test)]

@@ -12,6 +12,37 @@ pub fn reference_path(name: &str) -> PathBuf {
         .join(name)
 }
 
+/// Every synthetic arc's truth (tests/reference/data/synthetic/truth.json, written by
+/// tests/reference/make_synthetic.py).
+pub fn synthetic_truth() -> Vec<serde_json::Value> {
+    let text = std::fs::read_to_string(reference_path("synthetic/truth.json")).unwrap();
+    serde_json::from_str(&text).unwrap()
+}
+
+/// The truth of the synthetic arc `object`.
+pub fn synthetic(object: &str) -> serde_json::Value {
+    synthetic_truth()
+        .into_iter()
+        .find(|t| t["object"] == object)
+        .unwrap_or_else(|| panic!("no synthetic arc {object}"))
+}
+
+/// The one tracklet of a synthetic file as the reference wrote it (with its own noise), read as the
+/// feed reads it; no line may be refused.
+pub fn synthetic_file(file: &str) -> interloper::fitting::input::Tracklet {
+    use interloper::feed::{sites::SiteTable, tracklets};
+    let bytes = std::fs::read(reference_path(&format!("synthetic/{file}"))).unwrap();
+    let intake = tracklets::read_bytes(
+        file,
+        &bytes,
+        &SiteTable::builtin(),
+        &tracklets::Limits::default(),
+    );
+    assert!(intake.errors.is_empty(), "{:?}", intake.errors);
+    assert_eq!(intake.tracklets.len(), 1);
+    intake.tracklets.into_iter().next().unwrap()
+}
+
 /// Rows of a reference CSV as maps from column name to the raw text.
 pub fn read_csv(name: &str) -> Vec<HashMap<String, String>> {
     let text = std::fs::read_to_string(reference_path(name)).expect("reference file");
