@@ -3,10 +3,11 @@
 //! (printed only after write, flush and fsync) must be in it.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
+mod util;
+
 use interloper::feed::journal::Journal;
 use interloper::fitting::ranging::SplitMix;
 use std::collections::HashSet;
-use std::io::{BufRead, BufReader};
 use std::process::{Command, Stdio};
 use std::time::Duration;
 
@@ -25,26 +26,21 @@ fn no_acknowledged_decision_is_lost_across_100_kills() {
             .stderr(Stdio::null())
             .spawn()
             .unwrap();
-        let stdout = child.stdout.take().unwrap();
-        let reader = std::thread::spawn(move || {
-            let mut seen = Vec::new();
-            for line in BufReader::new(stdout).lines() {
-                let Ok(line) = line else { break };
-                if let Some(seq) = line
-                    .strip_prefix("ack ")
-                    .and_then(|s| s.parse::<u64>().ok())
-                {
-                    seen.push(seq);
-                }
-            }
-            seen
-        });
+        let acks = util::ack_stream(&mut child);
+        // Every other round kills a writer already appending, however slow the disk's sync (the
+        // others kill from the start, so kills while it opens and repairs the journal are covered).
+        if round % 2 == 1 {
+            let first = acks
+                .recv_timeout(Duration::from_secs(60))
+                .unwrap_or_else(|e| panic!("round {round}: no acknowledgement in 60 s ({e})"));
+            acked.insert(first);
+        }
         std::thread::sleep(Duration::from_micros(
             2_000 + (rng.uniform() * 40_000.0) as u64,
         ));
         child.kill().unwrap(); // SIGKILL on Unix
         child.wait().unwrap();
-        acked.extend(reader.join().unwrap());
+        acked.extend(acks.iter());
         let (_, replay) = Journal::open(dir.path())
             .unwrap_or_else(|e| panic!("round {round}: journal failed to load: {e}"));
         torn += replay.warnings.len();
@@ -56,7 +52,7 @@ fn no_acknowledged_decision_is_lost_across_100_kills() {
         );
     }
     assert!(
-        acked.len() > 100,
+        acked.len() >= 50,
         "the writer barely ran ({} acks)",
         acked.len()
     );

@@ -6,10 +6,11 @@
 //! followers end with the state a replay gives.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
+mod util;
+
 use interloper::feed::journal::{Journal, Standing};
 use interloper::fitting::ranging::SplitMix;
 use std::collections::HashMap;
-use std::io::{BufRead, BufReader};
 use std::path::Path;
 use std::process::{Command, Stdio};
 use std::sync::Arc;
@@ -31,23 +32,30 @@ fn writer(dir: &Path, name: &str, seed: u64) -> (Vec<u64>, usize) {
             .stderr(Stdio::null())
             .spawn()
             .unwrap();
-        let stdout = child.stdout.take().unwrap();
-        let reader = std::thread::spawn(move || {
-            BufReader::new(stdout)
-                .lines()
-                .map_while(Result::ok)
-                .filter_map(|l| l.strip_prefix("ack ").and_then(|s| s.parse::<u64>().ok()))
-                .collect::<Vec<u64>>()
-        });
-        std::thread::sleep(Duration::from_micros(
-            5_000 + (rng.uniform() * 150_000.0) as u64,
-        ));
+        let acks = util::ack_stream(&mut child);
+        // Most runs are killed after a random number of acknowledged lines, so every run makes
+        // progress however slow the disk's sync; one in four at a random moment from its start (while
+        // it opens the journal, or before its first line).
+        if rng.uniform() < 0.25 {
+            std::thread::sleep(Duration::from_micros(
+                5_000 + (rng.uniform() * 150_000.0) as u64,
+            ));
+        } else {
+            let want = 1 + (rng.uniform() * 300.0) as usize;
+            for _ in 0..want {
+                match acks.recv_timeout(Duration::from_secs(60)) {
+                    Ok(seq) => acked.push(seq),
+                    Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
+                    Err(e) => panic!("{name}: no acknowledgement in 60 s ({e})"),
+                }
+            }
+        }
         if child.try_wait().unwrap().is_none() {
             child.kill().unwrap(); // SIGKILL
             kills += 1;
         }
         child.wait().unwrap();
-        acked.extend(reader.join().unwrap());
+        acked.extend(acks.iter());
     }
     (acked, kills)
 }

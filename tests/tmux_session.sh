@@ -22,14 +22,13 @@ trap 'tmux -L "$sock" kill-server 2>/dev/null || true; rm -rf "$state" "$cfgdir"
 tmux -L "$sock" new-session -d -s demo -x 100 -y 30 "$bin --config $cfgdir/config.toml demo --speed 10 --state $state; echo EXITED; sleep 5"
 tmux -L "$sock" set-option -t demo monitor-bell on >/dev/null
 fail() { echo "tmux session test: FAILED: $1"; tmux -L "$sock" capture-pane -p -t demo; exit 1; }
-for _ in $(seq 1 60); do
-    screen=$(tmux -L "$sock" capture-pane -p -t demo)
-    if grep -q "qka2e7f" <<<"$screen" && grep -q "qk9h6tx" <<<"$screen"; then break; fi
-    sleep 0.5
-done
-grep -q "qka2e7f" <<<"$screen" || fail "the candidates never appeared"
+target=demo
+# shellcheck source=tests/tmux_wait.sh
+source tests/tmux_wait.sh
+wait_for "qk9h6tx" 240 || fail "the candidates never appeared"
+screen | grep -q "qka2e7f" || fail "the unbound candidate is not listed"
 # The unbound candidate crosses the alert line once its second night is in.
-for _ in $(seq 1 40); do
+for _ in $(seq 1 240); do
     [ -s "$cfgdir/alert.json" ] && break
     sleep 0.25
 done
@@ -37,18 +36,19 @@ done
 python3 -c "import json,sys; d=json.load(open(sys.argv[1])); assert d['object']=='qka2e7f' and d['alert']['kind'] in ('strong','new-unbound')" "$cfgdir/alert.json" \
     || fail "the alert command did not get the candidate's JSON"
 [ "$(tmux -L "$sock" display-message -p -t demo '#{window_bell_flag}')" = "1" ] || fail "the alert did not ring the bell"
-sleep 2
+# The night replayed and fitted: nothing waiting or being fitted.
+wait_for "waiting 0 · fitting 0" 240 || fail "the fits never finished"
 tmux -L "$sock" send-keys -t demo g
 sleep 0.3
 # X straight after the decision, before the journal has confirmed it: the export waits for the save
 # and carries the decision (it once left it out when the disk was slow to sync).
 tmux -L "$sock" send-keys -t demo p X
-for _ in $(seq 1 40); do
+for _ in $(seq 1 120); do
     [ -s "$state/decisions.jsonl" ] && grep -q '"verdict":"pursue"' "$state/decisions.jsonl" && break
     sleep 0.25
 done
 grep -q '"object":"qka2e7f"' "$state/decisions.jsonl" || fail "the decision did not reach the journal"
-for _ in $(seq 1 40); do
+for _ in $(seq 1 120); do
     ls "$state"/export-*.json >/dev/null 2>&1 && break
     sleep 0.25
 done
@@ -56,24 +56,20 @@ grep -q "^1,qka2e7f,.*,pursue," "$state"/export-*.csv || fail "X did not export 
 tmux -L "$sock" send-keys -t demo /
 sleep 0.2
 tmux -L "$sock" send-keys -t demo z z z
-sleep 0.4
-tmux -L "$sock" capture-pane -p -t demo | grep -q "candidates 0 of" || fail "the filter did not apply"
+wait_for "candidates 0 of" 40 || fail "the filter did not apply"
 tmux -L "$sock" send-keys -t demo Escape
-sleep 0.4
-tmux -L "$sock" capture-pane -p -t demo | grep -q "candidates 0 of" && fail "Esc did not clear the filter"
+wait_for "candidates [1-9][0-9]* of" 40 || fail "Esc did not clear the filter"
 tmux -L "$sock" send-keys -t demo '?'
-sleep 0.5
-tmux -L "$sock" capture-pane -p -t demo | grep -q "next-undecided" || fail "no help overlay"
+wait_for "next-undecided" 40 || fail "no help overlay"
 tmux -L "$sock" send-keys -t demo Escape
-sleep 0.2
+wait_gone "next-undecided" 40 || fail "Esc did not close the help"
 # The top candidate is unbound: its origin pane opens.
 tmux -L "$sock" send-keys -t demo g
 sleep 0.2
 tmux -L "$sock" send-keys -t demo o
-sleep 0.5
-tmux -L "$sock" capture-pane -p -t demo | grep -q "before the planets" || fail "no origin pane"
+wait_for "before the planets" 40 || fail "no origin pane"
 tmux -L "$sock" send-keys -t demo Escape
-sleep 0.2
+wait_gone "before the planets" 40 || fail "Esc did not close the origin pane"
 tmux -L "$sock" send-keys -t demo q
 for _ in $(seq 1 20); do
     tmux -L "$sock" capture-pane -p -t demo | grep -q "EXITED" && break

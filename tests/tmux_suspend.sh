@@ -15,14 +15,9 @@ sock="interloper-suspend-$$"
 trap 'tmux -L "$sock" kill-server 2>/dev/null || true; rm -rf "$state"' EXIT
 tmux -L "$sock" new-session -d -s s -x 100 -y 30 "bash --norc --noprofile -i"
 fail() { echo "tmux suspend test: FAILED: $1"; tmux -L "$sock" capture-pane -p -t s; exit 1; }
-screen() { tmux -L "$sock" capture-pane -p -t s; }
-wait_for() {
-    for _ in $(seq 1 "$2"); do
-        screen | grep -q "$1" && return 0
-        sleep 0.25
-    done
-    return 1
-}
+target=s
+# shellcheck source=tests/tmux_wait.sh
+source tests/tmux_wait.sh
 tmux -L "$sock" send-keys -t s "PS1='READY> '" Enter
 tmux -L "$sock" send-keys -t s "$bin demo --speed 20 --state $state" Enter
 wait_for "qka2e7f" 120 || fail "the console never showed the candidates"
@@ -37,7 +32,8 @@ screen | grep -q "typed-at-the-prompt" && fail "the screen was not redrawn after
 tmux -L "$sock" send-keys -t s '?'
 wait_for "next-undecided" 20 || fail "no keys after fg (help did not open)"
 tmux -L "$sock" send-keys -t s Escape
-sleep 0.2
+# q only once the Escape is read (sent together they arrive as Alt+q).
+wait_gone "next-undecided" 40 || fail "Esc did not close the help"
 tmux -L "$sock" send-keys -t s q
 # The process itself must be gone (what the screen shows after the alternate screen is not reliable).
 gone=no

@@ -231,8 +231,14 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         super::watch_alerts::HeadlessAlerts::new(super::config::get().alerts.value.clone());
     let mut last_activity = Instant::now();
     let mut last_look = Instant::now();
+    // An event taken while deciding whether the feed has gone idle, to be reported first.
+    let mut held: Option<EngineEvent> = None;
     while !stop.load(Ordering::Relaxed) && !out.closed {
-        match results.recv_timeout(Duration::from_millis(100)) {
+        let next = match held.take() {
+            Some(ev) => Ok(ev),
+            None => results.recv_timeout(Duration::from_millis(100)),
+        };
+        match next {
             Ok(ev) => {
                 last_activity = Instant::now();
                 // The alert line follows the fit that raised it.
@@ -257,7 +263,12 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         if let Some(idle) = args.stop_after_idle {
             let (waiting, running) = engine.load();
             if waiting == 0 && running == 0 && last_activity.elapsed().as_secs_f64() >= idle {
-                break;
+                // The pool counts a fit as running until the engine has handed its result on, so
+                // with the pool idle every result is already in this channel: report it first.
+                match results.try_recv() {
+                    Ok(ev) => held = Some(ev),
+                    Err(_) => break,
+                }
             }
         }
     }

@@ -208,17 +208,21 @@ impl State {
             Input::Fit(boxed) => {
                 let (obj, version, fit) = *boxed;
                 // A newer submission of this object is queued or running: its result will follow.
-                if self.generation.get(&obj).is_some_and(|g| *g > version) {
-                    return true;
-                }
-                let n_known = self.store.tracklet(&obj).map_or(0, |t| t.obs.len());
-                let arrived = self.arrived.get(&obj).copied().unwrap_or(SystemTime::now());
-                out(EngineEvent::Fit {
-                    version,
-                    fit: Box::new(fit),
-                    arrived,
-                    n_known,
-                })
+                let listening = if self.generation.get(&obj).is_some_and(|g| *g > version) {
+                    true
+                } else {
+                    let n_known = self.store.tracklet(&obj).map_or(0, |t| t.obs.len());
+                    let arrived = self.arrived.get(&obj).copied().unwrap_or(SystemTime::now());
+                    out(EngineEvent::Fit {
+                        version,
+                        fit: Box::new(fit),
+                        arrived,
+                        n_known,
+                    })
+                };
+                // Only now, with the result handed on, does the pool stop counting it as running.
+                self.pool.finished();
+                listening
             }
             Input::Overrides(obj, ov) => {
                 if self.overrides.get(&obj).cloned().unwrap_or_default() != ov {

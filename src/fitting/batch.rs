@@ -107,10 +107,12 @@ impl FitPool {
                         let (obj, (version, tracklet, opts)) = job;
                         let mut r = fit_tracklet(&tracklet, &model, &opts);
                         r.next_night = next_night(&r, &tracklet, &model);
-                        if let Ok(mut st) = shared.0.lock() {
-                            st.running -= 1;
-                        }
+                        // Still counted as running until its consumer has handed it on
+                        // (`finished`): an idle pool then means every result is already out.
                         if results.send((obj, version, r)).is_err() {
+                            if let Ok(mut st) = shared.0.lock() {
+                                st.running = st.running.saturating_sub(1);
+                            }
                             return;
                         }
                     }
@@ -133,6 +135,15 @@ impl FitPool {
                 st.order.push_back(obj);
             }
             cv.notify_one();
+        }
+    }
+
+    /// A result has been taken from the results channel and handed on (or dropped as stale): it no
+    /// longer counts as running. A fit counts as running from the moment a worker takes it until then,
+    /// so a pool that reports itself idle has no result still on its way.
+    pub fn finished(&self) {
+        if let Ok(mut st) = self.shared.0.lock() {
+            st.running = st.running.saturating_sub(1);
         }
     }
 

@@ -161,3 +161,26 @@ pub fn run_bin(args: &[&str]) -> (Option<i32>, String, String) {
         String::from_utf8_lossy(&out.stderr).into_owned(),
     )
 }
+
+/// The sequence numbers a `journal-append` child acknowledges ("ack N" lines on its stdout), as they
+/// come; the channel closes when the child's stdout does.
+pub fn ack_stream(child: &mut std::process::Child) -> std::sync::mpsc::Receiver<u64> {
+    use std::io::BufRead;
+    let stdout = child.stdout.take().unwrap();
+    let (tx, rx) = std::sync::mpsc::channel();
+    std::thread::spawn(move || {
+        for line in std::io::BufReader::new(stdout)
+            .lines()
+            .map_while(Result::ok)
+        {
+            if let Some(seq) = line
+                .strip_prefix("ack ")
+                .and_then(|s| s.parse::<u64>().ok())
+                && tx.send(seq).is_err()
+            {
+                return;
+            }
+        }
+    });
+    rx
+}
