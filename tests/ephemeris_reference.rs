@@ -109,7 +109,7 @@ fn the_linear_3_sigma_ellipse_covers_the_truth_in_97_to_100_percent_of_300_reali
 
 #[test]
 fn the_one_night_sample_region_covers_the_truth_a_day_later_in_300_realisations() {
-    let c = coverage("mainbelt_1n", 1, 300, "short-arc");
+    let c = coverage("mainbelt_1n", 1, 300, "ranging");
     eprintln!(
         "one-night sample-region coverage at +1 d: {:.1} %",
         100.0 * c

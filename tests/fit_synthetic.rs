@@ -145,7 +145,8 @@ fn one_night_main_belt_tracklets_stay_low_in_p_hyperbolic() {
             &model,
             &FitOptions::default(),
         );
-        assert_eq!(r.method, "short-arc");
+        assert_eq!(r.method, "ranging");
+        assert_eq!(r.probability_from, "short-arc-quadrature");
         ps.push(r.p_hyperbolic.unwrap());
     }
     let mean = ps.iter().sum::<f64>() / ps.len() as f64;

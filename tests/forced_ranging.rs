@@ -127,6 +127,12 @@ fn forced_ranging_of_a_false_linkage_shows_no_spread_and_says_why() {
     };
     let r = fit_tracklet(&tr, &ObserverModel::new(), &opts);
     assert_eq!(r.status, "poor-fit");
+    // Regression: no orbit fits, so no probability and no origin (it once showed P 1.0, z 57 500).
+    assert_eq!(
+        (r.p_hyperbolic, r.log10_odds, r.z_hyperbolic),
+        (None, None, None)
+    );
+    assert!(r.origin.is_none());
     assert!(r.n_eff.unwrap() < 10.0, "{:?}", r.n_eff);
     assert_eq!((r.e_sigma, r.q_sigma, r.e_interval_95), (None, None, None));
     assert!(r.elements.as_ref().unwrap().sigma.is_none());

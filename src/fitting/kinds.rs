@@ -59,8 +59,8 @@ word_enum!(
     /// What produced the orbit.
     FitMethod {
         LeastSquares => "least-squares",
+        /// Ranging over distance and radial velocity: a one-night arc's quadrature, or grid ranging.
         Ranging => "ranging",
-        ShortArc => "short-arc",
     }
 );
 

@@ -229,7 +229,7 @@ fn alternatives_note(alternatives: &[Alternative], unbound: bool) -> Option<Stri
 /// the probability of such a "fit" being unbound means nothing and is not shown.
 pub const NO_ORBIT_CHI2_PER_DOF: f64 = 100.0;
 
-fn withhold_probability(out: &mut FitResult) {
+pub(super) fn withhold_probability(out: &mut FitResult) {
     out.p_hyperbolic = None;
     out.p_hyperbolic_error = None;
     out.z_hyperbolic = None;

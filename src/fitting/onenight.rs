@@ -82,7 +82,7 @@ pub fn fit_one_night(
 ) -> FitResult {
     let fail = |why: String| {
         let mut f = FitResult::failed(tr, why);
-        f.method = FitMethod::ShortArc;
+        f.method = FitMethod::Ranging;
         f
     };
     let Some(att) = super::shortarc::attributable(tr, cov) else {
@@ -118,7 +118,7 @@ pub fn fit_one_night(
         }
     }
     let mut out = FitResult::empty(tr);
-    out.method = FitMethod::ShortArc;
+    out.method = FitMethod::Ranging;
     out.v_mag = Some(v_mag);
     out.v_mag_assumed = assumed;
     out.set_posterior(

@@ -154,11 +154,14 @@ fn fill_ranging(
         q_interval: rr.q_interval,
         i_interval: rr.i_interval,
     });
-    if out.chi2_per_dof.unwrap_or(0.0) > super::quality::MAX_CHI2_PER_DOF {
-        out.poor_fit.push(format!(
-            "chi2/dof {:.1} at the best node",
-            out.chi2_per_dof.unwrap_or(0.0)
-        ));
+    let chi2_per_dof = out.chi2_per_dof.unwrap_or(0.0);
+    if chi2_per_dof > super::quality::MAX_CHI2_PER_DOF {
+        out.poor_fit
+            .push(format!("chi2/dof {chi2_per_dof:.1} at the best node"));
+    }
+    // As on the least-squares path: where no orbit fits at all (a false linkage), P means nothing.
+    if chi2_per_dof > super::lsqrecord::NO_ORBIT_CHI2_PER_DOF {
+        super::lsqrecord::withhold_probability(out);
     }
     if rr.n_eff < MIN_N_EFF {
         unmeasured_spreads(out, rr.n_eff);

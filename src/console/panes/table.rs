@@ -130,7 +130,6 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 cells.push(Cell::from(num(fit.rms_arcsec, 2)));
                 cells.push(Cell::from(match fit.method {
                     FitMethod::Ranging => "ranging",
-                    FitMethod::ShortArc => "1 night",
                     FitMethod::LeastSquares => "lsq",
                 }));
             }
