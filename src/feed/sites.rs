@@ -139,42 +139,30 @@ impl SiteTable {
         for (k, s) in parsed.site.into_iter().enumerate() {
             let code = clean(s.code.trim());
             let what = format!("site {} ({code})", k + 1);
-            if code.is_empty() {
-                return Err(err(0, format!("{what}: empty code")));
-            }
-            let position = match (s.latitude_deg, s.rho_cos_phi, s.rho_sin_phi) {
-                (Some(lat), None, None) => {
-                    if !(-90.0..=90.0).contains(&lat) {
-                        return Err(err(0, format!("{what}: latitude {lat} outside ±90°")));
-                    }
-                    GroundPosition::Geodetic {
-                        lon_deg: s.longitude_deg,
-                        lat_deg: lat,
-                        alt_m: s.altitude_m.unwrap_or(0.0),
-                    }
-                }
-                (None, Some(c), Some(sn)) => GroundPosition::Parallax {
-                    lon_deg: s.longitude_deg,
-                    rho_cos_phi: c,
-                    rho_sin_phi: sn,
-                },
-                _ => {
-                    return Err(err(
-                        0,
-                        format!(
-                            "{what}: give latitude_deg (and altitude_m), or rho_cos_phi and rho_sin_phi"
-                        ),
-                    ));
-                }
+            // A value refused here is reported on its own line (or its entry's).
+            let at = |names: &[&str], reason: String| {
+                err(
+                    super::siteentry::line_of(text, k, names),
+                    format!("{what}: {reason}"),
+                )
             };
+            if code.is_empty() {
+                return Err(at(&["code"], "empty code".into()));
+            }
+            let position = super::siteentry::position(
+                s.longitude_deg,
+                s.latitude_deg,
+                s.altitude_m,
+                (s.rho_cos_phi, s.rho_sin_phi),
+            )
+            .map_err(|(names, why)| at(names, why))?;
             if !s.longitude_deg.is_finite() || s.longitude_deg.abs() > 360.0 {
-                return Err(err(
-                    0,
-                    format!("{what}: longitude {} is not an angle", s.longitude_deg),
+                return Err(at(
+                    super::siteentry::LONGITUDE,
+                    format!("longitude {} is not an angle", s.longitude_deg),
                 ));
             }
-            let caps =
-                capabilities(&s, &self.defaults).map_err(|r| err(0, format!("{what}: {r}")))?;
+            let caps = capabilities(&s, &self.defaults).map_err(|r| at(&[], r))?;
             self.sites.insert(
                 code.clone(),
                 Site {
@@ -283,6 +271,39 @@ mod tests {
         let t = SiteTable::builtin();
         assert!(t.len() >= 3);
         assert!(t.get("TV1").is_some());
+    }
+
+    #[test]
+    fn values_refused_after_parsing_carry_their_line_and_sites_off_the_ground_are_refused() {
+        let mut t = SiteTable::default();
+        let head = "# network\n[[site]]\ncode = \"AB1\"\nlongitude_deg = 10\n";
+        let e = t
+            .load_toml("s.toml", &format!("{head}latitude_deg = 95\n"))
+            .unwrap_err();
+        assert_eq!(e.line, 5, "{e}");
+        // Regression: an altitude of 10⁶ km was taken, and the fit ran from there.
+        let e = t
+            .load_toml(
+                "s.toml",
+                &format!("{head}lat_deg = 45\n\n[[site]]\ncode = \"AB2\"\nlongitude_deg = 1\nlatitude_deg = 1\naltitude_m = 1e9\n"),
+            )
+            .unwrap_err();
+        assert_eq!(e.line, 11, "{e}");
+        assert!(e.reason.contains("site 2 (AB2): altitude"), "{e}");
+        let e = t
+            .load_toml(
+                "s.toml",
+                &format!("{head}rho_cos_phi = 3.0\nrho_sin_phi = 0.5\n"),
+            )
+            .unwrap_err();
+        assert_eq!(e.line, 5, "{e}");
+        assert!(e.reason.contains("Earth radii"), "{e}");
+        // The highest observatories and the parallax constants of a real place still load.
+        t.load_toml(
+            "s.toml",
+            &format!("{head}latitude_deg = -23\naltitude_m = 5600\n[[site]]\ncode = \"AB3\"\nlongitude_deg = 1\nrho_cos_phi = 0.8\nrho_sin_phi = 0.6\n"),
+        )
+        .unwrap();
     }
 
     #[test]
