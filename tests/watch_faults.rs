@@ -90,6 +90,49 @@ fn an_idle_watcher_still_takes_files_renamed_or_linked_into_place() {
 }
 
 #[test]
+fn a_rejected_file_is_one_json_line_with_every_reason_and_a_whole_file_reason_has_no_line() {
+    // Regression: the headless watcher wrote one "rejected" line per bad line of a file.
+    let dir = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    std::fs::copy(
+        demo.join("031_bad_dates.psv"),
+        dir.path().join("031_bad_dates.psv"),
+    )
+    .unwrap();
+    std::fs::write(dir.path().join("binary.psv"), b"trkSub|\0\x01").unwrap();
+    let out = util::watch_once(state.path(), dir.path());
+    let rejected: Vec<serde_json::Value> = out
+        .lines()
+        .filter_map(|l| serde_json::from_str::<serde_json::Value>(l).ok())
+        .filter(|v| v["kind"] == "rejected")
+        .collect();
+    assert_eq!(rejected.len(), 2, "{out}");
+    let of = |name: &str| {
+        rejected
+            .iter()
+            .find(|v| v["source"].as_str().unwrap().ends_with(name))
+            .unwrap()
+    };
+    let dates = of("031_bad_dates.psv");
+    let lines: Vec<_> = dates["errors"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| e["line"].as_u64().unwrap())
+        .collect();
+    assert_eq!(lines, [3, 4], "{dates}");
+    assert_eq!(dates["line"], 3);
+    assert!(dates["error"].as_str().unwrap().contains("not a date"));
+    let binary = of("binary.psv");
+    assert!(binary["line"].is_null(), "{binary}");
+    assert!(
+        binary["error"].as_str().unwrap().contains("binary"),
+        "{binary}"
+    );
+}
+
+#[test]
 fn a_fifo_is_refused_once() {
     let dir = tempfile::tempdir().unwrap();
     let fifo = dir.path().join("pipe.psv");

@@ -56,6 +56,13 @@ pub struct WatchArgs {
     pub dir: PathBuf,
 }
 
+/// Line (null for the file as a whole), column and reason of an input error.
+fn where_and_why(e: &InputError) -> serde_json::Value {
+    serde_json::json!({
+        "line": (e.line > 0).then_some(e.line), "column": e.column, "error": e.reason,
+    })
+}
+
 fn utc(t: SystemTime) -> String {
     chrono::DateTime::<chrono::Utc>::from(t).to_rfc3339_opts(chrono::SecondsFormat::Millis, true)
 }
@@ -78,12 +85,35 @@ impl Out {
         }
     }
 
-    fn input_error(&mut self, e: &InputError, kind: &str, arrived: SystemTime) {
-        let v = serde_json::json!({
-            "kind": kind, "source": e.file, "line": e.line, "column": e.column,
-            "error": e.reason, "arrived_utc": utc(arrived),
-        });
-        self.emit(v, format!("{kind}: {e}"));
+    /// A line of an accepted file that could not be read: one JSON line each.
+    fn input_error(&mut self, e: &InputError, arrived: SystemTime) {
+        let mut v = where_and_why(e);
+        v["kind"] = "input-error".into();
+        v["source"] = e.file.clone().into();
+        v["arrived_utc"] = utc(arrived).into();
+        self.emit(v, format!("input-error: {e}"));
+    }
+
+    /// A file refused as a whole: one JSON line for the file, with its first reason as `line`,
+    /// `column` and `error` and every reason in `errors` (the text form gives one line each).
+    fn rejected_file(&mut self, file: &str, errors: &[InputError], arrived: SystemTime) {
+        let first = errors.first().map(where_and_why).unwrap_or_else(
+            || serde_json::json!({ "line": null, "column": null, "error": "no observations" }),
+        );
+        let mut v = first;
+        v["kind"] = "rejected".into();
+        v["source"] = file.into();
+        v["errors"] = errors.iter().map(where_and_why).collect();
+        v["arrived_utc"] = utc(arrived).into();
+        let text = match errors {
+            [] => format!("rejected: {file}: no observations"),
+            _ => errors
+                .iter()
+                .map(|e| format!("rejected: {e}"))
+                .collect::<Vec<_>>()
+                .join("\n"),
+        };
+        self.emit(v, text);
     }
 }
 
@@ -317,6 +347,7 @@ impl Counts {
     fn report(&mut self, out: &mut Out, ev: EngineEvent) -> anyhow::Result<()> {
         match ev {
             EngineEvent::Ingested {
+                path,
                 arrived,
                 errors,
                 rejected,
@@ -326,9 +357,12 @@ impl Counts {
             } => {
                 self.files += 1;
                 (self.objects, self.observations) = (objects, observations);
-                let kind = if rejected { "rejected" } else { "input-error" };
-                for e in &errors {
-                    out.input_error(e, kind, arrived);
+                if rejected {
+                    out.rejected_file(&interloper::feed::sanitize::clean(&path), &errors, arrived);
+                } else {
+                    for e in &errors {
+                        out.input_error(e, arrived);
+                    }
                 }
                 self.rejected += usize::from(rejected);
             }
@@ -338,13 +372,14 @@ impl Counts {
                 arrived,
             } => {
                 self.rejected += 1;
+                let file = interloper::feed::sanitize::clean(&path);
                 let e = InputError {
-                    file: interloper::feed::sanitize::clean(&path),
+                    file: file.clone(),
                     line: 0,
                     column: None,
                     reason,
                 };
-                out.input_error(&e, "rejected", arrived);
+                out.rejected_file(&file, &[e], arrived);
             }
             EngineEvent::Failed(msg) => tracing::error!("watch: {msg}"),
             EngineEvent::Fit { fit, arrived, .. } => {

@@ -8,6 +8,7 @@ pub mod engine;
 pub mod journal;
 pub mod obs80;
 pub mod sanitize;
+mod siteentry;
 pub mod sites;
 pub mod store;
 pub mod tracklets;
@@ -15,7 +16,7 @@ pub mod watcher;
 
 /// Why one line (or a whole file) was not taken in.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]
-#[error("{file}: line {line}{}: {reason}", column.as_ref().map(|c| format!(", column {c}")).unwrap_or_default())]
+#[error("{file}{}{}: {reason}", if *line > 0 { format!(": line {line}") } else { String::new() }, column.as_ref().map(|c| format!(", column {c}")).unwrap_or_default())]
 pub struct InputError {
     pub file: String,
     /// 1-based line number (0 for the whole file).

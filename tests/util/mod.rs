@@ -127,7 +127,6 @@ pub fn arc(
     )
 }
 
-/// Run the interloper binary with `args`: exit code, stdout, stderr.
 /// Arguments of a headless watch of one directory that prints JSON lines and stops after 2 s idle; the
 /// state directory and the watched directory follow.
 pub const WATCH_ONCE: [&str; 6] = [
@@ -150,6 +149,7 @@ pub fn watch_once(state: &std::path::Path, dir: &std::path::Path) -> String {
     String::from_utf8_lossy(&out.stdout).into_owned()
 }
 
+/// Run the interloper binary with `args`: exit code, stdout, stderr.
 pub fn run_bin(args: &[&str]) -> (Option<i32>, String, String) {
     let out = std::process::Command::new(env!("CARGO_BIN_EXE_interloper"))
         .args(args)
