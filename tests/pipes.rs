@@ -1,18 +1,23 @@
-//! A reader that goes away (`| head -1`) ends `fit`, `ephem` and the headless watcher quietly with exit
-//! code 0: no "Broken pipe" error, no process left running.
+//! A reader that goes away (`| head -1`) ends `fit`, `ephem`, the headless watcher, `completions`, `man`
+//! and `config` quietly with exit code 0: no "Broken pipe" error, no panic, no process left running.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use std::io::{BufRead, BufReader};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-fn first_line_then_close(args: &[&str]) -> (Option<i32>, String) {
-    let mut child = Command::new(env!("CARGO_BIN_EXE_interloper"))
+/// The binary with `args`, its stdout and stderr pipes.
+fn spawn(args: &[&str]) -> std::process::Child {
+    Command::new(env!("CARGO_BIN_EXE_interloper"))
         .args(args)
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
         .spawn()
-        .unwrap();
+        .unwrap()
+}
+
+fn first_line_then_close(args: &[&str]) -> (Option<i32>, String) {
+    let mut child = spawn(args);
     {
         let stdout = child.stdout.take().unwrap();
         let mut line = String::new();
@@ -89,4 +94,30 @@ fn headless_watch_into_a_closed_pipe_stops_with_exit_zero() {
     );
     let (code, err) = first_line_then_close(&["watch", "--headless", "--json", "--state", &s, &d]);
     assert_eq!(code, Some(0), "{err}");
+}
+
+/// Run with stdout a pipe whose reading end is already closed: every write fails.
+fn into_a_closed_pipe(args: &[&str]) -> (Option<i32>, String) {
+    let mut child = spawn(args);
+    drop(child.stdout.take());
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn completions_man_and_config_into_a_closed_pipe_exit_zero_quietly() {
+    // Regression: completions and config panicked (exit 101) writing to a closed pipe.
+    for args in [
+        &["completions", "bash"][..],
+        &["man"][..],
+        &["config"][..],
+        &["config", "--json"][..],
+    ] {
+        let (code, err) = into_a_closed_pipe(args);
+        assert_eq!(code, Some(0), "{args:?}: {err}");
+        assert!(!err.contains("panicked"), "{args:?}: {err}");
+    }
 }

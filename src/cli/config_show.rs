@@ -1,6 +1,7 @@
 //! `interloper config`: the effective configuration and where each value came from.
 
 use super::config::{Config, Setting, default_file, get};
+use std::io::Write;
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, clap::Args)]
@@ -112,6 +113,7 @@ fn file_line(c: &Config) -> String {
 pub fn run(args: &ConfigArgs) -> anyhow::Result<i32> {
     let c = get();
     let rows = rows(c);
+    let mut out = std::io::stdout().lock();
     if args.json {
         let mut values = serde_json::Map::new();
         for (key, _, value, from) in &rows {
@@ -124,14 +126,17 @@ pub fn run(args: &ConfigArgs) -> anyhow::Result<i32> {
             "file": c.file.as_deref().map(Path::display).map(|d| d.to_string()),
             "values": values,
         });
-        println!("{doc}");
+        writeln!(out, "{doc}")?;
         return Ok(0);
     }
-    println!("{}", file_line(c));
+    writeln!(out, "{}", file_line(c))?;
     let w = rows.iter().map(|r| r.1.chars().count()).max().unwrap_or(0);
     for (key, text, _, from) in rows {
-        println!("{key:<12} {text:<w$}  {from}");
+        writeln!(out, "{key:<12} {text:<w$}  {from}")?;
     }
-    println!("A flag on the command line wins over every line above.");
+    writeln!(
+        out,
+        "A flag on the command line wins over every line above."
+    )?;
     Ok(0)
 }

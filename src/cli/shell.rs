@@ -13,7 +13,10 @@ pub struct CompletionsArgs {
 /// Print a completion script, e.g. `interloper completions bash > ~/.local/share/bash-completion/completions/interloper`.
 pub fn completions(args: &CompletionsArgs) -> anyhow::Result<i32> {
     let mut cmd = super::Cli::command();
-    clap_complete::generate(args.shell, &mut cmd, "interloper", &mut std::io::stdout());
+    // Into a buffer first: written straight to a closed pipe (`| head`) the generator panics.
+    let mut out = Vec::new();
+    clap_complete::generate(args.shell, &mut cmd, "interloper", &mut out);
+    std::io::stdout().write_all(&out)?;
     Ok(0)
 }
 

@@ -345,7 +345,9 @@ fn galactic_orbit(
         .filter(|e| e.0.escapes)
         .map(|e| e.1)
         .sum::<f64>()
-        / w.iter().sum::<f64>().max(1e-300);
+        / w.iter().sum::<f64>().max(1e-300)
+        // An empty sum of floats is −0.0: none escaping is 0, not "-0.0" in the JSON.
+        + 0.0;
     let orbit = GalacticOrbit {
         r_peri_kpc: best.r_peri_kpc,
         r_peri_kpc_sigma: sig(|e| e.r_peri_kpc),
