@@ -134,10 +134,10 @@ fn arrival_lines(o: &Origin) -> Vec<String> {
         ));
         l.push(format!(
             "   pericentre {} kpc, apocentre {} kpc, z_max {} kpc, e {}{}",
-            pm(Some(g.r_peri_kpc), Some(g.r_peri_kpc_sigma), 2),
-            pm(Some(g.r_apo_kpc), Some(g.r_apo_kpc_sigma), 2),
-            pm(Some(g.z_max_kpc), Some(g.z_max_kpc_sigma), 3),
-            pm(Some(g.ecc), Some(g.ecc_sigma), 3),
+            pm(Some(g.r_peri_kpc), g.r_peri_kpc_sigma, 2),
+            pm(Some(g.r_apo_kpc), g.r_apo_kpc_sigma, 2),
+            pm(Some(g.z_max_kpc), g.z_max_kpc_sigma, 3),
+            pm(Some(g.ecc), g.ecc_sigma, 3),
             if g.escaping_fraction > 0.0 {
                 format!(
                     "; {:.0} % of the samples leave the Galaxy",

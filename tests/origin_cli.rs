@@ -136,3 +136,42 @@ fn usage_mistakes_exit_2_and_rejected_input_exits_1() {
     assert_eq!(code, Some(1), "{err}");
     assert!(err.contains("rejected"), "{err}");
 }
+
+#[test]
+fn no_origin_field_is_negative_zero_and_no_spread_comes_from_fewer_than_two_orbits() {
+    // Regression: two-night objects of the population sky (tests/reference/make_population_sky.py)
+    // whose sampled orbits were not followed through the Galaxy showed every Galactic spread, and the
+    // escaping share, as -0.0.
+    let dir = format!(
+        "{}/tests/reference/data/population_sky",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let text = std::fs::read_to_string(format!("{dir}/two_night.psv")).unwrap();
+    let ids = ["s2n0057", "s2n0411", "s2n0284"];
+    let kept: String = text
+        .lines()
+        .filter(|l| !l.starts_with("s2n") || ids.iter().any(|id| l.starts_with(id)))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    let tmp = tempfile::tempdir().unwrap();
+    let f = tmp.path().join("three.psv");
+    std::fs::write(&f, kept).unwrap();
+    let sites = format!("{dir}/sites.toml");
+    let (code, out, err) = run(&["fit", "--json", "--sites", &sites, f.to_str().unwrap()]);
+    assert_eq!(code, Some(0), "{err}");
+    assert_eq!(out.lines().count(), ids.len());
+    for end in [",", "}", "]"] {
+        assert!(!out.contains(&format!(":-0.0{end}")), "{out}");
+    }
+    for r in records(&out) {
+        let Some(g) = r["origin"]["galactic_orbit"].as_object() else {
+            continue;
+        };
+        if g["samples"].as_u64().unwrap() < 2 {
+            assert!(
+                g["ecc_sigma"].is_null() && g["z_max_kpc_sigma"].is_null(),
+                "{g:?}"
+            );
+        }
+    }
+}

@@ -32,13 +32,14 @@ pub enum Plausibility {
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct GalacticOrbit {
     pub r_peri_kpc: f64,
-    pub r_peri_kpc_sigma: f64,
+    pub r_peri_kpc_sigma: Option<f64>,
     pub r_apo_kpc: f64,
-    pub r_apo_kpc_sigma: f64,
+    pub r_apo_kpc_sigma: Option<f64>,
     pub z_max_kpc: f64,
-    pub z_max_kpc_sigma: f64,
+    pub z_max_kpc_sigma: Option<f64>,
     pub ecc: f64,
-    pub ecc_sigma: f64,
+    /// The spreads are null where fewer than two sampled orbits were followed.
+    pub ecc_sigma: Option<f64>,
     /// Fraction of the followed orbits that leave the Galaxy.
     pub escaping_fraction: f64,
     pub samples: usize,
@@ -183,7 +184,8 @@ pub fn origin_sheet(r: &FitResult, o: &OriginOptions) -> Option<Origin> {
         inv_a_fut_per_au: nominal.inv_a_fut,
         inv_a_fut_sigma: mean_sigma(&fut, &w).1,
         inv_a_osc_per_au: r.inv_a_bary,
-        unbound_before_planets: unbound_w / w.iter().sum::<f64>().max(1e-300),
+        // (+ 0.0: an empty sum is −0.0.)
+        unbound_before_planets: unbound_w / w.iter().sum::<f64>().max(1e-300) + 0.0,
         original_flight_end: end,
         v_inf_orig_km_s: None,
         v_inf_orig_sigma: None,
@@ -248,7 +250,7 @@ fn fill_arrival(sheet: &mut Origin, nominal: &Flown, set: &[Flown], o: &OriginOp
     });
     let lsr = o.frame.to_lsr(centre.uvw_km_s);
     sheet.v_inf_orig_km_s = Some(centre.v_inf_km_s);
-    sheet.v_inf_orig_sigma = Some(mean_sigma(&v, &w).1);
+    sheet.v_inf_orig_sigma = (v.len() >= 2).then(|| mean_sigma(&v, &w).1);
     sheet.radiant_ra_deg = Some(centre.radiant_ra_deg);
     sheet.radiant_dec_deg = Some(centre.radiant_dec_deg);
     sheet.radiant_l_deg = Some(centre.radiant_l_deg);
@@ -336,9 +338,10 @@ fn galactic_orbit(
         .filter_map(|(a, w)| run(a, None).map(|e| (e, *w)))
         .collect();
     let w: Vec<f64> = envs.iter().map(|e| e.1).collect();
+    // No spread of fewer than two orbits (an empty sum would show as a σ of −0.0).
     let sig = |f: fn(&Envelope) -> f64| {
         let v: Vec<f64> = envs.iter().map(|e| f(&e.0)).collect();
-        mean_sigma(&v, &w).1
+        (v.len() >= 2).then(|| mean_sigma(&v, &w).1)
     };
     let escaping = envs
         .iter()
