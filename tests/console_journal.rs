@@ -87,6 +87,39 @@ fn an_export_pressed_while_a_decision_is_saving_waits_and_carries_the_decision()
 }
 
 #[test]
+fn two_decisions_in_flight_are_both_awaited_and_the_export_keeps_the_order_shown_at_the_key() {
+    let fits = fit_all(tracklets(), &FitOptions::default(), 2);
+    let dir = tempfile::tempdir().unwrap();
+    let (mut j, _) = Journal::open_as(dir.path(), "tester").unwrap();
+    let mut app = app_with(&fits);
+    let object = app.selected.clone().unwrap();
+    let first = app.act(Action::Pursue);
+    let second = app.act(Action::SetAside);
+    let shown: Vec<String> = app
+        .view
+        .iter()
+        .map(|&i| app.candidates[i].fit.object.clone())
+        .collect();
+    assert!(app.act(Action::Export).is_empty());
+    // The list is reversed before the saves land; the export keeps the order of the key press.
+    let _ = app.act(Action::SortReverse);
+    // Regression: the first confirmation cleared a yes/no "saving" flag and the export went out with
+    // the first verdict while the second was still on its way.
+    assert!(
+        run(&mut app, &mut j, first).is_empty(),
+        "one line is still saving"
+    );
+    let exports = run(&mut app, &mut j, second);
+    let [Effect::Export(rows)] = exports.as_slice() else {
+        panic!("one export once both are saved, got {exports:?}");
+    };
+    let order: Vec<&str> = rows.iter().map(|r| r.object.as_str()).collect();
+    assert_eq!(order, shown);
+    let row = rows.iter().find(|r| r.object == object).unwrap();
+    assert_eq!(row.decision.as_deref(), Some("set aside"));
+}
+
+#[test]
 fn a_failed_save_cancels_the_export_waiting_for_it_and_says_so() {
     let fits = fit_all(tracklets(), &FitOptions::default(), 2);
     let mut app = app_with(&fits);
@@ -96,7 +129,7 @@ fn a_failed_save_cancels_the_export_waiting_for_it_and_says_so() {
     app.on_save_failed(&object, "No space left on device");
     let m = app.message.clone().unwrap();
     assert!(m.contains("NOT SAVED") && m.contains("export"), "{m}");
-    assert!(!app.export_waiting);
+    assert!(app.export_waiting.is_none());
 }
 
 fn excluded(app: &App) -> Vec<ObsId> {

@@ -284,9 +284,9 @@ fn a_decision_the_journal_could_not_save_stops_saying_saving() {
         .iter()
         .position(|c| c.fit.object == object)
         .unwrap();
-    assert!(app.candidates[i].saving);
+    assert_eq!(app.candidates[i].saving, 1);
     app.on_save_failed(&object, "No space left on device");
-    assert!(!app.candidates[i].saving);
+    assert_eq!(app.candidates[i].saving, 0);
     assert!(
         app.message
             .as_deref()

@@ -36,7 +36,7 @@ done
 python3 -c "import json,sys; d=json.load(open(sys.argv[1])); assert d['object']=='qka2e7f' and d['alert']['kind'] in ('strong','new-unbound')" "$cfgdir/alert.json" \
     || fail "the alert command did not get the candidate's JSON"
 [ "$(tmux -L "$sock" display-message -p -t demo '#{window_bell_flag}')" = "1" ] || fail "the alert did not ring the bell"
-# The night replayed and fitted: nothing waiting or being fitted.
+# Let the fits in hand finish (more files may still arrive; the unbound candidate stays on top).
 wait_for "waiting 0 · fitting 0" 240 || fail "the fits never finished"
 tmux -L "$sock" send-keys -t demo g
 sleep 0.3

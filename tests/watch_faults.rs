@@ -123,6 +123,7 @@ fn a_rejected_file_is_one_json_line_with_every_reason_and_a_whole_file_reason_ha
         .collect();
     assert_eq!(lines, [3, 4], "{dates}");
     assert_eq!(dates["line"], 3);
+    assert_eq!(dates["n_errors"], 2);
     assert!(dates["error"].as_str().unwrap().contains("not a date"));
     let binary = of("binary.psv");
     assert!(binary["line"].is_null(), "{binary}");

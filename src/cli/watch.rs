@@ -56,6 +56,9 @@ pub struct WatchArgs {
     pub dir: PathBuf,
 }
 
+/// At most this many reasons of one rejected file go into its JSON line (`n_errors` counts them all).
+const MAX_REASONS: usize = 100;
+
 /// Line (null for the file as a whole), column and reason of an input error.
 fn where_and_why(e: &InputError) -> serde_json::Value {
     serde_json::json!({
@@ -103,7 +106,9 @@ impl Out {
         let mut v = first;
         v["kind"] = "rejected".into();
         v["source"] = file.into();
-        v["errors"] = errors.iter().map(where_and_why).collect();
+        // A file of a million bad lines stays one readable line: the first reasons and the count.
+        v["errors"] = errors.iter().take(MAX_REASONS).map(where_and_why).collect();
+        v["n_errors"] = errors.len().into();
         v["arrived_utc"] = utc(arrived).into();
         let text = match errors {
             [] => format!("rejected: {file}: no observations"),
@@ -288,7 +293,11 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
             && last_look.elapsed() >= interloper::feed::journal::POLL
         {
             last_look = Instant::now();
-            follow(j, &mut standing, &engine);
+            // A refit asked for by the journal is activity: the idle clock starts again, so the run
+            // does not stop before the engine has taken it.
+            if follow(j, &mut standing, &engine) {
+                last_activity = Instant::now();
+            }
         }
         if let Some(idle) = args.stop_after_idle {
             let (waiting, running) = engine.load();
@@ -317,8 +326,10 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
 }
 
 /// Lines the observers added: objects whose exclusions or forced methods changed are refitted.
-fn follow(j: &mut Journal, standing: &mut Standing, engine: &Engine) {
-    let Ok(read) = j.read_new() else { return };
+fn follow(j: &mut Journal, standing: &mut Standing, engine: &Engine) -> bool {
+    let Ok(read) = j.read_new() else {
+        return false;
+    };
     let mut touched = std::collections::BTreeSet::new();
     for e in &read.entries {
         standing.apply(e);
@@ -326,10 +337,12 @@ fn follow(j: &mut Journal, standing: &mut Standing, engine: &Engine) {
             touched.insert(e.object.clone());
         }
     }
+    let refits = !touched.is_empty();
     for obj in touched {
         let ov = standing.get(&obj).map(Overrides::from).unwrap_or_default();
         engine.set_overrides(&obj, ov);
     }
+    refits
 }
 
 /// What the run has seen, for the closing line.

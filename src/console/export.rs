@@ -32,11 +32,17 @@ pub struct Row {
 
 /// The rows in the list's current order (filter and sort as on screen).
 pub fn rows(app: &App) -> Vec<Row> {
-    app.view
+    rows_in(app, &app.view)
+}
+
+/// The rows of the candidates at `order` (indices into `app.candidates`), in that order, with the
+/// decisions that stand now.
+pub fn rows_in(app: &App, order: &[usize]) -> Vec<Row> {
+    order
         .iter()
+        .filter_map(|&i| app.candidates.get(i))
         .enumerate()
-        .map(|(k, &i)| {
-            let c = &app.candidates[i];
+        .map(|(k, c)| {
             let f = &c.fit;
             let d = c.decision.as_ref();
             Row {

@@ -25,8 +25,9 @@ pub struct Candidate {
     pub version: u64,
     /// The decision that stands (the journal's, whoever made it).
     pub decision: Option<Entry>,
-    /// Waiting for the journal to confirm a change.
-    pub saving: bool,
+    /// Lines about this candidate sent to the journal and not yet confirmed (a count: two decisions in
+    /// quick succession are two lines, and the row says "saving…" until both are on disk).
+    pub saving: u32,
     pub overrides: Overrides,
     /// Observations currently known for the object (a decision on fewer is flagged).
     pub n_known: usize,
@@ -167,9 +168,9 @@ pub struct App {
     pub now: fn() -> std::time::SystemTime,
     /// The candidate marked for comparison with the selected one.
     pub compare_with: Option<String>,
-    /// The export key was pressed while a line was still being saved: the export is written once
-    /// the journal confirms it.
-    pub export_waiting: bool,
+    /// The export key was pressed while a line was still being saved: the list's order then (indices
+    /// into `candidates`), written with its decisions once the journal confirms every line.
+    pub export_waiting: Option<Vec<usize>>,
     /// Whether the observer has pressed a key yet (until then the cursor keeps to the top row).
     pub cursor_moved: bool,
     /// What the ephemeris panel asks for (site, units) and the window it got.
@@ -209,7 +210,7 @@ impl App {
             alerts: crate::console::alerting::Alerts::new(Default::default()),
             now: std::time::SystemTime::now,
             compare_with: None,
-            export_waiting: false,
+            export_waiting: None,
             cursor_moved: false,
             ephem: ephemreq::EphemRequest::default(),
         }
@@ -243,7 +244,7 @@ impl App {
                     fit,
                     version,
                     decision,
-                    saving: false,
+                    saving: 0,
                     overrides,
                     n_known,
                 });
@@ -255,9 +256,10 @@ impl App {
     /// A decision the journal could not save: the row stops saying "saving…" and keeps what it had.
     pub fn on_save_failed(&mut self, object: &str, reason: &str) {
         if let Some(&i) = self.index.get(object) {
-            self.candidates[i].saving = false;
+            let c = &mut self.candidates[i];
+            c.saving = c.saving.saturating_sub(1);
         }
-        let cancelled = if std::mem::take(&mut self.export_waiting) {
+        let cancelled = if self.export_waiting.take().is_some() {
             " — the export waiting for it was not written: press the export key again"
         } else {
             ""

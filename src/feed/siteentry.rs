@@ -93,9 +93,12 @@ pub(super) fn position(
 /// its aliases), else of the entry's header; 0 when the file holds no such header (an inline array).
 pub fn line_of(text: &str, k: usize, names: &[&str]) -> usize {
     let lines: Vec<&str> = text.lines().collect();
-    let headers: Vec<usize> = (0..lines.len())
-        .filter(|&i| lines[i].trim_start().starts_with("[[site]]"))
-        .collect();
+    // `[[site]]`, also written `[[ site ]]`.
+    let is_header = |line: &str| {
+        let bare: String = line.chars().filter(|c| !c.is_whitespace()).collect();
+        bare.starts_with("[[site]]")
+    };
+    let headers: Vec<usize> = (0..lines.len()).filter(|&i| is_header(lines[i])).collect();
     let Some(&start) = headers.get(k) else {
         return 0;
     };
@@ -128,6 +131,8 @@ mod tests {
         assert_eq!(line_of(TEXT, 0, &["latitude_deg", "lat_deg"]), 4);
         assert_eq!(line_of(TEXT, 1, &["latitude_deg", "lat_deg"]), 8);
         assert_eq!(line_of(TEXT, 1, &["altitude_m"]), 9);
+        let spaced = "[[ site ]]\ncode = \"A\"\n[[site]] # second\ncode = \"B\"\n";
+        assert_eq!(line_of(spaced, 1, &["code"]), 4);
     }
 
     #[test]

@@ -56,7 +56,9 @@ pub fn fit_all_observed(
 
 /// A pool of fit workers fed by object: submitting an object that is already waiting replaces its
 /// pending tracklet, so only the newest pending fit of each object is ever run. Results come back on a
-/// channel with the version they were made from. Submitting never waits for a fit.
+/// channel with the version they were made from. Submitting never waits for a fit. Whoever takes a
+/// result from that channel calls [`FitPool::finished`] once it has handed it on (or dropped it), so
+/// that an idle pool means no result is still on its way.
 pub struct FitPool {
     shared: std::sync::Arc<(Mutex<PoolState>, std::sync::Condvar)>,
     workers: Vec<std::thread::JoinHandle<()>>,

@@ -32,7 +32,7 @@ fn strong(f: &crate::fitting::fit::FitResult) -> bool {
 /// The decision column: the verdict, `*` when it was made on fewer observations than are known now,
 /// and who made it when that was not the observer at this console.
 fn decision_text(c: &Candidate, me: &str) -> String {
-    match (&c.decision, c.saving) {
+    match (&c.decision, c.saving > 0) {
         (_, true) => "saving…".into(),
         (Some(d), _) => {
             let fewer = if d.n_obs < c.fit.n_obs { "*" } else { "" };

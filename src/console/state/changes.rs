@@ -70,26 +70,29 @@ impl App {
     #[must_use]
     pub fn on_saved(&mut self, e: &Entry) -> Vec<Effect> {
         if let Some(&i) = self.index.get(&e.object) {
-            self.candidates[i].saving = false;
+            let c = &mut self.candidates[i];
+            c.saving = c.saving.saturating_sub(1);
         }
         self.message = Some(format!("{}: {} saved", clean(&e.object), e.describe()));
         self.dirty = true;
-        if self.export_waiting && !self.candidates.iter().any(|c| c.saving) {
-            self.export_waiting = false;
-            return vec![Effect::Export(crate::console::export::rows(self))];
+        if self.export_waiting.is_some() && !self.candidates.iter().any(|c| c.saving > 0) {
+            let order = self.export_waiting.take().unwrap_or_default();
+            return vec![Effect::Export(crate::console::export::rows_in(
+                self, &order,
+            ))];
         }
         Vec::new()
     }
 
     /// X: the list as shown, with its decisions. A line still being saved is not yet in the list's
     /// state (that is the fold of the journal), so the export waits for it rather than leave out what
-    /// the observer has just decided.
+    /// the observer has just decided. It is written in the order shown when the key was pressed.
     pub(super) fn export(&mut self) -> Vec<Effect> {
-        let n = self.candidates.iter().filter(|c| c.saving).count();
+        let n: u32 = self.candidates.iter().map(|c| c.saving).sum();
         if n == 0 {
             return vec![Effect::Export(crate::console::export::rows(self))];
         }
-        self.export_waiting = true;
+        self.export_waiting = Some(self.view.clone());
         self.message = Some(format!(
             "export waits for {n} line{} still being saved…",
             if n == 1 { "" } else { "s" }
@@ -105,7 +108,7 @@ impl App {
         let c = &mut self.candidates[i];
         e.object = c.fit.object.clone();
         e.time_utc = (self.clock)();
-        c.saving = true;
+        c.saving += 1;
         self.message = Some(format!("{}: {doing} (saving…)", clean(&c.fit.object)));
         vec![Effect::Journal(e)]
     }
