@@ -50,6 +50,7 @@ pub struct Runtime {
     pub tx: Sender<AppEvent>,
     engine: Engine,
     journal: Sender<Entry>,
+    journal_thread: std::thread::JoinHandle<()>,
     sites: Arc<SiteTable>,
     /// Rings the terminal's bell (the terminal set-up supplies it; none on a test backend).
     bell: Option<Box<dyn Fn() + Send>>,
@@ -103,7 +104,7 @@ pub fn start(
     } = setup;
     let (journal, replay) = Journal::open_as(&state_dir, &observer)?;
     let export_dir = state_dir.clone();
-    let jtx = super::journaltask::spawn(journal, tx.clone(), stop.clone());
+    let (jtx, journal_thread) = super::journaltask::spawn(journal, tx.clone());
     let sites = Arc::new(sites);
     let events = watcher::spawn(dir, watch, stop.clone());
     let tx_e = tx.clone();
@@ -130,6 +131,7 @@ pub fn start(
             tx,
             engine,
             journal: jtx,
+            journal_thread,
             sites,
             bell: None,
             state_dir: export_dir,
@@ -252,7 +254,7 @@ impl Runtime {
             Effect::Quit => return false,
             Effect::Journal(d) => {
                 if let Err(std::sync::mpsc::SendError(d)) = self.journal.send(d) {
-                    app.on_save_failed(&d.object, "the journal writer stopped");
+                    app.on_save_failed(&d.object, super::journaltask::WRITER_STOPPED);
                 }
             }
             Effect::Refit { object, overrides } => self.engine.set_overrides(&object, overrides),
@@ -282,8 +284,14 @@ impl Runtime {
         true
     }
 
+    /// Stop the fit workers, and wait until the journal has written every line sent to it (a
+    /// decision keyed just before quitting is saved before the process ends).
     pub fn shutdown(self) {
         self.engine.shutdown();
+        drop(self.journal);
+        if self.journal_thread.join().is_err() {
+            tracing::error!("the journal writer died; the lines it had not written are in the log");
+        }
     }
 }
 
