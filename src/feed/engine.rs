@@ -206,7 +206,7 @@ impl State {
             }),
             Input::Watch(WatchEvent::Failed(m)) => out(EngineEvent::Failed(m)),
             Input::Fit(boxed) => {
-                let (obj, version, fit) = *boxed;
+                let (obj, version, fit, running) = *boxed;
                 // A newer submission of this object is queued or running: its result will follow.
                 let listening = if self.generation.get(&obj).is_some_and(|g| *g > version) {
                     true
@@ -221,7 +221,7 @@ impl State {
                     })
                 };
                 // Only now, with the result handed on, does the pool stop counting it as running.
-                self.pool.finished();
+                drop(running);
                 listening
             }
             Input::Overrides(obj, ov) => {

@@ -56,11 +56,12 @@ pub fn fit_all_observed(
 
 /// A pool of fit workers fed by object: submitting an object that is already waiting replaces its
 /// pending tracklet, so only the newest pending fit of each object is ever run. Results come back on a
-/// channel with the version they were made from. Submitting never waits for a fit. Whoever takes a
-/// result from that channel calls [`FitPool::finished`] once it has handed it on (or dropped it), so
-/// that an idle pool means no result is still on its way.
+/// channel with the version they were made from. Submitting never waits for a fit. Each result carries
+/// a [`Running`] token: the fit counts as running until whoever took it drops the token, after
+/// handing the result on, so that an idle pool means no result is still on its way (and a result
+/// dropped anywhere, in a channel at shutdown too, stops counting).
 pub struct FitPool {
-    shared: std::sync::Arc<(Mutex<PoolState>, std::sync::Condvar)>,
+    shared: Shared,
     workers: Vec<std::thread::JoinHandle<()>>,
 }
 
@@ -72,8 +73,22 @@ struct PoolState {
     stop: bool,
 }
 
-/// A finished fit: object, the version it was made from, the result.
-pub type PoolResult = (String, u64, FitResult);
+/// A finished fit: object, the version it was made from, the result, and the token that counts it
+/// as running until dropped.
+pub type PoolResult = (String, u64, FitResult, Running);
+
+type Shared = std::sync::Arc<(Mutex<PoolState>, std::sync::Condvar)>;
+
+/// A fit taken by a worker: counted as running until this is dropped.
+pub struct Running(Shared);
+
+impl Drop for Running {
+    fn drop(&mut self) {
+        if let Ok(mut st) = self.0.0.lock() {
+            st.running = st.running.saturating_sub(1);
+        }
+    }
+}
 
 impl FitPool {
     pub fn new(threads: usize, results: std::sync::mpsc::Sender<PoolResult>) -> FitPool {
@@ -95,8 +110,9 @@ impl FitPool {
                                 }
                                 if let Some(obj) = st.order.pop_front() {
                                     if let Some(job) = st.pending.remove(&obj) {
+                                        // Counted under the same lock that took it off the queue.
                                         st.running += 1;
-                                        break (obj, job);
+                                        break (obj, job, Running(shared.clone()));
                                     }
                                     continue;
                                 }
@@ -106,15 +122,12 @@ impl FitPool {
                                 };
                             }
                         };
-                        let (obj, (version, tracklet, opts)) = job;
+                        let (obj, (version, tracklet, opts), running) = job;
                         let mut r = fit_tracklet(&tracklet, &model, &opts);
                         r.next_night = next_night(&r, &tracklet, &model);
-                        // Still counted as running until its consumer has handed it on
-                        // (`finished`): an idle pool then means every result is already out.
-                        if results.send((obj, version, r)).is_err() {
-                            if let Ok(mut st) = shared.0.lock() {
-                                st.running = st.running.saturating_sub(1);
-                            }
+                        // Still counted as running until its consumer drops the token, after
+                        // handing the result on: an idle pool then means every result is out.
+                        if results.send((obj, version, r, running)).is_err() {
                             return;
                         }
                     }
@@ -137,15 +150,6 @@ impl FitPool {
                 st.order.push_back(obj);
             }
             cv.notify_one();
-        }
-    }
-
-    /// A result has been taken from the results channel and handed on (or dropped as stale): it no
-    /// longer counts as running. A fit counts as running from the moment a worker takes it until then,
-    /// so a pool that reports itself idle has no result still on its way.
-    pub fn finished(&self) {
-        if let Ok(mut st) = self.shared.0.lock() {
-            st.running = st.running.saturating_sub(1);
         }
     }
 
