@@ -96,11 +96,17 @@ fn headless_watch_into_a_closed_pipe_stops_with_exit_zero() {
     assert_eq!(code, Some(0), "{err}");
 }
 
-/// Run with stdout a pipe whose reading end is already closed: every write fails.
+/// Run with stdout a pipe whose reading end is closed before the child starts: every write fails,
+/// however soon the child writes.
 fn into_a_closed_pipe(args: &[&str]) -> (Option<i32>, String) {
-    let mut child = spawn(args);
-    drop(child.stdout.take());
-    let out = child.wait_with_output().unwrap();
+    let (reader, writer) = std::io::pipe().unwrap();
+    drop(reader);
+    let out = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(args)
+        .stdout(writer)
+        .stderr(Stdio::piped())
+        .output()
+        .unwrap();
     (
         out.status.code(),
         String::from_utf8_lossy(&out.stderr).into_owned(),
