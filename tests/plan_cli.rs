@@ -189,3 +189,48 @@ fn ephem_json_keeps_its_fields_and_adds_the_sky() {
     ]);
     assert_eq!(code, Some(2));
 }
+
+/// Regressions found by an audit of the plan: a night the Earth's ephemeris does not cover was "no
+/// dark sky" with exit 0; positions no orbit fits were scheduled at a position of the misfit; a visit
+/// took a whole grid step whatever `--visit` said; and "no free time" was given where nothing was
+/// scheduled at all (the visible stretch was shorter than the visit).
+#[test]
+fn plan_refuses_uncomputable_nights_and_leaves_out_what_it_cannot_honestly_schedule() {
+    let demo = format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"));
+    let (code, _, err) = run(&["plan", "--site", "TV1", "--night", "2100-06-01", &demo]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("cannot be computed"), "{err}");
+
+    let plan = |extra: &[&str]| {
+        let mut args = vec!["plan", "--site", "TV1", "--night", "2027-02-26", "--json"];
+        args.extend_from_slice(extra);
+        args.push(&demo);
+        let (_, out, err) = run(&args);
+        serde_json::from_str::<Value>(&out).unwrap_or_else(|e| panic!("{e}: {err}"))
+    };
+    let reason = |p: &Value, object: &str| {
+        p["unplanned"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|u| u["object"] == object)
+            .map(|u| u["reason"].as_str().unwrap().to_string())
+    };
+    let p = plan(&["--step", "59m", "--visit", "1m"]);
+    // The demo's false linkage: poor fit, P withheld.
+    assert_eq!(reason(&p, "qk9h6tx").as_deref(), Some("no-orbit"), "{p}");
+    let items = p["items"].as_array().unwrap();
+    assert!(!items.is_empty());
+    for i in items {
+        assert_ne!(i["object"], "qk9h6tx");
+        let want = i["pointings"].as_f64().unwrap() * 1.0;
+        let got = i["duration_min"].as_f64().unwrap();
+        assert!((got - want).abs() < 1e-6, "{i}");
+    }
+    let p = plan(&["--step", "1m", "--visit", "12h"]);
+    assert!(p["items"].as_array().unwrap().is_empty());
+    for u in p["unplanned"].as_array().unwrap() {
+        assert_ne!(u["reason"], "no-free-time", "nothing was scheduled: {u}");
+    }
+    assert_eq!(reason(&p, "qka2e7f").as_deref(), Some("too-brief"), "{p}");
+}

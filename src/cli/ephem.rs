@@ -164,32 +164,7 @@ fn table(points: &[EphemerisPoint]) -> String {
 pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let sites = args.sites.load()?;
     let Some(site) = sites.get(&args.site) else {
-        let codes = sites.codes();
-        let wanted = args.site.to_uppercase();
-        let near: Vec<&str> = codes
-            .iter()
-            .copied()
-            .filter(|c| {
-                let c = c.to_uppercase();
-                c.chars()
-                    .zip(wanted.chars())
-                    .filter(|(a, b)| a == b)
-                    .count()
-                    + 1
-                    >= wanted.len()
-            })
-            .take(5)
-            .collect();
-        crate::usage!(
-            "unknown site code '{}'{}; the known codes are {} (add your own with --sites FILE)",
-            clean(&args.site),
-            if near.is_empty() {
-                String::new()
-            } else {
-                format!(" (did you mean {}?)", near.join(", "))
-            },
-            codes.join(", ")
-        );
+        return Err(super::inputs::unknown_site(&sites, &args.site));
     };
     if !(args.exposure > 0.0 && args.exposure <= 86_400.0) {
         crate::usage!(

@@ -313,3 +313,34 @@ pub fn keep_objects(
     }
     Ok(())
 }
+
+/// The usage error for a site code the table does not hold: the known codes, and the closest ones.
+pub fn unknown_site(sites: &SiteTable, code: &str) -> anyhow::Error {
+    let codes = sites.codes();
+    let wanted = code.to_uppercase();
+    let near: Vec<&str> = codes
+        .iter()
+        .copied()
+        .filter(|c| {
+            let c = c.to_uppercase();
+            c.chars()
+                .zip(wanted.chars())
+                .filter(|(a, b)| a == b)
+                .count()
+                + 1
+                >= wanted.len()
+        })
+        .take(5)
+        .collect();
+    crate::cli::Usage(format!(
+        "unknown site code '{}'{}; the known codes are {} (add your own with --sites FILE)",
+        interloper::feed::sanitize::clean(code),
+        if near.is_empty() {
+            String::new()
+        } else {
+            format!(" (did you mean {}?)", near.join(", "))
+        },
+        codes.join(", ")
+    ))
+    .into()
+}

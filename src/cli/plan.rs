@@ -6,12 +6,13 @@ use super::fit::fit_all_default;
 use super::inputs::SiteArgs;
 use interloper::feed::sanitize::clean;
 use interloper::feed::sites::SiteTable;
+use interloper::fitting::conditions::SkySlot;
 use interloper::fitting::ephemeris::tracklet_h;
 use interloper::fitting::plan::{PlanOptions, PlanSite, plan_with_h};
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::site::GroundPosition;
 use interloper::physics::sky::Twilight;
-use interloper::physics::time::{Instant, UtcTime};
+use interloper::physics::time::{Instant, UtcTime, tt_to_utc};
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -73,15 +74,15 @@ fn instant(flag: &str, text: &str) -> anyhow::Result<Instant> {
 }
 
 /// The telescopes and their stretches of time.
-fn plan_sites(args: &PlanArgs, table: &SiteTable) -> anyhow::Result<Vec<PlanSite>> {
+fn plan_sites(
+    args: &PlanArgs,
+    table: &SiteTable,
+    model: &ObserverModel,
+) -> anyhow::Result<Vec<PlanSite>> {
     let mut out: Vec<PlanSite> = Vec::new();
     for code in &args.site {
         let Some(site) = table.get(code) else {
-            crate::usage!(
-                "unknown site code '{}'; the known codes are {} (add your own with --sites FILE)",
-                clean(code),
-                table.codes().join(", ")
-            );
+            return Err(super::inputs::unknown_site(table, code));
         };
         let (from, to) = match (&args.night, &args.from, &args.to) {
             (Some(night), _, _) => {
@@ -97,6 +98,12 @@ fn plan_sites(args: &PlanArgs, table: &SiteTable) -> anyhow::Result<Vec<PlanSite
         let span = to.tt.minus(from.tt);
         if !(span > 0.0 && span <= 3.0) {
             crate::usage!("the stretch must be positive and at most three days");
+        }
+        // A sky that cannot be computed is an error, not a night without darkness.
+        for end in [&from, &to] {
+            if let Err(e) = SkySlot::new(&site.position, end, model) {
+                crate::usage!("the sky at {} cannot be computed: {e}", tt_to_utc(end.tt));
+            }
         }
         if out.iter().all(|s| s.code != site.code) {
             out.push(PlanSite {
@@ -134,12 +141,12 @@ fn options(args: &PlanArgs) -> anyhow::Result<PlanOptions> {
 
 pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
     let table = args.sites.load()?;
-    let sites = plan_sites(args, &table)?;
+    let model = ObserverModel::new();
+    let sites = plan_sites(args, &table, &model)?;
     let opts = options(args)?;
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &table)?;
     super::inputs::keep_objects(&mut tracklets, &args.objects)?;
     let fits = fit_all_default(tracklets.clone());
-    let model = ObserverModel::new();
     let h: Vec<Option<f64>> = tracklets
         .iter()
         .zip(&fits)

@@ -3,8 +3,9 @@
 //! positions ([`Gain`]): how much σ(1/a) and σ(e) shrink, and how far P(unbound) is expected to move.
 //!
 //! The expected change of P uses a Gaussian in barycentric 1/a: now N(μ, σ₀²); after the positions,
-//! σ₁ < σ₀, and before they are taken the new best value is itself drawn from N(μ, σ₀² − σ₁²). The
-//! data-only probability Φ(−μ/σ) is what moves; the population prior is not re-weighed here.
+//! σ₁ < σ₀, and before they are taken the new best value is itself drawn from N(μ, σ₀² − σ₁²) as far
+//! as the data alone say. The reported P moves by the change of the data's odds, and its outcomes are
+//! weighed as the reported P expects them ([`expected_change_from`]).
 
 use super::covariance::{eccentricity_gradient, inverse_a_gradient};
 use super::ephemeris::fit_state;
@@ -172,11 +173,20 @@ pub fn moved_posterior(p_post: f64, data_now: f64, data_after: f64) -> f64 {
     1.0 / (1.0 + (-l).exp())
 }
 
-/// Expected |ΔP| of one update: of the data-only P (`p_post` None), or of a posterior P moved by the
-/// data's odds ([`moved_posterior`]), so that a P the prior pins near 0 or 1 barely moves.
+/// Expected |ΔP| of one update: of the data-only P (`p_post` None), or of the reported posterior P
+/// moved by the data's odds ([`moved_posterior`]), so that a P the prior pins near 0 or 1 barely moves.
+///
+/// The outcomes are weighed by what the reported P itself expects of them, not by the data alone: an
+/// outcome that leaves the data's P at P_d′ has, under the posterior, the density
+/// f_d · (P·P_d′/P_d + (1 − P)(1 − P_d′)/(1 − P_d)), f_d the data's own predictive (the unbound and
+/// bound outcome laws mixed with the posterior's weights instead of the data's). With P′ from
+/// [`moved_posterior`] the integrand's |P′ − P| times that density is P(1 − P)/(P_d(1 − P_d)) times
+/// f_d |P_d′ − P_d|, so E|ΔP| is the data's own expected change scaled by that factor: a martingale's
+/// step, E[P′] = P, never above 2P(1 − P). A P of 10⁻¹¹ cannot be expected to move by 0.3 because the
+/// data alone would have said 0.3.
 pub fn expected_change_from(p_post: Option<f64>, mu: f64, s0: f64, s1: f64) -> f64 {
-    let d0 = p_unbound(mu, s0);
-    let p0 = p_post.unwrap_or(d0);
+    // Kept off the ends, where the data's odds are infinite.
+    let d0 = p_unbound(mu, s0).clamp(1e-300, 1.0 - 1e-16);
     let tau = (s0 * s0 - s1 * s1).max(0.0).sqrt();
     // An even count keeps z = 0 off the nodes (a perfectly sharp update is discontinuous there).
     const N: usize = 96;
@@ -184,12 +194,17 @@ pub fn expected_change_from(p_post: Option<f64>, mu: f64, s0: f64, s1: f64) -> f
     for k in 0..N {
         let z = -6.0 + 12.0 * k as f64 / (N - 1) as f64;
         let w = (-0.5 * z * z).exp() * if k == 0 || k == N - 1 { 0.5 } else { 1.0 };
-        let d1 = p_unbound(mu + tau * z, s1);
-        let p1 = p_post.map_or(d1, |p| moved_posterior(p, d0, d1));
-        acc += w * (p1 - p0).abs();
+        acc += w * (p_unbound(mu + tau * z, s1) - d0).abs();
         norm += w;
     }
-    acc / norm
+    let data = acc / norm;
+    match p_post {
+        None => data,
+        Some(p) => {
+            let spread = p * (1.0 - p);
+            (data * spread / (d0 * (1.0 - d0))).min(2.0 * spread)
+        }
+    }
 }
 
 #[cfg(test)]
@@ -208,5 +223,53 @@ mod tests {
         let pinned = expected_change_from(Some(1e-6), 0.0, 0.01, 0.005);
         assert!(pinned > 0.0 && pinned < 0.1 * half, "{pinned} vs {half}");
         assert!((moved_posterior(0.3, 0.5, 0.5) - 0.3).abs() < 1e-12);
+    }
+
+    /// Regression: a P the prior holds at 10⁻¹¹ was expected to move by 0.3 when the data alone said
+    /// 0.3 (the outcomes were weighed by the data's predictive). Checked against a direct integration
+    /// over the posterior's own predictive on a fine grid: E[P′] = P, E|ΔP| the same, and never above
+    /// 2P(1 − P).
+    #[test]
+    fn the_expected_change_is_that_of_the_posteriors_own_predictive_and_keeps_its_bound() {
+        let direct = |p: f64, mu: f64, s0: f64, s1: f64| {
+            let d0 = p_unbound(mu, s0);
+            let tau = (s0 * s0 - s1 * s1).sqrt();
+            let (mut mass, mut mean, mut change) = (0.0, 0.0, 0.0);
+            let n = 200_000;
+            for k in 0..n {
+                let z = -12.0 + 24.0 * (k as f64 + 0.5) / n as f64;
+                let f =
+                    (-0.5 * z * z).exp() / (2.0 * std::f64::consts::PI).sqrt() * 24.0 / n as f64;
+                let d1 = p_unbound(mu + tau * z, s1);
+                let (u, b) = (p * d1 / d0, (1.0 - p) * (1.0 - d1) / (1.0 - d0));
+                let p1 = moved_posterior(p, d0, d1);
+                mass += f * (u + b);
+                mean += f * (u + b) * p1;
+                change += f * (u + b) * (p1 - p).abs();
+            }
+            (mass, mean, change)
+        };
+        for &p in &[1e-11, 1e-4, 0.02, 0.3, 0.5, 0.9, 0.999] {
+            for &(mu, s0, s1) in &[
+                (0.0005, 0.001, 0.0002),
+                (-0.002, 0.001, 1e-4),
+                (0.01, 0.003, 0.0027),
+                (0.0, 0.01, 0.005),
+                (0.003, 0.001, 5e-4),
+            ] {
+                let got = expected_change_from(Some(p), mu, s0, s1);
+                let (mass, mean, change) = direct(p, mu, s0, s1);
+                assert!((mass - 1.0).abs() < 1e-4, "{mass}");
+                assert!((mean - p).abs() < 1e-3 * p, "P {p}: mean {mean}");
+                assert!(
+                    (got - change).abs() <= 0.01 * change + 1e-15,
+                    "P {p}, {mu} {s0} {s1}: {got} against {change}"
+                );
+                assert!(got <= 2.0 * p * (1.0 - p), "{got}");
+            }
+        }
+        let held = expected_change_from(Some(1e-11), 0.0005, 0.001, 0.0002);
+        let data = expected_change(0.0005, 0.001, 0.0002);
+        assert!(held < 1e-10 && data > 0.05, "{held} {data}");
     }
 }

@@ -114,6 +114,8 @@ pub enum Unplanned {
     RegionTooLarge,
     /// Every suitable stretch is taken by more valuable candidates.
     NoFreeTime,
+    /// Never dark, high and bright enough for as long as its visit takes.
+    TooBrief,
 }
 
 impl Unplanned {
@@ -123,6 +125,7 @@ impl Unplanned {
             Unplanned::NotObservable => "never dark, high and bright enough at these sites",
             Unplanned::RegionTooLarge => "3σ region needs more pointings than allowed",
             Unplanned::NoFreeTime => "every suitable stretch is taken by more valuable candidates",
+            Unplanned::TooBrief => "observable for less time than its visit takes",
         }
     }
 }
@@ -275,7 +278,15 @@ pub fn plan_with_h(
     for (rank, (i, ev)) in evals.iter().enumerate() {
         let fit = &fits[*i];
         match place(ev, sites, &mut busy, opts) {
-            Ok((s, k, len)) => items.push(item(fit, ev, &sites[s], &grids[s], (s, k, len), rank)),
+            Ok((s, k, len)) => items.push(item(
+                fit,
+                ev,
+                &sites[s],
+                &grids[s],
+                (s, k, len),
+                rank,
+                opts.visit_days,
+            )),
             Err(reason) => unplanned.push(Left {
                 object: fit.object.clone(),
                 reason,
@@ -303,7 +314,7 @@ fn place(
     opts: &PlanOptions,
 ) -> Result<(usize, usize, usize), Unplanned> {
     let mut best: Option<(usize, usize, usize, f64)> = None;
-    let (mut any_visible, mut too_large) = (false, false);
+    let (mut any_visible, mut too_large, mut taken) = (false, false, false);
     for (s, site) in sites.iter().enumerate() {
         let per = &ev.slots[s];
         let Some(worst) = per
@@ -333,6 +344,9 @@ fn place(
             if best.is_none_or(|b| v > b.3) {
                 best = Some((s, k, len, v));
             }
+        } else if best_start(per, &vec![false; busy[s].len()], len).is_some() {
+            // It would fit here, had more valuable candidates not taken the time.
+            taken = true;
         }
     }
     match best {
@@ -341,8 +355,9 @@ fn place(
             Ok((s, k, len))
         }
         None if !any_visible => Err(Unplanned::NotObservable),
+        None if taken => Err(Unplanned::NoFreeTime),
         None if too_large => Err(Unplanned::RegionTooLarge),
-        None => Err(Unplanned::NoFreeTime),
+        None => Err(Unplanned::TooBrief),
     }
 }
 
@@ -353,6 +368,7 @@ fn item(
     grid: &[Option<SkySlot>],
     (s, k, len): (usize, usize, usize),
     rank: usize,
+    visit_days: f64,
 ) -> PlanItem {
     let stretch: Vec<&SlotEval> = ev.slots[s][k..=k + len].iter().flatten().collect();
     let first = stretch[0];
@@ -376,8 +392,9 @@ fn item(
     if stretch.iter().any(|e| e.moon_caution) {
         cautions.push(Caution::BrightMoon);
     }
+    // The visit itself: its pointings one after another (the grid's steps only place it).
     let start = slots.first().map(|s| s.inst).unwrap_or(site.from);
-    let end = slots.last().map(|s| s.inst).unwrap_or(site.to);
+    let end = start.plus_days(n as f64 * visit_days);
     PlanItem {
         object: fit.object.clone(),
         site: site.code.clone(),

@@ -111,7 +111,8 @@ pub fn evaluate(
     opts: &PlanOptions,
     model: &ObserverModel,
 ) -> Option<Evaluation> {
-    if fit.status == "failed" {
+    // No orbit to point from: a failed fit, or positions no orbit fits (its P is withheld).
+    if fit.status == "failed" || (fit.status == "poor-fit" && fit.p_hyperbolic.is_none()) {
         return None;
     }
     let first = sites.first()?;
