@@ -92,4 +92,26 @@ done
 [ "$(tmux -L "$sock" list-panes -t hup -F '#{pane_dead}')" = "1" ] || fail "SIGHUP did not end the console"
 cat "$state2"/interloper.*.log | grep -q "console closed" || fail "the console did not log its close after SIGHUP"
 rm -rf "$state2"
+# The terminal going away under a shell that ignores SIGHUP (nohup, some session managers): no signal
+# comes, standard input reads an endless end of file. The console notices and closes, instead of
+# spinning a core all night (it once did). A quiet directory: no frame is drawn that could fail first.
+state3=$(mktemp -d)
+tmux -L "$sock-gone" new-session -d -s gone -x 100 -y 30 "bash --norc --noprofile -c \"trap '' HUP; $bin watch --state $state3 $state3; true\""
+for _ in $(seq 1 40); do
+    tmux -L "$sock-gone" capture-pane -p -t gone 2>/dev/null | grep -q "candidates" && break
+    sleep 0.25
+done
+pid=$(pgrep -f "^$bin watch --state $state3" | head -1)
+[ -n "$pid" ] || fail "the console under a shell ignoring SIGHUP did not start"
+tmux -L "$sock-gone" kill-server
+for _ in $(seq 1 40); do
+    kill -0 "$pid" 2>/dev/null || break
+    sleep 0.25
+done
+if kill -0 "$pid" 2>/dev/null; then
+    kill "$pid"
+    fail "the console kept running after its terminal went away"
+fi
+grep -q "terminal hung up" "$state3"/interloper.*.log || { cat "$state3"/interloper.*.log; fail "the console did not log that its terminal went away"; }
+rm -rf "$state3"
 echo "tmux session test: passed"

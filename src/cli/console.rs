@@ -110,6 +110,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
             }
         }
     });
+    watch_for_hangup(stop.clone());
     let mut terminal = ratatui::init();
     let result = runtime::run_loop(
         &mut terminal,
@@ -125,6 +126,23 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     rt.shutdown();
     tracing::info!("console closed");
     result.map(|_| 0)
+}
+
+/// A terminal hung up under us (its window closed, the SSH link dropped while SIGHUP is ignored)
+/// reads as an endless end of file, on which the event poll spins without ever returning: the
+/// input thread cannot notice. This thread looks twice a second whether standard input is still a
+/// terminal (a hung-up one no longer is) and ends the console if not.
+fn watch_for_hangup(stop: Arc<AtomicBool>) {
+    std::thread::spawn(move || {
+        while !stop.load(Ordering::Relaxed) {
+            if !std::io::IsTerminal::is_terminal(&std::io::stdin()) {
+                tracing::warn!("the terminal hung up: closing");
+                stop.store(true, Ordering::Relaxed);
+                return;
+            }
+            std::thread::sleep(Duration::from_millis(500));
+        }
+    });
 }
 
 /// Ctrl-Z: in raw mode the terminal sends it as a key instead of stopping us.
