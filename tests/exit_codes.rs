@@ -121,3 +121,22 @@ fn an_unusable_state_directory_is_a_usage_error_that_names_it() {
         "{text}"
     );
 }
+
+/// Regression: `--v-cap NaN` flipped an answer (P 3e-5 to 0.99) and `--threads 0` was taken; flags
+/// are held to what the config file allows.
+#[test]
+fn absurd_speed_caps_and_thread_counts_are_usage_errors() {
+    let f = feed();
+    for args in [
+        vec!["fit", "--v-cap", "NaN", &f],
+        vec!["fit", "--v-cap", "0", &f],
+        vec!["fit", "--v-cap", "1e9", &f],
+        vec!["fit", "--threads", "0", &f],
+        vec!["fit", "--threads", "100000", &f],
+        vec!["watch", "--headless", "--threads", "0", &f],
+        vec!["origin", "--threads", "0", &f],
+    ] {
+        let (code, err) = run(&args);
+        assert_eq!(code, Some(2), "{args:?}: {err}");
+    }
+}

@@ -23,7 +23,7 @@ pub struct FitArgs {
     #[arg(long, value_enum, default_value = "auto")]
     pub perturbations: Perturb,
     /// Speed cap at infinity for ranging (km/s).
-    #[arg(long, default_value_t = 100.0, value_name = "KM_S")]
+    #[arg(long, default_value_t = 100.0, value_name = "KM_S", value_parser = v_cap_flag)]
     pub v_cap: f64,
     /// Seed for ranging jitter and orbit sampling (results are reproducible for a given seed).
     #[arg(long, default_value_t = 0x5EED)]
@@ -40,11 +40,34 @@ pub struct FitArgs {
     #[arg(long, value_name = "K/N")]
     pub shard: Option<super::shard::Shard>,
     /// Worker threads (default: the machine's cores).
-    #[arg(long)]
+    #[arg(long, value_parser = threads_flag)]
     pub threads: Option<usize>,
     /// Files or directories of tracklet files.
     #[arg(required = true, value_name = "PATH")]
     pub paths: Vec<PathBuf>,
+}
+
+/// `--threads`: as the config file's `threads`, 1 to 1024.
+pub fn threads_flag(text: &str) -> Result<usize, String> {
+    match text.trim().parse::<usize>() {
+        Ok(n) if (1..=1024).contains(&n) => Ok(n),
+        _ => Err(format!(
+            "'{}' is not between 1 and 1024",
+            interloper::feed::sanitize::clean(text)
+        )),
+    }
+}
+
+/// `--v-cap`: a speed at infinity the ranging grid can reach, 1 to 3000 km/s (an interstellar object
+/// comes in at tens of km/s; NaN or 0 would leave no orbit, or every one).
+fn v_cap_flag(text: &str) -> Result<f64, String> {
+    match text.trim().parse::<f64>() {
+        Ok(v) if (1.0..=3000.0).contains(&v) => Ok(v),
+        _ => Err(format!(
+            "'{}' is not a speed between 1 and 3000 km/s",
+            interloper::feed::sanitize::clean(text)
+        )),
+    }
 }
 
 #[derive(Debug, Clone, Copy, clap::ValueEnum)]

@@ -31,7 +31,7 @@ pub struct OriginArgs {
     #[arg(long, default_value_t = 48)]
     pub samples: usize,
     /// Worker threads (default: the machine's cores).
-    #[arg(long)]
+    #[arg(long, value_parser = super::fit::threads_flag)]
     pub threads: Option<usize>,
     /// Tracklet files or directories.
     #[arg(required = true, value_name = "PATH")]

@@ -46,7 +46,7 @@ pub struct WatchArgs {
     #[arg(long, value_name = "SECONDS")]
     pub stop_after_idle: Option<f64>,
     /// Worker threads for fitting (default: the machine's cores).
-    #[arg(long)]
+    #[arg(long, value_parser = super::fit::threads_flag)]
     pub threads: Option<usize>,
     /// Key map file for the console (overrides the default keys one by one).
     #[arg(long, value_name = "FILE")]

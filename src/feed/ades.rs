@@ -188,6 +188,25 @@ pub(super) fn record(
         }
         c => c,
     };
+    let mag = match num("mag")? {
+        Some(m) if !super::tracklets::APPARENT_MAG.contains(&m) => {
+            return Err((
+                "mag".into(),
+                format!(
+                    "{m} is not an apparent magnitude ({} to {})",
+                    super::tracklets::APPARENT_MAG.start(),
+                    super::tracklets::APPARENT_MAG.end()
+                ),
+            ));
+        }
+        m => m,
+    };
+    let rms_mag = match positive("rmsMag")? {
+        Some(s) if s > 10.0 => {
+            return Err(("rmsMag".into(), format!("{s} mag is not an uncertainty")));
+        }
+        s => s,
+    };
     let observer_pos = match (get("sys"), get("ctr")) {
         (Some(sys), Some(ctr)) => {
             let ctr: i64 = ctr.parse().map_err(|_| {
@@ -207,6 +226,16 @@ pub(super) fn record(
                 }
             }
         }
+        _ if ["sys", "ctr", "pos1", "pos2", "pos3"]
+            .iter()
+            .any(|k| get(k).is_some()) =>
+        {
+            // Half an observer's position: fitting it from the station's would misplace it.
+            return Err((
+                if get("sys").is_none() { "sys" } else { "ctr" }.into(),
+                "sys, ctr and pos1, pos2, pos3 go together (the observer's position)".into(),
+            ));
+        }
         _ => None,
     };
     Ok(AdesRecord {
@@ -223,8 +252,8 @@ pub(super) fn record(
         rms_dec,
         rms_corr,
         ast_cat: text("astCat"),
-        mag: num("mag")?,
-        rms_mag: num("rmsMag")?,
+        mag,
+        rms_mag,
         band: text("band"),
         observer_pos,
     })
@@ -289,5 +318,28 @@ mod tests {
         assert!(bad2.is_empty(), "{bad2:?}");
         assert_eq!(back[0].ra_deg, 10.5);
         assert_eq!(back[0].time, good[0].time);
+    }
+
+    /// Regressions: a magnitude of 200 was taken (and decided the object's size and its P), and half an
+    /// observer's position (sys without ctr, positions without sys) was dropped silently, fitting the
+    /// record from the station's place instead.
+    #[test]
+    fn absurd_magnitudes_and_half_given_observer_positions_are_refused_on_their_line() {
+        let head = "permID|stn|obsTime|ra|dec|mag|sys|ctr|pos1|pos2|pos3\n";
+        let row = "K26a01|TV2|2026-01-02T03:04:05Z|10.5|-5.25";
+        for (rest, column) in [
+            ("|200|||||", "mag"),
+            ("|-40|||||", "mag"),
+            ("|19.5|ICRF_KM||1e4|0|0", "ctr"),
+            ("|19.5||399|1e4|0|0", "sys"),
+            ("|19.5|||1e4|0|0", "sys"),
+        ] {
+            let (good, bad) = parse("m.psv", &format!("{head}{row}{rest}\n"));
+            assert!(good.is_empty(), "{rest}: {good:?}");
+            assert_eq!(bad[0].column.as_deref(), Some(column), "{rest}: {bad:?}");
+            assert_eq!(bad[0].line, 2);
+        }
+        let (good, bad) = parse("ok.psv", &format!("{head}{row}|19.5|||||\n"));
+        assert!(bad.is_empty() && good[0].mag == Some(19.5), "{bad:?}");
     }
 }

@@ -199,7 +199,7 @@ fn first_line(line: usize, c: &[char], object: String) -> Result<AdesRecord, Fie
         m => Some(
             m.parse::<f64>()
                 .ok()
-                .filter(|x| x.is_finite() && x.abs() < 40.0)
+                .filter(|x| super::tracklets::APPARENT_MAG.contains(x))
                 .ok_or_else(|| {
                     (
                         "66-70".to_string(),

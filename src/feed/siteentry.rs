@@ -32,7 +32,7 @@ const ALTITUDE_M: std::ops::RangeInclusive<f64> =
     super::tracklets::MIN_ALT_M..=super::tracklets::MAX_ALT_M;
 /// ρ = √((ρ cos φ′)² + (ρ sin φ′)²), Earth radii, of such a site: the polar radius is 0.99665 of the
 /// equatorial, 20 km of altitude adds 0.0031.
-const RHO: std::ops::RangeInclusive<f64> = 0.995..=1.004;
+pub(super) const RHO: std::ops::RangeInclusive<f64> = 0.995..=1.004;
 
 /// Where an entry puts its site, or the keys at fault and why.
 pub(super) fn position(

@@ -203,7 +203,13 @@ impl SiteTable {
                 continue; // header lines and space-based codes
             }
             match (lon.parse::<f64>(), c.parse::<f64>(), s.parse::<f64>()) {
-                (Ok(lon), Ok(c), Ok(s)) if c.abs() <= 1.1 && s.abs() <= 1.1 => {
+                // On the ground (or the geocentre itself, ρ = 0), at a longitude that is an angle.
+                (Ok(lon), Ok(c), Ok(s))
+                    if lon.is_finite()
+                        && lon.abs() <= 360.0
+                        && c >= 0.0
+                        && (c.hypot(s) == 0.0 || super::siteentry::RHO.contains(&c.hypot(s))) =>
+                {
                     let code = clean(&code);
                     self.sites.insert(
                         code.clone(),
@@ -220,6 +226,18 @@ impl SiteTable {
                     );
                     n += 1;
                 }
+                (Ok(lon), Ok(c), Ok(s)) => bad.push(InputError {
+                    file: clean(file),
+                    line: k + 1,
+                    column: None,
+                    reason: format!(
+                        "site {}: longitude {lon} and parallax constants ({c}, {s}) do not put it \
+                         on the ground (ρ {} to {} Earth radii, or 0 for the geocentre)",
+                        clean(&code),
+                        super::siteentry::RHO.start(),
+                        super::siteentry::RHO.end()
+                    ),
+                }),
                 _ => {
                     if k > 0 {
                         bad.push(InputError {
@@ -387,5 +405,22 @@ mod tests {
             t.get("XY9").unwrap().position,
             GroundPosition::Parallax { .. }
         ));
+    }
+
+    /// Regression: a code-table site 1,100 km up (ρ 1.18) or at a longitude of NaN was taken (and the
+    /// fit from it failed with a misleading reason, or stood).
+    #[test]
+    fn code_table_sites_off_the_ground_or_at_no_longitude_are_refused_with_their_line() {
+        let mut t = SiteTable::default();
+        let text = "Code  Long.   cos      sin    Name\nZZ1   NaN    0.80000 +0.60000 no longitude\n\
+                    ZZ2  10.0000 1.09000 +0.45000 far off the ground\n\
+                    ZZ3  10.0000 0.00000 +0.00000 the geocentre\n\
+                    ZZ4  10.0000 0.80000 +0.60000 on the ground\n";
+        let (n, bad) = t.load_site_codes("codes.txt", text);
+        assert_eq!(n, 2, "{bad:?}");
+        assert!(t.get("ZZ3").is_some() && t.get("ZZ4").is_some());
+        let lines: Vec<usize> = bad.iter().map(|e| e.line).collect();
+        assert_eq!(lines, vec![2, 3], "{bad:?}");
+        assert!(bad[1].reason.contains("on the ground"), "{bad:?}");
     }
 }

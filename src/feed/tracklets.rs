@@ -161,6 +161,10 @@ const HEADER_ALLOWANCE: usize = 1000;
 
 /// Roving observers: altitudes accepted (m), from below the lowest land to above the highest
 /// observing aircraft (common practice, no source).
+/// Apparent magnitudes a position can carry: from brighter than any comet or close flyby has been to
+/// fainter than any telescope reaches (common practice, no source). Outside, the number is a unit or
+/// a typing mistake, and it would decide the object's size, and through the population, its P.
+pub const APPARENT_MAG: std::ops::RangeInclusive<f64> = -15.0..=35.0;
 pub const MIN_ALT_M: f64 = -500.0;
 pub const MAX_ALT_M: f64 = 20_000.0;
 /// Space-based observers given about the geocentre: outside the Earth and within 10 million km
@@ -233,7 +237,16 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         .map_err(|e| err("obsTime", e.to_string()))?;
     let location = match &r.observer_pos {
         // A roving observer: the ground point is given on the record itself.
-        Some((sys, _, p)) if sys == "WGS84" => {
+        Some((sys, ctr, p)) if sys == "WGS84" => {
+            if *ctr != 399 {
+                return Err(err(
+                    "ctr",
+                    format!("{ctr}: a WGS84 position is on the Earth (ctr 399)"),
+                ));
+            }
+            if !(-360.0..=360.0).contains(&p[0]) {
+                return Err(err("pos1", format!("longitude {} is not an angle", p[0])));
+            }
             if !(-90.0..=90.0).contains(&p[1]) {
                 return Err(err("pos2", format!("latitude {} is outside ±90°", p[1])));
             }
@@ -355,5 +368,33 @@ mod tests {
                 .windows(2)
                 .all(|w| w[0].time.tt.minus(w[1].time.tt) <= 0.0)
         );
+    }
+
+    /// Regression: a roving observer's WGS84 point about the Moon (ctr 301), or at a longitude of
+    /// 10¹⁴°, was fitted as a point on the Earth.
+    #[test]
+    fn a_roving_observer_is_on_the_earth_at_a_longitude_that_is_an_angle() {
+        let head = "trkSub|stn|obsTime|ra|dec|sys|ctr|pos1|pos2|pos3\n";
+        let row = "qk0f3ra|247|2027-02-26T03:00:00Z|120.5|10.25|WGS84";
+        let read = |rest: &str| {
+            let text = format!("{head}{row}|{rest}\n");
+            read_bytes(
+                "r.psv",
+                text.as_bytes(),
+                &SiteTable::builtin(),
+                &Limits::default(),
+            )
+        };
+        assert!(read("399|10.5|45|300").errors.is_empty());
+        for (rest, column) in [("301|10.5|45|300", "ctr"), ("399|1e14|45|300", "pos1")] {
+            let got = read(rest);
+            assert!(got.tracklets.is_empty(), "{rest}");
+            assert_eq!(
+                got.errors[0].column.as_deref(),
+                Some(column),
+                "{rest}: {:?}",
+                got.errors
+            );
+        }
     }
 }
