@@ -140,3 +140,44 @@ fn absurd_speed_caps_and_thread_counts_are_usage_errors() {
         assert_eq!(code, Some(2), "{args:?}: {err}");
     }
 }
+
+/// Regression: `fit DIR` waited for ever on a FIFO inside the directory, read a link to /dev/zero until
+/// memory ran out, and printed a file name's escape sequences raw to the terminal. Special files met
+/// in a directory are refused unread, every read stops at the size limit, and names are cleaned.
+#[test]
+fn special_files_in_a_directory_are_refused_unread_and_names_reach_the_terminal_clean() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = std::path::Path::new(&feed()).join("001_qk0f3ra_n1.psv");
+    std::fs::copy(&good, dir.path().join("good.psv")).unwrap();
+    let fifo = dir.path().join("pipe.psv");
+    assert!(
+        Command::new("mkfifo")
+            .arg(&fifo)
+            .status()
+            .unwrap()
+            .success()
+    );
+    std::os::unix::fs::symlink("/dev/zero", dir.path().join("zero.psv")).unwrap();
+    std::os::unix::fs::symlink("/nonexistent", dir.path().join("x\u{1b}]0;title\u{7}.psv"))
+        .unwrap();
+    let mut child = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(["fit", dir.path().to_str().unwrap()])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = std::time::Instant::now();
+    while child.try_wait().unwrap().is_none() {
+        if start.elapsed() > std::time::Duration::from_secs(120) {
+            child.kill().unwrap();
+            panic!("fit kept reading a special file");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    let out = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{err}");
+    assert!(err.contains("pipe.psv: not a regular file"), "{err}");
+    assert!(err.contains("zero.psv: not a regular file"), "{err}");
+    assert!(!err.contains('\u{1b}') && !err.contains('\u{7}'), "{err:?}");
+}

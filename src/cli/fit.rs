@@ -142,6 +142,10 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
     let mut tracklets = Vec::new();
     let mut input_errors = 0;
     let threads = args.threads.unwrap_or(super::config::get().threads.value);
+    for e in &inputs.refused {
+        eprintln!("rejected: {e}");
+    }
+    input_errors += inputs.refused.len();
     for intake in read_files(&inputs.files, &sites, &limits, threads) {
         for e in &intake.errors {
             eprintln!("rejected: {e}");

@@ -30,16 +30,14 @@ impl SiteArgs {
         let site_codes = self.site_codes.as_ref().or(cfg.site_codes.value.as_ref());
         let sites = self.sites.as_ref().or(cfg.sites.value.as_ref());
         if let Some(p) = site_codes {
-            let text =
-                std::fs::read_to_string(p).with_context(|| format!("reading {}", p.display()))?;
+            let text = read_side_file(p)?;
             let (_, bad) = t.load_site_codes(&p.display().to_string(), &text);
             for b in bad {
                 eprintln!("warning: {b}");
             }
         }
         if let Some(p) = sites {
-            let text =
-                std::fs::read_to_string(p).with_context(|| format!("reading {}", p.display()))?;
+            let text = read_side_file(p)?;
             t.load_toml(&p.display().to_string(), &text)?;
         }
         Ok(t)
@@ -64,12 +62,31 @@ impl PopulationArgs {
         let Some(p) = self.population.as_ref().or(configured) else {
             return Ok(interloper::fitting::fit::builtin_population());
         };
-        let text = std::fs::read_to_string(p)
-            .with_context(|| format!("reading the population model {}", p.display()))?;
+        let text = read_side_file(p).context("reading the population model")?;
         let name = p.display().to_string();
         let file = ModelFile::parse(&name, &text)?;
         Ok(std::sync::Arc::new(PopulationModel::new(name, file)))
     }
+}
+
+/// Largest site table, site-code table or population model read (a device or a runaway file named
+/// by mistake is refused, not read until memory runs out).
+const MAX_SIDE_FILE_BYTES: u64 = 16 << 20;
+
+/// Read a side file (sites, site codes, population model) of at most [`MAX_SIDE_FILE_BYTES`].
+fn read_side_file(p: &Path) -> anyhow::Result<String> {
+    let name = || interloper::feed::sanitize::clean(&p.display().to_string());
+    let f = std::fs::File::open(p).with_context(|| format!("reading {}", name()))?;
+    let mut bytes = Vec::new();
+    std::io::Read::read_to_end(
+        &mut std::io::Read::take(f, MAX_SIDE_FILE_BYTES + 1),
+        &mut bytes,
+    )
+    .with_context(|| format!("reading {}", name()))?;
+    if bytes.len() as u64 > MAX_SIDE_FILE_BYTES {
+        anyhow::bail!("{} is over {MAX_SIDE_FILE_BYTES} bytes: not read", name());
+    }
+    String::from_utf8(bytes).with_context(|| format!("{} is not UTF-8 text", name()))
 }
 
 /// The files named on the command line, directories walked.
@@ -79,6 +96,9 @@ pub struct Inputs {
     pub files: Vec<PathBuf>,
     /// Files met inside directories that are clearly not tracklet files, by extension.
     pub skipped: std::collections::BTreeMap<String, usize>,
+    /// Special files met inside directories (FIFOs, devices, sockets), refused unread: reading one
+    /// could wait for ever or never end. One named on the command line is read (`<(…)` is a pipe).
+    pub refused: Vec<InputError>,
 }
 
 impl Inputs {
@@ -145,6 +165,17 @@ fn walk(dir: &Path, depth: usize, out: &mut Inputs) -> anyhow::Result<()> {
             }
             continue;
         }
+        if let Ok(m) = std::fs::metadata(&e)
+            && !m.is_file()
+        {
+            out.refused.push(InputError {
+                file: interloper::feed::sanitize::clean(&e.display().to_string()),
+                line: 0,
+                column: None,
+                reason: "not a regular file (a FIFO, device or socket): not read".into(),
+            });
+            continue;
+        }
         let ext = e
             .extension()
             .and_then(|x| x.to_str())
@@ -167,40 +198,40 @@ fn hidden(p: &Path) -> bool {
         .is_some_and(|n| n.starts_with('.') || n.ends_with('~'))
 }
 
-/// Read one file into tracklets (an unreadable file becomes an input error, not a crash).
+/// Read one file into tracklets (an unreadable file becomes an input error, not a crash). At most the
+/// size limit is read, whatever the file is (a device named by mistake ends at the limit).
 pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake {
-    let name = path.display().to_string();
-    match std::fs::metadata(path) {
-        Ok(m) if m.len() > limits.max_bytes => {
-            return FileIntake {
-                tracklets: Vec::new(),
-                errors: vec![InputError {
-                    file: name,
-                    line: 0,
-                    column: None,
-                    reason: format!(
-                        "{} bytes is over the {}-byte limit",
-                        m.len(),
-                        limits.max_bytes
-                    ),
-                }],
-                rejected: true,
-            };
-        }
-        _ => {}
+    let name = interloper::feed::sanitize::clean(&path.display().to_string());
+    let refused = |reason: String| FileIntake {
+        tracklets: Vec::new(),
+        errors: vec![InputError {
+            file: name.clone(),
+            line: 0,
+            column: None,
+            reason,
+        }],
+        rejected: true,
+    };
+    let over = |n: u64| format!("{n} bytes is over the {}-byte limit", limits.max_bytes);
+    if let Ok(m) = std::fs::metadata(path)
+        && m.len() > limits.max_bytes
+    {
+        return refused(over(m.len()));
     }
-    match std::fs::read(path) {
-        Ok(b) => read_bytes(&name, &b, sites, limits),
-        Err(e) => FileIntake {
-            tracklets: Vec::new(),
-            errors: vec![InputError {
-                file: name,
-                line: 0,
-                column: None,
-                reason: format!("cannot read: {e}"),
-            }],
-            rejected: true,
-        },
+    let mut bytes = Vec::new();
+    let read = std::fs::File::open(path).and_then(|f| {
+        std::io::Read::read_to_end(
+            &mut std::io::Read::take(f, limits.max_bytes + 1),
+            &mut bytes,
+        )
+    });
+    match read {
+        Ok(n) if n as u64 > limits.max_bytes => refused(format!(
+            "more than {} bytes: over the limit",
+            limits.max_bytes
+        )),
+        Ok(_) => read_bytes(&name, &bytes, sites, limits),
+        Err(e) => refused(format!("cannot read: {e}")),
     }
 }
 
@@ -270,6 +301,10 @@ pub fn read_tracklets(
     if let Some(note) = inputs.skipped_note() {
         eprintln!("{note}");
     }
+    for e in &inputs.refused {
+        eprintln!("rejected: {e}");
+    }
+    input_errors += inputs.refused.len();
     for f in inputs.files {
         let intake = read_file(&f, sites, &limits);
         for e in &intake.errors {
