@@ -43,31 +43,29 @@ fn invisible(c: char) -> bool {
         | '\u{e0000}'..='\u{e0fff}')
 }
 
-/// An object id from a file: cleaned like any text, and when cleaning changed it, followed by `~` and
-/// six hex digits of a fingerprint of the raw bytes, so that ids which differ only in what was removed
-/// stay distinct objects (and visibly altered) instead of merging into one.
+/// An object id from a file, safe to show in one terminal cell per character, and one-to-one with
+/// the raw id: every character cleaning would remove or change (controls, escape bytes, invisible
+/// format characters, characters wider or narrower than one cell) is written as `~` and its code
+/// point in hex and `;` (`K27D\u{200b}x09` becomes `K27D~200b;x09`), and `~` itself as `~7e;`. Ids that
+/// differ only in what cleaning removes thus stay distinct objects, visibly altered, and no id can be
+/// made to merge with another (a fingerprint could be forced to collide).
 pub fn clean_id(raw: &str) -> String {
-    // Ids stand in fixed-width columns: a double-width character would push the row past its border.
-    let c: String = clean(raw)
-        .chars()
-        .map(|ch| {
-            if UnicodeWidthChar::width(ch) == Some(1) {
-                ch
-            } else {
-                '?'
-            }
-        })
-        .collect();
-    if c == raw {
-        return c;
+    let kept = |ch: char| {
+        ch != '~'
+            && UnicodeWidthChar::width(ch) == Some(1)
+            && (ch.is_ascii_graphic()
+                || ch == ' '
+                || clean(ch.encode_utf8(&mut [0; 4])).starts_with(ch))
+    };
+    let mut out = String::with_capacity(raw.len());
+    for ch in raw.chars() {
+        if kept(ch) {
+            out.push(ch);
+        } else {
+            out.push_str(&format!("~{:x};", u32::from(ch)));
+        }
     }
-    // FNV-1a, 32 bits: stable across runs and machines.
-    let mut h: u32 = 0x811c_9dc5;
-    for b in raw.as_bytes() {
-        h ^= u32::from(*b);
-        h = h.wrapping_mul(0x0100_0193);
-    }
-    format!("{c}~{:06x}", h & 0xff_ffff)
+    out
 }
 
 fn skip_escape(chars: &mut std::iter::Peekable<std::str::Chars>) {
@@ -154,16 +152,34 @@ mod tests {
     fn ids_that_differ_only_in_removed_characters_stay_distinct() {
         use super::clean_id;
         assert_eq!(clean_id("qka2e7f"), "qka2e7f");
+        assert_eq!(clean_id("K26 ab-01.x"), "K26 ab-01.x");
         let a = clean_id("K27D\u{200b}x09");
         let b = clean_id("K27Dx\u{200b}09");
-        assert!(
-            a.starts_with("K27Dx09~") && b.starts_with("K27Dx09~"),
-            "{a} {b}"
-        );
-        assert_ne!(a, b);
+        assert_eq!((a.as_str(), b.as_str()), ("K27D~200b;x09", "K27Dx~200b;09"));
         let escapes: std::collections::BTreeSet<String> = (0..8)
             .map(|k| clean_id(&format!("X\u{1b}[{k}mY")))
             .collect();
         assert_eq!(escapes.len(), 8, "{escapes:?}");
+        assert!(escapes.iter().all(|e| !e.contains('\u{1b}')));
+    }
+
+    /// Regression: a raw id already written as a cleaned one (`K27Dx09~6c7edd`) merged with the id it
+    /// imitated, and a 24-bit fingerprint could be made to collide. The escaped form is one-to-one.
+    #[test]
+    fn no_two_raw_ids_give_the_same_id() {
+        use super::clean_id;
+        let raws = [
+            "K27D\u{200b}x09",
+            "K27D~200b;x09",
+            "K27Dx09~6c7edd",
+            "K27Dx09",
+            "K27D\u{2060}x09",
+            "K27D\u{feff}x09",
+            "K27D~7e;200b;x09",
+            "~",
+            "~7e;",
+        ];
+        let ids: std::collections::BTreeSet<String> = raws.iter().map(|r| clean_id(r)).collect();
+        assert_eq!(ids.len(), raws.len(), "{ids:?}");
     }
 }
