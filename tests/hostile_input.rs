@@ -27,10 +27,12 @@ fn three_identical_positions_at_the_pole_are_refused_not_scored() {
     assert!(r.error.unwrap().contains("do not move"));
 }
 
+/// Regression: a PSV file of twice the observation limit (one record a line) was parsed in full, and
+/// only then refused; the line count allowed two lines a record, as 80-column files may take.
 #[test]
 fn a_file_with_too_many_lines_is_refused_before_parsing() {
     let mut text = String::from("# version=2022\ntrkSub|mode|stn|obsTime|ra|dec\n");
-    for k in 0..450_000 {
+    for k in 0..Limits::default().max_observations + 2_000 {
         text.push_str(&format!(
             "B{:05}|CCD|TV1|2027-02-26T03:00:00Z|120.5|+10.25\n",
             k % 1000

@@ -212,3 +212,43 @@ fn an_unreadable_file_is_reported_once_with_its_reason() {
     assert!(reports[0].contains("cannot be read"), "{}", reports[0]);
     assert!(reports[0].contains("ermission denied"), "{}", reports[0]);
 }
+
+/// Regression: a file whose name is not UTF-8 was never read, and a dangling link or a link loop was
+/// skipped without a word (only `fit` reported them).
+#[test]
+fn a_non_utf8_name_is_read_and_broken_links_are_reported_once() {
+    use std::os::unix::ffi::OsStrExt;
+    let dir = tempfile::tempdir().unwrap();
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let odd = dir.path().join(std::ffi::OsStr::from_bytes(b"obs\xff.psv"));
+    std::fs::copy(demo.join("001_qk0f3ra_n1.psv"), &odd).unwrap();
+    std::os::unix::fs::symlink("/nonexistent/x.psv", dir.path().join("dangling.psv")).unwrap();
+    std::os::unix::fs::symlink("loop.psv", dir.path().join("loop.psv")).unwrap();
+    let stop = Arc::new(AtomicBool::new(false));
+    let opts = WatchOptions {
+        scan_interval: Duration::from_millis(50),
+        settle: Duration::from_millis(100),
+        ..WatchOptions::default()
+    };
+    let (rx, _) = spawn_counted(dir.path().to_path_buf(), opts, stop.clone());
+    let end = Instant::now() + Duration::from_millis(2000);
+    let (mut ready, mut refused) = (Vec::new(), Vec::new());
+    while Instant::now() < end {
+        match rx.recv_timeout(Duration::from_millis(50)) {
+            Ok(WatchEvent::Ready { path, .. }) => ready.push(path),
+            Ok(WatchEvent::Refused { path, reason, .. }) => refused.push((path, reason)),
+            _ => {}
+        }
+    }
+    stop.store(true, Ordering::Relaxed);
+    assert_eq!(ready, vec![odd], "{refused:?}");
+    let mut names: Vec<String> = refused
+        .iter()
+        .map(|(p, r)| {
+            assert!(r.starts_with("cannot read"), "{r}");
+            p.file_name().unwrap().to_string_lossy().into_owned()
+        })
+        .collect();
+    names.sort();
+    assert_eq!(names, ["dangling.psv", "loop.psv"]);
+}

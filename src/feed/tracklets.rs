@@ -91,11 +91,15 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
             !t.is_empty() && !t.starts_with('#')
         })
         .count();
+    // A PSV record is one line; an 80-column observation may take two (a second line for a roving
+    // or space-based observer's position).
+    let psv = !xml && ades::looks_like_psv(body);
+    let lines_per_record = if psv { 1 } else { 2 };
     if !xml
         && data_lines
             > limits
                 .max_observations
-                .saturating_mul(2)
+                .saturating_mul(lines_per_record)
                 .saturating_add(HEADER_ALLOWANCE)
     {
         return whole_file(
@@ -108,7 +112,7 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
     }
     let (records, mut errors) = if xml {
         super::ades_xml::parse(file, body, limits.max_observations)
-    } else if ades::looks_like_psv(body) {
+    } else if psv {
         ades::parse(file, body)
     } else if super::obs80::looks_like_obs80(body) {
         super::obs80::parse(file, body)

@@ -57,7 +57,8 @@ pub enum WatchEvent {
 
 /// Hidden, editor and partial-download files are never read.
 pub fn ignored(path: &Path) -> bool {
-    let Some(name) = path.file_name().and_then(|n| n.to_str()) else {
+    // A name that is not UTF-8 is judged by its readable part (and read: it may hold tracklets).
+    let Some(name) = path.file_name().map(|n| n.to_string_lossy()) else {
         return true;
     };
     name.starts_with('.')
@@ -197,6 +198,37 @@ fn stamp(meta: &std::fs::Metadata) -> Stamp {
     }
 }
 
+/// Report a file that cannot be read, once for as long as it stays (it is kept as delivered at its
+/// stamp: should it become readable, its new stamp makes it a change like any other). Err only when
+/// the receiver is gone.
+fn refuse_once(
+    files: &mut HashMap<PathBuf, FileState>,
+    path: &Path,
+    st: Stamp,
+    now: Instant,
+    reason: String,
+    tx: &Sender<WatchEvent>,
+) -> Result<(), ()> {
+    if files.contains_key(path) {
+        return Ok(());
+    }
+    files.insert(
+        path.to_path_buf(),
+        FileState {
+            stamp: st,
+            changed_at: now,
+            hinted: false,
+            delivered: Some(st),
+        },
+    );
+    tx.send(WatchEvent::Refused {
+        path: path.to_path_buf(),
+        reason,
+        arrived: SystemTime::now(),
+    })
+    .map_err(|_| ())
+}
+
 /// One pass over the directory. Returns Err only when the receiver is gone.
 fn scan(
     dir: &Path,
@@ -217,8 +249,23 @@ fn scan(
     paths.sort();
     let now = Instant::now();
     for path in paths {
-        let Ok(meta) = std::fs::metadata(&path) else {
-            continue;
+        let meta = match std::fs::metadata(&path) {
+            Ok(m) => m,
+            Err(e) => {
+                // Gone since the listing: nothing to say. Still there but unreadable (a dangling
+                // link, a link loop, a link into a folder we may not enter): said once.
+                if let Ok(link) = std::fs::symlink_metadata(&path) {
+                    refuse_once(
+                        files,
+                        &path,
+                        stamp(&link),
+                        now,
+                        format!("cannot read: {e}"),
+                        tx,
+                    )?;
+                }
+                continue;
+            }
         };
         if meta.is_dir() {
             continue;
@@ -226,23 +273,14 @@ fn scan(
         if !meta.is_file() {
             // A FIFO, socket or device (or a link to one): reading it could block or never end.
             // Said once, as long as it stays there.
-            if !files.contains_key(&path) {
-                files.insert(
-                    path.clone(),
-                    FileState {
-                        stamp: stamp(&meta),
-                        changed_at: now,
-                        hinted: false,
-                        delivered: Some(stamp(&meta)),
-                    },
-                );
-                tx.send(WatchEvent::Refused {
-                    path: path.clone(),
-                    reason: "not a regular file (a pipe, socket or device): not read".into(),
-                    arrived: SystemTime::now(),
-                })
-                .map_err(|_| ())?;
-            }
+            refuse_once(
+                files,
+                &path,
+                stamp(&meta),
+                now,
+                "not a regular file (a pipe, socket or device): not read".into(),
+                tx,
+            )?;
             continue;
         }
         let st = stamp(&meta);
