@@ -234,3 +234,45 @@ fn plan_refuses_uncomputable_nights_and_leaves_out_what_it_cannot_honestly_sched
     }
     assert_eq!(reason(&p, "qka2e7f").as_deref(), Some("too-brief"), "{p}");
 }
+
+/// Regression: the plan drew a range-profile fit's 3σ region from its least-squares covariance
+/// (28,600″ by 1,170″, 16 pointings) where the ephemeris draws it from the sampled orbits (9,760″ by
+/// 2,250″). Both now come from the samples, the same way.
+#[test]
+fn the_plan_and_the_ephemeris_draw_the_same_uncertainty_region() {
+    let demo = format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"));
+    let (_, out, err) = run(&[
+        "plan",
+        "--site",
+        "TV1",
+        "--night",
+        "2027-01-01",
+        "--json",
+        "--object",
+        "qk4d2pe",
+        &demo,
+    ]);
+    let plan: Value = serde_json::from_str(&out).unwrap_or_else(|e| panic!("{e}: {err}"));
+    let item = &plan["items"][0];
+    let start = item["start_utc"].as_str().unwrap();
+    let (_, out, err) = run(&[
+        "ephem", "--site", "TV1", "--from", start, "--to", start, "--step", "1m", "--json",
+        "--object", "qk4d2pe", &demo,
+    ]);
+    let row: Value = out
+        .lines()
+        .find_map(|l| serde_json::from_str(l).ok())
+        .unwrap_or_else(|| panic!("{out}{err}"));
+    let row = if row.is_array() { row[0].clone() } else { row };
+    assert_eq!(row["unc_from"], "samples", "{row}");
+    for (p, e) in [
+        ("region_major_arcsec", "unc_major_arcsec"),
+        ("region_minor_arcsec", "unc_minor_arcsec"),
+    ] {
+        let (p, e) = (item[p].as_f64().unwrap(), row[e].as_f64().unwrap());
+        assert!(
+            (p / e - 1.0).abs() < 0.25,
+            "plan {p}″ against the ephemeris's {e}″"
+        );
+    }
+}

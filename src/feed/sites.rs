@@ -162,7 +162,7 @@ impl SiteTable {
                     format!("longitude {} is not an angle", s.longitude_deg),
                 ));
             }
-            let caps = capabilities(&s, &self.defaults).map_err(|r| at(&[], r))?;
+            let caps = capabilities(&s, &self.defaults).map_err(|(key, r)| at(&[key], r))?;
             self.sites.insert(
                 code.clone(),
                 Site {
@@ -257,11 +257,12 @@ impl SiteTable {
 }
 
 /// The optional capability fields of a site entry, checked, with defaults for the missing ones.
-fn capabilities(s: &SiteEntry, d: &Capabilities) -> Result<Capabilities, String> {
-    let pick = |v: Option<f64>, def: f64, name: &str, ok: &dyn Fn(f64) -> bool| match v {
+/// The entry's capabilities, or the key at fault and why.
+fn capabilities(s: &SiteEntry, d: &Capabilities) -> Result<Capabilities, (&'static str, String)> {
+    let pick = |v: Option<f64>, def: f64, name: &'static str, ok: &dyn Fn(f64) -> bool| match v {
         None => Ok(def),
         Some(x) if x.is_finite() && ok(x) => Ok(x),
-        Some(x) => Err(format!("{name} {x} is out of range")),
+        Some(x) => Err((name, format!("{name} {x} is out of range"))),
     };
     Ok(Capabilities {
         limiting_mag: pick(s.limiting_mag, d.limiting_mag, "limiting_mag", &|x| {
@@ -393,6 +394,8 @@ mod tests {
             .load_toml("s.toml", &format!("{base}fov_deg = -1\n"))
             .unwrap_err();
         assert!(e.reason.contains("fov_deg"), "{e}");
+        // On the line of the value at fault (it was the entry's header line).
+        assert_eq!(e.line, 5, "{e}");
     }
 
     #[test]

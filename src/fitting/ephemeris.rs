@@ -101,7 +101,7 @@ pub fn alt_az(dir: &V3, site: &GroundPosition, inst: &Instant) -> (f64, f64) {
     )
 }
 
-fn tangent_axes(ra: f64, dec: f64) -> (V3, V3) {
+pub(crate) fn tangent_axes(ra: f64, dec: f64) -> (V3, V3) {
     let (sa, ca) = ra.sin_cos();
     let (sd, cd) = dec.sin_cos();
     (V3::new(-sa, ca, 0.0), V3::new(-sd * ca, -sd * sa, cd))
@@ -300,14 +300,21 @@ fn sample_region(
         pts.push((u.dot(&e_a) / d / ARCSEC, u.dot(&e_d) / d / ARCSEC));
         ws.push(*w);
     }
+    sample_extent(&pts, &ws)
+}
+
+/// The region that holds `REGION_FRACTION` of weighted sky offsets (arcsec, east and north of the
+/// nominal direction): (major, minor semi-axis in arcsec, position angle of the major axis in
+/// degrees).
+pub(crate) fn sample_extent(pts: &[(f64, f64)], ws: &[f64]) -> Option<(f64, f64, f64)> {
     let total: f64 = ws.iter().sum();
     if pts.is_empty() || total <= 0.0 {
         return None;
     }
-    let mx = pts.iter().zip(&ws).map(|(p, w)| p.0 * w).sum::<f64>() / total;
-    let my = pts.iter().zip(&ws).map(|(p, w)| p.1 * w).sum::<f64>() / total;
+    let mx = pts.iter().zip(ws).map(|(p, w)| p.0 * w).sum::<f64>() / total;
+    let my = pts.iter().zip(ws).map(|(p, w)| p.1 * w).sum::<f64>() / total;
     let (mut sxx, mut syy, mut sxy) = (0.0, 0.0, 0.0);
-    for (p, w) in pts.iter().zip(&ws) {
+    for (p, w) in pts.iter().zip(ws) {
         let (dx, dy) = (p.0 - mx, p.1 - my);
         sxx += w * dx * dx;
         syy += w * dy * dy;
@@ -319,10 +326,10 @@ fn sample_region(
     let across: Vec<f64> = pts.iter().map(|p| (-p.0 * s + p.1 * c).abs()).collect();
     // With n draws the k-th largest covers k/(n + 1) of new draws on average, so the level that covers
     // REGION_FRACTION is ⌈p(n + 1)⌉/n (for the effective n of the weights).
-    let n_eff = crate::fitting::stats::effective_sample_size(&ws);
+    let n_eff = crate::fitting::stats::effective_sample_size(ws);
     let level = ((REGION_FRACTION * (n_eff + 1.0)).ceil() / n_eff).min(1.0);
-    let a = weighted_quantile(&along, &ws, level)?;
-    let b = weighted_quantile(&across, &ws, level)?;
+    let a = weighted_quantile(&along, ws, level)?;
+    let b = weighted_quantile(&across, ws, level)?;
     // PA from north through east of the direction (cos θ east, sin θ north).
     let pa = c.atan2(s).rem_euclid(std::f64::consts::PI) / DEG;
     Some((

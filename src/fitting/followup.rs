@@ -27,13 +27,38 @@ pub struct Predictor {
     v: V3,
     /// ∂x(t_ref)/∂x(epoch).
     phi: M6,
-    /// Covariance of the state at the epoch.
+    /// Covariance of the state at the epoch: what the positions alone say (new positions add to it).
     pub cov: M6,
+    /// Up to [`REGION_SAMPLES`] of the fit's sampled orbits at `t_ref` (position, velocity, weight):
+    /// the uncertainty region is their scatter on the sky, as the ephemeris draws it.
+    samples: Vec<(V3, V3, f64)>,
     /// Gradients of barycentric 1/a and of heliocentric e with respect to the state at the epoch.
     pub g_inv_a: RowVector6<f64>,
     pub g_e: RowVector6<f64>,
     /// Barycentric 1/a (per AU).
     pub inv_a: f64,
+}
+
+/// Most sampled orbits the uncertainty region of a plan is drawn from (an even thinning of the
+/// fit's), and fewest it is drawn from at all.
+const REGION_SAMPLES: usize = 96;
+const MIN_REGION_SAMPLES: usize = 7;
+
+/// Up to [`REGION_SAMPLES`] of a fit's sampled orbits, evenly taken, carried to `t_ref` (two-body).
+fn region_samples(fit: &FitResult, t_ref: Jd2) -> Vec<(V3, V3, f64)> {
+    let n = fit.samples.len();
+    let stride = n.div_ceil(REGION_SAMPLES).max(1);
+    fit.samples
+        .iter()
+        .step_by(stride)
+        .filter_map(|(s, ep, w)| {
+            let x = S6::from_column_slice(s);
+            let (r, v) = split_state(&x);
+            let (r, v, _) =
+                propagate_with_stm(&r, &v, t_ref.minus(Jd2::new(*ep, 0.0)), MU_SUN).ok()?;
+            Some((r, v, *w))
+        })
+        .collect()
 }
 
 /// Covariance of a sampled answer: the weighted scatter of its orbits, each carried to the epoch.
@@ -73,6 +98,7 @@ impl Predictor {
             _ => sample_covariance(fit, epoch)?,
         };
         let (r, v, phi) = dynamics.state_and_stm(&x, epoch, t_ref).ok()?;
+        let samples = region_samples(fit, t_ref);
         let earth = model.earth(epoch).ok()?;
         let xb = barycentric_with(&x, &earth);
         let (rb, vb) = split_state(&xb);
@@ -83,6 +109,7 @@ impl Predictor {
             v,
             phi,
             cov,
+            samples,
             g_inv_a: inverse_a_gradient(&rb, &vb, MU_BARY),
             g_e: eccentricity_gradient(&rh, &vh, MU_SUN),
             inv_a: 2.0 / rb.norm() - vb.norm_squared() / MU_BARY,
@@ -101,10 +128,55 @@ impl Predictor {
         (g * self.cov * g.transpose())[0].max(0.0).sqrt()
     }
 
-    /// The sky-plane covariance (radians²) of a prediction's partials.
+    /// The sky-plane covariance (radians²) of a prediction's partials, from the positions alone.
     pub fn sky_covariance(&self, jac: &Matrix2x6<f64>) -> Matrix2<f64> {
         jac * self.cov * jac.transpose()
     }
+
+    /// The uncertainty region to point at, (major, minor) semi-axes in arcsec: where the fit has
+    /// sampled orbits, the extent that holds as large a share of them as the ephemeris's region (a
+    /// wide range of distances maps onto the sky far from linearly, with long tails), drawn the same
+    /// way; else `REGION_SIGMA` σ of the positions' covariance through the partials `jac`.
+    pub fn region_arcsec(
+        &self,
+        t: Jd2,
+        obs: &ObserverState,
+        at: &Prediction,
+        jac: &Matrix2x6<f64>,
+    ) -> (f64, f64) {
+        let linear = || semi_axes(&self.sky_covariance(jac));
+        if self.samples.len() < MIN_REGION_SAMPLES {
+            return linear();
+        }
+        let (e_a, e_d) = super::ephemeris::tangent_axes(at.ra, at.dec);
+        let centre = at.topo.normalize();
+        let (mut pts, mut ws) = (Vec::new(), Vec::new());
+        for (r, v, w) in &self.samples {
+            let Ok((r, v, _)) = propagate_with_stm(r, v, t.minus(self.t_ref), MU_SUN) else {
+                continue;
+            };
+            let u = crate::physics::observe::project_position(&r, &v, obs, MU_SUN)
+                .topo
+                .normalize();
+            let d = u.dot(&centre);
+            if d <= 0.0 {
+                continue;
+            }
+            // Gnomonic offsets from the nominal direction.
+            pts.push((u.dot(&e_a) / d / ARCSEC, u.dot(&e_d) / d / ARCSEC));
+            ws.push(*w);
+        }
+        super::ephemeris::sample_extent(&pts, &ws).map_or_else(linear, |(a, b, _)| (a, b))
+    }
+}
+
+/// `REGION_SIGMA` σ semi-axes (arcsec) of a sky-plane covariance (radians²).
+pub fn semi_axes(c: &Matrix2<f64>) -> (f64, f64) {
+    let (a, b, d) = (c[(0, 0)], c[(0, 1)], c[(1, 1)]);
+    let mean = 0.5 * (a + d);
+    let rad = (0.25 * (a - d) * (a - d) + b * b).sqrt();
+    let s = |l: f64| super::ephemeris::REGION_SIGMA * l.max(0.0).sqrt() / ARCSEC;
+    (s(mean + rad), s(mean - rad))
 }
 
 /// What a set of positions buys.

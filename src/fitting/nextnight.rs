@@ -71,6 +71,8 @@ pub struct NightChoice {
     pub site: String,
     pub position: GroundPosition,
     pub times: Vec<Instant>,
+    /// The middle of the sequence, where `alt_deg` is.
+    pub mid: Instant,
     pub alt_deg: f64,
     pub accuracy_arcsec: f64,
 }
@@ -140,6 +142,7 @@ pub fn choose_night(
         site: last.site_code.clone(),
         position,
         times,
+        mid,
         alt_deg: alt,
         accuracy_arcsec: site_accuracy(tr, &last.site_code),
     })
@@ -180,7 +183,9 @@ pub fn next_night(fit: &FitResult, tr: &Tracklet, model: &ObserverModel) -> Opti
     } else {
         Verdict::LongerArc
     };
-    let mid = night.times[night.times.len() / 2];
+    // The middle of the sequence (between two positions when their count is even), where the
+    // altitude was found.
+    let mid = night.mid;
     Some(NextNight {
         site: night.site,
         time_utc: tt_to_utc(mid.tt).to_string(),

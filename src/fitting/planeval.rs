@@ -2,7 +2,7 @@
 //! is above the site's altitude limit, how large its 3σ region is, and what a visit there is worth.
 
 use super::conditions::SkySlot;
-use super::ephemeris::{REGION_SIGMA, SLOPE_G, hg_magnitude, phase_angle};
+use super::ephemeris::{SLOPE_G, hg_magnitude, phase_angle};
 use super::fit::FitResult;
 use super::followup::{Predictor, expected_change_from, gain};
 use super::plan::{PlanOptions, PlanSite};
@@ -40,14 +40,6 @@ pub struct Evaluation {
     pub best_shrink: f64,
 }
 
-fn semi_axes(c: &nalgebra::Matrix2<f64>) -> (f64, f64) {
-    let (a, b, d) = (c[(0, 0)], c[(0, 1)], c[(1, 1)]);
-    let mean = 0.5 * (a + d);
-    let rad = (0.25 * (a - d) * (a - d) + b * b).sqrt();
-    let s = |l: f64| REGION_SIGMA * l.max(0.0).sqrt() / ARCSEC;
-    (s(mean + rad), s(mean - rad))
-}
-
 fn at_slot(
     fit: &FitResult,
     h: Option<f64>,
@@ -76,7 +68,7 @@ fn at_slot(
     // One visit: its positions taken together (they are minutes apart: the same partials).
     let per_visit = site.caps.accuracy_arcsec / (opts.positions_per_visit.max(1) as f64).sqrt();
     let g = gain(pred, &[jac], per_visit)?;
-    let (major, minor) = semi_axes(&pred.sky_covariance(&jac));
+    let (major, minor) = pred.region_arcsec(slot.inst.tdb, &slot.observer, &p, &jac);
     let rel_v = p.obj_vel - slot.observer.helio_vel;
     let across = rel_v - dir * rel_v.dot(&dir);
     Some(SlotEval {
