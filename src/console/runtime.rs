@@ -43,6 +43,9 @@ pub enum AppEvent {
     Tick,
 }
 
+/// Longest wait at shutdown for the journal to write what was keyed last.
+pub const JOURNAL_FINISH: Duration = Duration::from_secs(10);
+
 /// Frame cap: at most this many draws per second (high-latency links get no redraw storms).
 pub const MAX_FPS: u64 = 30;
 
@@ -285,11 +288,25 @@ impl Runtime {
     }
 
     /// Stop the fit workers, and wait until the journal has written every line sent to it (a
-    /// decision keyed just before quitting is saved before the process ends).
+    /// decision keyed just before quitting is saved before the process ends) — but not for ever: a
+    /// journal whose lock another process holds (a console stopped with Ctrl-Z in the middle of a
+    /// write, a file system that no longer answers) is given up after [`JOURNAL_FINISH`], saying so.
     pub fn shutdown(self) {
         self.engine.shutdown();
         drop(self.journal);
-        if self.journal_thread.join().is_err() {
+        let deadline = Instant::now() + JOURNAL_FINISH;
+        while !self.journal_thread.is_finished() && Instant::now() < deadline {
+            std::thread::sleep(Duration::from_millis(20));
+        }
+        if !self.journal_thread.is_finished() {
+            let why = format!(
+                "the journal did not finish writing within {} s (is it locked by another process?): \
+                 the last decisions may not be saved",
+                JOURNAL_FINISH.as_secs()
+            );
+            tracing::error!("{why}");
+            eprintln!("interloper: {why}");
+        } else if self.journal_thread.join().is_err() {
             tracing::error!("the journal writer died; the lines it had not written are in the log");
         }
     }

@@ -201,11 +201,12 @@ pub(super) fn record(
         }
         m => m,
     };
-    let rms_mag = match positive("rmsMag")? {
+    // Kept only to be written back: a zero or negative one is dropped, not the position with it.
+    let rms_mag = match num("rmsMag")? {
         Some(s) if s > 10.0 => {
             return Err(("rmsMag".into(), format!("{s} mag is not an uncertainty")));
         }
-        s => s,
+        s => s.filter(|s| *s > 0.0),
     };
     let observer_pos = match (get("sys"), get("ctr")) {
         (Some(sys), Some(ctr)) => {

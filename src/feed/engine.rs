@@ -180,7 +180,7 @@ impl State {
                 bytes,
                 arrived,
             }) => {
-                let name = path.display().to_string();
+                let name = super::sanitize::path_name(&path);
                 let ing = self.store.ingest(&name, &bytes, &self.sites, &self.limits);
                 for (obj, _) in &ing.changed {
                     self.arrived.insert(obj.clone(), arrived);
@@ -200,7 +200,7 @@ impl State {
                 reason,
                 arrived,
             }) => out(EngineEvent::Refused {
-                path: path.display().to_string(),
+                path: super::sanitize::path_name(&path),
                 reason,
                 arrived,
             }),

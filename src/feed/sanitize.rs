@@ -44,25 +44,42 @@ fn invisible(c: char) -> bool {
 }
 
 /// An object id from a file, safe to show in one terminal cell per character, and one-to-one with
-/// the raw id: every character cleaning would remove or change (controls, escape bytes, invisible
-/// format characters, characters wider or narrower than one cell) is written as `~` and its code
-/// point in hex and `;` (`K27D\u{200b}x09` becomes `K27D~200b;x09`), and `~` itself as `~7e;`. Ids that
-/// differ only in what cleaning removes thus stay distinct objects, visibly altered, and no id can be
-/// made to merge with another (a fingerprint could be forced to collide).
+/// the raw id: every character that is not printable ASCII (controls, escape bytes, invisible format
+/// characters, letters of other scripts, which some terminals draw two cells wide) is written as `~`
+/// and its code point in hex and `;` (`K27D\u{200b}x09` becomes `K27D~200b;x09`), and `~` itself as
+/// `~7e;`. Ids that differ only in what cleaning removes thus stay distinct objects, visibly altered,
+/// and no id can be made to merge with another (a fingerprint could be forced to collide).
 pub fn clean_id(raw: &str) -> String {
-    let kept = |ch: char| {
-        ch != '~'
-            && UnicodeWidthChar::width(ch) == Some(1)
-            && (ch.is_ascii_graphic()
-                || ch == ' '
-                || clean(ch.encode_utf8(&mut [0; 4])).starts_with(ch))
-    };
+    // Ids are ASCII by the standards: anything else (also letters some terminals draw two cells
+    // wide) is written by its code point.
+    let kept = |ch: char| ch != '~' && (ch.is_ascii_graphic() || ch == ' ');
     let mut out = String::with_capacity(raw.len());
     for ch in raw.chars() {
         if kept(ch) {
             out.push(ch);
         } else {
             out.push_str(&format!("~{:x};", u32::from(ch)));
+        }
+    }
+    out
+}
+
+/// A file's name as the feed keys and shows it, one-to-one with the path's bytes: a byte that is not
+/// UTF-8 is written `~` hex `;` and `~` itself `~7e;` (two names that differ only in such bytes are
+/// two files, not one that replaces the other).
+pub fn path_name(p: &std::path::Path) -> String {
+    use std::os::unix::ffi::OsStrExt;
+    let mut out = String::new();
+    for chunk in p.as_os_str().as_bytes().utf8_chunks() {
+        for ch in chunk.valid().chars() {
+            if ch == '~' {
+                out.push_str("~7e;");
+            } else {
+                out.push(ch);
+            }
+        }
+        for b in chunk.invalid() {
+            out.push_str(&format!("~{b:02x};"));
         }
     }
     out
@@ -161,6 +178,19 @@ mod tests {
             .collect();
         assert_eq!(escapes.len(), 8, "{escapes:?}");
         assert!(escapes.iter().all(|e| !e.contains('\u{1b}')));
+    }
+
+    /// Regression: the watcher keyed files by their lossy names, so `obs\xff.psv` and `obs\xfe.psv` were
+    /// one file, each replacing the other's observations.
+    #[test]
+    fn file_names_that_differ_only_in_bytes_that_are_not_utf8_stay_two_names() {
+        use std::os::unix::ffi::OsStrExt;
+        let name =
+            |b: &[u8]| super::path_name(std::path::Path::new(std::ffi::OsStr::from_bytes(b)));
+        assert_eq!(name(b"obs\xff.psv"), "obs~ff;.psv");
+        assert_ne!(name(b"obs\xff.psv"), name(b"obs\xfe.psv"));
+        assert_ne!(name(b"obs\xff.psv"), name(b"obs~ff;.psv"));
+        assert_eq!(name(b"dir/001_a.psv"), "dir/001_a.psv");
     }
 
     /// Regression: a raw id already written as a cleaned one (`K27Dx09~6c7edd`) merged with the id it

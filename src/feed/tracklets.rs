@@ -159,16 +159,16 @@ pub fn read_bytes(file: &str, bytes: &[u8], sites: &SiteTable, limits: &Limits) 
 
 /// Merge tracklets of the same object (from several files) into one, duplicates removed. The merged
 /// tracklet's source lists the files it came from, separated by "; ", in order of first appearance.
-/// Lines beyond twice the observation limit (two-line records) plus this many header lines mean a
-/// file is refused before it is parsed.
+/// Lines beyond the observation limit (twice it for 80-column files, whose records may take two
+/// lines) plus this many header lines mean a file is refused before it is parsed.
 const HEADER_ALLOWANCE: usize = 1000;
 
-/// Roving observers: altitudes accepted (m), from below the lowest land to above the highest
-/// observing aircraft (common practice, no source).
 /// Apparent magnitudes a position can carry: from brighter than any comet or close flyby has been to
 /// fainter than any telescope reaches (common practice, no source). Outside, the number is a unit or
 /// a typing mistake, and it would decide the object's size, and through the population, its P.
 pub const APPARENT_MAG: std::ops::RangeInclusive<f64> = -15.0..=35.0;
+/// Roving observers: altitudes accepted (m), from below the lowest land to above the highest
+/// observing aircraft (common practice, no source).
 pub const MIN_ALT_M: f64 = -500.0;
 pub const MAX_ALT_M: f64 = 20_000.0;
 /// Space-based observers given about the geocentre: outside the Earth and within 10 million km

@@ -166,6 +166,10 @@ impl Predictor {
             pts.push((u.dot(&e_a) / d / ARCSEC, u.dot(&e_d) / d / ARCSEC));
             ws.push(*w);
         }
+        // Too few left in front of the observer to draw a region from.
+        if pts.len() < MIN_REGION_SAMPLES {
+            return linear();
+        }
         super::ephemeris::sample_extent(&pts, &ws).map_or_else(linear, |(a, b, _)| (a, b))
     }
 }
