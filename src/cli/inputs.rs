@@ -76,13 +76,8 @@ const MAX_SIDE_FILE_BYTES: u64 = 16 << 20;
 /// Read a side file (sites, site codes, population model) of at most [`MAX_SIDE_FILE_BYTES`].
 fn read_side_file(p: &Path) -> anyhow::Result<String> {
     let name = || interloper::feed::sanitize::clean(&p.display().to_string());
-    let f = std::fs::File::open(p).with_context(|| format!("reading {}", name()))?;
-    let mut bytes = Vec::new();
-    std::io::Read::read_to_end(
-        &mut std::io::Read::take(f, MAX_SIDE_FILE_BYTES + 1),
-        &mut bytes,
-    )
-    .with_context(|| format!("reading {}", name()))?;
+    let bytes = interloper::feed::read_at_most(p, MAX_SIDE_FILE_BYTES)
+        .with_context(|| format!("reading {}", name()))?;
     if bytes.len() as u64 > MAX_SIDE_FILE_BYTES {
         anyhow::bail!("{} is over {MAX_SIDE_FILE_BYTES} bytes: not read", name());
     }
@@ -218,19 +213,13 @@ pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake 
     {
         return refused(over(m.len()));
     }
-    let mut bytes = Vec::new();
-    let read = std::fs::File::open(path).and_then(|f| {
-        std::io::Read::read_to_end(
-            &mut std::io::Read::take(f, limits.max_bytes + 1),
-            &mut bytes,
-        )
-    });
+    let read = interloper::feed::read_at_most(path, limits.max_bytes);
     match read {
-        Ok(n) if n as u64 > limits.max_bytes => refused(format!(
+        Ok(bytes) if bytes.len() as u64 > limits.max_bytes => refused(format!(
             "more than {} bytes: over the limit",
             limits.max_bytes
         )),
-        Ok(_) => read_bytes(&name, &bytes, sites, limits),
+        Ok(bytes) => read_bytes(&name, &bytes, sites, limits),
         Err(e) => refused(format!("cannot read: {e}")),
     }
 }

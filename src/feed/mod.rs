@@ -36,3 +36,14 @@ impl InputError {
         }
     }
 }
+
+/// The first `max + 1` bytes of a file at most: one more than `max` tells the caller the file is over
+/// it, without reading a runaway file or a device to its end.
+pub fn read_at_most(path: &std::path::Path, max: u64) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)?
+        .take(max.saturating_add(1))
+        .read_to_end(&mut bytes)?;
+    Ok(bytes)
+}

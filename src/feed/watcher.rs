@@ -326,14 +326,7 @@ fn scan(
         }
         // No more than the size just seen (and one byte to tell it grew): a file growing between
         // the look and the read is not read beyond the limit.
-        let read = std::fs::File::open(&path).and_then(|f| {
-            let mut b = Vec::new();
-            std::io::Read::read_to_end(
-                &mut std::io::Read::take(f, st.size.saturating_add(1)),
-                &mut b,
-            )
-            .map(|_| b)
-        });
+        let read = super::read_at_most(&path, st.size);
         let bytes = match read {
             Ok(b) => b,
             // Gone between the listing and the read: nothing to say.
