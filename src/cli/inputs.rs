@@ -1,9 +1,9 @@
 //! Options shared by the subcommands that read tracklets: site tables and input paths.
 
 use anyhow::Context;
-use interloper::feed::InputError;
 use interloper::feed::sites::SiteTable;
 use interloper::feed::tracklets::{FileIntake, Limits, read_bytes};
+use interloper::feed::{Accept, InputError};
 use std::path::{Path, PathBuf};
 
 #[derive(Debug, clap::Args)]
@@ -76,7 +76,7 @@ const MAX_SIDE_FILE_BYTES: u64 = 16 << 20;
 /// Read a side file (sites, site codes, population model) of at most [`MAX_SIDE_FILE_BYTES`].
 fn read_side_file(p: &Path) -> anyhow::Result<String> {
     let name = || interloper::feed::sanitize::clean(&p.display().to_string());
-    let bytes = interloper::feed::read_at_most(p, MAX_SIDE_FILE_BYTES)
+    let bytes = interloper::feed::read_at_most(p, MAX_SIDE_FILE_BYTES, Accept::AnyFile)
         .with_context(|| format!("reading {}", name()))?;
     if bytes.len() as u64 > MAX_SIDE_FILE_BYTES {
         anyhow::bail!("{} is over {MAX_SIDE_FILE_BYTES} bytes: not read", name());
@@ -84,11 +84,19 @@ fn read_side_file(p: &Path) -> anyhow::Result<String> {
     String::from_utf8(bytes).with_context(|| format!("{} is not UTF-8 text", name()))
 }
 
+/// A file to read and how it was found.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct InputFile {
+    pub path: PathBuf,
+    /// Named on the command line (read whatever it is) or met in a directory (regular files only).
+    pub accept: Accept,
+}
+
 /// The files named on the command line, directories walked.
 #[derive(Debug, Default)]
 pub struct Inputs {
     /// Files to read, in a stable order (directories sorted, depth first).
-    pub files: Vec<PathBuf>,
+    pub files: Vec<InputFile>,
     /// Files met inside directories that are clearly not tracklet files, by extension.
     pub skipped: std::collections::BTreeMap<String, usize>,
     /// Special files met inside directories (FIFOs, devices, sockets), refused unread: reading one
@@ -137,7 +145,10 @@ pub fn expand(paths: &[PathBuf]) -> anyhow::Result<Inputs> {
         if p.is_dir() {
             walk(p, 0, &mut out)?;
         } else if p.exists() || p.is_symlink() {
-            out.files.push(p.clone());
+            out.files.push(InputFile {
+                path: p.clone(),
+                accept: Accept::AnyFile,
+            });
         } else {
             crate::usage!("no such file or directory: {}", p.display());
         }
@@ -181,7 +192,11 @@ fn walk(dir: &Path, depth: usize, out: &mut Inputs) -> anyhow::Result<()> {
             }
             // Everything else is offered to the reader, which reports what it cannot read
             // (special files included) with a reason.
-            _ => out.files.push(e),
+            // A special file swapped in after this look is refused when opened.
+            _ => out.files.push(InputFile {
+                path: e,
+                accept: Accept::RegularOnly,
+            }),
         }
     }
     Ok(())
@@ -195,7 +210,8 @@ fn hidden(p: &Path) -> bool {
 
 /// Read one file into tracklets (an unreadable file becomes an input error, not a crash). At most the
 /// size limit is read, whatever the file is (a device named by mistake ends at the limit).
-pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake {
+pub fn read_file(file: &InputFile, sites: &SiteTable, limits: &Limits) -> FileIntake {
+    let path = file.path.as_path();
     let name = interloper::feed::sanitize::clean(&path.display().to_string());
     let refused = |reason: String| FileIntake {
         tracklets: Vec::new(),
@@ -213,7 +229,7 @@ pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake 
     {
         return refused(over(m.len()));
     }
-    let read = interloper::feed::read_at_most(path, limits.max_bytes);
+    let read = interloper::feed::read_at_most(path, limits.max_bytes, file.accept);
     match read {
         Ok(bytes) if bytes.len() as u64 > limits.max_bytes => refused(format!(
             "more than {} bytes: over the limit",
@@ -227,7 +243,7 @@ pub fn read_file(path: &Path, sites: &SiteTable, limits: &Limits) -> FileIntake 
 /// Read files on up to `threads` threads (times are converted while reading, which costs), each
 /// file's intake in the order of `paths`.
 pub fn read_files(
-    paths: &[PathBuf],
+    paths: &[InputFile],
     sites: &SiteTable,
     limits: &Limits,
     threads: usize,
@@ -294,8 +310,8 @@ pub fn read_tracklets(
         eprintln!("rejected: {e}");
     }
     input_errors += inputs.refused.len();
-    for f in inputs.files {
-        let intake = read_file(&f, sites, &limits);
+    for f in &inputs.files {
+        let intake = read_file(f, sites, &limits);
         for e in &intake.errors {
             eprintln!("rejected: {e}");
         }
@@ -367,4 +383,36 @@ pub fn unknown_site(sites: &SiteTable, code: &str) -> anyhow::Error {
         codes.join(", ")
     ))
     .into()
+}
+
+#[cfg(all(test, unix))]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_fifo_swapped_in_after_the_walk_is_refused_not_waited_on() {
+        let dir = std::env::temp_dir().join(format!("interloper-swap-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        let file = dir.join("n1.psv");
+        std::fs::write(&file, "not yet a tracklet\n").unwrap();
+        let inputs = expand(std::slice::from_ref(&dir)).unwrap();
+        assert_eq!(inputs.files.len(), 1);
+        assert_eq!(inputs.files[0].accept, Accept::RegularOnly);
+        // Between the walk and the read the file becomes a FIFO nobody writes to.
+        std::fs::remove_file(&file).unwrap();
+        let status = std::process::Command::new("mkfifo")
+            .arg(&file)
+            .status()
+            .unwrap();
+        assert!(status.success());
+        let intake = read_files(&inputs.files, &SiteTable::builtin(), &Limits::default(), 1);
+        let reasons: Vec<&str> = intake[0].errors.iter().map(|e| e.reason.as_str()).collect();
+        assert!(intake[0].rejected, "{reasons:?}");
+        assert!(reasons[0].contains("not a regular file"), "{reasons:?}");
+        // Named on the command line, a pipe is what the user meant: it is offered to the reader.
+        let named = expand(std::slice::from_ref(&file)).unwrap();
+        assert_eq!(named.files[0].accept, Accept::AnyFile);
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
 }

@@ -326,7 +326,7 @@ fn scan(
         }
         // No more than the size just seen (and one byte to tell it grew): a file growing between
         // the look and the read is not read beyond the limit.
-        let read = super::read_at_most(&path, st.size);
+        let read = super::read_at_most(&path, st.size, super::Accept::RegularOnly);
         let bytes = match read {
             Ok(b) => b,
             // Gone between the listing and the read: nothing to say.
