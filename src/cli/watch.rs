@@ -314,6 +314,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     stop.store(true, Ordering::Relaxed);
     engine.shutdown();
     alerts.finish();
+    n.report_unfitted(&mut out);
     tracing::info!(
         "watch: stopped; {} file versions read, {} objects, {} observations, {} fits reported, {} rejected",
         n.files,
@@ -353,6 +354,8 @@ struct Counts {
     observations: usize,
     fits: usize,
     rejected: usize,
+    /// Objects whose newest observations were queued for a fit not reported yet.
+    awaiting: std::collections::BTreeSet<String>,
 }
 
 impl Counts {
@@ -366,9 +369,11 @@ impl Counts {
                 rejected,
                 objects,
                 observations,
+                queued,
                 ..
             } => {
                 self.files += 1;
+                self.awaiting.extend(queued);
                 (self.objects, self.observations) = (objects, observations);
                 if rejected {
                     out.rejected_file(&interloper::feed::sanitize::clean(&path), &errors, arrived);
@@ -397,10 +402,43 @@ impl Counts {
             EngineEvent::Failed(msg) => tracing::error!("watch: {msg}"),
             EngineEvent::Fit { fit, arrived, .. } => {
                 self.fits += 1;
+                self.awaiting.remove(&fit.object);
                 fit_line(out, &fit, arrived)?;
             }
         }
         Ok(())
+    }
+}
+
+impl Counts {
+    /// Stopped (a signal, a closed pipe) with fits still to come: which objects have no reported fit
+    /// of their newest observations, so that a pipeline can fit them (their observations are in the
+    /// files; nothing is lost, but nothing about them was said).
+    fn report_unfitted(&self, out: &mut Out) {
+        if self.awaiting.is_empty() {
+            return;
+        }
+        let ids: Vec<&str> = self.awaiting.iter().map(String::as_str).collect();
+        const SHOWN: usize = 20;
+        let more = ids.len().saturating_sub(SHOWN);
+        let text = format!(
+            "unfitted: {} object(s) stopped before their fit was reported (their observations are in \
+             the files; `interloper fit` takes them): {}{}",
+            ids.len(),
+            ids[..ids.len().min(SHOWN)].join(", "),
+            if more > 0 {
+                format!(" and {more} more")
+            } else {
+                String::new()
+            }
+        );
+        tracing::warn!("watch: {text}");
+        let v = serde_json::json!({
+            "kind": "unfitted",
+            "n_objects": ids.len(),
+            "objects": ids,
+        });
+        out.emit(v, text);
     }
 }
 

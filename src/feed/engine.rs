@@ -61,6 +61,9 @@ pub enum EngineEvent {
         /// Objects and observations in the store now.
         objects: usize,
         observations: usize,
+        /// The objects this file changed whose fits were queued (each is answered by a `Fit`
+        /// unless the run stops first).
+        queued: Vec<String>,
     },
     /// A file refused without reading it, or the watcher's own trouble (`path` empty).
     Refused {
@@ -182,9 +185,10 @@ impl State {
             }) => {
                 let name = super::sanitize::path_name(&path);
                 let ing = self.store.ingest(&name, &bytes, &self.sites, &self.limits);
+                let mut queued = Vec::new();
                 for (obj, _) in &ing.changed {
                     self.arrived.insert(obj.clone(), arrived);
-                    self.submit(obj);
+                    queued.extend(self.submit(obj));
                 }
                 out(EngineEvent::Ingested {
                     path: name,
@@ -193,6 +197,7 @@ impl State {
                     rejected: ing.rejected,
                     objects: self.store.n_objects(),
                     observations: self.store.n_observations(),
+                    queued,
                 })
             }
             Input::Watch(WatchEvent::Refused {
@@ -227,7 +232,7 @@ impl State {
             Input::Overrides(obj, ov) => {
                 if self.overrides.get(&obj).cloned().unwrap_or_default() != ov {
                     self.overrides.insert(obj.clone(), ov);
-                    self.submit(&obj);
+                    let _ = self.submit(&obj);
                 }
                 true
             }
@@ -238,10 +243,10 @@ impl State {
         }
     }
 
-    fn submit(&mut self, object: &str) {
-        let Some(t) = self.store.tracklet(object) else {
-            return;
-        };
+    /// Queue a fit of the object's observations as they stand; the id its fit will carry, if one was
+    /// queued (an object with no observations left has nothing to fit).
+    fn submit(&mut self, object: &str) -> Option<String> {
+        let t = self.store.tracklet(object)?;
         let ov = self.overrides.get(object).cloned().unwrap_or_default();
         let t = if ov.excluded.is_empty() {
             t
@@ -259,6 +264,8 @@ impl State {
             perturbations: ov.perturbations,
             ..self.opts.clone()
         };
+        let id = t.object.clone();
         self.pool.submit(*g, t, opts);
+        Some(id)
     }
 }
