@@ -13,7 +13,6 @@ use crate::physics::dopri::{Control, IntegrationError, Tolerance, integrate};
 use crate::physics::earth::hermite;
 use crate::physics::{S6, V3};
 use std::cell::RefCell;
-use std::collections::HashMap;
 
 /// The planets the flight feels, in `plan94` order (Earth stands for the Earth–Moon barycentre).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -69,16 +68,53 @@ const INNER_RADIUS_AU: f64 = 10.0;
 /// Node spacing (days): inner planets, giants.
 const STEP_INNER: f64 = 1.0;
 const STEP_GIANT: f64 = 16.0;
-/// Nodes kept per thread before the memo starts afresh.
+/// Nodes kept per planet and thread before the memo starts afresh.
 const MAX_NODES: usize = 40_000;
 
+/// One planet's states at consecutive nodes `base`, `base + 1`, … (None where not yet computed): a
+/// flight sweeps a contiguous span of time, so an index into a run of nodes finds them without
+/// hashing (hashing every lookup cost a third of an unbound candidate's whole fit).
+#[derive(Default)]
+struct NodeRun {
+    base: i64,
+    states: std::collections::VecDeque<Option<(V3, V3)>>,
+}
+
+impl NodeRun {
+    fn get(&self, i: i64) -> Option<(V3, V3)> {
+        let k = usize::try_from(i.checked_sub(self.base)?).ok()?;
+        self.states.get(k).copied().flatten()
+    }
+
+    /// Keep `n` at index `i`, growing the run towards it; a run that would pass `MAX_NODES` starts
+    /// afresh at `i`.
+    fn put(&mut self, i: i64, n: (V3, V3)) {
+        let len = self.states.len() as i64;
+        let (lo, hi) = (self.base.min(i), (self.base + len).max(i + 1));
+        if self.states.is_empty() || hi - lo > MAX_NODES as i64 {
+            self.base = i;
+            self.states.clear();
+            self.states.push_back(Some(n));
+            return;
+        }
+        while self.base > i {
+            self.states.push_front(None);
+            self.base -= 1;
+        }
+        while self.base + (self.states.len() as i64) <= i {
+            self.states.push_back(None);
+        }
+        self.states[(i - self.base) as usize] = Some(n);
+    }
+}
+
 thread_local! {
-    /// Heliocentric planet states at nodes, keyed by (planet, node index).
-    static NODES: RefCell<HashMap<(u8, i64), (V3, V3)>> = RefCell::new(HashMap::new());
+    /// Heliocentric planet states at nodes, per planet.
+    static NODES: RefCell<[NodeRun; 8]> = RefCell::new(Default::default());
 }
 
 fn node(k: usize, i: i64, step: f64) -> Result<(V3, V3), IntegrationError> {
-    if let Some(n) = NODES.with(|m| m.borrow().get(&(k as u8, i)).copied()) {
+    if let Some(n) = NODES.with(|m| m.borrow()[k].get(i)) {
         return Ok(n);
     }
     let (pv, _) = sofars::eph::plan94(i as f64 * step, 0.0, k as i32 + 1)
@@ -87,13 +123,7 @@ fn node(k: usize, i: i64, step: f64) -> Result<(V3, V3), IntegrationError> {
         V3::new(pv[0][0], pv[0][1], pv[0][2]),
         V3::new(pv[1][0], pv[1][1], pv[1][2]),
     );
-    NODES.with(|m| {
-        let mut m = m.borrow_mut();
-        if m.len() >= MAX_NODES {
-            m.clear();
-        }
-        m.insert((k as u8, i), n);
-    });
+    NODES.with(|m| m.borrow_mut()[k].put(i, n));
     Ok(n)
 }
 
@@ -284,6 +314,30 @@ pub fn fly(x_helio: &S6, t0: f64, dir: f64, r_stop: f64) -> Result<Flight, Integ
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_run_of_nodes_grows_either_way_and_starts_afresh_when_too_long() {
+        let at = |x: f64| (V3::new(x, 0.0, 0.0), V3::zeros());
+        let mut run = NodeRun::default();
+        assert_eq!(run.get(5), None);
+        run.put(5, at(5.0));
+        run.put(8, at(8.0));
+        run.put(2, at(2.0));
+        assert_eq!((run.base, run.states.len()), (2, 7));
+        for i in [2, 5, 8] {
+            assert_eq!(run.get(i), Some(at(i as f64)));
+        }
+        // Gaps inside the run and indices outside it are simply not there.
+        for i in [1, 3, 4, 6, 7, 9, i64::MIN, i64::MAX] {
+            assert_eq!(run.get(i), None, "{i}");
+        }
+        // A node too far away for one run replaces it.
+        let far = 2 + MAX_NODES as i64;
+        run.put(far, at(1.0));
+        assert_eq!((run.base, run.states.len()), (far, 1));
+        assert_eq!(run.get(5), None);
+        assert_eq!(run.get(far), Some(at(1.0)));
+    }
 
     #[test]
     fn the_model_mass_is_the_usual_solar_system_mass() {
