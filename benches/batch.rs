@@ -21,7 +21,8 @@ fn data() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/reference/data")
 }
 
-const HEADER: &str = "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|astCat|mag|band\n";
+const HEADER: &str =
+    "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|astCat|mag|band\n";
 
 /// Object blocks (id, data lines) of a PSV file.
 fn blocks(path: &Path) -> Vec<(String, Vec<String>)> {

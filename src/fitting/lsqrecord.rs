@@ -208,20 +208,28 @@ fn alternatives_out(fit: &LsqFit, alternatives: &[LsqFit], shift: &S6) -> Vec<Al
         .collect()
 }
 
-/// What the record says when other solutions fit as well, and whether any flips the answer.
+/// What the record says when the positions allow other solutions, how much worse the worst of them
+/// fits, and whether any flips the answer.
 fn alternatives_note(alternatives: &[Alternative], unbound: bool) -> Option<String> {
     if alternatives.is_empty() {
         return None;
     }
+    let worst = alternatives
+        .iter()
+        .map(|a| a.delta_chi2)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let allowed = format!(
+        "{} other solution(s) the positions also allow (Δχ² up to {worst:+.1})",
+        alternatives.len()
+    );
     let flips = alternatives.iter().filter(|a| a.unbound != unbound).count();
     Some(if flips > 0 {
         format!(
-            "{} other solution(s) fit as well, {flips} of them {}: P weighs them all",
-            alternatives.len(),
+            "{allowed}, {flips} of them {}: P weighs them all",
             if unbound { "bound" } else { "unbound" }
         )
     } else {
-        format!("{} other solution(s) fit as well", alternatives.len())
+        allowed
     })
 }
 

@@ -14,7 +14,7 @@ use super::profile::{DensityContext, Frame, GridInputs, Profile, ProfileOptions,
 use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
-use super::search::{ALTERNATIVE_DCHI2, same_minimum};
+use super::search::{competitive, same_minimum};
 use super::stats::relative_weights;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_SUN};
 use crate::physics::frames::unit_from_radec;
@@ -163,7 +163,8 @@ fn valley_shares(prof: &Profile) -> (Vec<usize>, Vec<f64>) {
 pub const MIN_VALLEY_SHARE: f64 = 1e-3;
 
 /// Least-squares minima of the scan's other valleys that hold at least `MIN_VALLEY_SHARE` of the
-/// posterior or fit within `ALTERNATIVE_DCHI2` of the best, each with its posterior share.
+/// posterior or compete with the best fit by χ² (`search::competitive`), each with its posterior
+/// share.
 fn other_valleys(
     p: &Problem,
     frame: &Frame,
@@ -192,7 +193,7 @@ fn other_valleys(
                 .map(|(s, _)| s)
                 .min_by(|a, b| a.chi2.total_cmp(&b.chi2))?;
             let w = share[v] / total;
-            if w < MIN_VALLEY_SHARE && floor.chi2 - fit.chi2 >= ALTERNATIVE_DCHI2 {
+            if w < MIN_VALLEY_SHARE && !competitive(floor.chi2, fit) {
                 return None;
             }
             let f = correct(p, &frame.state(&floor.a, floor.rho), &used, &opts.lsq).ok()?;
