@@ -193,6 +193,42 @@ fn three_night_near_parabolic_pulls_are_calibrated() {
 }
 
 #[test]
+fn a_strongly_hyperbolic_draw_whose_true_minimum_fits_worse_still_lists_it() {
+    // Regression: in these two noise draws (of seeds other than the calibration's) a wrong minimum,
+    // e ≈ 18.4, fits better than the true one (e 2.4) by Δχ² ≈ 10.6. The true one was dropped as
+    // beyond Δχ² 9 and the wrong one reported alone with status ok, 24σ off.
+    let t = util::synthetic("hyp_strong_3n");
+    let te = t["e"].as_f64().unwrap();
+    let near = |x: f64| (x - te).abs() <= 0.05 * te;
+    for (seed, draw) in [(105, 200), (205, 102)] {
+        let mut rng = SplitMix::new(seed);
+        let tr = (0..=draw)
+            .map(|_| util::noisy(&t, &mut rng, 0.2))
+            .last()
+            .unwrap();
+        let r = fit_tracklet(&tr, &ObserverModel::new(), &FitOptions::default());
+        let listed: Vec<(f64, f64)> = r.alternatives.iter().map(|a| (a.e, a.delta_chi2)).collect();
+        assert!(
+            !listed.is_empty(),
+            "seed {seed} draw {draw}: e {:?} alone",
+            r.e
+        );
+        assert!(
+            near(r.e.unwrap()) || listed.iter().any(|(e, _)| near(*e)),
+            "seed {seed} draw {draw}: e {:?}, others {listed:?}, truth {te}",
+            r.e
+        );
+        assert!(
+            r.distrust_linear
+                .iter()
+                .any(|w| w.contains("other solution(s) the positions also allow")),
+            "{:?}",
+            r.distrust_linear
+        );
+    }
+}
+
+#[test]
 fn ten_night_main_belt_pulls_are_calibrated() {
     check("mainbelt_10n", 7);
 }
