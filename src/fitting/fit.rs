@@ -231,7 +231,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         && !decided
         && !hopeless
         && let Some(mut r) =
-            super::twonight::fit_by_profile(inputs, Some(fit.state), &found.elsewhere, dynamics)
+            super::twonight::fit_by_profile(inputs, Some(&fit), &found.elsewhere, dynamics)
     {
         // The profile's refit may look linear again; the doubts were found about this minimum.
         doubts.mark(&mut r);

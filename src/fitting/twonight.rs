@@ -61,37 +61,92 @@ pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
 }
 
 /// Any multi-night arc along its range profile (the answer for two nights, for arcs whose linear
-/// answer cannot be trusted, and the way out when least squares finds no orbit), from `start` or a
-/// straight line through the positions, with a slice at each of the other known minima `elsewhere`.
+/// answer cannot be trusted, and the way out when least squares finds no orbit), from the fit `start`
+/// or a straight line through the positions, with a slice at each of the other known minima
+/// `elsewhere`. The profile weighs the positions the least-squares fit keeps: `start`'s, then, if the
+/// fit from the profile's floor sets others aside, the profile is formed once more on those (a wild
+/// position once shaped P, σ and the samples while the record showed it rejected).
 pub fn fit_by_profile(
     inp: &ArcInputs,
-    start: Option<S6>,
+    start: Option<&LsqFit>,
     elsewhere: &[S6],
     dynamics: &dyn Dynamics,
 ) -> Option<FitResult> {
     let (tr, opts) = (inp.tr, inp.opts);
     let shift = &inp.shift;
     let p = inp.problem(dynamics);
-    let ScanStart { frame, start } = scan_start(inp, start)?;
-    let (v_mag, _) = night_v_mag(tr, &opts.population);
+    let ScanStart {
+        frame,
+        start: first,
+    } = scan_start(inp, start.map(|f| f.state))?;
+    let seeds: Vec<(V5, f64)> = elsewhere.iter().map(|x| frame.params(x)).collect();
+    let mut used = start.map_or_else(|| vec![true; tr.obs.len()], |f| f.used.clone());
+    let mut answer = profile_answer(inp, &p, &frame, (first, &seeds), &used)?;
+    if answer.fit.used != used {
+        used = answer.fit.used.clone();
+        answer = profile_answer(inp, &p, &frame, (first, &seeds), &used)?;
+    }
+    let ProfileAnswer {
+        prof,
+        ids,
+        share,
+        fit,
+    } = answer;
+    let others = other_valleys(&p, &frame, &prof, (&ids, &share), &fit, opts);
+    // A profile without a posterior is a gross misfit: the record still shows the best attempt and
+    // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
+    let v_cap = opts.ranging.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let given = given(&prof, &frame, shift, v_cap);
+    let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
+    let mut out = lsq_result(
+        &p,
+        &fit,
+        &alternatives,
+        shift,
+        opts,
+        dynamics.model(),
+        given,
+    );
+    for (a, (_, share)) in out.alternatives.iter_mut().zip(&others) {
+        a.probability = Some(*share);
+    }
+    Some(out)
+}
+
+/// A profile over the `used` positions, its valleys and their posterior shares, and the full
+/// least-squares fit (outliers handled) from the floor of the valley the posterior favours.
+struct ProfileAnswer {
+    prof: Profile,
+    ids: Vec<usize>,
+    share: Vec<f64>,
+    fit: LsqFit,
+}
+
+fn profile_answer(
+    inp: &ArcInputs,
+    p: &Problem,
+    frame: &Frame,
+    (start, seeds): ((V5, f64), &[(V5, f64)]),
+    used: &[bool],
+) -> Option<ProfileAnswer> {
+    let opts = inp.opts;
+    let (v_mag, _) = night_v_mag(inp.tr, &opts.population);
     let ctx = DensityContext {
         model: &opts.population,
-        sun_bary: *shift,
+        sun_bary: inp.shift,
         v_mag,
     };
-    let used = vec![true; tr.obs.len()];
     let popts = ProfileOptions {
         v_cap_km_s: opts.ranging.v_cap_km_s,
         n_rho: opts.ranging.profile_n_rho,
         ..ProfileOptions::default()
     };
-    let seeds: Vec<(V5, f64)> = elsewhere.iter().map(|x| frame.params(x)).collect();
     let grid = GridInputs {
-        p: &p,
-        frame: &frame,
+        p,
+        frame,
         start,
-        seeds: &seeds,
-        used: &used,
+        seeds,
+        used,
         opts: &popts,
     };
     let prof = profile(&grid, &ctx)?;
@@ -109,26 +164,13 @@ pub fn fit_by_profile(
         .map(|(s, _)| s)
         .min_by(|a, b| a.chi2.total_cmp(&b.chi2))
         .unwrap_or(&prof.best);
-    let fit = correct_with_outliers(&p, &frame.state(&floor.a, floor.rho), &opts.lsq).ok()?;
-    let others = other_valleys(&p, &frame, &prof, (&ids, &share), &fit, opts);
-    // A profile without a posterior is a gross misfit: the record still shows the best attempt and
-    // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
-    let v_cap = popts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
-    let given = given(&prof, &frame, shift, v_cap);
-    let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
-    let mut out = lsq_result(
-        &p,
-        &fit,
-        &alternatives,
-        shift,
-        opts,
-        dynamics.model(),
-        given,
-    );
-    for (a, (_, share)) in out.alternatives.iter_mut().zip(&others) {
-        a.probability = Some(*share);
-    }
-    Some(out)
+    let fit = correct_with_outliers(p, &frame.state(&floor.a, floor.rho), &opts.lsq).ok()?;
+    Some(ProfileAnswer {
+        prof,
+        ids,
+        share,
+        fit,
+    })
 }
 
 /// The profile's posterior, its weighted nodes and what the positions alone allow, for the record
@@ -181,7 +223,8 @@ fn other_valleys(
         .iter()
         .position(|s| s.rho >= rho_fit)
         .map_or(n.saturating_sub(1), |k| ids[k]);
-    let used = vec![true; p.len()];
+    // Compared on the positions the reported fit kept.
+    let used = &fit.used;
     (0..n)
         .filter(|&v| v != home)
         .filter_map(|v| {
@@ -196,7 +239,7 @@ fn other_valleys(
             if w < MIN_VALLEY_SHARE && !competitive(floor.chi2, fit) {
                 return None;
             }
-            let f = correct(p, &frame.state(&floor.a, floor.rho), &used, &opts.lsq).ok()?;
+            let f = correct(p, &frame.state(&floor.a, floor.rho), used, &opts.lsq).ok()?;
             (f.converged && f.cov.is_some() && !same_minimum(fit, &f)).then_some((f, w))
         })
         .fold(Vec::new(), |mut kept: Vec<(LsqFit, f64)>, (f, w)| {
