@@ -276,15 +276,7 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         match next {
             Ok(ev) => {
                 last_activity = Instant::now();
-                // The alert line follows the fit that raised it.
-                let alert = match &ev {
-                    EngineEvent::Fit { fit, .. } => alerts.on_fit(fit),
-                    _ => None,
-                };
-                n.report(&mut out, ev)?;
-                if let Some((json, text)) = alert {
-                    out.emit(json, text);
-                }
+                report_with_alert(&mut n, &mut out, &mut alerts, ev)?;
             }
             Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
             Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
@@ -313,6 +305,19 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     }
     stop.store(true, Ordering::Relaxed);
     engine.shutdown();
+    // What was already on its way (a file taken in, a fit finished) is reported before the closing
+    // record, so that every object taken in is either fitted or named: until the engine has been
+    // quiet for a tenth of a second, two seconds at most.
+    let until = Instant::now() + Duration::from_secs(2);
+    let late = held.take().into_iter().chain(std::iter::from_fn(|| {
+        let left = until.checked_duration_since(Instant::now())?;
+        results
+            .recv_timeout(left.min(Duration::from_millis(100)))
+            .ok()
+    }));
+    for ev in late {
+        report_with_alert(&mut n, &mut out, &mut alerts, ev)?;
+    }
     alerts.finish();
     n.report_unfitted(&mut out);
     tracing::info!(
@@ -324,6 +329,25 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         n.rejected
     );
     Ok(0)
+}
+
+/// Report one engine event, and after a fit the alert it raised.
+fn report_with_alert(
+    n: &mut Counts,
+    out: &mut Out,
+    alerts: &mut super::watch_alerts::HeadlessAlerts,
+    ev: EngineEvent,
+) -> anyhow::Result<()> {
+    // The alert line follows the fit that raised it.
+    let alert = match &ev {
+        EngineEvent::Fit { fit, .. } => alerts.on_fit(fit),
+        _ => None,
+    };
+    n.report(out, ev)?;
+    if let Some((json, text)) = alert {
+        out.emit(json, text);
+    }
+    Ok(())
 }
 
 /// Lines the observers added: objects whose exclusions or forced methods changed are refitted.

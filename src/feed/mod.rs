@@ -70,7 +70,8 @@ fn open_regular(path: &std::path::Path) -> std::io::Result<std::fs::File> {
     #[cfg(unix)]
     {
         use std::os::unix::fs::OpenOptionsExt;
-        options.custom_flags(libc::O_NONBLOCK);
+        // Nor does a terminal put in a file's place become the reader's controlling terminal.
+        options.custom_flags(libc::O_NONBLOCK | libc::O_NOCTTY);
     }
     let file = options.open(path)?;
     if !file.metadata()?.is_file() {

@@ -47,7 +47,7 @@ pub struct Found {
     /// The best minimum, refined with outlier handling.
     pub best: LsqFit,
     /// The other distinct minima within `ALTERNATIVE_DCHI2` of it or fitting as the errors allow
-    /// ([`competitive`]), on the same observations.
+    /// (`competitive`), on the same observations.
     pub alternatives: Vec<LsqFit>,
     /// Every other distinct minimum within `PROFILE_SEED_DCHI2` (all observations), for the profile.
     pub elsewhere: Vec<S6>,
@@ -105,14 +105,15 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
 }
 
 /// A seed corrected briefly: a good seed converges in a handful of iterations; the winner is
-/// refined in full afterwards. A seed that walks into the basin of a minimum in `known` is given up:
-/// it would only find that minimum again.
+/// refined in full afterwards. A seed that walks into the basin of one of the `minima` found so far
+/// is given up: it would only find that minimum again.
 pub(super) fn correct_seed(
     p: &Problem,
     seed: &S6,
     opts: &FitOptions,
-    known: &[Basin],
+    minima: &[LsqFit],
 ) -> Option<LsqFit> {
+    let known = basins(minima);
     let used = vec![true; p.len()];
     let seed_opts = LsqOptions {
         max_iterations: opts.lsq.max_iterations.min(SEED_ITERATIONS),
@@ -130,7 +131,10 @@ pub(super) fn correct_seed(
     // the search's only way out of it: a near-Earth ten-night arc with a 4″ wild point was left
     // with a misfit of χ² 1.5 million while seeds needing 23–27 steps reached χ² 380); the others
     // are given up.
-    let better_than_known = known.iter().all(|b| f.chi2 < b.chi2);
+    // (Every minimum counts here, also one without a covariance, which has no basin; with none known
+    // yet the seed is let finish too: the first minimum, even a gross misfit, is what the next seeds
+    // are judged against. A false linkage pays at most the full correction for each of its seeds.)
+    let better_than_known = minima.iter().all(|m| f.chi2 < m.chi2);
     if f.converged || (f.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF && !better_than_known) {
         return f.converged.then_some(f);
     }
@@ -187,7 +191,7 @@ impl Basin {
     }
 }
 
-pub(super) fn basins(minima: &[LsqFit]) -> Vec<Basin> {
+fn basins(minima: &[LsqFit]) -> Vec<Basin> {
     minima.iter().filter_map(Basin::of).collect()
 }
 
@@ -261,7 +265,7 @@ fn gauss_minima(p: &Problem, opts: &FitOptions) -> Vec<LsqFit> {
                 continue;
             }
             tried.push(s);
-            if let Some(f) = correct_seed(p, &s, opts, &basins(&minima)) {
+            if let Some(f) = correct_seed(p, &s, opts, &minima) {
                 merge(&mut minima, f);
             }
         }

@@ -63,9 +63,10 @@ pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
 /// Any multi-night arc along its range profile (the answer for two nights, for arcs whose linear
 /// answer cannot be trusted, and the way out when least squares finds no orbit), from the fit `start`
 /// or a straight line through the positions, with a slice at each of the other known minima
-/// `elsewhere`. The profile weighs the positions the least-squares fit keeps: `start`'s, then, if the
-/// fit from the profile's floor sets others aside, the profile is formed once more on those (a wild
-/// position once shaped P, σ and the samples while the record showed it rejected).
+/// `elsewhere`. The profile weighs the positions the least-squares fit keeps: `start`'s, then, while
+/// the fit from the profile's floor keeps others (twice at most), the profile is formed again on
+/// those, and the record is fitted on the positions the last profile weighed (a wild position once
+/// shaped P, σ and the samples while the record showed it rejected).
 pub fn fit_by_profile(
     inp: &ArcInputs,
     start: Option<&LsqFit>,
@@ -82,9 +83,23 @@ pub fn fit_by_profile(
     let seeds: Vec<(V5, f64)> = elsewhere.iter().map(|x| frame.params(x)).collect();
     let mut used = start.map_or_else(|| vec![true; tr.obs.len()], |f| f.used.clone());
     let mut answer = profile_answer(inp, &p, &frame, (first, &seeds), &used)?;
-    if answer.fit.used != used {
-        used = answer.fit.used.clone();
-        answer = profile_answer(inp, &p, &frame, (first, &seeds), &used)?;
+    for _ in 0..2 {
+        if answer.fit.used == used {
+            break;
+        }
+        let next = answer.fit.used.clone();
+        // A pass that finds nothing leaves the answer of the one before.
+        let Some(a) = profile_answer(inp, &p, &frame, (first, &seeds), &next) else {
+            break;
+        };
+        (used, answer) = (next, a);
+    }
+    // The record weighs the positions the profile weighed, even where the outlier passes did not
+    // settle (a point readmitted in one valley and set aside in another).
+    if answer.fit.used != used
+        && let Ok(f) = correct(&p, &answer.fit.state, &used, &opts.lsq)
+    {
+        answer.fit = f;
     }
     let ProfileAnswer {
         prof,

@@ -7,7 +7,7 @@ use super::lsq::{LsqFit, Problem};
 use super::profile::{ProfileOptions, Slice, V5, solve_slice};
 use super::rangescan::{coarse_slices, valley_floors};
 use super::sampling::relative_range_sigma;
-use super::search::{SCAN_ITERATIONS, SCAN_POINTS, ScanStart, basins, correct_seed, merge};
+use super::search::{SCAN_ITERATIONS, SCAN_POINTS, ScanStart, correct_seed, merge};
 
 /// Minima from the valleys of a coarse scan over distance that no minimum found so far sits in: a
 /// valley narrower than the scan's spacing can hold the true orbit while Gauss's roots all lead to
@@ -31,7 +31,7 @@ pub(super) fn valley_minima(
     let mut flat_sided = Vec::new();
     for k in valley_floors(&coarse, true) {
         let s = coarse[k];
-        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, &basins(minima)) {
+        if let Some(f) = correct_seed(p, &scan.frame.state(&s.a, s.rho), opts, minima) {
             merge(minima, f);
         }
         // The valley's bracket: the scan's neighbours of its floor (mirrored at an end of the scan).
@@ -88,7 +88,7 @@ fn hidden_valleys(
             .min_by(|a, b| a.1.chi2.total_cmp(&b.1.chi2));
         if let Some((x, wall)) = target
             && let Some(s) = solve_slice(p, frame, x.exp(), wall.a, &used, SCAN_ITERATIONS)
-            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, &basins(minima))
+            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, minima)
         {
             merge(minima, f);
         }
@@ -165,7 +165,7 @@ fn probe_bracket(
             flat.push(minima[m.index].clone());
         }
         if rise < PROBE_RISE_SHARE * predicted
-            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, &basins(minima))
+            && let Some(f) = correct_seed(p, &frame.state(&s.a, s.rho), opts, minima)
         {
             merge(minima, f);
         }

@@ -68,8 +68,20 @@ const INNER_RADIUS_AU: f64 = 10.0;
 /// Node spacing (days): inner planets, giants.
 const STEP_INNER: f64 = 1.0;
 const STEP_GIANT: f64 = 16.0;
-/// Nodes kept per planet and thread before the memo starts afresh.
-const MAX_NODES: usize = 40_000;
+/// Nodes kept per planet and thread before the memo starts afresh (8 × 8192 states, under 4 MB; a
+/// flight longer than the run starts a new one).
+const MAX_NODES: usize = 8192;
+
+/// The node interval holding TDB JD `t`: its first node's index (an instant no ephemeris reaches is
+/// an error, not an index at the end of the integers).
+fn node_index(t: f64, step: f64) -> Result<i64, IntegrationError> {
+    let x = (t / step).floor();
+    if x.is_finite() && x.abs() < 1e15 {
+        Ok(x as i64)
+    } else {
+        Err(IntegrationError::NonFinite)
+    }
+}
 
 /// One planet's states at consecutive nodes `base`, `base + 1`, … (None where not yet computed): a
 /// flight sweeps a contiguous span of time, so an index into a run of nodes finds them without
@@ -137,7 +149,7 @@ thread_local! {
 /// Heliocentric position of planet k at TDB JD t.
 fn planet(k: usize, t: f64) -> Result<V3, IntegrationError> {
     let step = if k < 4 { STEP_INNER } else { STEP_GIANT };
-    let i = (t / step).floor() as i64;
+    let i = node_index(t, step)?;
     let (a, b) = match LAST.with(|l| l.borrow()[k]) {
         Some((j, a, b)) if j == i => (a, b),
         _ => {
@@ -198,7 +210,7 @@ pub fn to_barycentric(x: &S6, t: f64) -> Result<S6, IntegrationError> {
     for k in 0..8 {
         let mu = MU_SUN / ratio(k);
         let step = if k < 4 { STEP_INNER } else { STEP_GIANT };
-        let i = (t / step).floor() as i64;
+        let i = node_index(t, step)?;
         let (a, b) = (node(k, i, step)?, node(k, i + 1, step)?);
         let (pk, vk) = hermite(t / step - i as f64, step, &a.0, &a.1, &b.0, &b.1);
         p -= mu * pk / mu_tot;
