@@ -259,8 +259,13 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             if fit.status != "ok" || fit.prior_dominated {
                 out.write_all(
                     format!(
-                        "note: fit is {}{}\n",
+                        "note: fit is {}{}{}\n",
                         fit.status,
+                        if fit.status == "undetermined" {
+                            " (its elements are the population model's, not measured)"
+                        } else {
+                            ""
+                        },
                         if fit.prior_dominated {
                             ", answer set by the prior"
                         } else {

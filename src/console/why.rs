@@ -39,6 +39,9 @@ fn what_would_change(r: &FitResult) -> String {
     if r.model_overrules_unbound_positions() {
         return "another night tests the model".into();
     }
+    if r.status == crate::fitting::kinds::FitStatus::Undetermined {
+        return "another night measures e".into();
+    }
     if r.n_nights <= 1 && (0.01..=0.99).contains(&p) {
         return "a 2nd night decides it".into();
     }

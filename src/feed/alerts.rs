@@ -5,7 +5,6 @@
 //! discovery.
 
 use crate::fitting::fit::FitResult;
-use crate::fitting::kinds::FitStatus;
 use serde::Deserialize;
 use std::io::Write;
 use std::time::{Duration, SystemTime};
@@ -107,7 +106,7 @@ pub struct Summary {
 impl Summary {
     pub fn of(r: &FitResult) -> Summary {
         Summary {
-            usable: r.status == FitStatus::Ok,
+            usable: r.status.usable(),
             p: r.p_hyperbolic,
             prior_dominated: r.prior_dominated,
             n_nights: r.n_nights,

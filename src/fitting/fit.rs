@@ -101,6 +101,7 @@ pub const SHORT_ARC_DAYS: f64 = 0.5;
 /// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     let mut r = fit_orbit(tr, model, opts);
+    r.mark_undetermined();
     if let Some(o) = &opts.origin {
         r.origin = super::origin::origin_sheet(&r, o).map(Box::new);
     }

@@ -48,12 +48,22 @@ word_enum!(
     FitStatus {
         /// A usable orbit.
         Ok => "ok",
+        /// An orbit that fits the positions, but they leave its elements open: the population model,
+        /// not the data, narrowed e ± σ (`FitResult::mark_undetermined`). P is still the posterior.
+        Undetermined => "undetermined",
         /// An orbit that does not fit the positions well (the reasons are in `poor_fit`).
         PoorFit => "poor-fit",
         /// No orbit (the reason is in `error`).
         Failed => "failed",
     }
 );
+
+impl FitStatus {
+    /// An orbit that fits the positions (ok or undetermined): one to rank, alert on and follow.
+    pub fn usable(self) -> bool {
+        matches!(self, FitStatus::Ok | FitStatus::Undetermined)
+    }
+}
 
 word_enum!(
     /// What produced the orbit.

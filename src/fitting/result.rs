@@ -88,6 +88,11 @@ pub struct ResidualOut {
 /// largest; common practice, no source for the margin).
 pub const POSITIONS_UNBOUND_E: f64 = 1.01;
 
+/// Where the positions' own 95 % range of e is more than this many times as wide as the posterior's
+/// 95 % interval, the model has supplied most of what is known about e (with a Gaussian likelihood and
+/// prior, three times the data's information): the fit is `undetermined`.
+pub const MODEL_NARROWED: f64 = 2.0;
+
 /// The answer for one tracklet (the `fit --json` record).
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct FitResult {
@@ -178,11 +183,26 @@ impl FitResult {
     /// of e starts above `POSITIONS_UNBOUND_E`) while the posterior says bound: the population model,
     /// not the data, made the answer bound.
     pub fn model_overrules_unbound_positions(&self) -> bool {
-        self.status == super::kinds::FitStatus::Ok
+        self.status.usable()
             && self
                 .e_data_interval
                 .is_some_and(|[lo, _]| lo > POSITIONS_UNBOUND_E)
             && self.p_hyperbolic.is_some_and(|p| p < 0.5)
+    }
+
+    /// Mark an orbit that fits but whose e the population model, not the positions, set: their own
+    /// 95 % range of e (`e_data_interval`) is more than `MODEL_NARROWED` times as wide as the
+    /// posterior's central 95 % interval, or does not hold the e shown at all (the model's spike of
+    /// near-parabolic comets can hold the posterior's e where the positions allow only e ≥ 1.2). A pull
+    /// of such an e against an orbit the model finds rare can be many σ: the record must not call it ok.
+    pub fn mark_undetermined(&mut self) {
+        if self.status == super::kinds::FitStatus::Ok
+            && let (Some([dl, dh]), Some([pl, ph]), Some(e)) =
+                (self.e_data_interval, self.e_interval_95, self.e)
+            && (dh - dl > MODEL_NARROWED * (ph - pl) || !(dl..=dh).contains(&e))
+        {
+            self.status = super::kinds::FitStatus::Undetermined;
+        }
     }
 
     /// The e intervals from weighted values of e (the orbits behind e_sigma).
@@ -266,7 +286,7 @@ impl FitResult {
     /// Ranking order: usable fits before poor ones before failures, then by posterior odds.
     pub fn rank_key(&self) -> (u8, f64) {
         let tier = match self.status {
-            super::kinds::FitStatus::Ok => 2,
+            super::kinds::FitStatus::Ok | super::kinds::FitStatus::Undetermined => 2,
             super::kinds::FitStatus::PoorFit => 1,
             super::kinds::FitStatus::Failed => 0,
         };
@@ -337,4 +357,43 @@ pub fn resample(
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use crate::fitting::kinds::FitStatus;
+
+    fn with(e: f64, data: [f64; 2], posterior_95: [f64; 2]) -> super::FitResult {
+        let mut r = crate::testutil::record("u", 0.1, 2);
+        (r.e, r.e_data_interval, r.e_interval_95) = (Some(e), Some(data), Some(posterior_95));
+        r.mark_undetermined();
+        r
+    }
+
+    #[test]
+    fn a_fit_is_undetermined_where_the_model_narrowed_e_or_moved_it_outside_the_positions_range() {
+        // The positions allow 0.2–2.1, the posterior 0.14–0.54: the model narrowed e fourfold.
+        assert_eq!(
+            with(0.22, [0.2, 2.1], [0.14, 0.54]).status,
+            FitStatus::Undetermined
+        );
+        // As wide as each other, e inside: the data set e.
+        assert_eq!(with(0.3, [0.2, 0.5], [0.18, 0.48]).status, FitStatus::Ok);
+        // As wide, but e sits on the model's spike below the positions' range.
+        assert_eq!(
+            with(1.004, [1.18, 1.90], [0.99, 1.70]).status,
+            FitStatus::Undetermined
+        );
+        // A poor fit stays poor; a fit without the positions' range (a linear answer) stays ok.
+        let mut poor = crate::testutil::record("p", 0.1, 2);
+        poor.status = FitStatus::PoorFit;
+        (poor.e, poor.e_data_interval, poor.e_interval_95) =
+            (Some(0.2), Some([0.2, 2.1]), Some([0.14, 0.54]));
+        poor.mark_undetermined();
+        assert_eq!(poor.status, FitStatus::PoorFit);
+        let mut linear = crate::testutil::record("l", 0.1, 3);
+        linear.e = Some(0.2);
+        linear.mark_undetermined();
+        assert_eq!(linear.status, FitStatus::Ok);
+    }
 }

@@ -121,7 +121,10 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
         out.push(Line::from(line));
     }
     if let Some(interval) = f.e_data_interval {
-        out.push(Line::from(data_interval_line(interval)));
+        out.push(Line::from(data_interval_line(
+            interval,
+            f.status == crate::fitting::kinds::FitStatus::Undetermined,
+        )));
     }
     if !f.distrust_linear.is_empty() {
         out.push(Line::from(format!(
@@ -187,10 +190,15 @@ fn posterior_interval_line(f: &crate::fitting::result::FitResult) -> Option<Stri
 }
 
 /// The range of e the positions alone allow, beside the posterior's e ± σ above it.
-fn data_interval_line([lo, hi]: [f64; 2]) -> String {
+fn data_interval_line([lo, hi]: [f64; 2], undetermined: bool) -> String {
     format!(
-        "positions alone: e {lo:.3}–{hi:.3} (Δχ² ≤ {})",
-        crate::fitting::datainterval::DATA_DCHI2
+        "positions alone: e {lo:.3}–{hi:.3} (Δχ² ≤ {}){}",
+        crate::fitting::datainterval::DATA_DCHI2,
+        if undetermined {
+            " — e ± σ ARE THE MODEL'S, NOT MEASURED"
+        } else {
+            ""
+        }
     )
 }
 
@@ -226,8 +234,16 @@ mod tests {
     #[test]
     fn the_positions_alone_line_names_its_bound_on_chi2() {
         assert_eq!(
-            data_interval_line([0.6449, 14.0367]),
+            data_interval_line([0.6449, 14.0367], false),
             "positions alone: e 0.645–14.037 (Δχ² ≤ 3.84)"
+        );
+    }
+
+    #[test]
+    fn an_undetermined_fit_says_its_e_is_the_models() {
+        assert_eq!(
+            data_interval_line([0.6449, 14.0367], true),
+            "positions alone: e 0.645–14.037 (Δχ² ≤ 3.84) — e ± σ ARE THE MODEL'S, NOT MEASURED"
         );
     }
 

@@ -26,7 +26,7 @@ fn score_text(c: &Candidate) -> String {
 
 /// P(unbound) ≥ 0.99 on a fit without quality problems.
 fn strong(f: &crate::fitting::fit::FitResult) -> bool {
-    f.log10_odds.is_some_and(|z| z >= 2.0) && f.status == "ok"
+    f.log10_odds.is_some_and(|z| z >= 2.0) && f.status.usable()
 }
 
 /// The decision column: the verdict, `*` when it was made on fewer observations than are known now,
@@ -95,6 +95,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             let fit = &c.fit;
             let status = match fit.status {
                 FitStatus::Ok => "ok",
+                FitStatus::Undetermined => "model",
                 FitStatus::PoorFit => "POOR",
                 FitStatus::Failed => "FAIL",
             };
@@ -135,6 +136,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             }
             cells.push(Cell::from(status).style(match fit.status {
                 FitStatus::Ok => theme.fg(Color::Green),
+                FitStatus::Undetermined => theme.fg(Color::Yellow),
                 FitStatus::PoorFit => theme.fg(Color::Magenta),
                 FitStatus::Failed => theme.fg(Color::Red),
             }));
