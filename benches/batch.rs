@@ -88,7 +88,9 @@ fn run(dir: &Path) {
         .stdout(std::process::Stdio::null())
         .status()
         .unwrap();
-    assert!(status.code().is_some_and(|c| c <= 1), "{status:?}");
+    // Every file of every set is fitted (exit 1 would mean a failed fit or a refused file: a time for
+    // less work than the set).
+    assert!(status.success(), "{status:?}");
 }
 
 fn benches(c: &mut Criterion) {
