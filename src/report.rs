@@ -30,7 +30,7 @@ pub fn odds_text(r: &FitResult) -> String {
 pub fn ranked_table(results: &[FitResult]) -> String {
     let mut s = String::new();
     s.push_str(&format!(
-        "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<9} {}\n",
+        "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<12} {}\n",
         "rank",
         "object",
         "odds",
@@ -53,13 +53,15 @@ pub fn ranked_table(results: &[FitResult]) -> String {
             clean(&r.poor_fit.join("; "))
         } else if r.prior_dominated {
             "set by the population model, not the data".into()
+        } else if r.status == crate::fitting::kinds::FitStatus::Undetermined {
+            "e ± σ are the population model's, not measured".into()
         } else if !r.distrust_linear.is_empty() {
             format!("not linear: {}", clean(&r.distrust_linear.join(", ")))
         } else {
             String::new()
         };
         s.push_str(&format!(
-            "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<9} {}\n",
+            "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<12} {}\n",
             k + 1,
             clean(&r.object).chars().take(14).collect::<String>(),
             odds_text(r),

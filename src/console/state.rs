@@ -302,7 +302,8 @@ impl App {
                 .as_ref()
                 .map_or("~".into(), |d| d.verdict_label().to_string()),
             SortKey::Method => format!("{} {}", f.method, f.object),
-            SortKey::Status => format!("{} {}", f.status, f.object),
+            // Usable fits (ok and undetermined) before poor ones before failures, as the ranking.
+            SortKey::Status => format!("{} {} {}", 2 - f.rank_key().0, f.status, f.object),
             _ => f.object.clone(),
         };
         (v, s)
@@ -321,6 +322,7 @@ impl App {
         [
             f.object.as_str(),
             f.status.as_str(),
+            f.status.label(),
             f.method.as_str(),
             decision,
         ]

@@ -39,9 +39,6 @@ fn what_would_change(r: &FitResult) -> String {
     if r.model_overrules_unbound_positions() {
         return "another night tests the model".into();
     }
-    if r.status == crate::fitting::kinds::FitStatus::Undetermined {
-        return "another night measures e".into();
-    }
     if r.n_nights <= 1 && (0.01..=0.99).contains(&p) {
         return "a 2nd night decides it".into();
     }
@@ -54,6 +51,9 @@ fn what_would_change(r: &FitResult) -> String {
             n.e_sigma_now,
             n.e_sigma
         );
+    }
+    if r.status == crate::fitting::kinds::FitStatus::Undetermined {
+        return "another night measures e".into();
     }
     if (0.01..=0.99).contains(&p) {
         return "more positions narrow it".into();
@@ -127,6 +127,16 @@ mod tests {
         let w = why_line(&record(0.999, 3, false), 200);
         assert!(w.contains("data say unbound"), "{w}");
         assert!(w.contains("settled"), "{w}");
+    }
+
+    #[test]
+    fn an_undetermined_fit_ranks_as_usable_and_says_another_night_measures_e() {
+        let mut r = record(1e-7, 2, false);
+        r.status = crate::fitting::kinds::FitStatus::Undetermined;
+        let w = why_line(&r, 200);
+        assert!(w.contains("usable fit"), "{w}");
+        assert!(w.contains("another night measures e"), "{w}");
+        assert!(!w.contains("settled"), "{w}");
     }
 
     #[test]

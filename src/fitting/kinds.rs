@@ -63,6 +63,16 @@ impl FitStatus {
     pub fn usable(self) -> bool {
         matches!(self, FitStatus::Ok | FitStatus::Undetermined)
     }
+
+    /// The console's word for it, at most six characters (the status column).
+    pub fn label(self) -> &'static str {
+        match self {
+            FitStatus::Ok => "ok",
+            FitStatus::Undetermined => "model",
+            FitStatus::PoorFit => "POOR",
+            FitStatus::Failed => "FAIL",
+        }
+    }
 }
 
 word_enum!(

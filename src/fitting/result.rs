@@ -196,10 +196,12 @@ impl FitResult {
     /// near-parabolic comets can hold the posterior's e where the positions allow only e ≥ 1.2). A pull
     /// of such an e against an orbit the model finds rare can be many σ: the record must not call it ok.
     pub fn mark_undetermined(&mut self) {
+        // The positions' range is a little narrow where slices are sparse: a tenth of σ of slack.
+        let slack = 0.1 * self.e_sigma.unwrap_or(0.0);
         if self.status == super::kinds::FitStatus::Ok
             && let (Some([dl, dh]), Some([pl, ph]), Some(e)) =
                 (self.e_data_interval, self.e_interval_95, self.e)
-            && (dh - dl > MODEL_NARROWED * (ph - pl) || !(dl..=dh).contains(&e))
+            && (dh - dl > MODEL_NARROWED * (ph - pl) || !(dl - slack..=dh + slack).contains(&e))
         {
             self.status = super::kinds::FitStatus::Undetermined;
         }

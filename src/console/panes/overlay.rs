@@ -120,7 +120,7 @@ pub fn help_lines(app: &App) -> Vec<String> {
 }
 
 /// What the marks on screen mean and how the list is ordered.
-const LEGEND: [&str; 12] = [
+const LEGEND: [&str; 13] = [
     "[what the marks mean]",
     "  + / ~          before an id: new / refitted since you last had it under the cursor (c jumps to the next)",
     "  order          usable fits first (by log10 odds unbound : bound), then poor fits, then failures",
@@ -130,6 +130,7 @@ const LEGEND: [&str; 12] = [
     "  odds +∞ / -∞   one class got no weight at all: P is 1 or 0 only as far as the trial orbits reach",
     "  odds >+999     the odds are written as a bound past a thousand decades",
     "  e ± σ          σ from the samples behind P wherever the linear fit is not trusted",
+    "  status model   the positions leave e open: e ± σ are the population model's, not measured (ranks as ok)",
     "  (rng)          e from grid ranging whose orbits are too few to measure a σ (the fit is marked poor)",
     "  x              in the residual strips: a position set aside (outlier or excluded by you)",
     "  ^              in the residual strips: the position under the cursor",

@@ -93,12 +93,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .map(|(k, &i)| {
             let c = &app.candidates[i];
             let fit = &c.fit;
-            let status = match fit.status {
-                FitStatus::Ok => "ok",
-                FitStatus::Undetermined => "model",
-                FitStatus::PoorFit => "POOR",
-                FitStatus::Failed => "FAIL",
-            };
+            let status = fit.status.label();
             let e = match (fit.e, fit.e_sigma) {
                 (Some(e), Some(s)) => value_pm(e, s),
                 (Some(e), None) => format!("{e:.3} (rng)"),
