@@ -1,6 +1,6 @@
-//! What the positions alone say about e where P comes from the range profile: the least and greatest
-//! heliocentric e over the orbits whose χ² is within `DATA_DCHI2` of the best, a profile-likelihood
-//! interval. It takes no density and no measure on the orbits (only the speed cap every path shares),
+//! What the positions alone say about e where P comes from the range profile or from grid ranging: the
+//! least and greatest heliocentric e over the orbits whose χ² is within `DATA_DCHI2` of the best, a
+//! profile-likelihood interval. It takes no density and no measure on the orbits (only the speed cap every path shares),
 //! so it shows where the population model rather than the data narrowed the posterior's e ± σ.
 
 use super::profile::{Frame, Profile, Slice, V5};
@@ -69,4 +69,47 @@ pub fn e_data_interval(
         }
     }
     out
+}
+
+/// Over trial orbits given as (heliocentric state, χ²) with the four other parameters already profiled
+/// out (grid ranging's nodes): the least and greatest heliocentric e of those within `DATA_DCHI2` of
+/// the best, whatever their prior weight. None where there is none.
+pub fn e_range_of_nodes<'a>(
+    nodes: impl Iterator<Item = (&'a S6, f64)> + Clone,
+) -> Option<[f64; 2]> {
+    let best = nodes.clone().map(|(_, c)| c).fold(f64::INFINITY, f64::min);
+    nodes
+        .filter(|(_, c)| *c <= best + DATA_DCHI2)
+        .filter_map(|(x, _)| {
+            let (r, v) = split_state(x);
+            Some(eccentricity_vector(&r, &v, MU_SUN).norm()).filter(|e| e.is_finite())
+        })
+        .fold(None, |out: Option<[f64; 2]>, e| {
+            Some(out.map_or([e, e], |[lo, hi]| [lo.min(e), hi.max(e)]))
+        })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A heliocentric state at 1 au from the Sun moving perpendicular to the radius with speed `k`
+    /// times the circular one: e = |k² − 1|.
+    fn state(k: f64) -> S6 {
+        S6::new(1.0, 0.0, 0.0, 0.0, k * MU_SUN.sqrt(), 0.0)
+    }
+
+    #[test]
+    fn the_nodes_range_of_e_takes_every_node_within_the_bound_and_no_other() {
+        let nodes = [
+            (state(1.1), 10.0),  // e 0.21, the best
+            (state(1.2), 13.5),  // e 0.44, Δχ² 3.5: allowed
+            (state(1.3), 14.0),  // e 0.69, Δχ² 4.0: not
+            (state(0.95), 12.0), // e 0.0975: allowed
+        ];
+        let [lo, hi] = e_range_of_nodes(nodes.iter().map(|(x, c)| (x, *c))).unwrap();
+        assert!((lo - 0.0975).abs() < 1e-12, "{lo}");
+        assert!((hi - 0.44).abs() < 1e-12, "{hi}");
+        assert!(e_range_of_nodes(std::iter::empty()).is_none());
+    }
 }

@@ -79,6 +79,9 @@ pub struct RangingResult {
     pub i_interval: [f64; 3],
     pub best: RangingSample,
     pub trials: usize,
+    /// The least and greatest heliocentric e over every node within Δχ² 3.84 of the best, whatever
+    /// its prior (`FitResult::e_data_interval`).
+    pub e_data_interval: Option<[f64; 2]>,
 }
 
 /// A small seeded generator (SplitMix64) for reproducible jitter within grid cells.
@@ -279,6 +282,9 @@ pub fn range(
         .iter()
         .map(|n| n.sample.chi2)
         .fold(f64::INFINITY, f64::min);
+    let e_data_interval = super::datainterval::e_range_of_nodes(
+        nodes.iter().map(|n| (&n.sample.state, n.sample.chi2)),
+    );
     let ln_w: Vec<f64> = nodes
         .iter()
         .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
@@ -355,5 +361,6 @@ pub fn range(
         i_interval,
         best,
         trials,
+        e_data_interval,
     })
 }

@@ -107,6 +107,7 @@ fn fill_ranging(
         &opts.population.source,
     );
     out.n_eff = Some(rr.n_eff);
+    out.e_data_interval = rr.e_data_interval;
     // Every quantity from the same weighted orbits as P, as on the other sampled paths: σ, intervals,
     // the orbit nearest the medians of e, q and i in the table and the panes, the barycentric line,
     // the kept orbits.

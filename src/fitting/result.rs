@@ -108,8 +108,8 @@ pub struct FitResult {
     pub e: Option<f64>,
     pub e_sigma: Option<f64>,
     /// The least and greatest heliocentric e the positions alone allow where P comes from the range
-    /// profile (χ² within 3.84 of the best: 95 % for one parameter, no density involved; see
-    /// `datainterval.rs`); null on other paths. Beside e ± σ, which are the posterior's, it shows
+    /// profile or grid ranging (χ² within 3.84 of the best: 95 % for one parameter, no density
+    /// involved; see `datainterval.rs`); null on other paths. Beside e ± σ, which are the posterior's, it shows
     /// where the model rather than the data narrowed e.
     pub e_data_interval: Option<[f64; 2]>,
     /// The central 68.27 % and 95 % intervals of the heliocentric e over the same orbits as e_sigma (their
