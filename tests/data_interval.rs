@@ -30,9 +30,10 @@ fn coverage(name: &str) -> (usize, usize, usize) {
             &ObserverModel::new(),
             &FitOptions::default(),
         );
-        let Some([lo, hi]) = r.e_data_interval else {
+        if r.probability_from != "range-profile" {
             continue;
-        };
+        }
+        let [lo, hi] = r.e_data_interval.unwrap();
         assert!(lo <= hi, "{lo} {hi}");
         n += 1;
         data += usize::from((lo..=hi).contains(&te));

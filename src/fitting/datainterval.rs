@@ -111,5 +111,16 @@ mod tests {
         assert!((lo - 0.0975).abs() < 1e-12, "{lo}");
         assert!((hi - 0.44).abs() < 1e-12, "{hi}");
         assert!(e_range_of_nodes(std::iter::empty()).is_none());
+        // A node without a χ² neither sets the best nor joins the range.
+        let odd = [
+            (state(1.1), 10.0),
+            (state(1.3), f64::INFINITY),
+            (state(1.2), f64::NAN),
+        ];
+        let [lo, hi] = e_range_of_nodes(odd.iter().map(|(x, c)| (x, *c))).unwrap();
+        assert!(
+            (lo - 0.21).abs() < 1e-12 && (hi - 0.21).abs() < 1e-12,
+            "{lo} {hi}"
+        );
     }
 }

@@ -79,8 +79,8 @@ pub struct RangingResult {
     pub i_interval: [f64; 3],
     pub best: RangingSample,
     pub trials: usize,
-    /// The least and greatest heliocentric e over every node within Δχ² 3.84 of the best, whatever
-    /// its prior (`FitResult::e_data_interval`).
+    /// The least and greatest heliocentric e over every node within Δχ² 3.84 of the best, however the
+    /// model weighs it (`FitResult::e_data_interval`; nodes where its density is zero are not kept).
     pub e_data_interval: Option<[f64; 2]>,
 }
 
