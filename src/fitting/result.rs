@@ -109,8 +109,8 @@ pub struct FitResult {
     pub e_sigma: Option<f64>,
     /// The least and greatest heliocentric e the positions alone allow where P comes from the range
     /// profile or grid ranging (χ² within 3.84 of the best: 95 % for one parameter, no density
-    /// involved; see `datainterval.rs`); null on other paths. Beside e ± σ, which are the posterior's, it shows
-    /// where the model rather than the data narrowed e.
+    /// involved; see `datainterval.rs`); null on other paths. Beside e ± σ, which are the
+    /// posterior's, it shows where the model rather than the data narrowed e (`mark_undetermined`).
     pub e_data_interval: Option<[f64; 2]>,
     /// The central 68.27 % and 95 % intervals of the heliocentric e over the same orbits as e_sigma (their
     /// Φ(∓1) and 2.5/97.5 % points); e ∓ σ and e ∓ 1.96σ (not below 0) wherever e_sigma is the linear
