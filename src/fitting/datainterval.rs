@@ -1,7 +1,8 @@
 //! What the positions alone say about e where P comes from the range profile or from grid ranging: the
 //! least and greatest heliocentric e over the orbits whose χ² is within `DATA_DCHI2` of the best, a
-//! profile-likelihood interval. It takes no density and no measure on the orbits (only the speed cap every path shares),
-//! so it shows where the population model rather than the data narrowed the posterior's e ± σ.
+//! profile-likelihood interval. It takes no density and no measure on the orbits (only each path's
+//! speed cap), so it shows where the population model rather than the data narrowed the posterior's
+//! e ± σ.
 
 use super::profile::{Frame, Profile, Slice, V5};
 use super::profilequad::speed_cap;
@@ -73,13 +74,20 @@ pub fn e_data_interval(
 
 /// Over trial orbits given as (heliocentric state, χ²) with the four other parameters already profiled
 /// out (grid ranging's nodes): the least and greatest heliocentric e of those within `DATA_DCHI2` of
-/// the best, whatever their prior weight. None where there is none.
+/// the best, however the model weighs them (grid ranging keeps only nodes where the model's density is
+/// not zero, so a range through a hole of the model stops at its edge). Nodes without a finite χ² take
+/// no part. None where there is none.
 pub fn e_range_of_nodes<'a>(
     nodes: impl Iterator<Item = (&'a S6, f64)> + Clone,
 ) -> Option<[f64; 2]> {
-    let best = nodes.clone().map(|(_, c)| c).fold(f64::INFINITY, f64::min);
+    let finite = |c: &f64| c.is_finite();
+    let best = nodes
+        .clone()
+        .map(|(_, c)| c)
+        .filter(finite)
+        .fold(f64::INFINITY, f64::min);
     nodes
-        .filter(|(_, c)| *c <= best + DATA_DCHI2)
+        .filter(|(_, c)| finite(c) && *c <= best + DATA_DCHI2)
         .filter_map(|(x, _)| {
             let (r, v) = split_state(x);
             Some(eccentricity_vector(&r, &v, MU_SUN).norm()).filter(|e| e.is_finite())
@@ -122,5 +130,8 @@ mod tests {
             (lo - 0.21).abs() < 1e-12 && (hi - 0.21).abs() < 1e-12,
             "{lo} {hi}"
         );
+        // Nodes none of which has a finite χ² give no range.
+        let none = [(state(1.1), f64::INFINITY), (state(1.2), f64::INFINITY)];
+        assert!(e_range_of_nodes(none.iter().map(|(x, c)| (x, *c))).is_none());
     }
 }
