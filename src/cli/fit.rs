@@ -23,7 +23,7 @@ pub struct FitArgs {
     #[arg(long, value_enum, default_value = "auto")]
     pub perturbations: Perturb,
     /// Speed cap at infinity for ranging (km/s).
-    #[arg(long, default_value_t = 100.0, value_name = "KM_S", value_parser = v_cap_flag)]
+    #[arg(long, default_value_t = interloper::fitting::ranging::DEFAULT_V_CAP_KM_S, value_name = "KM_S", value_parser = v_cap_flag)]
     pub v_cap: f64,
     /// Seed for ranging jitter and orbit sampling (results are reproducible for a given seed).
     #[arg(long, default_value_t = 0x5EED)]

@@ -147,7 +147,8 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
     if tr.arc_days() < SHORT_ARC_DAYS || tr.n_nights() < 2 {
-        return fit_one_night(tr, model, &observers, &cov, &opts.population, opts.seed);
+        let (population, cap) = (&opts.population, opts.ranging.v_cap_km_s);
+        return fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap));
     }
     if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
         return super::rangingrecord::ranging_result(

@@ -78,7 +78,7 @@ pub fn fit_one_night(
     observers: &[ObserverState],
     cov: &[nalgebra::Matrix2<f64>],
     population: &PopulationModel,
-    seed: u64,
+    (seed, v_cap_km_s): (u64, f64),
 ) -> FitResult {
     let fail = |why: String| {
         let mut f = FitResult::failed(tr, why);
@@ -102,7 +102,10 @@ pub fn fit_one_night(
         sun_bary,
         v_mag,
     };
-    let mut opts = ShortArcOptions::default();
+    let mut opts = ShortArcOptions {
+        v_cap_km_s,
+        ..ShortArcOptions::default()
+    };
     let mut arc = match one_night(tr, cov, &g, population, &opts) {
         Ok(a) => a,
         Err(e) => return fail(e.to_string()),
@@ -136,7 +139,7 @@ pub fn fit_one_night(
         out.distrust_linear
             .push(format!("no magnitude reported: V {v_mag:.1} assumed"));
     }
-    summarise(&mut out, tr, observers, &arc, &g, seed);
+    summarise(&mut out, tr, observers, &arc, &g, (seed, opts.v_cap_km_s));
     out
 }
 
@@ -147,7 +150,7 @@ fn summarise(
     observers: &[ObserverState],
     arc: &ShortArc,
     g: &Geometry,
-    seed: u64,
+    (seed, v_cap_km_s): (u64, f64),
 ) {
     let Some(weights) = super::stats::relative_weights(arc.nodes.iter().map(|n| n.ln_w)) else {
         return;
@@ -193,7 +196,7 @@ fn summarise(
     out.ranging = Some(RangingOut {
         trials: arc.evaluations,
         n_eff: out.n_eff.unwrap_or(0.0),
-        v_cap_km_s: ShortArcOptions::default().v_cap_km_s,
+        v_cap_km_s,
         e_interval: [qe[0], qe[2], qe[4]],
         q_interval: [qq[0], qq[2], qq[4]],
         i_interval: [qi[0], qi[2], qi[4]],

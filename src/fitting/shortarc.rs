@@ -31,7 +31,7 @@ const GL_W: [f64; 3] = [
 ];
 
 /// Speeds at infinity (km/s) where extra quadrature breaks go on the unbound side.
-const V_INF_BREAKS_KM_S: [f64; 3] = [12.0, 30.0, 60.0];
+const V_INF_BREAKS_KM_S: [f64; 5] = [12.0, 30.0, 60.0, 120.0, 250.0];
 
 #[derive(Debug, Clone, Copy)]
 pub struct ShortArcOptions {
