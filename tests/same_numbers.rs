@@ -24,6 +24,62 @@ fn records(out: &[u8]) -> HashMap<String, serde_json::Value> {
     m
 }
 
+/// Every field of `fit`'s records equals the watcher's (which adds only when a record arrived and
+/// its kind).
+fn assert_same(a: &HashMap<String, serde_json::Value>, b: &HashMap<String, serde_json::Value>) {
+    assert_eq!(a.len(), b.len());
+    for (obj, ra) in a {
+        let rb = &b[obj];
+        for (k, va) in ra.as_object().unwrap() {
+            assert_eq!(va, &rb[k], "{obj}: {k} differs between fit and watch");
+        }
+        for k in rb.as_object().unwrap().keys() {
+            assert!(
+                ra.get(k).is_some() || ["arrived_utc", "kind"].contains(&k.as_str()),
+                "{obj}: watch has {k}, fit has not"
+            );
+        }
+    }
+}
+
+#[test]
+fn an_arc_answered_by_grid_ranging_has_the_same_numbers_in_fit_and_the_watcher() {
+    // Regression: `fit` seeded grid ranging's jitter with its own default seed, the watcher and the
+    // console with another, so a two-position arc got two answers. Two positions of the synthetic
+    // weakly hyperbolic two-night arc (tests/reference/make_synthetic.py), one a night.
+    let src = std::fs::read_to_string(util::reference_path("synthetic/hyp_weak_2n.psv")).unwrap();
+    let lines: Vec<&str> = src.lines().collect();
+    let data: Vec<&str> = lines
+        .iter()
+        .copied()
+        .filter(|l| l.starts_with("hyp_weak_2n|"))
+        .collect();
+    let mut text: String = lines
+        .iter()
+        .take_while(|l| !l.starts_with("hyp_weak_2n|"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    for l in [data[0], data[data.len() - 1]] {
+        text.push_str(&format!("{l}\n"));
+    }
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("two_positions.psv"), text).unwrap();
+    let state = tempfile::tempdir().unwrap();
+    let fit = Command::new(env!("CARGO_BIN_EXE_interloper"))
+        .args(["fit", "--json"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    let (a, b) = (
+        records(&fit.stdout),
+        records(util::watch_once(state.path(), dir.path()).as_bytes()),
+    );
+    assert_eq!(a.len(), 1, "{}", String::from_utf8_lossy(&fit.stderr));
+    let r = a.values().next().unwrap();
+    assert_eq!(r["probability_from"], "systematic-ranging", "{r}");
+    assert_same(&a, &b);
+}
+
 #[test]
 fn fit_and_the_headless_watcher_report_identical_numbers() {
     let feed = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
@@ -42,20 +98,7 @@ fn fit_and_the_headless_watcher_report_identical_numbers() {
     let watch = util::watch_once(state.path(), dir.path());
     let (a, b) = (records(&fit.stdout), records(watch.as_bytes()));
     assert!(a.len() >= 10, "{} fits", a.len());
-    assert_eq!(a.len(), b.len());
-    // Every field of every record; the watcher adds only when the record arrived and its kind.
-    for (obj, ra) in &a {
-        let rb = &b[obj];
-        for (k, va) in ra.as_object().unwrap() {
-            assert_eq!(va, &rb[k], "{obj}: {k} differs between fit and watch");
-        }
-        for k in rb.as_object().unwrap().keys() {
-            assert!(
-                ra.get(k).is_some() || ["arrived_utc", "kind"].contains(&k.as_str()),
-                "{obj}: watch has {k}, fit has not"
-            );
-        }
-    }
+    assert_same(&a, &b);
 }
 
 /// The demo night's records from `fit --json`.

@@ -22,11 +22,11 @@ pub struct FitArgs {
     /// Planetary perturbations: by arc length and Earth distance, always, or never.
     #[arg(long, value_enum, default_value = "auto")]
     pub perturbations: Perturb,
-    /// Speed cap at infinity for ranging (km/s).
+    /// Speed cap at infinity of the orbit searches: one night, the range profile, grid ranging (km/s).
     #[arg(long, default_value_t = interloper::fitting::ranging::DEFAULT_V_CAP_KM_S, value_name = "KM_S", value_parser = v_cap_flag)]
     pub v_cap: f64,
     /// Seed for ranging jitter and orbit sampling (results are reproducible for a given seed).
-    #[arg(long, default_value_t = 0x5EED)]
+    #[arg(long, default_value_t = interloper::fitting::ranging::DEFAULT_SEED)]
     pub seed: u64,
     /// Do not inflate uncertainties of many same-night positions from one site.
     #[arg(long)]
@@ -58,8 +58,9 @@ pub fn threads_flag(text: &str) -> Result<usize, String> {
     }
 }
 
-/// `--v-cap`: a speed at infinity the ranging grid can reach, 1 to 3000 km/s (an interstellar object
-/// comes in at tens of km/s; NaN or 0 would leave no orbit, or every one).
+/// `--v-cap`: a speed at infinity the orbit searches can reach, 1 to 3000 km/s (the built-in model's
+/// interstellar bodies come in at tens of km/s, a few per cent above 100; NaN or 0 would leave no
+/// orbit, or every one).
 fn v_cap_flag(text: &str) -> Result<f64, String> {
     match text.trim().parse::<f64>() {
         Ok(v) if (1.0..=3000.0).contains(&v) => Ok(v),

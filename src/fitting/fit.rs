@@ -84,7 +84,7 @@ impl Default for FitOptions {
             ranging: RangingOptions::default(),
             inflate_nights: true,
             samples: 2000,
-            seed: 0x5EED,
+            seed: super::ranging::DEFAULT_SEED,
             population,
             keep_samples: true,
         }

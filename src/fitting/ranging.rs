@@ -24,6 +24,10 @@ use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
 use nalgebra::{DMatrix, DVector, Matrix2};
 
+/// The seed of every path's draws and jitter unless one is given (`fit --seed`): the console, `watch`
+/// and `fit` share it, so that the same input gives the same numbers everywhere.
+pub const DEFAULT_SEED: u64 = 0x5EED;
+
 /// Default speed cap at infinity (km/s). It bounds the search only; the population model weighs the
 /// speeds within it. The built-in model's Galactic halo (relative mean 232 km/s, σ up to 160 km/s)
 /// and thick disc put about 8 % of the interstellar bodies passing 1 au above 100 km/s (a cap there
@@ -51,10 +55,34 @@ impl Default for RangingOptions {
             v_cap_km_s: DEFAULT_V_CAP_KM_S,
             n_rho: 100,
             n_rhodot: 100,
-            seed: 0x1A7E_2026,
+            seed: DEFAULT_SEED,
             profile_n_rho: super::profile::ProfileOptions::default().n_rho,
         }
     }
+}
+
+/// Up to this speed at infinity a row of the grid has `n_rhodot` even cells in ρ̇; from there to the
+/// cap each side has a tenth as many (the population's fast tail, where its density is small: the
+/// built-in model's interstellar bodies near the Sun are about 8 % faster than 100 km/s). Even cells
+/// up to a 500 km/s cap would leave the bound part of a row a fifth of its cells.
+pub const RESOLVED_V_KM_S: f64 = 100.0;
+const WING_SHARE: usize = 10;
+
+/// The ρ̇ cells (start, width) of one row spanning `full`: `n` even ones over `resolved` (the range
+/// up to `RESOLVED_V_KM_S`, all of `full` when absent), `n / WING_SHARE` even ones over each part of
+/// `full` beyond it.
+fn row_cells(full: (f64, f64), resolved: Option<(f64, f64)>, n: usize) -> Vec<(f64, f64)> {
+    let (lo, hi) = full;
+    let (a, b) = resolved.map_or(full, |(a, b)| (a.max(lo), b.min(hi)));
+    let wing = (n / WING_SHARE).max(1);
+    let mut out = Vec::with_capacity(n + 2 * wing);
+    for (from, to, k) in [(lo, a, wing), (a, b, n), (b, hi, wing)] {
+        if to > from {
+            let d = (to - from) / k as f64;
+            out.extend((0..k).map(|j| (from + d * j as f64, d)));
+        }
+    }
+    out
 }
 
 /// One weighted orbit of the ranging set.
@@ -236,6 +264,7 @@ pub fn range(
     let ata_inv = (a.transpose() * &a).try_inverse()?;
     let ata4: nalgebra::Matrix4<f64> = nalgebra::Matrix4::from_fn(|i, j| ata_inv[(i, j)]);
     let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let resolved_v = RESOLVED_V_KM_S / AU_PER_DAY_TO_KM_S;
     let ecl = equatorial_to_ecliptic();
     let scan = Scan {
         tr,
@@ -258,19 +287,19 @@ pub fn range(
         // One jittered distance per row of cells, its ρ̇ range from the speed cap there.
         let row = RHO_MIN_AU.ln() + dln * k as f64;
         let ln_rho = RHO_MIN_AU.ln() + dln * (k as f64 + rng.uniform());
-        let Some((lo, hi)) = scan.rhodot_bounds(ln_rho.exp(), v_cap) else {
+        let Some(full) = scan.rhodot_bounds(ln_rho.exp(), v_cap) else {
             continue;
         };
-        let drd = (hi - lo) / opts.n_rhodot as f64;
-        for j in 0..opts.n_rhodot {
+        let resolved = scan.rhodot_bounds(ln_rho.exp(), v_cap.min(resolved_v));
+        for (start, drd) in row_cells(full, resolved, opts.n_rhodot) {
             let cell = Cell {
                 row: k,
                 ln_rho: row,
                 dln,
-                rhodot: lo + drd * j as f64,
+                rhodot: start,
                 drd,
             };
-            let rhodot = lo + drd * (j as f64 + rng.uniform());
+            let rhodot = start + drd * rng.uniform();
             trials += 1;
             nodes.extend(scan.node(ln_rho, rhodot, cell, &mut xi));
         }
@@ -367,4 +396,29 @@ pub fn range(
         trials,
         e_data_interval,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::row_cells;
+
+    #[test]
+    fn a_row_keeps_its_even_cells_up_to_the_resolved_speed_and_a_tenth_as_many_beyond() {
+        let cells = row_cells((-5.0, 7.0), Some((-1.0, 2.0)), 30);
+        assert_eq!(cells.len(), 30 + 2 * 3);
+        // Contiguous from end to end, 30 cells of 0.1 over the resolved part.
+        assert_eq!(cells[0].0, -5.0);
+        for w in cells.windows(2) {
+            assert!((w[0].0 + w[0].1 - w[1].0).abs() < 1e-12, "{w:?}");
+        }
+        let last = cells[cells.len() - 1];
+        assert!((last.0 + last.1 - 7.0).abs() < 1e-12);
+        let inner: Vec<_> = cells.iter().filter(|c| c.0 >= -1.0 && c.0 < 2.0).collect();
+        assert_eq!(inner.len(), 30);
+        assert!(inner.iter().all(|c| (c.1 - 0.1).abs() < 1e-12));
+        // A cap at or below the resolved speed: the row is even, as before.
+        let even = row_cells((-1.0, 2.0), Some((-1.0, 2.0)), 30);
+        assert_eq!(even.len(), 30);
+        assert_eq!(row_cells((-1.0, 2.0), None, 30).len(), 30);
+    }
 }
