@@ -119,7 +119,8 @@ pub fn lsq_result(
     if trusted {
         out.z_linear = z_linear;
     }
-    // A linear answer that stands although the elements curve within 1σ: its σ come from draws.
+    // A linear answer that stands (its z settles the class) although the positions distrust it (the
+    // elements curve within 1σ, e lies within 3σ of zero, …): its σ come from draws.
     if !sampled
         && decided
         && out.samples.is_empty()

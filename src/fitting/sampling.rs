@@ -68,7 +68,7 @@ pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<Strin
     let (e, sigma_e) = linear_e(fit, &cov, bary_shift);
     if e < E_NOISE_SIGMAS * sigma_e {
         why.push(format!(
-            "e {e:.2} within {E_NOISE_SIGMAS:.0}σ of zero: its size is not measured"
+            "least-squares e {e:.2} ± {sigma_e:.2}, within {E_NOISE_SIGMAS:.0}σ of zero: its size is not measured"
         ));
     }
     why

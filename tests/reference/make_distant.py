@@ -1,6 +1,7 @@
 """Distant bodies for the fit: invented orbits beyond Jupiter observed on three nights from the demo
-sites (noiseless positions plus truth, in the synthetic set's format), built with make_synthetic.py's
-machinery (scipy DOP853 on JPL DE421, ERFA site vectors, light time).
+sites (a noisy PSV file for the command line, and the noiseless positions with the truth in the synthetic
+set's format, from which the tests draw their own noise), built with make_synthetic.py's machinery (scipy
+DOP853 on JPL DE421, ERFA site vectors, light time).
 
 Run:  python tests/reference/make_distant.py   (writes tests/reference/data/distant/)
 """
