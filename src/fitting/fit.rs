@@ -14,8 +14,8 @@ use super::ranging::RangingOptions;
 pub use super::result::{
     Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
-use super::sampling::distrust_reasons;
 use super::significance::{MU_BARY, unbound_bary};
+use super::trust::distrust_reasons;
 use crate::physics::constants::ARCSEC;
 use crate::physics::elements::CometaryElements;
 use crate::physics::frames::unit_from_radec;
@@ -201,7 +201,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     }
     // A range known to worse than this is a nearly degenerate problem: its minimum means little and
     // sampling around it cannot reach the other solutions, so the whole (ρ, ρ̇) plane is searched.
-    let range_sigma = super::sampling::relative_range_sigma(&problem, &fit);
+    let range_sigma = super::trust::relative_range_sigma(&problem, &fit);
     if let Some(rel) = range_sigma
         && rel > DEGENERATE_RANGE
         && tr.n_nights() < 3
@@ -305,7 +305,7 @@ fn linear_decides(
         && nights >= 3
         && alternatives.is_empty()
         && !doubts.any()
-        && range_sigma.is_some_and(|rel| rel <= super::sampling::RANGE_TRUSTED)
+        && range_sigma.is_some_and(|rel| rel <= super::trust::RANGE_TRUSTED)
 }
 
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that

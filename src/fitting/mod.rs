@@ -42,6 +42,7 @@ pub mod shortarc;
 pub mod significance;
 pub mod spreads;
 pub mod stats;
+pub mod trust;
 pub mod twonight;
 pub mod valleyseeds;
 pub mod valleyzoom;

@@ -6,8 +6,8 @@ use super::fit::FitOptions;
 use super::lsq::{LsqFit, Problem};
 use super::profile::{ProfileOptions, Slice, V5, solve_slice};
 use super::rangescan::{coarse_slices, valley_floors};
-use super::sampling::relative_range_sigma;
 use super::search::{SCAN_ITERATIONS, SCAN_POINTS, ScanStart, correct_seed, merge};
+use super::trust::relative_range_sigma;
 
 /// Minima from the valleys of a coarse scan over distance that no minimum found so far sits in: a
 /// valley narrower than the scan's spacing can hold the true orbit while Gauss's roots all lead to
