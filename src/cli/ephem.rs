@@ -7,6 +7,7 @@ use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
 use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
 use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
+use interloper::fitting::kinds::FitStatus;
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::sky::Twilight;
 use interloper::physics::time::{UtcTime, tt_to_utc};
@@ -256,12 +257,12 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             }
         } else {
             out.write_all(table(&points).as_bytes())?;
-            if fit.status != "ok" || fit.prior_dominated {
+            if fit.status != FitStatus::Ok || fit.prior_dominated {
                 out.write_all(
                     format!(
                         "note: fit is {}{}{}\n",
                         fit.status,
-                        if fit.status == "undetermined" {
+                        if fit.status == FitStatus::Undetermined {
                             " (its elements are the population model's, not measured)"
                         } else {
                             ""

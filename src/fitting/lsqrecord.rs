@@ -84,7 +84,9 @@ pub fn lsq_result(
     out.dynamics = dynamics;
     out.method = FitMethod::LeastSquares;
     let (e_helio, e_bary, sigma_eb) = fill_orbit(&mut out, p, fit, shift);
-    out.distrust_linear = distrust_reasons(p, fit, shift);
+    // Computed once: the record lists them, and they decide below whether σ come from draws.
+    let reasons = distrust_reasons(p, fit, shift);
+    out.distrust_linear.clone_from(&reasons);
     out.alternatives = alternatives_out(fit, alternatives, shift);
     if let Some(why) = alternatives_note(&out.alternatives, e_bary >= 1.0) {
         out.distrust_linear.push(why);
@@ -125,7 +127,7 @@ pub fn lsq_result(
     if !sampled
         && decided
         && out.samples.is_empty()
-        && !distrust_reasons(p, fit, shift).is_empty()
+        && !reasons.is_empty()
         && let Some(c) = fit.cov
     {
         super::spreads::gaussian_spreads(&mut out, fit, &c, shift, opts.seed);
