@@ -68,9 +68,11 @@ const INNER_RADIUS_AU: f64 = 10.0;
 /// Node spacing (days): inner planets, giants.
 const STEP_INNER: f64 = 1.0;
 const STEP_GIANT: f64 = 16.0;
-/// Nodes kept per planet and thread before the memo starts afresh (8 × 8192 states, under 4 MB; a
-/// flight longer than the run starts a new one).
-const MAX_NODES: usize = 8192;
+/// Nodes kept per planet and thread before the memo starts afresh: enough for flights of ten
+/// centuries back and ten forward from one epoch at the giants' spacing (45,656 nodes of 16 days; 56
+/// bytes a node, under 3 MB a planet), so a candidate's sample orbits, flying both ways, and the other
+/// candidates of the night share one run instead of each recomputing it.
+const MAX_NODES: usize = 49_152;
 
 /// The node interval holding TDB JD `t`: its first node's index (an instant no ephemeris reaches is
 /// an error, not an index at the end of the integers).
