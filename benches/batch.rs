@@ -12,6 +12,9 @@
 //!   planets and Moon;
 //! - `three_night_strongly_hyperbolic`: 100 files of the strongly hyperbolic synthetic orbit, each with
 //!   its origin sheet (flights through the planets to 250 au and Galactic orbits).
+//! - `two_night_population`: the first 200 two-night arcs of the population-model sky, bound and
+//!   unbound as the model draws them (every one takes the range profile; those with P ≥ 0.01 get
+//!   their origin sheets).
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
 use criterion::{Criterion, criterion_group, criterion_main};
@@ -80,6 +83,14 @@ fn population_bound_three_night() -> Vec<Vec<String>> {
         .collect()
 }
 
+fn population_two_night(n: usize) -> Vec<Vec<String>> {
+    blocks(&data().join("population_sky/two_night.psv"))
+        .into_iter()
+        .take(n)
+        .map(|(_, lines)| lines)
+        .collect()
+}
+
 fn run(dir: &Path) {
     let status = std::process::Command::new(env!("CARGO_BIN_EXE_interloper"))
         .args(["fit", "--json", "--threads", "2", "--sites"])
@@ -94,7 +105,7 @@ fn run(dir: &Path) {
 }
 
 fn benches(c: &mut Criterion) {
-    let sets: [(&str, Vec<Vec<String>>, usize); 4] = [
+    let sets: [(&str, Vec<Vec<String>>, usize); 5] = [
         (
             "three_night_synthetic",
             synthetic(&[
@@ -126,6 +137,7 @@ fn benches(c: &mut Criterion) {
             synthetic(&["hyp_strong_3n"]),
             100,
         ),
+        ("two_night_population", population_two_night(200), 200),
     ];
     let mut group = c.benchmark_group("batch_process");
     group.sample_size(10);
