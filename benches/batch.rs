@@ -11,7 +11,7 @@
 //! - `ten_night_planets`: 300 files cycling the bound ten-night synthetic arcs, fitted with the Sun,
 //!   planets and Moon;
 //! - `three_night_strongly_hyperbolic`: 100 files of the strongly hyperbolic synthetic orbit, each with
-//!   its origin sheet (flights through the planets to 250 au and Galactic orbits).
+//!   its origin sheet (flights through the planets to 250 au and Galactic orbits);
 //! - `two_night_population`: the first 200 two-night arcs of the population-model sky, bound and
 //!   unbound as the model draws them (every one takes the range profile; those with P ≥ 0.01 get
 //!   their origin sheets).

@@ -36,22 +36,36 @@ fn four_nights(name: &str, rng: &mut SplitMix, offset: f64) -> Tracklet {
     Tracklet::new(tr.object.clone(), tr.source.clone(), obs)
 }
 
-/// Of `DRAWS` fits: how many are poor fits, and how many of those for e moving without a night.
-fn poor(name: &str, seed: u64, offset: f64) -> (usize, usize) {
+/// Of `DRAWS` fits: how many are poor fits, how many of those for e moving without a night, and how
+/// many for that reason alone.
+struct Counts {
+    poor: usize,
+    moves: usize,
+    only_moves: usize,
+}
+
+fn poor(name: &str, seed: u64, offset: f64) -> Counts {
     let mut rng = SplitMix::new(seed);
     let (model, opts) = (ObserverModel::new(), FitOptions::default());
-    let (mut poor, mut moves) = (0, 0);
+    let mut c = Counts {
+        poor: 0,
+        moves: 0,
+        only_moves: 0,
+    };
     for _ in 0..DRAWS {
         let tr = four_nights(name, &mut rng, offset);
         assert_eq!(tr.n_nights(), 4);
         let r = fit_tracklet(&tr, &model, &opts);
-        poor += usize::from(r.status == "poor-fit");
-        moves += usize::from(r.poor_fit.iter().any(|w| w.starts_with("e moves")));
+        c.poor += usize::from(r.status == "poor-fit");
+        let moves = r.poor_fit.iter().any(|w| w.starts_with("e moves"));
+        c.moves += usize::from(moves);
+        c.only_moves += usize::from(moves && r.poor_fit.len() == 1);
     }
     eprintln!(
-        "{name}, fourth night moved {offset}″: {poor} of {DRAWS} poor fits, {moves} for e moving"
+        "{name}, fourth night moved {offset}″: {} of {DRAWS} poor fits, {} for e moving, {} for that alone",
+        c.poor, c.moves, c.only_moves
     );
-    (poor, moves)
+    c
 }
 
 #[test]
@@ -59,10 +73,11 @@ fn clean_four_night_arcs_are_not_poor_fits_because_three_nights_leave_e_open() {
     // Without the test of the other nights, 19 of these 150 clean near-parabolic arcs were poor fits
     // for "e moves" (their first three nights alone are a range-profile case).
     for (name, seed) in [("near_parabolic_bound_10n", 1), ("comet_like_10n", 2)] {
-        let (poor, moves) = poor(name, seed, 0.0);
-        assert_eq!(moves, 0, "{name}");
-        // The χ² and night-mean tests (each at 0.1 %) may still call the odd clean fit poor.
-        assert!(poor <= DRAWS / 50, "{name}: {poor}");
+        let c = poor(name, seed, 0.0);
+        assert_eq!(c.moves, 0, "{name}");
+        // χ²/dof above 3 and a night's mean beyond its χ²(2) 0.1 % point (about 0.4 % of four-night
+        // arcs) may still call the odd clean fit poor.
+        assert!(c.poor <= DRAWS / 50, "{name}: {}", c.poor);
     }
 }
 
@@ -73,7 +88,20 @@ fn a_fourth_night_of_another_object_is_still_a_poor_fit() {
         ("comet_like_10n", 4),
         ("mainbelt_10n", 5),
     ] {
-        let (poor, _) = poor(name, seed, 4.0);
-        assert!(poor >= DRAWS * 9 / 10, "{name}: {poor}");
+        let c = poor(name, seed, 4.0);
+        assert!(c.poor >= DRAWS * 9 / 10, "{name}: {}", c.poor);
+    }
+}
+
+#[test]
+fn e_moving_without_a_night_still_catches_a_foreign_night_nothing_else_sees() {
+    // A fourth night 2″ off, drifting to 4″ (10–20σ a position): the χ² and night-mean tests miss
+    // many, and e moving without that night, with the other nights rejecting the full orbit, is the
+    // only reason given for some (measured: 56 and 15 of 150 on the main-belt arc, 73 and 7 on the
+    // near-Earth one).
+    for (name, seed) in [("mainbelt_10n", 9), ("near_earth_10n", 9)] {
+        let c = poor(name, seed, 2.0);
+        assert!(c.moves >= DRAWS / 4, "{name}: {}", c.moves);
+        assert!(c.only_moves >= 4, "{name}: {}", c.only_moves);
     }
 }

@@ -12,8 +12,9 @@ use nalgebra::Vector2;
 pub const MAX_CHI2_PER_DOF: f64 = 3.0;
 /// The other nights reject the full fit's orbit when it fits them worse than their own refit by more
 /// than this: under consistent data that excess is a sum of six or fewer χ²(1) terms each weighted at
-/// most 1 (the quadratic form of two nested estimates), so no more than χ²(6), whose 5 % point this is;
-/// it counts only beside an e that also moved by more than 3σ.
+/// most 1 (the quadratic form of two nested estimates), so no more than χ²(6), whose 5 % point this is.
+/// It counts only beside an e that also moved by more than 3σ; where e is linear the excess is at
+/// least (Δe/σ)², so there the two together flag a move from about 3.5σ.
 pub const REMAINDER_REJECTS_CHI2: f64 = 12.59;
 /// A night's mean whitened residual, n·|mean|², is χ²(2) if the night agrees; above this (p = 0.001)
 /// it disagrees.
@@ -111,10 +112,11 @@ pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) ->
             }
             // The move counts only where the other nights themselves reject the full orbit: where
             // they fit it about as well as their own (a short remainder whose e curves within its
-            // linear σ), e wandered along a valley those nights leave open.
-            let rejects = p
-                .chi2(&fit.state, keep)
-                .is_ok_and(|c| c - f.chi2 > REMAINDER_REJECTS_CHI2);
+            // linear σ), e wandered along a valley those nights leave open. (Measured from the full
+            // fit's minimum: a fit stopped short of it would count its unfinished descent.)
+            let rejects = fit.converged
+                && p.chi2(&fit.state, keep)
+                    .is_ok_and(|c| c - f.chi2 > REMAINDER_REJECTS_CHI2);
             if rejects {
                 why.push(format!("e moves {:.2} without night {}", de, k + 1));
             }

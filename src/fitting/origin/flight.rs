@@ -68,11 +68,14 @@ const INNER_RADIUS_AU: f64 = 10.0;
 /// Node spacing (days): inner planets, giants.
 const STEP_INNER: f64 = 1.0;
 const STEP_GIANT: f64 = 16.0;
-/// Nodes kept per planet and thread before the memo starts afresh: enough for flights of ten
-/// centuries back and ten forward from one epoch at the giants' spacing (45,656 nodes of 16 days; 56
-/// bytes a node, under 3 MB a planet), so a candidate's sample orbits, flying both ways, and the other
-/// candidates of the night share one run instead of each recomputing it.
-const MAX_NODES: usize = 49_152;
+/// Nodes kept per planet and thread before the memo starts afresh, so that a candidate's sample orbits,
+/// flying both ways, and the other candidates of the night share one run instead of each recomputing
+/// it. Giants: flights of ten centuries back and ten forward from one epoch (45,656 nodes of 16 days).
+/// Inner planets, which act only within 10 au: 45 years (a slow orbit's decades there each way). At 56
+/// bytes a node, at most 4 × 2.75 + 4 × 0.92 = 14.7 MB a thread, held only as far as flights went
+/// (measured: 4 MB more on the population sky's two-night arcs).
+const MAX_NODES_GIANT: usize = 49_152;
+const MAX_NODES_INNER: usize = 16_384;
 
 /// The node interval holding TDB JD `t`: its first node's index (an instant no ephemeris reaches is
 /// an error, not an index at the end of the integers).
@@ -100,16 +103,21 @@ impl NodeRun {
         self.states.get(k).copied().flatten()
     }
 
-    /// Keep `n` at index `i`, growing the run towards it; a run that would pass `MAX_NODES` starts
-    /// afresh at `i`.
-    fn put(&mut self, i: i64, n: (V3, V3)) {
+    /// Keep `n` at index `i`, growing the run towards it; a run that would pass `max` nodes starts
+    /// afresh at `i`. Its storage never grows past `max` (doubling would overshoot it by a third).
+    fn put(&mut self, i: i64, n: (V3, V3), max: usize) {
         let len = self.states.len() as i64;
         let (lo, hi) = (self.base.min(i), (self.base + len).max(i + 1));
-        if self.states.is_empty() || hi - lo > MAX_NODES as i64 {
+        if self.states.is_empty() || hi - lo > max as i64 {
             self.base = i;
             self.states.clear();
             self.states.push_back(Some(n));
             return;
+        }
+        let need = (hi - lo) as usize;
+        if need > self.states.capacity() {
+            let grow = need.max(2 * self.states.capacity()).min(max);
+            self.states.reserve_exact(grow - self.states.len());
         }
         while self.base > i {
             self.states.push_front(None);
@@ -137,7 +145,12 @@ fn node(k: usize, i: i64, step: f64) -> Result<(V3, V3), IntegrationError> {
         V3::new(pv[0][0], pv[0][1], pv[0][2]),
         V3::new(pv[1][0], pv[1][1], pv[1][2]),
     );
-    NODES.with(|m| m.borrow_mut()[k].put(i, n));
+    let max = if k < 4 {
+        MAX_NODES_INNER
+    } else {
+        MAX_NODES_GIANT
+    };
+    NODES.with(|m| m.borrow_mut()[k].put(i, n, max));
     Ok(n)
 }
 
@@ -332,11 +345,12 @@ mod tests {
     #[test]
     fn a_run_of_nodes_grows_either_way_and_starts_afresh_when_too_long() {
         let at = |x: f64| (V3::new(x, 0.0, 0.0), V3::zeros());
+        let max = MAX_NODES_GIANT;
         let mut run = NodeRun::default();
         assert_eq!(run.get(5), None);
-        run.put(5, at(5.0));
-        run.put(8, at(8.0));
-        run.put(2, at(2.0));
+        run.put(5, at(5.0), max);
+        run.put(8, at(8.0), max);
+        run.put(2, at(2.0), max);
         assert_eq!((run.base, run.states.len()), (2, 7));
         for i in [2, 5, 8] {
             assert_eq!(run.get(i), Some(at(i as f64)));
@@ -346,11 +360,36 @@ mod tests {
             assert_eq!(run.get(i), None, "{i}");
         }
         // A node too far away for one run replaces it.
-        let far = 2 + MAX_NODES as i64;
-        run.put(far, at(1.0));
+        let far = 2 + max as i64;
+        run.put(far, at(1.0), max);
         assert_eq!((run.base, run.states.len()), (far, 1));
         assert_eq!(run.get(5), None);
         assert_eq!(run.get(far), Some(at(1.0)));
+    }
+
+    #[test]
+    fn a_run_grown_node_by_node_both_ways_to_its_limit_holds_no_more_than_its_limit() {
+        let at = |x: f64| (V3::new(x, 0.0, 0.0), V3::zeros());
+        // (Not a power of two: doubling from 32,768 would have reached 65,536.)
+        let max = MAX_NODES_GIANT;
+        let mut run = NodeRun::default();
+        // A backward flight then a forward one from node 0, as an origin sheet flies them.
+        for i in 0..(max as i64 / 2) {
+            run.put(-i, at(-i as f64), max);
+        }
+        for i in 1..(max as i64 / 2) {
+            run.put(i, at(i as f64), max);
+        }
+        assert_eq!(run.states.len(), max - 1);
+        assert!(run.states.capacity() <= max, "{}", run.states.capacity());
+        assert_eq!(
+            run.get(-(max as i64) / 2 + 1),
+            Some(at((-(max as i64) / 2 + 1) as f64))
+        );
+        assert_eq!(
+            run.get(max as i64 / 2 - 1),
+            Some(at((max as i64 / 2 - 1) as f64))
+        );
     }
 
     #[test]
