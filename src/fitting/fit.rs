@@ -94,10 +94,6 @@ impl Default for FitOptions {
 /// Positions that all lie within this (arcsec) of the first do not describe a moving object.
 pub const MIN_MOTION_ARCSEC: f64 = 0.01;
 
-/// Arcs shorter than this (days) are one night's positions, whatever the sites: the short-arc
-/// posterior treats them.
-pub const SHORT_ARC_DAYS: f64 = 0.5;
-
 /// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     let mut r = fit_orbit(tr, model, opts);
@@ -146,7 +142,11 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
-    if tr.arc_days() < SHORT_ARC_DAYS || tr.n_nights() < 2 {
+    // One night's positions go to the short-arc posterior. Two nights, however close (two sites hours
+    // apart), go to the fits of the whole observation model: the attributable has one observer, and
+    // across sites an Earth radius apart it took their parallax for a misfit (two-site arcs of 0.3 d:
+    // most were poor fits, near-Earth ones had P ≈ 1).
+    if tr.n_nights() < 2 {
         let (population, cap) = (&opts.population, opts.ranging.v_cap_km_s);
         return fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap));
     }

@@ -1,0 +1,86 @@
+//! Two sites hours apart on one date (tests/reference/make_two_site.py: orbits of the synthetic set seen
+//! four times from TV1 and, 5.7 h later, four times from TV4, an arc of 0.34 d; scipy DOP853 on JPL DE421,
+//! ERFA site vectors, light time). The feed counts two nights, and the fit models each site's own
+//! position: such arcs once went to the one-night attributable, which has a single observer, took the
+//! sites' parallax for a misfit (most draws poor fits) and gave near-Earth asteroids P ≈ 1.
+#![allow(clippy::unwrap_used)] // a failed step in a test should stop it loudly
+
+mod util;
+
+use interloper::fitting::fit::{FitOptions, fit_tracklet};
+use interloper::fitting::kinds::ProbabilitySource;
+use interloper::fitting::ranging::SplitMix;
+use interloper::physics::observe::ObserverModel;
+
+const DRAWS: usize = 40;
+
+struct Summary {
+    poor: usize,
+    from_profile: usize,
+    max_p: f64,
+    held_95: usize,
+    data_held: usize,
+}
+
+fn draws(name: &str, seed: u64) -> Summary {
+    let text = std::fs::read_to_string(util::reference_path("two_site/truth.json")).unwrap();
+    let all: Vec<serde_json::Value> = serde_json::from_str(&text).unwrap();
+    let t = all.iter().find(|t| t["object"] == name).unwrap();
+    let te = t["e"].as_f64().unwrap();
+    let mut rng = SplitMix::new(seed);
+    let (model, opts) = (ObserverModel::new(), FitOptions::default());
+    let mut s = Summary {
+        poor: 0,
+        from_profile: 0,
+        max_p: 0.0,
+        held_95: 0,
+        data_held: 0,
+    };
+    for _ in 0..DRAWS {
+        let tr = util::noisy(t, &mut rng, 0.2);
+        assert_eq!((tr.n_nights(), tr.obs.len()), (2, 8));
+        let r = fit_tracklet(&tr, &model, &opts);
+        s.poor += usize::from(r.status == "poor-fit");
+        s.from_profile += usize::from(r.probability_from == ProbabilitySource::RangeProfile);
+        s.max_p = s.max_p.max(r.p_hyperbolic.unwrap_or(1.0));
+        let holds = |i: Option<[f64; 2]>| i.is_some_and(|[lo, hi]| (lo..=hi).contains(&te));
+        s.held_95 += usize::from(holds(r.e_interval_95));
+        s.data_held += usize::from(holds(r.e_data_interval));
+    }
+    eprintln!(
+        "{name}: {} of {DRAWS} poor fits, {} from the range profile, largest P {:.2e}, the 95 % interval \
+         of e holds the truth in {}, the positions' own range in {}",
+        s.poor, s.from_profile, s.max_p, s.held_95, s.data_held
+    );
+    s
+}
+
+#[test]
+fn a_two_site_arc_of_a_third_of_a_day_is_fitted_with_each_sites_position() {
+    for (name, seed) in [
+        ("near_earth_2s", 1),
+        ("mainbelt_2s", 2),
+        ("hyp_strong_2s", 3),
+    ] {
+        let s = draws(name, seed);
+        assert_eq!(s.poor, 0, "{name}");
+        assert_eq!(s.from_profile, DRAWS, "{name}");
+    }
+}
+
+#[test]
+fn bound_asteroids_seen_from_two_sites_are_not_unbound_candidates() {
+    // Far below the 0.01 at which a candidate gets its origin sheet; the 95 % intervals hold the truth
+    // in their share less three binomial σ over 40 draws.
+    for (name, seed) in [("near_earth_2s", 4), ("mainbelt_2s", 5)] {
+        let s = draws(name, seed);
+        assert!(s.max_p < 1e-3, "{name}: P up to {}", s.max_p);
+        assert!(s.held_95 >= 34, "{name}: {}", s.held_95);
+        // The near-Earth arc's own positions fix e (its range holds the truth as often); the main-belt
+        // arc's range, 0.34 d long, holds it in only 26 to 28 of 40 (its Δχ² outgrows χ²(1)), and the
+        // posterior's interval, which leans on the model, is the one to read.
+        if name == "near_earth_2s" {
+            assert!(s.data_held >= 34, "{name}: {}", s.data_held);
+        }
+    }
+}
