@@ -142,13 +142,18 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
-    // One night's positions go to the short-arc posterior. Two nights, however close (two sites hours
-    // apart), go to the fits of the whole observation model: the attributable has one observer, and
-    // across sites an Earth radius apart it took their parallax for a misfit (two-site arcs of 0.3 d:
-    // most were poor fits, near-Earth ones had P ≈ 1).
-    if tr.n_nights() < 2 {
+    // One site's night goes to the short-arc posterior. Several sites, or two nights however close, go
+    // to the fits of the whole observation model: the attributable has one observer, and across sites
+    // an Earth radius apart it took their parallax for a misfit (two-site arcs of 0.2–0.34 d: nearly
+    // all poor fits, near-Earth ones with P ≈ 1).
+    let one_night = tr.n_nights() < 2;
+    let several_sites = tr.obs.iter().any(|o| o.site_code != tr.obs[0].site_code);
+    let short_arc = |tr| {
         let (population, cap) = (&opts.population, opts.ranging.v_cap_km_s);
-        return fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap));
+        fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap))
+    };
+    if one_night && (!several_sites || tr.obs.len() < 3) {
+        return short_arc(tr);
     }
     if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
         return super::rangingrecord::ranging_result(
@@ -164,10 +169,14 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         epoch,
         opts,
     };
-    if tr.n_nights() == 2
+    if tr.n_nights() <= 2
         && let Some(r) = super::twonight::fit_two_nights(&inputs)
     {
         return r;
+    }
+    // One night from several sites that the profile could not answer.
+    if one_night {
+        return short_arc(tr);
     }
     fit_multi_night(&inputs)
 }
