@@ -94,3 +94,21 @@ fn bound_asteroids_seen_from_two_sites_are_not_unbound_candidates() {
         }
     }
 }
+
+#[test]
+fn two_positions_from_two_sites_in_one_night_go_to_grid_ranging_not_the_attributable() {
+    let text = std::fs::read_to_string(util::reference_path("two_site/truth.json")).unwrap();
+    let all: Vec<serde_json::Value> = serde_json::from_str(&text).unwrap();
+    let t = all
+        .iter()
+        .find(|t| t["object"] == "near_earth_1n2s")
+        .unwrap();
+    let tr = util::noisy(t, &mut SplitMix::new(11), 0.2);
+    // The last position from TV2 and the first from TV1, 2.3 h apart.
+    let pair = vec![tr.obs[3].clone(), tr.obs[4].clone()];
+    assert_ne!(pair[0].site_code, pair[1].site_code);
+    let tr = interloper::fitting::input::Tracklet::new(tr.object.clone(), tr.source.clone(), pair);
+    assert_eq!(tr.n_nights(), 1);
+    let r = fit_tracklet(&tr, &ObserverModel::new(), &FitOptions::default());
+    assert_eq!(r.probability_from, ProbabilitySource::SystematicRanging);
+}

@@ -1,5 +1,6 @@
-//! One tracklet in, one answer out: chooses the method (the short-arc posterior for one night, least
-//! squares for multi-night arcs, ranging for a degenerate problem), the dynamics, and how P(unbound)
+//! One tracklet in, one answer out: chooses the method (the short-arc posterior for a night seen from
+//! one place, the range profile for two nights or a night from several places, least squares for
+//! longer arcs, ranging for two positions or a degenerate problem), the dynamics, and how P(unbound)
 //! under the population model is estimated, and gathers everything the console and the batch output
 //! show.
 
@@ -142,18 +143,16 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         Ok(e) => super::significance::barycentric_with(&S6::zeros(), &e),
         Err(e) => return FitResult::failed(tr, e.to_string()),
     };
-    // One site's night goes to the short-arc posterior. Several sites, or two nights however close, go
-    // to the fits of the whole observation model: the attributable has one observer, and across sites
-    // an Earth radius apart it took their parallax for a misfit (two-site arcs of 0.2–0.34 d: nearly
-    // all poor fits, near-Earth ones with P ≈ 1).
+    // A night seen from one place goes to the short-arc posterior. Several observer positions in one
+    // night (two sites, or a moving observer), or two nights however close, go to the fits of the
+    // whole observation model: the attributable has one observer, and across sites an Earth radius
+    // apart it took their parallax for a misfit (two-site arcs of 0.2–0.34 d: nearly all poor fits,
+    // near-Earth ones with P ≈ 1). Two positions from two places go to grid ranging.
     let one_night = tr.n_nights() < 2;
-    let several_sites = tr.obs.iter().any(|o| o.site_code != tr.obs[0].site_code);
-    let short_arc = |tr| {
+    let several_places = tr.obs.iter().any(|o| o.location != tr.obs[0].location);
+    if one_night && !several_places {
         let (population, cap) = (&opts.population, opts.ranging.v_cap_km_s);
-        fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap))
-    };
-    if one_night && (!several_sites || tr.obs.len() < 3) {
-        return short_arc(tr);
+        return fit_one_night(tr, model, &observers, &cov, population, (opts.seed, cap));
     }
     if opts.method == MethodChoice::Ranging || tr.obs.len() < 3 {
         return super::rangingrecord::ranging_result(
@@ -174,9 +173,19 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
     {
         return r;
     }
-    // One night from several sites that the profile could not answer.
+    // One night from several places that the profile could not answer: grid ranging models each
+    // position's observer too (the attributable would not).
     if one_night {
-        return short_arc(tr);
+        let why = "the range profile found no valley";
+        return super::rangingrecord::ranging_result(
+            tr,
+            model,
+            &observers,
+            &cov,
+            &shift,
+            opts,
+            Some(why),
+        );
     }
     fit_multi_night(&inputs)
 }

@@ -1,4 +1,4 @@
-//! Systematic ranging for short arcs (one night, or a degenerate least-squares problem): a grid over
+//! Systematic ranging for short arcs (two positions, or a degenerate least-squares problem): a grid over
 //! topocentric distance ρ (log-spaced) and radial velocity ρ̇ at the mean epoch, inside the region
 //! where the heliocentric energy stays below v_cap²/2 (so unbound orbits up to v∞ = v_cap are admitted).
 //! At each node the four attributable parameters (direction and its rate) are profiled out: O − C is
@@ -7,8 +7,8 @@
 //!
 //! Prior: the population model's phase-space density at each node's orbit (with the H its distance
 //! implies) times the Jacobian ρ⁴ of (direction, rate, ρ, ρ̇) → state and the cell's area in
-//! (ln ρ, ρ̇). Used for multi-night arcs whose least squares is degenerate; one night goes to the
-//! short-arc quadrature (`shortarc.rs`).
+//! (ln ρ, ρ̇). Used for arcs of two positions, for multi-night arcs whose least squares is degenerate
+//! and when forced; a night seen from one place goes to the short-arc quadrature (`shortarc.rs`).
 
 use super::input::Tracklet;
 use super::population::PopulationModel;

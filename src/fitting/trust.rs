@@ -29,7 +29,10 @@ pub const RANGE_TRUSTED: f64 = 0.05;
 pub fn distrust_reasons(p: &Problem, fit: &LsqFit, bary_shift: &S6) -> Vec<String> {
     let mut why = Vec::new();
     if p.tracklet.n_nights() < 3 {
-        why.push(format!("{} nights", p.tracklet.n_nights()));
+        why.push(match p.tracklet.n_nights() {
+            1 => "1 night".to_string(),
+            n => format!("{n} nights"),
+        });
     }
     let Some(cov) = fit.cov else {
         why.push("singular normal matrix".into());

@@ -1,4 +1,4 @@
-//! Two nights of positions: the range profile gives the posterior (P, element spreads, orbits for the
+//! Two nights of positions (or one night from several places): the range profile gives the posterior (P, element spreads, orbits for the
 //! ephemeris) and its most probable slice starts the full least-squares fit that supplies residuals,
 //! outliers and the record's elements.
 
@@ -51,7 +51,7 @@ impl<'a> ArcInputs<'a> {
     }
 }
 
-/// Fit a two-night arc by its range profile (with the planets beyond ten days of arc); None hands it
+/// Fit a two-night arc (or a night from several places) by its range profile (with the planets beyond ten days of arc); None hands it
 /// back to the general path (a profile that found nothing).
 pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
     if inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
