@@ -105,6 +105,25 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     r
 }
 
+/// A tracklet that does not move at all is a star, a defect or a repeated line, not an orbit.
+fn immobile(tr: &Tracklet) -> Option<FitResult> {
+    let first = unit_from_radec(tr.obs[0].ra, tr.obs[0].dec);
+    let spread = tr
+        .obs
+        .iter()
+        .map(|o| unit_from_radec(o.ra, o.dec).angle(&first))
+        .fold(0.0, f64::max);
+    (spread < MIN_MOTION_ARCSEC * ARCSEC).then(|| {
+        FitResult::failed(
+            tr,
+            format!(
+                "the {} positions do not move (all within {MIN_MOTION_ARCSEC}\"): a star, a defect or a repeated line",
+                tr.obs.len()
+            ),
+        )
+    })
+}
+
 /// Fit one tracklet's orbit and probability.
 fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     if tr.obs.len() < 2 {
@@ -113,21 +132,8 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
             format!("{} observation(s): at least 2 are needed", tr.obs.len()),
         );
     }
-    // A tracklet that does not move at all is a star, a defect or a repeated line, not an orbit.
-    let first = unit_from_radec(tr.obs[0].ra, tr.obs[0].dec);
-    let spread = tr
-        .obs
-        .iter()
-        .map(|o| unit_from_radec(o.ra, o.dec).angle(&first))
-        .fold(0.0, f64::max);
-    if spread < MIN_MOTION_ARCSEC * ARCSEC {
-        return FitResult::failed(
-            tr,
-            format!(
-                "the {} positions do not move (all within {MIN_MOTION_ARCSEC}\"): a star, a defect or a repeated line",
-                tr.obs.len()
-            ),
-        );
+    if let Some(r) = immobile(tr) {
+        return r;
     }
     let mut observers = Vec::with_capacity(tr.obs.len());
     for o in &tr.obs {
