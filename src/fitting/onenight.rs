@@ -246,7 +246,11 @@ fn summarise(
     let chi2_dof = att.chi2 / att.dof.max(1) as f64;
     out.chi2_per_dof = Some(chi2_dof);
     out.residuals = super::lsqrecord::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
-    if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF {
+    // χ²/dof above 3 alone called 5 % of clean nights of three or four positions poor (two degrees of
+    // freedom: P(χ²(2) > 6) = e⁻³); it must also be improbable under the positions' own errors.
+    let improbable = super::stats::chi2_survival_even(att.chi2, att.dof)
+        .is_none_or(|p| p < super::quality::NIGHT_DISAGREES_P);
+    if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF && improbable {
         out.poor_fit.push(format!(
             "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"
         ));

@@ -19,6 +19,8 @@ pub const REMAINDER_REJECTS_CHI2: f64 = 12.59;
 /// A night's mean whitened residual, n·|mean|², is χ²(2) if the night agrees; above this (p = 0.001)
 /// it disagrees.
 pub const NIGHT_DISAGREES_CHI2: f64 = 13.8;
+/// The tail probability below which a night's positions disagree with the path fitted to them.
+pub const NIGHT_DISAGREES_P: f64 = 1e-3;
 
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct NightMean {

@@ -5,6 +5,23 @@ pub fn normal_cdf(x: f64) -> f64 {
     0.5 * libm::erfc(-x / std::f64::consts::SQRT_2)
 }
 
+/// Probability that χ² with an even number of degrees of freedom exceeds `x`:
+/// e^(−x/2) Σ_{j < dof/2} (x/2)^j / j! (exact for even dof; None for an odd one).
+pub fn chi2_survival_even(x: f64, dof: usize) -> Option<f64> {
+    if dof % 2 == 1 {
+        return None;
+    }
+    let h = 0.5 * x.max(0.0);
+    let (mut term, mut sum) = (1.0, 0.0);
+    for j in 0..dof / 2 {
+        if j > 0 {
+            term *= h / j as f64;
+        }
+        sum += term;
+    }
+    Some(((-h).exp() * sum).min(1.0))
+}
+
 /// Φ⁻¹(p): Acklam's rational approximation refined by one Halley step (relative error ~1e-15).
 /// The upper half is computed as −Φ⁻¹(1 − p), where 1 − p is exact, so the tail keeps its precision.
 pub fn normal_quantile(p: f64) -> f64 {
@@ -137,6 +154,18 @@ pub fn effective_sample_size(weights: &[f64]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn chi2_tails_of_even_degrees_match_their_table_points() {
+        // The 0.1 % points of χ²(2) and χ²(4) and the 5 % point of χ²(6), as printed in the usual tables
+        // (and by scipy.stats.chi2.isf): 13.816, 18.467, 12.592.
+        for (x, dof, p) in [(13.816, 2, 1e-3), (18.467, 4, 1e-3), (12.592, 6, 0.05)] {
+            let q = chi2_survival_even(x, dof).unwrap();
+            assert!((q / p - 1.0).abs() < 1e-3, "{x} {dof}: {q}");
+        }
+        assert_eq!(chi2_survival_even(0.0, 4), Some(1.0));
+        assert_eq!(chi2_survival_even(1.0, 3), None);
+    }
 
     #[test]
     fn quantiles_from_one_sort_equal_the_quantile_taken_one_at_a_time() {
