@@ -4,6 +4,7 @@
 
 use super::covariance::eccentricity_gradient;
 use super::lsq::{LsqFit, LsqOptions, Problem, correct};
+use super::stats::chi2_survival_even;
 use crate::physics::V3;
 use crate::physics::constants::ARCSEC;
 use nalgebra::Vector2;
@@ -16,10 +17,9 @@ pub const MAX_CHI2_PER_DOF: f64 = 3.0;
 /// It counts only beside an e that also moved by more than 3σ; where e is linear the excess is at
 /// least (Δe/σ)², so there the two together flag a move from about 3.5σ.
 pub const REMAINDER_REJECTS_CHI2: f64 = 12.59;
-/// A night's mean whitened residual, n·|mean|², is χ²(2) if the night agrees; above this (p = 0.001)
-/// it disagrees.
-pub const NIGHT_DISAGREES_CHI2: f64 = 13.8;
-/// The tail probability below which a night's positions disagree with the path fitted to them.
+/// The tail probability below which a night disagrees: its mean whitened residual n·|mean|² (χ²(2) if
+/// the night agrees with the orbit; the threshold is then 13.8), or a one-place night's χ² about the
+/// path fitted to its positions.
 pub const NIGHT_DISAGREES_P: f64 = 1e-3;
 
 #[derive(Debug, Clone, serde::Serialize)]
@@ -70,7 +70,7 @@ pub fn poor_fit_reasons(p: &Problem, fit: &LsqFit, e: f64, opts: &LsqOptions) ->
     let means = night_means(p, fit);
     if means.len() >= 2 {
         for m in &means {
-            if m.chi2 > NIGHT_DISAGREES_CHI2 {
+            if chi2_survival_even(m.chi2, 2).is_some_and(|p| p < NIGHT_DISAGREES_P) {
                 why.push(format!(
                     "night {} disagrees (mean O-C {:+.2}\", {:+.2}\")",
                     m.night + 1,
