@@ -5,8 +5,7 @@
 //!
 //! The interval holds the e of every orbit along the range profile's slices within Δχ² 3.84 of the
 //! best: a profile-likelihood interval, 95 % for one parameter where the likelihood is regular (it
-//! is not quite, where two nights barely tie the distance), and a little narrow where the slices are
-//! sparse. Where the population model rather than the positions
+//! is not quite, where two nights barely tie the distance). Where the population model rather than the positions
 //! narrowed e, the two disagree, and the interval is the one that still holds the truth.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
 
@@ -62,9 +61,9 @@ fn the_positions_alone_interval_holds_the_true_e_where_the_posterior_may_not() {
         let (n, data, posterior) = coverage(name);
         // Every two-night answer comes from the range profile.
         assert_eq!(n, DRAWS, "{name}");
-        // Nominal 95 %, less what falls between the profile's slices, and less where two nights
-        // barely tie the distance: the best of many nearly independent distances fits the noise and
-        // Δχ² outgrows its χ²(1) calibration (the main-belt arc: 83 of 100, the least of the six).
+        // Nominal 95 %, less where two nights barely tie the distance: the best of many nearly
+        // independent distances fits the noise and Δχ² outgrows its χ²(1) calibration (the
+        // main-belt arc: 83 of 100, the least of the six; its best slices lie at several au).
         assert!(data >= 80, "{name}: {data} of {n}");
         if name == "hyp_weak_2n" {
             // e 1.08, q 1.9 au, v∞ 6 km/s: the model's near-parabolic comets outweigh interstellar
