@@ -237,20 +237,29 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         return fallback(&why);
     }
     let alternatives = if perturb { Vec::new() } else { alternatives };
-    let doubts = Doubts::of(&found.elsewhere, found.flatter_than_linear, &fit, &shift);
+    let mut doubts = Doubts::of(&found.elsewhere, found.flatter_than_linear, &fit, &shift);
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
-    let distrusted = !distrust_reasons(&problem, &fit, &shift).is_empty()
-        || !alternatives.is_empty()
-        || doubts.any();
-    let decided = linear_decides(
-        &fit,
-        &shift,
-        tr.n_nights(),
-        &alternatives,
-        range_sigma,
-        &doubts,
-    );
+    let decides = |doubts: &Doubts| {
+        linear_decides(
+            &fit,
+            &shift,
+            tr.n_nights(),
+            &alternatives,
+            range_sigma,
+            doubts,
+        )
+    };
+    let reasons = !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
+    // Before a linear answer stands alone, χ² a few σ out along the distance must follow its
+    // covariance on both sides.
+    if (!(reasons || doubts.any()) || decides(&doubts))
+        && let (Some(scan), Some(rel)) = (scan.as_ref(), range_sigma)
+    {
+        doubts.flatter = super::valleyseeds::lopsided(&problem, &scan.frame, &fit, rel);
+    }
+    let decided = decides(&doubts);
+    let distrusted = reasons || doubts.any();
     // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
     let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
     if distrusted

@@ -134,6 +134,23 @@ def main():
     PER_NIGHT.clear()
     with open(os.path.join(OUT, "truth.json"), "w") as fh:
         json.dump(truths, fh, indent=1)
+    consecutive_nights()
+
+
+def consecutive_nights():
+    """The strongly hyperbolic orbit on three consecutive nights, kept apart from the main set (whose
+    tests take every arc): its valley along the distance is lopsided within a few sigma."""
+    out = os.path.join(DATA, "consecutive")
+    os.makedirs(out, exist_ok=True)
+    NIGHT_PLANS["3c"] = [0, 1, 2]
+    rows, truth = build_case("hyp_strong", ORBITS[0], "3c")
+    for r in rows:
+        r["id"] = "hyp_strong_3c"
+    with open(os.path.join(out, "hyp_strong_3c.psv"), "w") as fh:
+        fh.write(psv(rows))
+    truth.update({"object": "hyp_strong_3c", "file": "hyp_strong_3c.psv", "nights": 3})
+    with open(os.path.join(out, "truth.json"), "w") as fh:
+        json.dump([truth], fh, indent=1)
 
 
 if __name__ == "__main__":
