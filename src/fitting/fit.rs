@@ -97,7 +97,13 @@ pub const MIN_MOTION_ARCSEC: f64 = 0.01;
 
 /// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
-    let mut r = fit_orbit(tr, model, opts);
+    let gross = super::gross::gross_outliers(tr);
+    let mut r = if gross.is_empty() {
+        fit_orbit(tr, model, opts)
+    } else {
+        let fit = |kept: &Tracklet| fit_orbit(kept, model, opts);
+        super::gross::fit_without(tr, &gross, model, opts.inflate_nights, fit)
+    };
     r.mark_undetermined();
     if let Some(o) = &opts.origin {
         r.origin = super::origin::origin_sheet(&r, o).map(Box::new);

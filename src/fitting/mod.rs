@@ -10,6 +10,7 @@ pub mod fit;
 pub mod followup;
 pub mod forcemodel;
 pub mod gauss;
+pub mod gross;
 pub mod input;
 pub mod kinds;
 pub mod leaveout;

@@ -56,6 +56,10 @@ pub struct Found {
     pub flatter_than_linear: bool,
 }
 
+/// How much better (Δχ² on the positions the best minimum kept) another minimum must fit to take its
+/// place once outliers were set aside: more than a numerical tie.
+const SWAP_DCHI2: f64 = 1.0;
+
 /// The best least-squares orbit of the arc, the other distinct minima that compete with it, and where
 /// the other minima lie.
 pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -> Option<Found> {
@@ -76,16 +80,18 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
         .filter(|m| m.chi2 - best.chi2 < PROFILE_SEED_DCHI2)
         .map(|m| m.state)
         .collect();
-    // Outlier rejection cannot rescue a fit no orbit explains (every point looks like an outlier).
-    let best_fit = if best.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF {
-        best
-    } else {
-        correct_with_outliers(p, &best.state, &opts.lsq).unwrap_or(best)
+    // Outlier rejection within its limits; where no orbit explained the positions, it stands only if
+    // the positions it kept are then explained (a single position 50σ off lifts χ²/dof of a 12-point
+    // arc above 100; where every point looks like an outlier, none is set aside).
+    let best_fit = match correct_with_outliers(p, &best.state, &opts.lsq) {
+        Ok(f) if best.chi2_per_dof() <= NO_ORBIT_CHI2_PER_DOF => f,
+        Ok(f) if f.converged && f.chi2_per_dof() <= NO_ORBIT_CHI2_PER_DOF => f,
+        _ => best,
     };
     // Other minima are compared on the observations the best one kept: a point rejected from the
     // best fit would otherwise count against every other solution alone.
     let rejected = best_fit.used.iter().any(|u| !u);
-    let others = minima
+    let mut others: Vec<LsqFit> = minima
         .into_iter()
         .skip(1)
         .filter_map(|m| match rejected {
@@ -94,6 +100,21 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
                 .filter(|f| f.converged && !same_minimum(&best_fit, f)),
             false => Some(m),
         })
+        .collect();
+    // A wild position shapes every minimum it is in: the best of them with it can be the wrong one
+    // without it (a 10″ wild point left a strongly hyperbolic arc at e 18 for a true 2.4). Where another
+    // minimum fits the kept positions clearly better, it is the answer (on those same positions).
+    let mut best_fit = best_fit;
+    if let Some(k) = (0..others.len())
+        .filter(|&k| others[k].chi2 < best_fit.chi2 - SWAP_DCHI2)
+        .min_by(|&a, &b| others[a].chi2.total_cmp(&others[b].chi2))
+    {
+        let better = others.swap_remove(k);
+        others.push(std::mem::replace(&mut best_fit, better));
+        others.retain(|m| !same_minimum(&best_fit, m));
+    }
+    let others = others
+        .into_iter()
         .filter(|m| competitive(m.chi2, &best_fit) && m.cov.is_some())
         .collect();
     Some(Found {
