@@ -181,7 +181,7 @@ fn fit_orbit(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResu
         opts,
     };
     if tr.n_nights() <= 2
-        && let Some(r) = super::twonight::fit_two_nights(&inputs)
+        && let Some(r) = super::twonight::profile_with_chosen_dynamics(&inputs)
     {
         return r;
     }
@@ -350,7 +350,7 @@ fn linear_decides(
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that
 /// finds nothing) and say why.
 fn profile_instead(inputs: &super::twonight::ArcInputs, why: &str) -> FitResult {
-    super::twonight::fit_by_profile(inputs, None, &[], &TwoBody)
+    super::twonight::profile_with_chosen_dynamics(inputs)
         .map(|mut r| {
             r.distrust_linear.push(why.to_string());
             r

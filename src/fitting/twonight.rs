@@ -51,13 +51,21 @@ impl<'a> ArcInputs<'a> {
     }
 }
 
-/// Fit a two-night arc (or a night from several places) by its range profile (with the planets beyond ten days of arc); None hands it
-/// back to the general path (a profile that found nothing).
-pub fn fit_two_nights(inp: &ArcInputs) -> Option<FitResult> {
-    if inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS {
-        return fit_by_profile(inp, None, &[], &super::perturb::NBody::new());
+/// A two-night arc (or a night from several places, or an arc least squares could not answer) by its
+/// range profile from a straight line through the positions, with the planets where the user asked
+/// for them or, left to the tool, beyond ten days of arc; None where the profile found nothing.
+pub fn profile_with_chosen_dynamics(inp: &ArcInputs) -> Option<FitResult> {
+    use super::fit::PerturbChoice;
+    let planets = match inp.opts.perturbations {
+        PerturbChoice::On => true,
+        PerturbChoice::Off => false,
+        PerturbChoice::Auto => inp.tr.arc_days() > super::fit::PERTURB_ARC_DAYS,
+    };
+    if planets {
+        fit_by_profile(inp, None, &[], &super::perturb::NBody::new())
+    } else {
+        fit_by_profile(inp, None, &[], &TwoBody)
     }
-    fit_by_profile(inp, None, &[], &TwoBody)
 }
 
 /// Any multi-night arc along its range profile (the answer for two nights, for arcs whose linear
