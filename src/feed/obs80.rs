@@ -44,9 +44,10 @@ fn sexagesimal(text: &str, hours: bool) -> Option<f64> {
     }
     let mut v = 0.0;
     let mut scale = 1.0;
-    for p in &parts {
+    for (k, p) in parts.iter().enumerate() {
         let x: f64 = p.parse().ok()?;
-        if !x.is_finite() || x < 0.0 {
+        // Minutes and seconds run below 60 (an RA of 20 75 06.82 is no position).
+        if !x.is_finite() || x < 0.0 || (k > 0 && x >= 60.0) {
             return None;
         }
         v += x * scale;
@@ -277,7 +278,8 @@ fn second_line(c: &[char], kind: char) -> Result<Option<(String, i64, [f64; 3])>
         if !(-90.0..=90.0).contains(&lat) {
             return Err(("46-55".into(), format!("latitude {lat} outside ±90°")));
         }
-        Ok(Some(("WGS84".to_string(), 0, [lon, lat, alt])))
+        // A point on the Earth: centre 399, as the observer-position columns of ADES give it.
+        Ok(Some(("WGS84".to_string(), 399, [lon, lat, alt])))
     }
 }
 
@@ -375,5 +377,46 @@ mod tests {
         assert_eq!(bad[0].column.as_deref(), Some("33-44"));
         let (_, bad) = parse("x.txt", "short line\n");
         assert!(bad[0].reason.contains("80 are needed"));
+    }
+
+    #[test]
+    fn minutes_or_seconds_of_sixty_or_more_are_no_position() {
+        for (ra, dec, column) in [
+            ("20 75 06.82", "-49 50 17.8", "33-44"),
+            ("20 04 60.00", "-49 50 17.8", "33-44"),
+            ("20 04 06.82", "-49 50 75.0", "45-56"),
+            ("20 04 06.82", "-49 60 17.8", "45-56"),
+        ] {
+            let l = line("     m750001", 'C', "2026 11 26.28523", ra, dec, "", "TV1");
+            let (ok, bad) = parse("x.txt", &l);
+            assert!(ok.is_empty(), "{ra} {dec}");
+            assert_eq!(bad[0].column.as_deref(), Some(column), "{ra} {dec}");
+        }
+        // 59.99 is fine.
+        let l = line(
+            "     m750001",
+            'C',
+            "2026 11 26.28523",
+            "20 04 59.99",
+            "-49 59 59.9",
+            "",
+            "TV1",
+        );
+        assert!(parse("x.txt", &l).1.is_empty());
+    }
+
+    /// Regression: a roving observer's pair came out about centre 0, which the feed refuses for a
+    /// WGS84 point (it must be on the Earth, centre 399): every such record was rejected.
+    #[test]
+    fn a_roving_observers_pair_is_read_as_a_point_on_the_earth() {
+        let text = "     rov0003  V2026 11 26.28523 20 04 06.82 -49 50 17.8                      247\n     rov0003  v2026 11 26.28523     242.0300   +36.1200  1650                247\n     rov0003  C2026 11 26.30259 20 04 09.08 -49 50 55.2                      TV1\n";
+        let (records, bad) = parse("r.txt", text);
+        assert!(bad.is_empty(), "{bad:?}");
+        assert_eq!(records.len(), 2);
+        let sites = crate::feed::sites::SiteTable::builtin();
+        let limits = crate::feed::tracklets::Limits::default();
+        let intake = crate::feed::tracklets::read_bytes("r.txt", text.as_bytes(), &sites, &limits);
+        assert!(intake.errors.is_empty(), "{:?}", intake.errors);
+        assert_eq!(intake.tracklets[0].obs.len(), 2);
     }
 }
