@@ -120,7 +120,8 @@ impl SiteTable {
         v
     }
 
-    /// Add the sites of a TOML table; later entries override earlier ones with the same code.
+    /// Add the sites of a TOML table; its entries override earlier tables' ones with the same code. One
+    /// code twice in the same table is refused (which of two positions would be meant?).
     pub fn load_toml(&mut self, file: &str, text: &str) -> Result<usize, InputError> {
         let err = |line: usize, reason: String| InputError {
             file: clean(file),
@@ -136,6 +137,7 @@ impl SiteTable {
             err(line, clean(e.message()))
         })?;
         let mut n = 0;
+        let mut seen: HashMap<String, usize> = HashMap::new();
         for (k, s) in parsed.site.into_iter().enumerate() {
             let code = clean(s.code.trim());
             let what = format!("site {} ({code})", k + 1);
@@ -148,6 +150,12 @@ impl SiteTable {
             };
             if code.is_empty() {
                 return Err(at(&["code"], "empty code".into()));
+            }
+            if let Some(first) = seen.insert(code.clone(), k + 1) {
+                return Err(at(
+                    &["code"],
+                    format!("code given twice in this file (site {first} has it too)"),
+                ));
             }
             let position = super::siteentry::position(
                 s.longitude_deg,
@@ -360,6 +368,11 @@ mod tests {
             )
             .unwrap();
         assert_eq!(n, 1);
+        // One code twice in one table, with different positions: refused at the second's code line.
+        let two = "[[site]]\ncode = \"AB3\"\nlongitude_deg = 10\nlatitude_deg = 20\n\n[[site]]\ncode = \"AB3\"\nlongitude_deg = 11\nlatitude_deg = 20\n";
+        let e = t.load_toml("s.toml", two).unwrap_err();
+        assert_eq!(e.line, 7, "{e}");
+        assert!(e.reason.contains("given twice"), "{e}");
     }
 
     #[test]

@@ -35,6 +35,17 @@ pub struct Store {
     files: HashMap<String, HashSet<(String, ObsId)>>,
 }
 
+/// Whether two reports of one observation (same time, site and position) also agree in what the fit
+/// and the screens read besides: uncertainties, their correlation, magnitude and band.
+fn same_report(a: &Observation, b: &Observation) -> bool {
+    let same = |x: Option<f64>, y: Option<f64>| x.map(f64::to_bits) == y.map(f64::to_bits);
+    same(a.sigma_ra_arcsec, b.sigma_ra_arcsec)
+        && same(a.sigma_dec_arcsec, b.sigma_dec_arcsec)
+        && same(a.correlation, b.correlation)
+        && same(a.mag, b.mag)
+        && a.band == b.band
+}
+
 impl Store {
     pub fn new() -> Store {
         Store::default()
@@ -90,7 +101,14 @@ impl Store {
                 e.sources.push(source);
             }
             match e.obs.get_mut(&key) {
-                Some((_, owners)) => {
+                Some((held, owners)) => {
+                    // A rewrite of the only file reporting it can restate its uncertainty or
+                    // magnitude: the fit must see the new values.
+                    let only_here = owners.iter().all(|f| f == file);
+                    if only_here && !same_report(held, &o) {
+                        *held = o;
+                        touched.insert(obj.clone());
+                    }
                     owners.insert(file.to_string());
                 }
                 None => {
@@ -145,6 +163,26 @@ mod tests {
             ));
         }
         s.into_bytes()
+    }
+
+    /// Regression: a file rewritten with the same positions but new uncertainties was taken as
+    /// unchanged, and the fit kept the old σ (watch and `fit` of the final file disagreed).
+    #[test]
+    fn a_rewrite_that_restates_only_the_uncertainties_changes_the_object() {
+        let (sites, limits) = (SiteTable::builtin(), Limits::default());
+        let mut st = Store::new();
+        let rows = [("X1", "03:00:00", 120.0), ("X1", "03:10:00", 120.01)];
+        st.ingest("a.psv", &psv(&rows), &sites, &limits);
+        let wider = String::from_utf8(psv(&rows))
+            .unwrap()
+            .replace("|0.2|0.2", "|0.3|0.3");
+        let ing = st.ingest("a.psv", wider.as_bytes(), &sites, &limits);
+        assert_eq!(ing.changed, vec![("X1".to_string(), 2)]);
+        let t = st.tracklet("X1").unwrap();
+        assert!(t.obs.iter().all(|o| o.sigma_ra_arcsec == Some(0.3)));
+        // The same bytes again change nothing.
+        let again = st.ingest("a.psv", wider.as_bytes(), &sites, &limits);
+        assert!(again.changed.is_empty());
     }
 
     #[test]
