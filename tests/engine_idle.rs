@@ -23,6 +23,8 @@ fn offer(wtx: &std::sync::mpsc::Sender<WatchEvent>, names: &[&str]) {
         })
         .unwrap();
     }
+    // As the watcher does after its first scan: what was offered so far is fitted now.
+    wtx.send(WatchEvent::StartScanned).unwrap();
 }
 
 #[test]

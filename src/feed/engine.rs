@@ -104,6 +104,10 @@ struct State {
     overrides: HashMap<String, Overrides>,
     generation: HashMap<String, u64>,
     arrived: HashMap<String, SystemTime>,
+    /// Until the watcher has handed on every file present at start, the objects they changed wait
+    /// here: an object whose positions are split over several such files is fitted once, whole (its
+    /// first file alone once gave a fit of four positions before the rest).
+    held: Option<BTreeSet<String>>,
 }
 
 /// Forward everything from `rx` into the engine's input until either side is gone.
@@ -142,6 +146,7 @@ impl Engine {
             overrides,
             generation: HashMap::new(),
             arrived: HashMap::new(),
+            held: Some(BTreeSet::new()),
         };
         std::thread::spawn(move || {
             for input in rx {
@@ -188,7 +193,7 @@ impl State {
                 let mut queued = Vec::new();
                 for (obj, _) in &ing.changed {
                     self.arrived.insert(obj.clone(), arrived);
-                    queued.extend(self.submit(obj));
+                    queued.extend(self.submit_or_hold(obj));
                 }
                 out(EngineEvent::Ingested {
                     path: name,
@@ -210,6 +215,12 @@ impl State {
                 arrived,
             }),
             Input::Watch(WatchEvent::Failed(m)) => out(EngineEvent::Failed(m)),
+            Input::Watch(WatchEvent::StartScanned) => {
+                for obj in self.held.take().unwrap_or_default() {
+                    let _ = self.submit(&obj);
+                }
+                true
+            }
             Input::Fit(boxed) => {
                 let (obj, version, fit, running) = *boxed;
                 // A newer submission of this object is queued or running: its result will follow.
@@ -232,7 +243,7 @@ impl State {
             Input::Overrides(obj, ov) => {
                 if self.overrides.get(&obj).cloned().unwrap_or_default() != ov {
                     self.overrides.insert(obj.clone(), ov);
-                    let _ = self.submit(&obj);
+                    let _ = self.submit_or_hold(&obj);
                 }
                 true
             }
@@ -240,6 +251,19 @@ impl State {
                 self.opts = *opts;
                 true
             }
+        }
+    }
+
+    /// `submit`, or while the files present at start are still being handed on, hold the object until
+    /// they all are (its id is returned all the same: its fit will come).
+    fn submit_or_hold(&mut self, object: &str) -> Option<String> {
+        match self.held.as_mut() {
+            Some(held) if self.store.tracklet(object).is_some() => {
+                held.insert(object.to_string());
+                Some(object.to_string())
+            }
+            Some(_) => None,
+            None => self.submit(object),
         }
     }
 

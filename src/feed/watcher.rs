@@ -53,6 +53,10 @@ pub enum WatchEvent {
     },
     /// The watcher could not start or lost the directory.
     Failed(String),
+    /// Every file present at start has been handed on (or refused), sent once: what was already in
+    /// the directory can be fitted as a whole. A file still being written at start is waited for, at
+    /// most `START_HOLD_MAX`.
+    StartScanned,
 }
 
 /// Hidden, editor and partial-download files are never read.
@@ -128,6 +132,8 @@ fn run(
     let mut files: HashMap<PathBuf, FileState> = HashMap::new();
     let mut hints: HashSet<PathBuf> = HashSet::new();
     let mut first = true;
+    // The files present at start, until every one has been handed on (or refused, or has gone).
+    let mut start_files: Option<(HashSet<PathBuf>, Instant)> = None;
     while !stop.load(Ordering::Relaxed) {
         if !first {
             // Sleep until the next scan is due, waking early only for an event that can complete a
@@ -159,6 +165,17 @@ fn run(
         if scan(dir, opts, &mut files, &mut hints, tx).is_err() {
             return;
         }
+        if first {
+            start_files = Some((files.keys().cloned().collect(), Instant::now()));
+        }
+        if let Some((initial, since)) = &start_files
+            && (since.elapsed() >= START_HOLD_MAX || all_handed_on(initial, &files))
+        {
+            start_files = None;
+            if tx.send(WatchEvent::StartScanned).is_err() {
+                return;
+            }
+        }
         first = false;
     }
 }
@@ -189,6 +206,17 @@ fn collect_hint(ev: notify::Result<notify::Event>, hints: &mut HashSet<PathBuf>)
             ev.kind,
             EventKind::Create(CreateKind::File | CreateKind::Any)
         )
+}
+
+/// `StartScanned` waits at most this long for the files present at start (one still being written when
+/// the watcher starts is read when complete; the objects held meanwhile must not wait for ever).
+const START_HOLD_MAX: Duration = Duration::from_secs(30);
+
+/// Whether every file of `initial` has been handed on or refused, or is gone.
+fn all_handed_on(initial: &HashSet<PathBuf>, files: &HashMap<PathBuf, FileState>) -> bool {
+    initial
+        .iter()
+        .all(|p| files.get(p).is_none_or(|s| s.delivered.is_some()) || !p.exists())
 }
 
 fn stamp(meta: &std::fs::Metadata) -> Stamp {
