@@ -258,8 +258,9 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     };
     let reasons = !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
     // Before a linear answer stands alone, χ² a few σ out along the distance must follow its
-    // covariance on both sides.
+    // covariance on both sides (where the search scans the distance at all: more nights pin it).
     if (!(reasons || doubts.any()) || decides(&doubts))
+        && tr.n_nights() <= super::search::MAX_SCAN_NIGHTS
         && let (Some(scan), Some(rel)) = (scan.as_ref(), range_sigma)
     {
         doubts.flatter = super::valleyseeds::lopsided(&problem, &scan.frame, &fit, rel);

@@ -43,12 +43,24 @@ pub fn gross_outliers(tr: &Tracklet) -> Vec<usize> {
         .iter()
         .map(|o| unit_from_radec(o.ra, o.dec))
         .collect();
-    let apart = |i: usize, j: usize| tr.obs[i].time.tdb.minus(tr.obs[j].time.tdb).abs();
-    let pairs = || (0..n).flat_map(|i| (i + 1..n).map(move |j| (i, j)));
+    // Angles and times apart of every pair, once.
+    let mut angle = vec![0.0; n * n];
+    let mut apart = vec![0.0; n * n];
+    for i in 0..n {
+        for j in i + 1..n {
+            let (a, t) = (
+                dirs[i].angle(&dirs[j]),
+                tr.obs[i].time.tdb.minus(tr.obs[j].time.tdb).abs(),
+            );
+            (angle[i * n + j], angle[j * n + i]) = (a, a);
+            (apart[i * n + j], apart[j * n + i]) = (t, t);
+        }
+    }
     let rate = median(
-        pairs()
-            .filter(|&(i, j)| apart(i, j) > 0.0)
-            .map(|(i, j)| dirs[i].angle(&dirs[j]) / apart(i, j))
+        (0..n)
+            .flat_map(|i| (i + 1..n).map(move |j| i * n + j))
+            .filter(|&k| apart[k] > 0.0)
+            .map(|k| angle[k] / apart[k])
             .collect(),
     );
     if !rate.is_finite() {
@@ -59,7 +71,7 @@ pub fn gross_outliers(tr: &Tracklet) -> Vec<usize> {
             median(
                 (0..n)
                     .filter(|&j| j != i)
-                    .map(|j| (dirs[i].angle(&dirs[j]) - rate * apart(i, j)).abs())
+                    .map(|j| (angle[i * n + j] - rate * apart[i * n + j]).abs())
                     .collect(),
             )
         })
