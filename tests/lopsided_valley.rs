@@ -1,6 +1,6 @@
-//! A strongly hyperbolic orbit on three consecutive nights (tests/reference/make_synthetic.py,
-//! `consecutive/`: scipy DOP853 on JPL DE421, ERFA site vectors, light time), 300 noise draws drawn
-//! here. Its χ² along the distance is lopsided within a few σ: steep towards the Sun, flat outwards,
+//! A strongly hyperbolic orbit seen on three consecutive dates from three sites, an arc of 1.6 days
+//! whose last two nights are 6 h apart (tests/reference/make_synthetic.py, `consecutive/`: scipy DOP853
+//! on JPL DE421, ERFA site vectors, light time), 300 noise draws drawn here. Its χ² along the distance is lopsided within a few σ: steep towards the Sun, flat outwards,
 //! where the truth lies. Where noise put the minimum on the steep side the range looked known to 2 %
 //! and the linear answer stood, e 2.13–2.22 ± 0.09 for a true 2.4: in a probe of 300 draws, 10 such
 //! answers, and the 95 % interval of none held the truth. χ² is now probed 3σ out on both sides

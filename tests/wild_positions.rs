@@ -71,3 +71,47 @@ fn one_wild_position_is_set_aside_and_the_answer_is_the_arcs_without_it() {
         assert_eq!(r.probability_from, clean.probability_from, "{what}");
     }
 }
+
+#[test]
+fn a_lone_position_of_its_night_or_site_is_never_set_aside_as_wild() {
+    // Its departure from the others' steady motion is the path's curvature and the sites' parallax,
+    // with nothing beside it to judge it by: a near-Earth arc seen four times from one site and once,
+    // 2.3 h later, from another (tests/reference/make_two_site.py); a main-belt arc's third night cut to
+    // one position.
+    let (model, opts) = (ObserverModel::new(), FitOptions::default());
+    let text = std::fs::read_to_string(util::reference_path("two_site/truth.json")).unwrap();
+    let all: Vec<serde_json::Value> = serde_json::from_str(&text).unwrap();
+    let two_site = all
+        .iter()
+        .find(|t| t["object"] == "near_earth_1n2s")
+        .unwrap();
+    let tr = util::arc(
+        two_site,
+        &mut interloper::fitting::ranging::SplitMix::new(3),
+        0.2,
+        0.2,
+    );
+    let lone_site = Tracklet::new(tr.object.clone(), tr.source.clone(), tr.obs[..5].to_vec());
+    let main = util::synthetic_file("mainbelt_3n.psv");
+    let lone_night = Tracklet::new(
+        main.object.clone(),
+        main.source.clone(),
+        main.obs[..9].to_vec(),
+    );
+    for (what, tr) in [
+        ("one from a second site", lone_site),
+        ("one on a third night", lone_night),
+    ] {
+        assert!(
+            interloper::fitting::gross::gross_outliers(&tr).is_empty(),
+            "{what}"
+        );
+        let r = fit_tracklet(&tr, &model, &opts);
+        assert_eq!(r.n_obs, tr.obs.len(), "{what}");
+        assert!(
+            r.residuals.iter().all(|x| x.used),
+            "{what}: {:?}",
+            r.residuals
+        );
+    }
+}

@@ -16,6 +16,7 @@ use crate::fitting::input::Tracklet;
 use crate::fitting::obsid::ObsId;
 use std::collections::{BTreeSet, HashMap};
 use std::sync::Arc;
+use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::mpsc::{Receiver, Sender, channel};
 use std::time::SystemTime;
 
@@ -93,6 +94,8 @@ enum Input {
 pub struct Engine {
     input: Sender<Input>,
     pool: Arc<FitPool>,
+    /// Objects held until the files present at start are all read (they count as waiting).
+    held: Arc<AtomicUsize>,
 }
 
 struct State {
@@ -108,6 +111,7 @@ struct State {
     /// here: an object whose positions are split over several such files is fitted once, whole (its
     /// first file alone once gave a fit of four positions before the rest).
     held: Option<BTreeSet<String>>,
+    held_count: Arc<AtomicUsize>,
 }
 
 /// Forward everything from `rx` into the engine's input until either side is gone.
@@ -147,7 +151,9 @@ impl Engine {
             generation: HashMap::new(),
             arrived: HashMap::new(),
             held: Some(BTreeSet::new()),
+            held_count: Arc::new(AtomicUsize::new(0)),
         };
+        let held = st.held_count.clone();
         std::thread::spawn(move || {
             for input in rx {
                 if !st.handle(input, &out) {
@@ -155,7 +161,11 @@ impl Engine {
                 }
             }
         });
-        Engine { input: tx, pool }
+        Engine {
+            input: tx,
+            pool,
+            held,
+        }
     }
 
     /// How `object` is to be fitted from now on; it is refitted if it is known and this changed it.
@@ -170,7 +180,8 @@ impl Engine {
 
     /// (waiting, running) fits.
     pub fn load(&self) -> (usize, usize) {
-        self.pool.load()
+        let (waiting, running) = self.pool.load();
+        (waiting + self.held.load(Ordering::Relaxed), running)
     }
 
     /// Stop the fit workers after their current fits (pending fits are dropped) and the engine once
@@ -214,11 +225,13 @@ impl State {
                 reason,
                 arrived,
             }),
-            Input::Watch(WatchEvent::Failed(m)) => out(EngineEvent::Failed(m)),
+            Input::Watch(WatchEvent::Failed(m)) => {
+                // A watcher in trouble may never say it has read everything: fit what is held.
+                self.release();
+                out(EngineEvent::Failed(m))
+            }
             Input::Watch(WatchEvent::StartScanned) => {
-                for obj in self.held.take().unwrap_or_default() {
-                    let _ = self.submit(&obj);
-                }
+                self.release();
                 true
             }
             Input::Fit(boxed) => {
@@ -260,11 +273,20 @@ impl State {
         match self.held.as_mut() {
             Some(held) if self.store.tracklet(object).is_some() => {
                 held.insert(object.to_string());
+                self.held_count.store(held.len(), Ordering::Relaxed);
                 Some(object.to_string())
             }
             Some(_) => None,
             None => self.submit(object),
         }
+    }
+
+    /// Fit every held object (once the files present at start are read, or the watcher failed).
+    fn release(&mut self) {
+        for obj in self.held.take().unwrap_or_default() {
+            let _ = self.submit(&obj);
+        }
+        self.held_count.store(0, Ordering::Relaxed);
     }
 
     /// Queue a fit of the object's observations as they stand; the id its fit will carry, if one was

@@ -36,7 +36,8 @@ pub struct Store {
 }
 
 /// Whether two reports of one observation (same time, site and position) also agree in what the fit
-/// and the screens read besides: uncertainties, their correlation, magnitude and band.
+/// and the screens read besides: uncertainties, their correlation, magnitude, band and the observer's
+/// own position (a roving observer's coordinates can be corrected).
 fn same_report(a: &Observation, b: &Observation) -> bool {
     let same = |x: Option<f64>, y: Option<f64>| x.map(f64::to_bits) == y.map(f64::to_bits);
     same(a.sigma_ra_arcsec, b.sigma_ra_arcsec)
@@ -44,6 +45,7 @@ fn same_report(a: &Observation, b: &Observation) -> bool {
         && same(a.correlation, b.correlation)
         && same(a.mag, b.mag)
         && a.band == b.band
+        && a.location == b.location
 }
 
 impl Store {

@@ -4,10 +4,9 @@
 //! under the population model is estimated, and gathers everything the console and the batch output
 //! show.
 
-use super::covariance::eccentricity_gradient;
 use super::input::Tracklet;
 use super::lsq::{LsqFit, LsqOptions, Problem, correct_with_outliers};
-use super::lsqrecord::{LINEAR_DECIDES, NO_ORBIT_CHI2_PER_DOF, lsq_result};
+use super::lsqrecord::{NO_ORBIT_CHI2_PER_DOF, lsq_result};
 use super::onenight::fit_one_night;
 use super::perturb::{Dynamics, NBody, TwoBody};
 use super::population::PopulationModel;
@@ -15,13 +14,12 @@ use super::ranging::RangingOptions;
 pub use super::result::{
     Alternative, ElementsOut, FitResult, KEPT_SAMPLES, RangingOut, ResidualOut, rank, resample,
 };
-use super::significance::{MU_BARY, unbound_bary};
+use super::standing::{Doubts, Judged, lopsided_here};
 use super::trust::distrust_reasons;
+use crate::physics::S6;
 use crate::physics::constants::ARCSEC;
-use crate::physics::elements::CometaryElements;
 use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::ObserverModel;
-use crate::physics::{S6, split_state};
 use std::sync::{Arc, OnceLock};
 
 /// Which method to use.
@@ -246,26 +244,14 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     let mut doubts = Doubts::of(&found.elsewhere, found.flatter_than_linear, &fit, &shift);
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
-    let decides = |doubts: &Doubts| {
-        linear_decides(
-            &fit,
-            &shift,
-            tr.n_nights(),
-            &alternatives,
-            range_sigma,
-            doubts,
-        )
-    };
+    let judged = Judged::new(&fit, &shift, &alternatives, range_sigma, tr.n_nights());
     let reasons = !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
     // Before a linear answer stands alone, χ² a few σ out along the distance must follow its
-    // covariance on both sides (where the search scans the distance at all: more nights pin it).
-    if (!(reasons || doubts.any()) || decides(&doubts))
-        && tr.n_nights() <= super::search::MAX_SCAN_NIGHTS
-        && let (Some(scan), Some(rel)) = (scan.as_ref(), range_sigma)
-    {
-        doubts.flatter = super::valleyseeds::lopsided(&problem, &scan.frame, &fit, rel);
+    // covariance on both sides.
+    if !(reasons || doubts.any()) || judged.decides(&doubts) {
+        doubts.flatter |= lopsided_here(&problem, scan.as_ref(), &fit, range_sigma);
     }
-    let decided = decides(&doubts);
+    let decided = judged.decides(&doubts);
     let distrusted = reasons || doubts.any();
     // (A fit no orbit explains goes straight to its record: no probability will be shown for it.)
     let hopeless = fit.chi2_per_dof() > NO_ORBIT_CHI2_PER_DOF;
@@ -292,60 +278,6 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // The profile could not answer (or no orbit fits): the linear answer stands, with the warnings.
     doubts.mark(&mut r);
     r
-}
-
-/// Why the linear answer may not stand, beyond its own distrust reasons (`distrust_reasons`).
-struct Doubts {
-    /// χ² beside the minimum, along the distance, rose well short of its covariance's prediction.
-    flatter: bool,
-    /// A distinct minimum of the other class (bound or unbound) lies within `PROFILE_SEED_DCHI2` of
-    /// the best (before its outliers were set aside). It can hold the posterior though it fits worse
-    /// than the alternatives' Δχ², when the model favours its class by more: a near-Earth asteroid's
-    /// own valley 11.7 above a hyperbolic one at twice its distance once left P = 1 to the linear answer.
-    flips: bool,
-}
-
-impl Doubts {
-    /// The doubts about `fit`, given where the search's other minima lie and whether χ² was flatter.
-    fn of(elsewhere: &[S6], flatter: bool, fit: &LsqFit, shift: &S6) -> Doubts {
-        let unbound = unbound_bary(&fit.state, shift);
-        Doubts {
-            flatter,
-            flips: elsewhere.iter().any(|x| unbound_bary(x, shift) != unbound),
-        }
-    }
-
-    fn any(&self) -> bool {
-        self.flatter || self.flips
-    }
-
-    /// Say on the record why the linear answer was doubted.
-    fn mark(&self, r: &mut FitResult) {
-        for (doubted, why) in [(self.flatter, FLATTER_REASON), (self.flips, FLIPS_REASON)] {
-            if doubted {
-                r.distrust_linear.push(why.into());
-            }
-        }
-    }
-}
-
-/// Whether a decisive linear z settles the class. Where the range is known to worse than 5 %, or χ²
-/// along the distance is flatter than the covariance, its Gaussian draws cannot follow e along the
-/// curved valley, and where another solution or a minimum of the other class competes the linear
-/// answer does not weigh it: the profile still answers.
-fn linear_decides(
-    fit: &LsqFit,
-    shift: &S6,
-    nights: usize,
-    alternatives: &[LsqFit],
-    range_sigma: Option<f64>,
-    doubts: &Doubts,
-) -> bool {
-    linear_z(fit, shift).is_some_and(|z| z.abs() >= LINEAR_DECIDES)
-        && nights >= 3
-        && alternatives.is_empty()
-        && !doubts.any()
-        && range_sigma.is_some_and(|rel| rel <= super::trust::RANGE_TRUSTED)
 }
 
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that
@@ -381,17 +313,6 @@ fn needs_perturbations(problem: &Problem, fit: &LsqFit, choice: PerturbChoice) -
             problem.tracklet.arc_days() > PERTURB_ARC_DAYS || close < PERTURB_EARTH_AU
         }
     }
-}
-
-/// (e_bary − 1)/σ of a least-squares fit, where it has a covariance.
-fn linear_z(fit: &LsqFit, shift: &S6) -> Option<f64> {
-    let cov = fit.cov?;
-    let xb = fit.state + shift;
-    let (rb, vb) = split_state(&xb);
-    let g = eccentricity_gradient(&rb, &vb, MU_BARY);
-    let s = (g * cov * g.transpose())[0].max(0.0).sqrt();
-    let e = CometaryElements::from_state(&rb, &vb, 0.0, MU_BARY).e;
-    (s > 0.0).then(|| (e - 1.0) / s)
 }
 
 /// Why a fit with a distinct minimum of the other class (bound or unbound) within

@@ -42,6 +42,7 @@ pub mod search;
 pub mod shortarc;
 pub mod significance;
 pub mod spreads;
+pub mod standing;
 pub mod stats;
 pub mod trust;
 pub mod twonight;

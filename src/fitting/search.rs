@@ -73,8 +73,8 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
     };
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     let best = minima.first()?.clone();
-    let flatter_than_linear = flat_sided.iter().any(|m| same_minimum(&best, m));
-    let elsewhere = minima
+    let mut flatter_than_linear = flat_sided.iter().any(|m| same_minimum(&best, m));
+    let mut elsewhere: Vec<S6> = minima
         .iter()
         .skip(1)
         .filter(|m| m.chi2 - best.chi2 < PROFILE_SEED_DCHI2)
@@ -110,8 +110,12 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
         .min_by(|&a, &b| others[a].chi2.total_cmp(&others[b].chi2))
     {
         let better = others.swap_remove(k);
-        others.push(std::mem::replace(&mut best_fit, better));
+        let old = std::mem::replace(&mut best_fit, better);
+        // The minimum given up is now one of the others the profile and the doubts must see.
+        elsewhere.push(old.state);
+        others.push(old);
         others.retain(|m| !same_minimum(&best_fit, m));
+        flatter_than_linear = flat_sided.iter().any(|m| same_minimum(&best_fit, m));
     }
     let others = others
         .into_iter()

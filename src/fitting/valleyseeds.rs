@@ -183,7 +183,7 @@ const SIDE_RISE_RATIO: f64 = 0.6;
 /// each side of the minimum, rose less than `FLAT_RISE_SHARE` of the 9 its covariance predicts on
 /// either side, or much less on one side than on the other. The bracket probes above look halfway to
 /// the scan's next slice, often far beyond the valley; a valley can be lopsided within it. Strongly
-/// hyperbolic three-night arcs on consecutive nights showed it: where noise put the minimum on the
+/// hyperbolic three-night arcs on consecutive dates (1.6 days from three sites) showed it: where noise put the minimum on the
 /// steep side, e 2.13–2.22 ± 0.09 for a true 2.4, the linear answer stood (range known to 2 %), and
 /// its 95 % interval held the truth in none of 10 (χ² rose 6.5 at +3σ, 12 at −3σ).
 pub(super) fn lopsided(p: &Problem, frame: &Frame, fit: &LsqFit, rel: f64) -> bool {

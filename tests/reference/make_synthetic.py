@@ -138,8 +138,9 @@ def main():
 
 
 def consecutive_nights():
-    """The strongly hyperbolic orbit on three consecutive nights, kept apart from the main set (whose
-    tests take every arc): its valley along the distance is lopsided within a few sigma."""
+    """The strongly hyperbolic orbit on three consecutive dates (from three sites: 1.6 days, the last two
+    nights 6 h apart), kept apart from the main set (whose tests take every arc): its valley along the
+    distance is lopsided within a few sigma."""
     out = os.path.join(DATA, "consecutive")
     os.makedirs(out, exist_ok=True)
     NIGHT_PLANS["3c"] = [0, 1, 2]
