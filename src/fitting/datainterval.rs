@@ -29,11 +29,12 @@ pub fn e_data_interval(
     sun_bary: &S6,
     v_cap: f64,
 ) -> Option<[f64; 2]> {
-    // Each slice's admissible ρ̇ window with its centre and σ: (slice, lo, hi, σ).
-    let windows: Vec<(&Slice, f64, f64, f64)> = prof
+    // Each slice's admissible ρ̇ window with its centre and σ: (slice, lo, hi, σ), None where it has
+    // none (kept in place, so that only neighbouring slices are ever paired).
+    let aligned: Vec<Option<(&Slice, f64, f64, f64)>> = prof
         .slices
         .iter()
-        .filter_map(|s| {
+        .map(|s| {
             let var = s.cov[(4, 4)];
             if !(var.is_finite() && var > 0.0) {
                 return None;
@@ -43,6 +44,7 @@ pub fn e_data_interval(
             (lo < hi).then_some((s, lo, hi, var.sqrt()))
         })
         .collect();
+    let windows: Vec<(&Slice, f64, f64, f64)> = aligned.iter().flatten().copied().collect();
     // χ² of an admissible orbit of a slice nearest its own minimum.
     let least = |(s, lo, hi, sd): &(&Slice, f64, f64, f64)| {
         s.chi2 + ((s.a[4].clamp(*lo, *hi) - s.a[4]) / sd).powi(2)
@@ -54,8 +56,10 @@ pub fn e_data_interval(
             out = Some(out.map_or([e, e], |[a, b]| [a.min(e), b.max(e)]));
         }
     };
-    for pair in windows.windows(2) {
-        if let Some(e) = edge_between(&pair[0], &pair[1], best, frame) {
+    for pair in aligned.windows(2) {
+        if let [Some(a), Some(b)] = pair
+            && let Some(e) = edge_between(a, b, best, frame)
+        {
             take(e);
         }
     }
