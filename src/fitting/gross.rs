@@ -32,12 +32,16 @@ const MIN_GROSS_ARCSEC: f64 = 60.0;
 /// Fewer positions than this leave no majority to judge by.
 const MIN_POSITIONS: usize = 4;
 
+/// The screen compares every pair: beyond this many positions (a file may hold 200 000) it is not run
+/// (its tables would take n² memory; least squares' own rejection still judges such arcs).
+const MAX_POSITIONS: usize = 500;
+
 /// The positions (indices) of `tr` out of reach of the others' motion: at most one in ten (at least
 /// one); where more disagree as much, none (a false linkage, or an object whose speed changes, is for
 /// the fit to judge).
 pub fn gross_outliers(tr: &Tracklet) -> Vec<usize> {
     let n = tr.obs.len();
-    if n < MIN_POSITIONS {
+    if !(MIN_POSITIONS..=MAX_POSITIONS).contains(&n) {
         return Vec::new();
     }
     let dirs: Vec<_> = tr
@@ -245,6 +249,22 @@ mod tests {
         }
         // Ten arcseconds on a slow arc is for least squares to judge, not for this screen.
         assert!(gross_outliers(&arc(0.25, Some((5, 10.0 / 3600.0)))).is_empty());
+    }
+
+    #[test]
+    fn a_tracklet_too_long_to_compare_every_pair_is_left_to_the_fit() {
+        // 600 positions with one 30° off: the pairwise tables (n²) are not built.
+        let mut tr = arc(1.0, Some((0, 30.0)));
+        let first = tr.obs.clone();
+        for k in 1..50 {
+            tr.obs.extend(first.iter().map(|o| Observation {
+                time: o.time.plus_days(7.0 * k as f64),
+                ..o.clone()
+            }));
+        }
+        let tr = Tracklet::new("x".into(), "x".into(), tr.obs);
+        assert_eq!(tr.obs.len(), 600);
+        assert!(gross_outliers(&tr).is_empty());
     }
 
     #[test]
