@@ -134,7 +134,20 @@ fn an_unknown_key_in_a_site_table_is_refused_with_its_line() {
     .unwrap();
     let feed = format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"));
     let (code, _, err) = run(&["fit", "--sites", sites.to_str().unwrap(), &feed], &[]);
-    assert_ne!(code, Some(0));
+    // A faulty side file is a usage error, as a faulty configuration file is.
+    assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("line 5") || err.contains(":5"), "{err}");
     assert!(err.contains("unknown field `alt`"), "{err}");
+}
+
+#[test]
+fn a_missing_site_table_or_population_model_is_a_usage_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let missing = dir.path().join("nowhere.toml");
+    let feed = format!("{}/sample_feeds/demo_night", env!("CARGO_MANIFEST_DIR"));
+    for flag in ["--sites", "--site-codes", "--population"] {
+        let (code, _, err) = run(&["fit", flag, missing.to_str().unwrap(), &feed], &[]);
+        assert_eq!(code, Some(2), "{flag}: {err}");
+        assert!(err.contains("nowhere.toml"), "{flag}: {err}");
+    }
 }

@@ -20,7 +20,13 @@ pub struct SiteArgs {
 impl SiteArgs {
     /// The built-in sites, then the site codes and the site table (each from its flag, else from the
     /// configuration file), with the configured default minimum altitude.
+    /// A table that cannot be read or is invalid is a usage error (exit 2), as a faulty configuration
+    /// file is: the command named a file the run cannot start without.
     pub fn load(&self) -> anyhow::Result<SiteTable> {
+        self.load_tables().map_err(as_usage)
+    }
+
+    fn load_tables(&self) -> anyhow::Result<SiteTable> {
         let cfg = super::config::get();
         let caps = interloper::fitting::conditions::Capabilities {
             min_alt_deg: cfg.min_alt_deg.value,
@@ -54,7 +60,14 @@ pub struct PopulationArgs {
 
 impl PopulationArgs {
     /// The model to fit under: the file's, validated, or the built-in one.
+    /// A model that cannot be read or is invalid is a usage error (exit 2).
     pub fn load(
+        &self,
+    ) -> anyhow::Result<std::sync::Arc<interloper::fitting::population::PopulationModel>> {
+        self.load_model().map_err(as_usage)
+    }
+
+    fn load_model(
         &self,
     ) -> anyhow::Result<std::sync::Arc<interloper::fitting::population::PopulationModel>> {
         use interloper::fitting::population::{ModelFile, PopulationModel};
@@ -67,6 +80,11 @@ impl PopulationArgs {
         let file = ModelFile::parse(&name, &text)?;
         Ok(std::sync::Arc::new(PopulationModel::new(name, file)))
     }
+}
+
+/// A side file's fault, with its whole context, as a usage error.
+fn as_usage(e: anyhow::Error) -> anyhow::Error {
+    crate::cli::Usage(format!("{e:#}")).into()
 }
 
 /// Largest site table, site-code table or population model read (a device or a runaway file named
