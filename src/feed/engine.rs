@@ -315,3 +315,66 @@ impl State {
         Some(id)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::PathBuf;
+    use std::sync::Mutex;
+    use std::time::{Duration, Instant};
+
+    fn ready(name: &str, text: &str) -> WatchEvent {
+        WatchEvent::Ready {
+            path: PathBuf::from(name),
+            bytes: text.as_bytes().to_vec(),
+            arrived: SystemTime::now(),
+        }
+    }
+
+    /// An object held at start whose file is rewritten without it before every start file is read is
+    /// still answered once they are: a failed fit saying it has no positions left, so that nothing
+    /// listed as queued waits for ever; the object that replaced it is fitted too.
+    #[test]
+    fn an_object_withdrawn_while_held_at_start_is_answered_with_a_failed_fit() {
+        let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+            .join("sample_feeds/demo_night/001_qk0f3ra_n1.psv");
+        let text = std::fs::read_to_string(path).unwrap_or_default();
+        assert!(text.contains("qk0f3ra"), "the demo feed file is missing");
+        let (tx, rx) = channel();
+        let fits = Arc::new(Mutex::new(Vec::<(String, String, usize)>::new()));
+        let f2 = fits.clone();
+        let engine = Engine::start(
+            rx,
+            Arc::new(SiteTable::builtin()),
+            FitOptions::default(),
+            1,
+            HashMap::new(),
+            move |ev| match ev {
+                EngineEvent::Fit { fit, .. } => f2
+                    .lock()
+                    .map(|mut v| v.push((fit.object.clone(), fit.status.to_string(), fit.n_obs)))
+                    .is_ok(),
+                _ => true,
+            },
+        );
+        tx.send(ready("a.psv", &text)).unwrap();
+        tx.send(ready("a.psv", &text.replace("qk0f3ra", "zz9other")))
+            .unwrap();
+        tx.send(WatchEvent::StartScanned).unwrap();
+        let start = Instant::now();
+        while fits.lock().unwrap().len() < 2 && start.elapsed() < Duration::from_secs(60) {
+            std::thread::sleep(Duration::from_millis(20));
+        }
+        let mut fits = fits.lock().unwrap().clone();
+        fits.sort();
+        assert_eq!(fits.len(), 2, "{fits:?}");
+        assert_eq!(
+            (fits[0].0.as_str(), fits[0].1.as_str(), fits[0].2),
+            ("qk0f3ra", "failed", 0)
+        );
+        assert_eq!(fits[1].0, "zz9other");
+        assert_ne!(fits[1].1, "failed");
+        assert_eq!(engine.load(), (0, 0));
+        engine.shutdown();
+    }
+}
