@@ -90,16 +90,24 @@ impl Default for FitOptions {
     }
 }
 
+/// Why an arc of several nights was answered by the range profile: no least-squares correction on
+/// all its positions converged.
+pub const NO_LSQ_MINIMUM: &str = "no initial orbit converged";
+
 /// Positions that all lie within this (arcsec) of the first do not describe a moving object.
 pub const MIN_MOTION_ARCSEC: f64 = 0.01;
 
 /// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
     let gross = super::gross::gross_outliers(tr);
+    let fit = |kept: &Tracklet| fit_orbit(kept, model, opts);
     let mut r = if gross.is_empty() {
-        fit_orbit(tr, model, opts)
+        let first = fit(tr);
+        match super::secondlook::wanted(tr, &first) {
+            true => super::secondlook::second_look(tr, first, model, opts, &fit),
+            false => first,
+        }
     } else {
-        let fit = |kept: &Tracklet| fit_orbit(kept, model, opts);
         super::gross::fit_without(tr, &gross, model, opts.inflate_nights, fit)
     };
     r.mark_undetermined();
@@ -211,7 +219,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     let problem = inputs.problem(&two_body);
     let scan = super::twonight::scan_start(inputs, None);
     let Some(found) = super::search::least_squares(&problem, opts, scan.as_ref()) else {
-        return fallback("no initial orbit converged");
+        return fallback(NO_LSQ_MINIMUM);
     };
     let (mut fit, alternatives) = (found.best, found.alternatives);
     let nbody = NBody::new();

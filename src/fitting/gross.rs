@@ -27,7 +27,7 @@ use crate::physics::time::Jd2;
 const GROSS_RATIO: f64 = 10.0;
 
 /// Departures below this (arcsec) are for least squares to judge: its rejection reaches them.
-const MIN_GROSS_ARCSEC: f64 = 60.0;
+pub(super) const MIN_GROSS_ARCSEC: f64 = 60.0;
 
 /// Fewer positions than this leave no majority to judge by.
 const MIN_POSITIONS: usize = 4;
@@ -116,18 +116,35 @@ pub fn fit_without(
     inflate_nights: bool,
     fit: impl Fn(&Tracklet) -> FitResult,
 ) -> FitResult {
+    let off = |x: &ResidualOut| x.ra_arcsec.hypot(x.dec_arcsec) >= MIN_GROSS_ARCSEC;
+    match without(tr, (gross, &off), model, inflate_nights, &fit) {
+        Some(r) => r,
+        None => fit(tr),
+    }
+}
+
+/// Whether a position set aside is out of the reach of the orbit fitted without it.
+pub(super) type OutOfReach<'a> = dyn Fn(&ResidualOut) -> bool + 'a;
+
+/// The record of `tr` fitted without its positions `gross`, every position listed (those set aside
+/// as not used); None where that orbit still reaches every one of them (`off` says which are out of
+/// its reach).
+pub(super) fn without(
+    tr: &Tracklet,
+    (gross, off): (&[usize], &OutOfReach<'_>),
+    model: &ObserverModel,
+    inflate_nights: bool,
+    fit: &impl Fn(&Tracklet) -> FitResult,
+) -> Option<FitResult> {
     let kept: Vec<Observation> = (0..tr.obs.len())
         .filter(|i| !gross.contains(i))
         .map(|i| tr.obs[i].clone())
         .collect();
     let mut r = fit(&Tracklet::new(tr.object.clone(), tr.source.clone(), kept));
     let residuals = off_path_residuals(&r, tr, model, inflate_nights);
-    let reached = gross.iter().all(|&i| {
-        let x = &residuals[i];
-        x.ra_arcsec.hypot(x.dec_arcsec) < MIN_GROSS_ARCSEC
-    });
+    let reached = gross.iter().all(|&i| !off(&residuals[i]));
     if reached {
-        return fit(tr);
+        return None;
     }
     let known: std::collections::HashMap<ObsId, ResidualOut> =
         r.residuals.drain(..).map(|x| (x.id.clone(), x)).collect();
@@ -136,7 +153,7 @@ pub fn fit_without(
         .map(|x| known.get(&x.id).cloned().unwrap_or(x))
         .collect();
     r.n_obs = tr.obs.len();
-    r
+    Some(r)
 }
 
 /// Every position's O − C from the record's state, marked not used (NaN where the record has no

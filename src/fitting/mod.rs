@@ -39,6 +39,7 @@ pub mod rejection;
 pub mod result;
 pub mod sampling;
 pub mod search;
+pub mod secondlook;
 pub mod shortarc;
 pub mod significance;
 pub mod spreads;
