@@ -1,9 +1,10 @@
-//! A second look at an arc of three nights or more that found no orbit it trusts (a poor fit, or no
+//! A second look at an arc of two nights or more that found no orbit it trusts (a poor fit, or no
 //! least-squares minimum on all its positions): one position the answer leaves far off can be wild
 //! although the screen before fitting could not tell it from the path's curvature. A degree's error in
 //! the first position of a 21-day ten-night arc kept every correction from converging, and the range
 //! profile answered `ok` at e 0.83 for a true 0.70 (a near-Earth arc: 0.82 for 0.38); a strongly
-//! hyperbolic one was a poor fit at e 22 for 2.4.
+//! hyperbolic one was a poor fit at e 22 for 2.4; a near-Earth two-night arc with a position 72″ off
+//! was a poor fit (χ²/dof 242) with that position rejected but its pull left in the orbit.
 
 use super::fit::FitOptions;
 use super::fit::NO_LSQ_MINIMUM;
@@ -27,11 +28,12 @@ const TRIES: usize = 3;
 /// chosen the valley: a strongly hyperbolic three-night arc with its first position 72″ off was
 /// answered `ok` at e 18.2 for 2.39 once that position was rejected).
 pub fn wanted(tr: &Tracklet, first: &FitResult) -> bool {
-    tr.n_nights() >= 3 && (untrusted(first) || first.n_used < first.n_obs)
+    tr.n_nights() >= 2 && (untrusted(first) || first.n_used < first.n_obs)
 }
 
 /// Where least squares set positions aside: the arc fitted from scratch without them, if that lands
-/// in a minimum that fits the same positions better (by more than a numerical tie) and is `ok`.
+/// in a minimum that fits the same positions better (by more than a numerical tie) and is `ok` or
+/// `undetermined`.
 pub fn refit_without_rejected(
     tr: &Tracklet,
     first: &FitResult,
@@ -55,7 +57,7 @@ pub fn refit_without_rejected(
             let dof = (2 * r.n_used).saturating_sub(6).max(1) as f64;
             (before - c) * dof > SWAP_DCHI2
         });
-    (better && r.status == FitStatus::Ok).then_some(r)
+    (better && r.status.usable()).then_some(r)
 }
 
 /// How much better (Δχ² on the same positions) the fit from scratch must be to replace the first.
@@ -70,12 +72,13 @@ fn indices(tr: &Tracklet) -> std::collections::HashMap<ObsId, usize> {
 }
 
 /// The record of `tr` without the one position, among the `TRIES` farthest (in χ²) off `first`'s
-/// orbit, whose removal leaves a sound least-squares answer (status `ok`, a minimum on every other
-/// position, none of them set aside) whose orbit passes at least `MIN_GROSS_ARCSEC` from it (a position
-/// 72″ off on a three-night arc pulled its night-mates 18″ along: the fit with it was a poor one, and
-/// its rejection never converged); None where no such position is found. The distance keeps a night
-/// of another object a few arcsec off (a false linkage) a poor fit: without one of its positions the
-/// others can pass.
+/// orbit, whose removal leaves a sound least-squares answer (`ok` or `undetermined`, a minimum on
+/// every other position, none of them set aside) whose orbit passes at least `MIN_GROSS_ARCSEC` from
+/// it, or `LONE_RATIO` times as far as from any kept position and beyond the rejection threshold (a
+/// position 72″ off on a three-night arc pulled its night-mates 18″ along: the fit with it was a poor
+/// one, and its rejection never converged); None where no such position is found. The distance keeps
+/// a night of another object a few arcsec off (a false linkage) a poor fit: without one of its
+/// positions the others can pass.
 pub fn retry_without_one(
     tr: &Tracklet,
     first: &FitResult,
@@ -96,7 +99,7 @@ pub fn retry_without_one(
     let off = |x: &ResidualOut| x.ra_arcsec.hypot(x.dec_arcsec) >= MIN_GROSS_ARCSEC;
     far.into_iter().find_map(|(_, i)| {
         without(tr, (&[i], &|_| true), model, opts.inflate_nights, fit).filter(|r| {
-            r.status == FitStatus::Ok
+            r.status.usable()
                 && r.n_used + 1 == tr.obs.len()
                 && !r.distrust_linear.iter().any(|w| w == NO_LSQ_MINIMUM)
                 && r.residuals.iter().find(|x| !x.used).is_some_and(|x| {
