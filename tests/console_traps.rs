@@ -1,6 +1,8 @@
 //! Small traps of the console's state machine: Ctrl-C from every mode, overlays that stop scrolling at
-//! their last line.
+//! their last line, keys on a screen too small to show the list.
 #![allow(clippy::unwrap_used)] // a failed step in a test or benchmark should stop it loudly
+
+mod util;
 
 use interloper::console::keymap::Keymap;
 use interloper::console::state::{App, Effect, Mode};
@@ -42,4 +44,26 @@ fn an_overlay_stops_scrolling_at_its_last_line() {
     assert_eq!(app.overlay_scroll, 5);
     app.on_key(KeyEvent::new(KeyCode::Up, KeyModifiers::NONE));
     assert_eq!(app.overlay_scroll, 4, "one key up moves one line back");
+}
+
+/// A window shrunk below the layout's size shows only the size it needs: keys that would move the
+/// hidden cursor or record a decision do nothing there (a set-aside once reached the journal blind),
+/// quit still quits, and once the window is large enough again they act as before.
+#[test]
+fn keys_do_nothing_but_quit_while_the_screen_is_too_small_to_show_the_list() {
+    let mut app = util::screens::demo_app(|_| {});
+    let before = app.selected.clone();
+    let shown = util::screens::screen(&mut app, 40, 10);
+    assert!(shown.contains("terminal too small"), "{shown}");
+    for k in ['j', 'j', 'x', 'p', 'w', ' '] {
+        assert!(app.on_key(key(k)).is_empty(), "{k} acted while hidden");
+    }
+    assert_eq!(app.selected, before, "the hidden cursor moved");
+    assert!(matches!(app.on_key(key('q')).as_slice(), [Effect::Quit]));
+    util::screens::screen(&mut app, 80, 24);
+    let decided = app.on_key(key('x'));
+    assert!(
+        decided.iter().any(|e| matches!(e, Effect::Journal(_))),
+        "{decided:?}"
+    );
 }

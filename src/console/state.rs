@@ -157,6 +157,9 @@ pub struct App {
     pub plan: Option<crate::fitting::plan::Plan>,
     pub page: usize,
     pub dirty: bool,
+    /// The screen is too small to show the list (as its last drawing found, `view::draw`): keys other than quit do
+    /// nothing, since a decision made blind could land on a row nobody saw.
+    pub hidden: bool,
     pub clock: fn() -> String,
     /// What the journal says stands for every object (candidates or not yet).
     pub standing: Standing,
@@ -204,6 +207,7 @@ impl App {
             plan: None,
             page: 10,
             dirty: true,
+            hidden: false,
             clock: now_utc,
             standing: Standing::default(),
             me: crate::feed::journal::observer_name(None),

@@ -12,7 +12,8 @@ pub const MIN_HEIGHT: u16 = 24;
 
 pub fn draw(f: &mut Frame, app: &mut App, theme: Theme) {
     let area = f.area();
-    if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
+    app.hidden = !fits(area);
+    if app.hidden {
         too_small(f, area);
         return;
     }
@@ -36,6 +37,11 @@ pub fn draw(f: &mut Frame, app: &mut App, theme: Theme) {
     residuals::draw(f, bottom[1], app, theme);
     status::draw_hints(f, rows[3], app, theme);
     overlay::draw(f, area, app, theme);
+}
+
+/// Whether the whole layout fits in `area` (else only the size needed is shown).
+pub fn fits(area: ratatui::layout::Rect) -> bool {
+    area.width >= MIN_WIDTH && area.height >= MIN_HEIGHT
 }
 
 /// Instead of a layout that cuts ids and drops columns without saying so: the size needed, and that

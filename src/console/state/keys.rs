@@ -24,6 +24,12 @@ impl App {
         }
         let ctx = self.context();
         let action = Key::from_event(&ev).and_then(|k| self.keymap.action(ctx, &k));
+        if self.hidden {
+            return match action {
+                Some(Action::Quit) => vec![Effect::Quit],
+                _ => Vec::new(),
+            };
+        }
         if ctx == Context::Input {
             return match action {
                 Some(Action::Accept) => self.accept_input(),
