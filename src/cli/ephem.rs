@@ -198,10 +198,13 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     if span < 0.0 {
         crate::usage!("--to is before --from");
     }
-    let n = (span / step + 1e-9).floor() as usize + 1;
-    if n > MAX_ROWS {
-        crate::usage!("{n} steps is too many (at most {MAX_ROWS} rows in one run)");
-    }
+    let Some(offsets) = offsets_days(span, step) else {
+        crate::usage!(
+            "{:.0} steps is too many (at most {MAX_ROWS} rows in one run)",
+            (span / step).floor() + 1.0
+        );
+    };
+    let n = offsets.len();
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
     super::inputs::keep_objects(&mut tracklets, &args.objects)?;
     // The cap is on the whole run, every object's rows together.
@@ -231,8 +234,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
         }
         let h = tracklet_h(fit, t, &model);
         let mut points = Vec::with_capacity(n);
-        for k in 0..n {
-            let inst = from.plus_days(k as f64 * step);
+        for &dt in &offsets {
+            let inst = from.plus_days(dt);
             let tt = inst.tt;
             if let Some(p) = point_with(
                 fit,
@@ -281,8 +284,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     }
     out.flush()?;
     if let Some(prefix) = &args.request {
-        let txt = prefix.with_extension("txt");
-        let json = prefix.with_extension("json");
+        let (txt, json) = (with_suffix(prefix, ".txt"), with_suffix(prefix, ".json"));
         let mut text = String::from(
             "Follow-up request (advisory: a high hyperbolicity score is a reason for follow-up, not a discovery)\n",
         );
@@ -341,6 +343,68 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     )
 }
 
+/// The times of the table, days after `--from`: every `step` from `--from`, and `--to` itself where
+/// the step does not land on it (both ends are included; a dusk-to-dawn request once lost its last
+/// time).
+/// None where that is more than `MAX_ROWS` times.
+fn offsets_days(span: f64, step: f64) -> Option<Vec<f64>> {
+    if !(span.is_finite() && step.is_finite() && span >= 0.0 && step > 0.0) {
+        return None;
+    }
+    // A time within a millisecond of `--to` is `--to`.
+    let tol = 1e-3 / 86_400.0;
+    let n = ((span + tol) / step).floor();
+    if n >= MAX_ROWS as f64 {
+        return None;
+    }
+    let mut out: Vec<f64> = (0..=n as usize).map(|k| k as f64 * step).collect();
+    if out.last().is_some_and(|last| span - last > tol) {
+        out.push(span);
+    }
+    (out.len() <= MAX_ROWS).then_some(out)
+}
+
+/// `PREFIX` with `suffix` appended (a dot in the prefix is part of the name: `req/a.tv1` gives
+/// `req/a.tv1.txt`, never `req/a.txt`).
+fn with_suffix(prefix: &std::path::Path, suffix: &str) -> std::path::PathBuf {
+    let mut name = prefix.as_os_str().to_os_string();
+    name.push(suffix);
+    std::path::PathBuf::from(name)
+}
+
 /// Rows one `ephem` run writes at most (all objects together): a month at one-minute steps for
 /// four objects.
 pub const MAX_ROWS: usize = 200_000;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_table_ends_at_to_also_where_the_step_does_not_land_on_it() {
+        let minute = 1.0 / 1440.0;
+        let got = offsets_days(60.0 * minute, 25.0 * minute).unwrap();
+        let minutes: Vec<f64> = got
+            .iter()
+            .map(|d| (d / minute * 1e6).round() / 1e6)
+            .collect();
+        assert_eq!(minutes, vec![0.0, 25.0, 50.0, 60.0]);
+        // A step that lands on `--to` adds nothing after it; a zero span is one row.
+        assert_eq!(offsets_days(60.0 * minute, 30.0 * minute).unwrap().len(), 3);
+        assert_eq!(offsets_days(0.0, minute).unwrap(), vec![0.0]);
+        assert!(offsets_days(1.0, 1.0 / MAX_ROWS as f64).is_none());
+    }
+
+    #[test]
+    fn a_request_prefix_keeps_its_dots() {
+        let p = std::path::Path::new("req/a.tv1");
+        assert_eq!(
+            with_suffix(p, ".txt"),
+            std::path::PathBuf::from("req/a.tv1.txt")
+        );
+        assert_eq!(
+            with_suffix(p, ".json"),
+            std::path::PathBuf::from("req/a.tv1.json")
+        );
+    }
+}
