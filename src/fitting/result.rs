@@ -176,6 +176,9 @@ pub struct FitResult {
     /// Weighted orbits (state, epoch TDB JD, weight) when the answer came from samples.
     #[serde(skip)]
     pub samples: Vec<([f64; 6], f64, f64)>,
+    /// The heliocentric state of the orbit the elements describe, where that is a sample's (None: `state`).
+    #[serde(skip)]
+    pub shown_state: Option<[f64; 6]>,
 }
 
 impl FitResult {
@@ -271,6 +274,7 @@ impl FitResult {
             night_means: Vec::new(),
             residuals: Vec::new(),
             state: None,
+            shown_state: None,
             covariance: None,
             next_night: None,
             origin: None,

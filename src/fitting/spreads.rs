@@ -138,8 +138,9 @@ pub fn sample_spreads(
     let e_values: Vec<f64> = els.iter().map(|el| el.e).collect();
     out.set_e_intervals(&e_values, weights);
     let best = headline_index(&els, weights, headline);
-    match best.and_then(|k| els.get(k)) {
-        Some(el) => {
+    match best.and_then(|k| Some((els.get(k)?, states.get(k)?))) {
+        Some((el, x)) => {
+            out.shown_state = Some([x[0], x[1], x[2], x[3], x[4], x[5]]);
             out.e = Some(el.e);
             out.q_au = Some(el.q);
             out.i_deg = Some(el.i);

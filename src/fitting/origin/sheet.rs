@@ -156,7 +156,8 @@ pub fn origin_sheet(r: &FitResult, o: &OriginOptions) -> Option<Origin> {
     if r.p_hyperbolic.is_none_or(|p| p < MIN_PROBABILITY) {
         return None;
     }
-    let (x, t) = (S6::from(r.state?), r.epoch_jd_tdb?);
+    // The orbit the record's elements describe (a sample's where P comes from samples).
+    let (x, t) = (S6::from(r.shown_state.or(r.state)?), r.epoch_jd_tdb?);
     let (nominal, end) = fly_both(&x, t, 1.0, o.stop_au)?;
     let flown: Vec<Flown> = orbit_samples(r, o.samples, o.seed)
         .iter()
