@@ -291,16 +291,27 @@ fn sample_region(
             continue;
         };
         let (p, _) = project(st, obs, MU_SUN);
-        let u = p.topo.normalize();
-        // Gnomonic offsets (arcsec) from the nominal direction.
-        let d = u.dot(&center);
-        if d <= 0.0 {
-            continue;
-        }
-        pts.push((u.dot(&e_a) / d / ARCSEC, u.dot(&e_d) / d / ARCSEC));
+        pts.push(sky_offset(&p.topo.normalize(), &center, (&e_a, &e_d)));
         ws.push(*w);
     }
     sample_extent(&pts, &ws)
+}
+
+/// Offset (arcsec, east and north) of the direction `u` from `center`: the true angle between them,
+/// along the direction in which `u` lies (an azimuthal equidistant map, bounded by 180° and smooth to
+/// the antipode). Gnomonic offsets (tan of the angle) once grew without bound as a sample neared 90°,
+/// and samples beyond it were dropped with their weight: a three-σ region of 2.5 million degrees, then
+/// one that shrank as the farthest samples fell out.
+fn sky_offset(u: &V3, center: &V3, (e_a, e_d): (&V3, &V3)) -> (f64, f64) {
+    let (x, y) = (u.dot(e_a), u.dot(e_d));
+    let across = x.hypot(y);
+    let angle = across.atan2(u.dot(center)) / ARCSEC;
+    if across > 0.0 {
+        (angle * x / across, angle * y / across)
+    } else {
+        // The nominal direction itself, or its antipode (any bearing: east).
+        (angle, 0.0)
+    }
 }
 
 /// The region that holds `REGION_FRACTION` of weighted sky offsets (arcsec, east and north of the
@@ -350,6 +361,42 @@ mod tests {
         assert!((hg_magnitude(15.0, 0.15, 2.0, 1.0, 0.0) - 16.5051).abs() < 1e-4);
         assert!((hg_magnitude(15.0, 0.15, 2.0, 1.0, 20.0 * DEG) - 17.5048).abs() < 1e-4);
         assert!((hg_magnitude(22.0, 0.15, 1.1, 0.15, 60.0 * DEG) - 20.2361).abs() < 1e-4);
+    }
+
+    #[test]
+    fn sky_offsets_are_true_angles_bounded_and_never_dropped_past_ninety_degrees() {
+        let (ra0, dec0) = (40.0 * DEG, 20.0 * DEG);
+        let (e_a, e_d) = tangent_axes(ra0, dec0);
+        let center = crate::physics::frames::unit_from_radec(ra0, dec0);
+        // Moving north along the meridian by `a`: the offset is (0, a) for every a up to 180°.
+        let mut last = -1.0;
+        for deg in [1e-4, 0.5, 30.0, 89.0, 90.0, 91.0, 120.0, 179.0] {
+            let u = crate::physics::frames::unit_from_radec(ra0, dec0 + deg * DEG);
+            let u = if dec0 + deg * DEG > std::f64::consts::FRAC_PI_2 {
+                // Past the pole the meridian continues on the other side.
+                crate::physics::frames::unit_from_radec(
+                    ra0 + std::f64::consts::PI,
+                    std::f64::consts::PI - dec0 - deg * DEG,
+                )
+            } else {
+                u
+            };
+            let (x, y) = sky_offset(&u, &center, (&e_a, &e_d));
+            assert!(x.abs() < 1e-6 * deg.max(1.0) * 3600.0, "{deg}: east {x}");
+            assert!(
+                (y / 3600.0 - deg).abs() < 1e-9 * deg.max(1.0),
+                "{deg}: north {y}"
+            );
+            assert!(y > last, "{deg}: not increasing");
+            last = y;
+        }
+        // The antipode is 180° off, not infinitely far.
+        let (x, y) = sky_offset(&(-center), &center, (&e_a, &e_d));
+        assert!((x.hypot(y) / 3600.0 - 180.0).abs() < 1e-9, "{x} {y}");
+        // Small offsets match the tangent-plane ones (1″ east).
+        let u = crate::physics::frames::unit_from_radec(ra0 + ARCSEC / dec0.cos(), dec0);
+        let (x, y) = sky_offset(&u, &center, (&e_a, &e_d));
+        assert!((x - 1.0).abs() < 1e-6 && y.abs() < 1e-5, "{x} {y}");
     }
 
     #[test]
