@@ -7,6 +7,7 @@ use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
 use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
 use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
+use interloper::fitting::fit::FitResult;
 use interloper::fitting::kinds::FitStatus;
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::sky::Twilight;
@@ -222,6 +223,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let mut out = std::io::BufWriter::new(std::io::stdout().lock());
     let mut all: Vec<EphemerisPoint> = Vec::new();
     let mut failed = 0;
+    // Each object's status and note, for the request.
+    let mut standing: Vec<(String, FitStatus, Option<String>)> = Vec::new();
     for (t, fit) in tracklets.iter().zip(&results) {
         if fit.status == "failed" {
             eprintln!(
@@ -253,32 +256,24 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
                 uncomputable.push(String::new());
             }
         }
+        let note = fit_note(fit);
         if args.json {
             for p in &points {
-                serde_json::to_writer(&mut out, p)?;
+                // Each row says how far its orbit can be trusted (a poor fit's rows look as exact).
+                let mut row = serde_json::to_value(p)?;
+                row["status"] = serde_json::json!(fit.status);
+                row["note"] = serde_json::json!(note);
+                serde_json::to_writer(&mut out, &row)?;
                 out.write_all(b"\n")?;
             }
         } else {
             out.write_all(table(&points).as_bytes())?;
-            if fit.status != FitStatus::Ok || fit.prior_dominated {
-                out.write_all(
-                    format!(
-                        "note: fit is {}{}{}\n",
-                        fit.status,
-                        if fit.status == FitStatus::Undetermined {
-                            " (its elements are the population model's, not measured)"
-                        } else {
-                            ""
-                        },
-                        if fit.prior_dominated {
-                            ", answer set by the prior"
-                        } else {
-                            ""
-                        }
-                    )
-                    .as_bytes(),
-                )?;
+            if let Some(n) = &note {
+                out.write_all(format!("note: {n}\n").as_bytes())?;
             }
+        }
+        if !points.is_empty() {
+            standing.push((fit.object.clone(), fit.status, note));
         }
         all.extend(points);
     }
@@ -297,9 +292,13 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
         ));
         let mut objects: Vec<&str> = all.iter().map(|p| p.object.as_str()).collect();
         objects.dedup();
+        let about = |o: &str| standing.iter().find(|s| s.0 == o);
         for o in &objects {
             let pts: Vec<EphemerisPoint> = all.iter().filter(|p| p.object == *o).cloned().collect();
             text.push_str(&table(&pts));
+            if let Some((_, _, Some(n))) = about(o) {
+                text.push_str(&format!("note: {n}\n"));
+            }
             text.push('\n');
         }
         std::fs::write(&txt, text).with_context(|| format!("writing {}", txt.display()))?;
@@ -308,6 +307,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             "advisory": "a hyperbolicity score is a reason for follow-up, not a discovery; check the site's own solar-avoidance limits",
             "targets": objects.iter().map(|o| serde_json::json!({
                 "object": o,
+                "status": about(o).map(|s| s.1),
+                "note": about(o).and_then(|s| s.2.clone()),
                 "windows": windows(&all.iter().filter(|p| p.object == *o).cloned().collect::<Vec<_>>()),
                 "points": all.iter().filter(|p| p.object == *o).collect::<Vec<_>>(),
             })).collect::<Vec<_>>(),
@@ -341,6 +342,31 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             0
         },
     )
+}
+
+/// What a follow-up table must say about its orbit: a fit that is not `ok`, or whose answer the
+/// population model set (None for a sound fit whose positions decided).
+fn fit_note(fit: &FitResult) -> Option<String> {
+    let why = match fit.status {
+        FitStatus::Ok => None,
+        FitStatus::Undetermined => Some(
+            "fit is undetermined (its elements are the population model's, not measured)".into(),
+        ),
+        FitStatus::PoorFit => Some(format!(
+            "fit is poor-fit: no orbit fits these positions as their errors allow ({}); the path \
+             shown may be far from the object's",
+            clean(&fit.poor_fit.join("; "))
+        )),
+        FitStatus::Failed => Some("fit failed".into()),
+    };
+    // The prior decided only where a probability was worked out at all.
+    let prior = fit.prior_dominated && fit.bayes_factor.is_some();
+    match (why, prior) {
+        (Some(w), true) => Some(format!("{w}; answer set by the prior")),
+        (Some(w), false) => Some(w),
+        (None, true) => Some("answer set by the prior".into()),
+        (None, false) => None,
+    }
 }
 
 /// The times of the table, days after `--from`: every `step` from `--from`, and `--to` itself where
