@@ -67,3 +67,17 @@ fn keys_do_nothing_but_quit_while_the_screen_is_too_small_to_show_the_list() {
         "{decided:?}"
     );
 }
+
+/// A key map refused at start (file, line, reason) is said atop the help, which alerts never replace
+/// (the status line that first says it is taken by the next alert within a second).
+#[test]
+fn a_refused_key_map_is_said_atop_the_help() {
+    let mut app = App::new(Keymap::builtin());
+    let why = "keys.toml: line 3: unknown action 'bogus' — using the default keys";
+    app.keymap_warning = Some(why.to_string());
+    let lines = interloper::console::panes::overlay::help_lines(&app);
+    assert_eq!(lines[0], format!("[key map] {why}"));
+    app.keymap_warning = None;
+    assert!(interloper::console::panes::overlay::help_lines(&app)[0].starts_with('['));
+    assert!(!interloper::console::panes::overlay::help_lines(&app)[0].contains("key map"));
+}

@@ -42,10 +42,11 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
     let (mut rt, decisions, warnings) = runtime::start(setup, stop.clone(), tx.clone())?;
     let log_warning = super::logging::init(Some(&cfg.state), super::logging::Sink::FileOnly);
     tracing::info!(dir = %clean(&cfg.dir.display().to_string()), "console opened");
-    for w in &warnings {
+    for w in warnings.iter().chain(&warning) {
         tracing::warn!("{}", clean(w));
     }
     let mut app = App::new(keymap);
+    app.keymap_warning.clone_from(&warning);
     app.me = cfg.observer.clone();
     app.alerts =
         interloper::console::alerting::Alerts::new(super::config::get().alerts.value.clone());

@@ -146,6 +146,9 @@ pub struct App {
     pub mode: Mode,
     pub input: Input,
     pub keymap: Keymap,
+    /// Why the key map in use is not the one asked for (shown atop the help, which alerts never
+    /// replace as they replace the status line).
+    pub keymap_warning: Option<String>,
     pub status: FeedStatus,
     pub rejected: Vec<InputError>,
     pub message: Option<String>,
@@ -208,6 +211,7 @@ impl App {
             page: 10,
             dirty: true,
             hidden: false,
+            keymap_warning: None,
             clock: now_utc,
             standing: Standing::default(),
             me: crate::feed::journal::observer_name(None),
