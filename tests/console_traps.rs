@@ -81,3 +81,20 @@ fn a_refused_key_map_is_said_atop_the_help() {
     assert!(interloper::console::panes::overlay::help_lines(&app)[0].starts_with('['));
     assert!(!interloper::console::panes::overlay::help_lines(&app)[0].contains("key map"));
 }
+
+/// Ids that differ only in their last character stay distinct at the smallest screen (a trade
+/// designation is ten characters; both once read `2027 AB12`), and wider screens give the spare
+/// columns to the id and the decision rather than leaving them blank.
+#[test]
+fn ten_character_ids_are_shown_whole_at_80_columns() {
+    let mut app = util::screens::demo_app(|_| {});
+    let (a, b) = (app.view[0], app.view[1]);
+    app.candidates[a].fit.object = "2027 AB123".into();
+    app.candidates[b].fit.object = "2027 AB124".into();
+    let shown = util::screens::screen(&mut app, 80, 24);
+    assert!(shown.contains("2027 AB123"), "{shown}");
+    assert!(shown.contains("2027 AB124"), "{shown}");
+    app.candidates[a].fit.object = "a_synthetic_name_of_24ch".into();
+    let wider = util::screens::screen(&mut app, 100, 30);
+    assert!(wider.contains("a_synthetic_name_of_24ch"), "{wider}");
+}

@@ -47,8 +47,29 @@ fn decision_text(c: &Candidate, me: &str) -> String {
     }
 }
 
+/// Width (columns) from which the table shows every column.
+const WIDE_FROM: u16 = 130;
+
+/// Widths of the id and decision columns: whatever the fixed columns between them leave, the id as wide
+/// as the longest shown (at least 10 columns, 12 in the wide table, and at most what leaves the decision
+/// its least: 10, 15 in the wide table), the decision the rest (an observer's name after the verdict). At 80 columns the id
+/// was once cut to 9 characters and the decision to `set aside* (`, with 20 columns blank at 100.
+fn id_and_decision_widths(width: u16, middle: &[u16], need: usize, wide: bool) -> (u16, u16) {
+    let (min_id, min_decision) = if wide { (12u16, 15) } else { (10, 10) };
+    // Borders (2) and one space between columns.
+    let gaps = middle.len() as u16 + 1;
+    let left = width
+        .saturating_sub(2 + gaps)
+        .saturating_sub(middle.iter().sum::<u16>());
+    let id = u16::try_from(need)
+        .unwrap_or(u16::MAX)
+        .min(left.saturating_sub(min_decision))
+        .max(min_id);
+    (id, left.saturating_sub(id).max(min_decision))
+}
+
 pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
-    let wide = area.width >= 120;
+    let wide = area.width >= WIDE_FROM;
     let header_cells: Vec<&str> = if wide {
         vec![
             "object",
@@ -70,15 +91,24 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             "object", "odds", "P(unb)", "e ± σ", "q AU", "arc", "obs", "status", "decision",
         ]
     };
-    let widths: Vec<Constraint> = if wide {
-        [12, 7, 6, 16, 14, 6, 6, 4, 7, 6, 8, 9, 15]
-            .map(Constraint::Length)
-            .to_vec()
+    // The longest id shown (and its mark): distinct ids must not look alike when cut.
+    let need = app
+        .view
+        .iter()
+        .map(|&i| clean(&app.candidates[i].fit.object).chars().count() + 1)
+        .max()
+        .unwrap_or(0);
+    let middle: &[u16] = if wide {
+        &[7, 6, 16, 14, 6, 6, 4, 7, 6, 8, 9]
     } else {
-        [10, 7, 6, 13, 5, 4, 6, 6, 12]
-            .map(Constraint::Length)
-            .to_vec()
+        &[7, 6, 13, 5, 4, 6, 6]
     };
+    let (object_w, decision_w) = id_and_decision_widths(area.width, middle, need, wide);
+    let widths: Vec<Constraint> = std::iter::once(object_w)
+        .chain(middle.iter().copied())
+        .chain(std::iter::once(decision_w))
+        .map(Constraint::Length)
+        .collect();
     let inner_h = area.height.saturating_sub(3) as usize;
     let sel = app.selected_row().unwrap_or(0);
     let offset = sel
