@@ -181,3 +181,43 @@ fn special_files_in_a_directory_are_refused_unread_and_names_reach_the_terminal_
     assert!(err.contains("zero.psv: not a regular file"), "{err}");
     assert!(!err.contains('\u{1b}') && !err.contains('\u{7}'), "{err:?}");
 }
+
+/// A negative number given as the next argument is the option's value: a horizon below zero is taken,
+/// a negative step, sample count or shard reaches its own check and message (each once ended in
+/// "unexpected argument '-1'" with advice that did not work either).
+#[test]
+fn negative_numbers_are_values_not_options() {
+    let mut args = vec!["ephem", "--site", "TV1", "--json", "--min-alt", "-10"];
+    args.extend(RANGE);
+    let f = feed();
+    args.push(&f);
+    let (code, err) = run(&args);
+    assert!(!err.contains("unexpected argument"), "{err}");
+    assert_ne!(code, Some(2), "{err}");
+    for (args, says) in [
+        (
+            vec![
+                "ephem",
+                "--site",
+                "TV1",
+                "--from",
+                "2027-02-27T00:00:00Z",
+                "--to",
+                "2027-02-27T06:00:00Z",
+                "--step",
+                "-1h",
+            ],
+            "must be positive",
+        ),
+        (vec!["origin", "--samples", "-1"], "--samples"),
+        (vec!["fit", "--shard", "-1/3"], "whole number"),
+        (vec!["origin", "--solar-motion", "-11.1,12.2"], "three"),
+    ] {
+        let mut args = args.clone();
+        args.push(&f);
+        let (code, err) = run(&args);
+        assert_eq!(code, Some(2), "{args:?}: {err}");
+        assert!(err.contains(says), "{args:?}: {err}");
+        assert!(!err.contains("unexpected argument"), "{args:?}: {err}");
+    }
+}

@@ -29,14 +29,14 @@ pub struct EphemArgs {
     #[arg(long)]
     pub to: String,
     /// Step: a number with s, m, h or d (e.g. 10m, 1h, 1d).
-    #[arg(long, default_value = "1h")]
+    #[arg(long, default_value = "1h", allow_hyphen_values = true)]
     pub step: String,
     /// One JSON object per time step instead of the table.
     #[arg(long)]
     pub json: bool,
     /// Lowest altitude counted as observable (degrees); default the site's own limit (20° unless
     /// the site table says otherwise).
-    #[arg(long)]
+    #[arg(long, allow_negative_numbers = true)]
     pub min_alt: Option<f64>,
     /// How dark the sky must be: civil (Sun below −6°), nautical (−12°) or astronomical (−18°).
     #[arg(

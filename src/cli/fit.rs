@@ -33,11 +33,11 @@ pub struct FitArgs {
     pub no_night_inflation: bool,
     /// With --json: the Sun's motion relative to the local standard of rest for the origin sheets,
     /// U,V,W in km/s (default: the population model's).
-    #[arg(long, value_name = "U,V,W")]
+    #[arg(long, value_name = "U,V,W", allow_hyphen_values = true)]
     pub solar_motion: Option<String>,
     /// Fit only share K of N of the objects (numbered from 1): N runs with 1/N … N/N together give
     /// exactly the records of one unsharded run. Every run reads all inputs.
-    #[arg(long, value_name = "K/N")]
+    #[arg(long, value_name = "K/N", allow_hyphen_values = true)]
     pub shard: Option<super::shard::Shard>,
     /// Worker threads (default: the machine's cores).
     #[arg(long, value_parser = threads_flag)]

@@ -24,11 +24,11 @@ pub struct OriginArgs {
     pub json: bool,
     /// The Sun's motion relative to the local standard of rest, U,V,W in km/s (default: the
     /// population model's).
-    #[arg(long, value_name = "U,V,W")]
+    #[arg(long, value_name = "U,V,W", allow_hyphen_values = true)]
     pub solar_motion: Option<String>,
     /// Orbit samples carried through the planets per object (at most 200; half of them are also
     /// followed through the Galaxy).
-    #[arg(long, default_value_t = 48)]
+    #[arg(long, default_value_t = 48, allow_negative_numbers = true)]
     pub samples: usize,
     /// Worker threads (default: the machine's cores).
     #[arg(long, value_parser = super::fit::threads_flag)]

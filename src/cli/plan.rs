@@ -39,10 +39,10 @@ pub struct PlanArgs {
     )]
     pub twilight: Twilight,
     /// Time grid step (s, m or h).
-    #[arg(long, default_value = "10m")]
+    #[arg(long, default_value = "10m", allow_hyphen_values = true)]
     pub step: String,
     /// Time at one pointing (a sequence of exposures).
-    #[arg(long, default_value = "20m")]
+    #[arg(long, default_value = "20m", allow_hyphen_values = true)]
     pub visit: String,
     /// Largest number of pointings spent covering one 3σ region.
     #[arg(long, default_value_t = 16)]
