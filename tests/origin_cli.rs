@@ -233,3 +233,30 @@ fn the_sheet_flies_the_orbit_the_record_reports() {
         }
     }
 }
+
+/// An object named with `--object` gets its sheet whatever its P (a main-belt arc, P ≈ 0, once got
+/// only "no origin sheet"); it flies at least the samples asked for (draws from a covariance come in
+/// antithetic pairs, an odd count rounded up: 3 once flew 2).
+#[test]
+fn a_named_object_gets_its_sheet_and_an_odd_sample_count_rounds_up() {
+    let f = synthetic("mainbelt_3n");
+    let (code, out, err) = run(&[
+        "origin",
+        "--json",
+        "--object",
+        "mainbelt_3n",
+        "--samples",
+        "3",
+        &f,
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    let recs = records(&out);
+    assert_eq!(recs.len(), 1);
+    let r = &recs[0];
+    assert!(r["p_hyperbolic"].as_f64().unwrap() < 0.01);
+    // Resampled from the fit's own samples (3), or three draws rounded up to two pairs (4).
+    let n = r["origin"]["samples"].as_u64().unwrap();
+    assert!(n == 3 || n == 4, "{}", r["origin"]);
+    // Bound now and before the planets.
+    assert!(r["origin"]["inv_a_orig_per_au"].as_f64().unwrap() > 0.0);
+}

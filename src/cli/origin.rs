@@ -72,6 +72,8 @@ impl OriginArgs {
             origin.frame.solar_motion_km_s = parse_solar_motion(s)?;
         }
         origin.samples = self.samples;
+        // A named object gets its sheet whatever its P.
+        origin.any_probability = !self.objects.is_empty();
         origin.galactic_samples = (self.samples / 2).max(1);
         Ok(FitOptions {
             population,

@@ -42,6 +42,9 @@ pub struct OriginOptions {
     pub stop_au: f64,
     /// Seed for the draws from a covariance.
     pub seed: u64,
+    /// Make the sheet whatever P(unbound) is (the objects an observer names), not only from
+    /// `MIN_PROBABILITY` up.
+    pub any_probability: bool,
 }
 
 /// Height of the Sun above the Galactic plane (kpc; a commonly used value, from memory).
@@ -67,6 +70,7 @@ impl OriginOptions {
             galactic_gyr: 3.0,
             stop_au: 250.0,
             seed: 0x0121_61A1,
+            any_probability: false,
         }
     }
 }

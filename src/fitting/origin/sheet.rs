@@ -114,7 +114,8 @@ fn orbit_samples(r: &FitResult, n: usize, seed: u64) -> Vec<(S6, f64, f64)> {
     };
     let mut rng = SplitMix::new(seed);
     let mut out = Vec::with_capacity(n);
-    while out.len() + 1 < n.max(2) {
+    // Antithetic pairs: an odd count rounds up.
+    while out.len() < n.max(2) {
         let z = S6::from_fn(|_, _| rng.normal());
         let d = chol.l() * z;
         out.push((S6::from(x) + d, t, 1.0));
@@ -153,7 +154,7 @@ fn fly_both(x: &S6, t: f64, w: f64, stop: f64) -> Option<(Flown, FlightEnd)> {
 /// The origin sheet of a fitted candidate with P(unbound) ≥ `MIN_PROBABILITY` (None below it, or
 /// when the fit has no orbit).
 pub fn origin_sheet(r: &FitResult, o: &OriginOptions) -> Option<Origin> {
-    if r.p_hyperbolic.is_none_or(|p| p < MIN_PROBABILITY) {
+    if !o.any_probability && r.p_hyperbolic.is_none_or(|p| p < MIN_PROBABILITY) {
         return None;
     }
     // The orbit the record's elements describe (a sample's where P comes from samples).
