@@ -235,7 +235,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             failed += 1;
             continue;
         }
-        let h = tracklet_h(fit, t, &model);
+        // The record's H; a record read from elsewhere without one gets it from its tracklet.
+        let h = fit.h_mag.or_else(|| tracklet_h(fit, t, &model));
         let mut points = Vec::with_capacity(n);
         for &dt in &offsets {
             let inst = from.plus_days(dt);

@@ -150,7 +150,7 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
     let h: Vec<Option<f64>> = tracklets
         .iter()
         .zip(&fits)
-        .map(|(t, f)| tracklet_h(f, t, &model))
+        .map(|(t, f)| f.h_mag.or_else(|| tracklet_h(f, t, &model)))
         .collect();
     let failed = fits.iter().filter(|f| f.status == "failed").count();
     for f in fits.iter().filter(|f| f.status == "failed") {

@@ -89,7 +89,7 @@ pub fn spawn(fit: FitResult, site: Option<String>, sites: Arc<SiteTable>, tx: Se
                                 tt_to_utc(inst.tt).to_string(),
                                 &s.position,
                                 &model,
-                                None,
+                                fit.h_mag,
                                 s.caps.min_alt_deg,
                             ) {
                                 pts.push(p);
@@ -133,5 +133,39 @@ mod tests {
             );
         }
         assert!(!dark(b), "still dark at the end");
+    }
+
+    /// The panel's rows predict V from the record's H, as `ephem` does (its V column was always
+    /// empty: the worker never had an H).
+    #[test]
+    fn the_panel_predicts_v_from_the_records_absolute_magnitude() {
+        let path = std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+            .join("sample_feeds/demo_night/001_qk0f3ra_n1.psv");
+        let bytes = std::fs::read(path).unwrap_or_default();
+        let sites = Arc::new(SiteTable::builtin());
+        let intake = crate::feed::tracklets::read_bytes(
+            "001_qk0f3ra_n1.psv",
+            &bytes,
+            &sites,
+            &crate::feed::tracklets::Limits::default(),
+        );
+        let tr = intake.tracklets.first().cloned();
+        let tr = tr.unwrap_or_else(|| panic!("the demo file gave no tracklet"));
+        let opts = crate::fitting::fit::FitOptions {
+            origin: None,
+            ..Default::default()
+        };
+        let fit = crate::fitting::fit::fit_tracklet(&tr, &ObserverModel::new(), &opts);
+        let h = fit.h_mag.unwrap_or(f64::NAN);
+        assert!((5.0..30.0).contains(&h), "H {h}");
+        let (tx, rx) = std::sync::mpsc::channel();
+        spawn(fit, Some("TV1".into()), sites, tx);
+        match rx.recv_timeout(std::time::Duration::from_secs(120)) {
+            Ok(AppEvent::Ephemeris(_, window, pts)) => {
+                assert!(!pts.is_empty(), "{window}");
+                assert!(pts.iter().all(|p| p.v_mag.is_some()), "{window}");
+            }
+            _ => panic!("no ephemeris from the worker"),
+        }
     }
 }

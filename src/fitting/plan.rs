@@ -242,8 +242,8 @@ pub fn plan(
     plan_with_h(fits, &[], sites, opts, model)
 }
 
-/// Make the plan; `h[i]`, where given, is the absolute magnitude of `fits[i]`, and times when it is
-/// fainter than a site's limiting magnitude are not used.
+/// Make the plan; `h[i]`, where given, is the absolute magnitude of `fits[i]` (else the record's own),
+/// and times when it is fainter than a site's limiting magnitude are not used.
 pub fn plan_with_h(
     fits: &[FitResult],
     h: &[Option<f64>],
@@ -256,7 +256,8 @@ pub fn plan_with_h(
     let mut evals: Vec<(usize, Evaluation)> = Vec::new();
     let mut unplanned = Vec::new();
     for (i, fit) in fits.iter().enumerate() {
-        match evaluate(fit, h.get(i).copied().flatten(), sites, &grids, opts, model) {
+        let h = h.get(i).copied().flatten().or(fit.h_mag);
+        match evaluate(fit, h, sites, &grids, opts, model) {
             Some(e) => evals.push((i, e)),
             None => unplanned.push(Left {
                 object: fit.object.clone(),

@@ -142,6 +142,9 @@ pub struct FitResult {
     /// assumed because the positions carried none.
     pub v_mag: Option<f64>,
     pub v_mag_assumed: bool,
+    /// Absolute magnitude (H–G, G = 0.15) from the tracklet's magnitudes on the fitted orbit (median of
+    /// the per-position values; None without magnitudes): what every ephemeris predicts V from.
+    pub h_mag: Option<f64>,
     pub q_au: Option<f64>,
     pub q_sigma: Option<f64>,
     pub i_deg: Option<f64>,
@@ -251,6 +254,7 @@ impl FitResult {
             prior_dominated: false,
             v_mag: None,
             v_mag_assumed: false,
+            h_mag: None,
             q_au: None,
             q_sigma: None,
             i_deg: None,
