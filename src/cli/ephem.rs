@@ -75,7 +75,7 @@ pub fn parse_step(s: &str) -> anyhow::Result<f64> {
         _ => bail!("'{s}': the unit must be s, m, h or d"),
     };
     if !(days > 0.0 && days.is_finite()) {
-        bail!("'{s}': the step must be positive");
+        bail!("'{s}' must be positive");
     }
     Ok(days)
 }
@@ -111,9 +111,9 @@ fn table(points: &[EphemerisPoint]) -> String {
     for p in points {
         let k = &p.sky;
         s.push_str(&format!(
-            "{:<26} {:>10.5} {:>+10.5} {:>12} {:>12} {:>8.3} {:>8.3} {:>6.1} {:>5} {:>7.1} {:>5.0} {:>4.2} {:>5}{} {:>6.1} {:>9} {:>7} {:>4} {}{}{}\n",
+            "{:<26} {:>10} {:>+10.5} {:>12} {:>12} {:>8.3} {:>8.3} {:>6.1} {:>5} {:>7.1} {:>5.0} {:>4.2} {:>5}{} {:>6.1} {:>9} {:>7} {:>4} {}{}{}\n",
             p.time_utc,
-            p.ra_deg,
+            interloper::physics::sexagesimal::ra_deg_text(p.ra_deg, 5),
             p.dec_deg,
             k.ra_hms,
             k.dec_dms,

@@ -376,20 +376,31 @@ pub fn keep_objects(
 pub fn unknown_site(sites: &SiteTable, code: &str) -> anyhow::Error {
     let codes = sites.codes();
     let wanted = code.to_uppercase();
-    let near: Vec<&str> = codes
+    let same = |c: &str| {
+        c.to_uppercase()
+            .chars()
+            .zip(wanted.chars())
+            .filter(|(a, b)| a == b)
+            .count()
+    };
+    // A code that differs only in case is the one meant (`tv1` once drew every TV code); else the
+    // codes that share the most characters, all but one of them at least.
+    let exact: Vec<&str> = codes
         .iter()
         .copied()
-        .filter(|c| {
-            let c = c.to_uppercase();
-            c.chars()
-                .zip(wanted.chars())
-                .filter(|(a, b)| a == b)
-                .count()
-                + 1
-                >= wanted.len()
-        })
-        .take(5)
+        .filter(|c| c.to_uppercase() == wanted)
         .collect();
+    let best = codes.iter().map(|c| same(c)).max().unwrap_or(0);
+    let near: Vec<&str> = if exact.is_empty() {
+        codes
+            .iter()
+            .copied()
+            .filter(|c| same(c) == best && best + 1 >= wanted.len())
+            .take(5)
+            .collect()
+    } else {
+        exact
+    };
     crate::cli::Usage(format!(
         "unknown site code '{}'{}; the known codes are {} (add your own with --sites FILE)",
         interloper::feed::sanitize::clean(code),

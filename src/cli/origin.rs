@@ -55,7 +55,7 @@ pub fn parse_solar_motion(s: &str) -> anyhow::Result<[f64; 3]> {
             Ok([*u, *v, *w])
         }
         _ => crate::usage!(
-            "--solar-motion '{}' needs three finite numbers U,V,W in km/s (e.g. 11.1,12.24,7.25)",
+            "--solar-motion '{}' needs three numbers U,V,W in km/s, each within ±1000 (e.g. 11.1,12.24,7.25)",
             clean(s)
         ),
     }

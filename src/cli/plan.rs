@@ -86,7 +86,14 @@ fn plan_sites(
         };
         let (from, to) = match (&args.night, &args.from, &args.to) {
             (Some(night), _, _) => {
-                let noon = instant("--night", &format!("{}T12:00:00Z", night.trim()))?;
+                let noon = UtcTime::parse(&format!("{}T12:00:00Z", night.trim()))
+                    .and_then(|u| u.instant())
+                    .map_err(|_| {
+                        crate::cli::Usage(format!(
+                            "--night '{}' is not a date (YYYY-MM-DD) between 1972 and 2100",
+                            clean(night)
+                        ))
+                    })?;
                 let from = noon.plus_days(-longitude(&site.position) / 360.0);
                 (from, from.plus_days(1.0))
             }

@@ -42,7 +42,11 @@ pub fn lines(app: &App, obj: &str, pts: &[EphemerisPoint]) -> Vec<String> {
         let pos = if sexa {
             format!("{:<14} {:<13}", p.sky.ra_hms, p.sky.dec_dms)
         } else {
-            format!("{:>9.4} {:>+9.4}", p.ra_deg, p.dec_deg)
+            format!(
+                "{:>9} {:>+9.4}",
+                crate::physics::sexagesimal::ra_deg_text(p.ra_deg, 4),
+                p.dec_deg
+            )
         };
         v.push(format!(
             "{:<26} {pos} {:>7.2} {:>7.2} {:>4.0} {:>5} {:>4} {:>6.1} {:>5} {:>6}×{:<6} ({:>3}) {:>5.0} {}{}",

@@ -12,6 +12,16 @@ pub enum SexagesimalError {
 }
 
 /// Right ascension (degrees, any turn) as "HH:MM:SS.sss" (milliseconds of time, 0.015″).
+/// RA in degrees with `decimals` places, in [0, 360) as printed: a value that rounds up to 360 is 0
+/// (359.999999° once printed as 360.00000).
+pub fn ra_deg_text(ra_deg: f64, decimals: usize) -> String {
+    let scale = 10f64.powi(decimals as i32);
+    let turn = (360.0 * scale).round();
+    // (+ 0.0: a rounded −0 prints as "-0".)
+    let units = (ra_deg * scale).round().rem_euclid(turn) + 0.0;
+    format!("{:.*}", decimals, units / scale)
+}
+
 pub fn ra_hms(ra_deg: f64) -> String {
     let ms_per_day = 24 * 3_600_000_i64;
     let total = ((ra_deg / 15.0 * 3_600_000.0).round() as i64).rem_euclid(ms_per_day);
@@ -73,6 +83,14 @@ pub fn parse_dec_dms(text: &str) -> Result<f64, SexagesimalError> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ra_degrees_never_print_as_360() {
+        assert_eq!(ra_deg_text(359.999_999_9, 5), "0.00000");
+        assert_eq!(ra_deg_text(359.999_94, 4), "359.9999");
+        assert_eq!(ra_deg_text(-0.000_001, 4), "0.0000");
+        assert_eq!(ra_deg_text(12.345_67, 3), "12.346");
+    }
 
     #[test]
     fn carries_round_up_into_the_next_field() {

@@ -207,7 +207,7 @@ impl UtcTime {
         if !(1..=12).contains(&month) || day == 0 || day > days_in_month(year, month) {
             return Err(TimeError::NotADate(shown));
         }
-        let clock = format!("{shown}T{hour:02}:{minute:02}:{second}");
+        let clock = format!("{shown}T{hour:02}:{minute:02}:{second:06.3}");
         if hour > 23 || minute > 59 || !second.is_finite() || !(0.0..61.0).contains(&second) {
             return Err(TimeError::NotATime(clock));
         }
