@@ -358,6 +358,24 @@ pub fn tt_to_utc(tt: Jd2) -> UtcTime {
         guess = tt.value() - (dat + 32.184) / DAY_S;
     }
     let (y, m, d, frac) = calendar_from_jd(guess);
+    // Inside a leap second the day's own offset puts the instant past the day's 86 400 s (the next
+    // day's offset, which the search above settles on, folds it onto 23:59:59, shown twice).
+    if day_has_leap_second(y, m, d)
+        && let Some((dat, _)) = tai_minus_utc(y, m, d)
+    {
+        let within = (tt.value() - (dat + 32.184) / DAY_S - (midnight_jd(y, m, d))) * DAY_S;
+        let within = (within * 1000.0).round() / 1000.0;
+        if (DAY_S..DAY_S + 1.0).contains(&within) {
+            return UtcTime {
+                year: y,
+                month: m,
+                day: d,
+                hour: 23,
+                minute: 59,
+                second: within - (DAY_S - 60.0),
+            };
+        }
+    }
     let mut secs = frac * DAY_S;
     secs = (secs * 1000.0).round() / 1000.0;
     let mut day = (y, m, d);
@@ -439,6 +457,25 @@ mod tests {
         assert!((d - 2.0).abs() < 1e-6, "{d}");
         let d = secs("2016-12-31T23:59:60.0Z", "2017-01-01T00:00:00.0Z");
         assert!((d - 1.0).abs() < 1e-6, "{d}");
+    }
+
+    #[test]
+    fn times_inside_a_leap_second_print_as_second_sixty() {
+        // Each second across the 2016 leap second comes back as it was written (23:59:60 once came
+        // back as 23:59:59, which then appeared twice).
+        for t in [
+            "2016-12-31T23:59:58.750Z",
+            "2016-12-31T23:59:59.500Z",
+            "2016-12-31T23:59:60.000Z",
+            "2016-12-31T23:59:60.500Z",
+            "2016-12-31T23:59:60.999Z",
+            "2017-01-01T00:00:00.000Z",
+            "2017-01-01T00:00:00.250Z",
+            "2015-06-30T23:59:60.100Z",
+            "2016-06-30T23:59:59.900Z",
+        ] {
+            assert_eq!(tt_to_utc(parse_utc(t).unwrap().tt).to_string(), t);
+        }
     }
 
     #[test]
