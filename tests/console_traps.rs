@@ -98,3 +98,18 @@ fn ten_character_ids_are_shown_whole_at_80_columns() {
     let wider = util::screens::screen(&mut app, 100, 30);
     assert!(wider.contains("a_synthetic_name_of_24ch"), "{wider}");
 }
+
+/// A position the observer excluded has no O−C and no place in the residual strips: the pane's title
+/// counts it (it once vanished without a word).
+#[test]
+fn the_residual_pane_counts_the_positions_you_excluded() {
+    let mut app = util::screens::demo_app(|_| {});
+    let shown = util::screens::screen(&mut app, 100, 30);
+    assert!(!shown.contains("excluded by you"), "{shown}");
+    let k = app.view[0];
+    // Excluded, and so (as the engine does) no longer among the fitted positions.
+    let gone = app.candidates[k].fit.residuals.remove(0);
+    app.candidates[k].overrides.excluded.insert(gone.id);
+    let shown = util::screens::screen(&mut app, 100, 30);
+    assert!(shown.contains("1 excluded by you"), "{shown}");
+}

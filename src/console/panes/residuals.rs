@@ -71,9 +71,17 @@ fn arcmin(x: f64) -> String {
 }
 
 pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
+    let rows = app.observation_rows();
+    // Positions the observer excluded have no O−C and no place in the strips: the title counts them
+    // (they once vanished without a word; the cursor still reaches them).
+    let excluded = rows.iter().filter(|r| r.excluded).count();
+    let title = match excluded {
+        0 => " residuals (O−C) ".to_string(),
+        n => format!(" residuals (O−C) · {n} excluded by you "),
+    };
     let block = Block::default()
         .borders(Borders::ALL)
-        .title(" residuals (O−C) ")
+        .title(title)
         .border_style(theme.fg(Color::Cyan));
     let inner = block.inner(area);
     f.render_widget(block, area);
@@ -86,7 +94,6 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .constraints([Constraint::Length(7), Constraint::Min(3)])
         .split(inner);
     let w = inner.width.saturating_sub(9) as usize;
-    let rows = app.observation_rows();
     let row = rows.get(app.obs_cursor);
     // The strips show fitted observations only: the mark goes under the selected one if it is fitted.
     let at = row.and_then(|r| r.residual).unwrap_or(usize::MAX);
