@@ -110,12 +110,12 @@ pub(crate) fn tangent_axes(ra: f64, dec: f64) -> (V3, V3) {
 /// Absolute magnitude from the observed magnitudes of a fit (median of per-observation H).
 pub fn fitted_h(fit: &FitResult, mags: &[(Jd2, f64)], obs: &[ObserverState]) -> Option<f64> {
     let (x, epoch, dyn_) = fit_state(fit)?;
+    // Every time in one pass (the perturbed model integrates once for all of them, without partials).
+    let times: Vec<Jd2> = mags.iter().map(|(t, _)| *t).collect();
+    let states = dyn_.positions(&x, epoch, &times).ok()?;
     let mut hs: Vec<f64> = Vec::new();
-    for ((t, m), o) in mags.iter().zip(obs) {
-        let Ok(st) = dyn_.state_and_stm(&x, epoch, *t) else {
-            continue;
-        };
-        let (p, _) = project(st, o, MU_SUN);
+    for (((_, m), o), (r, v)) in mags.iter().zip(obs).zip(&states) {
+        let p = crate::physics::observe::project_position(r, v, o, MU_SUN);
         let r = p.obj_pos.norm();
         let delta = p.topo.norm();
         let beta = phase_angle(r, delta, o.helio_pos.norm());
