@@ -238,7 +238,7 @@ fn the_sheet_flies_the_orbit_the_record_reports() {
 /// only "no origin sheet"); it flies at least the samples asked for (draws from a covariance come in
 /// antithetic pairs, an odd count rounded up: 3 once flew 2).
 #[test]
-fn a_named_object_gets_its_sheet_and_an_odd_sample_count_rounds_up() {
+fn a_named_object_gets_its_sheet_with_at_least_the_samples_asked() {
     let f = synthetic("mainbelt_3n");
     let (code, out, err) = run(&[
         "origin",

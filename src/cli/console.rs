@@ -99,7 +99,7 @@ pub fn open(cfg: ConsoleConfig, stop: Arc<AtomicBool>) -> anyhow::Result<i32> {
                     AppEvent::Repaint
                 }
                 Ok(Event::Key(k)) if k.kind != KeyEventKind::Release => AppEvent::Key(k),
-                Ok(Event::Resize(..)) => AppEvent::Resize,
+                Ok(Event::Resize(w, h)) => AppEvent::Resize(w, h),
                 Ok(_) => continue,
                 Err(e) => {
                     gone(e.to_string());

@@ -6,7 +6,7 @@ use super::inputs::SiteArgs;
 use anyhow::{Context, bail};
 use interloper::feed::sanitize::clean;
 use interloper::fitting::conditions::{Capabilities, DEFAULT_EXPOSURE_S, RowOptions};
-use interloper::fitting::ephemeris::{EphemerisPoint, point_with, tracklet_h};
+use interloper::fitting::ephemeris::{EphemerisPoint, point_with};
 use interloper::fitting::fit::FitResult;
 use interloper::fitting::kinds::FitStatus;
 use interloper::physics::observe::ObserverModel;
@@ -201,8 +201,8 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     }
     let Some(offsets) = offsets_days(span, step) else {
         crate::usage!(
-            "{:.0} steps is too many (at most {MAX_ROWS} rows in one run)",
-            (span / step).floor() + 1.0
+            "from --from to --to every --step is more than the {MAX_ROWS} rows of one run (or a step \
+             under a millisecond)"
         );
     };
     let n = offsets.len();
@@ -217,7 +217,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             n.saturating_mul(tracklets.len())
         );
     }
-    let results = fit_all_default(tracklets.clone());
+    let results = fit_all_default(tracklets);
     let mut uncomputable: Vec<String> = Vec::new();
     let model = ObserverModel::new();
     let mut out = std::io::BufWriter::new(std::io::stdout().lock());
@@ -225,7 +225,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let mut failed = 0;
     // Each object's status and note, for the request.
     let mut standing: Vec<(String, FitStatus, Option<String>)> = Vec::new();
-    for (t, fit) in tracklets.iter().zip(&results) {
+    for fit in &results {
         if fit.status == "failed" {
             eprintln!(
                 "{}: not fitted: {}",
@@ -235,8 +235,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             failed += 1;
             continue;
         }
-        // The record's H; a record read from elsewhere without one gets it from its tracklet.
-        let h = fit.h_mag.or_else(|| tracklet_h(fit, t, &model));
+        let h = fit.h_mag;
         let mut points = Vec::with_capacity(n);
         for &dt in &offsets {
             let inst = from.plus_days(dt);

@@ -7,7 +7,6 @@ use super::inputs::SiteArgs;
 use interloper::feed::sanitize::clean;
 use interloper::feed::sites::SiteTable;
 use interloper::fitting::conditions::SkySlot;
-use interloper::fitting::ephemeris::tracklet_h;
 use interloper::fitting::plan::{PlanOptions, PlanSite, plan_with_h};
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::site::GroundPosition;
@@ -153,12 +152,8 @@ pub fn run(args: &PlanArgs) -> anyhow::Result<i32> {
     let opts = options(args)?;
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &table)?;
     super::inputs::keep_objects(&mut tracklets, &args.objects)?;
-    let fits = fit_all_default(tracklets.clone());
-    let h: Vec<Option<f64>> = tracklets
-        .iter()
-        .zip(&fits)
-        .map(|(t, f)| f.h_mag.or_else(|| tracklet_h(f, t, &model)))
-        .collect();
+    let fits = fit_all_default(tracklets);
+    let h: Vec<Option<f64>> = fits.iter().map(|f| f.h_mag).collect();
     let failed = fits.iter().filter(|f| f.status == "failed").count();
     for f in fits.iter().filter(|f| f.status == "failed") {
         eprintln!(

@@ -26,7 +26,8 @@ use std::time::{Duration, Instant};
 #[derive(Debug)]
 pub enum AppEvent {
     Key(KeyEvent),
-    Resize,
+    /// The terminal's new size (columns, rows).
+    Resize(u16, u16),
     /// The terminal was handed back (after a suspend): whatever is on it is not our last frame, so
     /// the whole screen is cleared and drawn again.
     Repaint,
@@ -185,13 +186,17 @@ impl Runtime {
                     }
                 }
             }
-            AppEvent::Resize | AppEvent::Tick | AppEvent::Repaint => {
+            AppEvent::Resize(..) | AppEvent::Tick | AppEvent::Repaint => {
+                // Keys queued behind a shrink are judged by the new size, not the last drawing's.
+                if let AppEvent::Resize(w, h) = ev {
+                    app.hidden = !super::view::fits(ratatui::layout::Rect::new(0, 0, w, h));
+                }
                 if app.alerts.tick(Instant::now()) {
                     app.dirty = true;
                 }
                 let (w, r) = self.engine.load();
                 if (w, r) != (app.status.waiting, app.status.fitting)
-                    || matches!(ev, AppEvent::Resize | AppEvent::Repaint)
+                    || matches!(ev, AppEvent::Resize(..) | AppEvent::Repaint)
                 {
                     app.status.waiting = w;
                     app.status.fitting = r;

@@ -11,7 +11,6 @@ pub enum SexagesimalError {
     Field(String),
 }
 
-/// Right ascension (degrees, any turn) as "HH:MM:SS.sss" (milliseconds of time, 0.015″).
 /// RA in degrees with `decimals` places, in [0, 360) as printed: a value that rounds up to 360 is 0
 /// (359.999999° once printed as 360.00000).
 pub fn ra_deg_text(ra_deg: f64, decimals: usize) -> String {
@@ -22,6 +21,7 @@ pub fn ra_deg_text(ra_deg: f64, decimals: usize) -> String {
     format!("{:.*}", decimals, units / scale)
 }
 
+/// Right ascension (degrees, any turn) as "HH:MM:SS.sss" (milliseconds of time, 0.015″).
 pub fn ra_hms(ra_deg: f64) -> String {
     let ms_per_day = 24 * 3_600_000_i64;
     let total = ((ra_deg / 15.0 * 3_600_000.0).round() as i64).rem_euclid(ms_per_day);

@@ -102,7 +102,7 @@ fn rejection_line(e: &crate::feed::InputError) -> String {
 pub fn help_lines(app: &App) -> Vec<String> {
     let mut out = Vec::new();
     if let Some(w) = &app.keymap_warning {
-        out.push(format!("[key map] {w}"));
+        out.push(format!("[key map] {}", crate::feed::sanitize::clean(w)));
         out.push(String::new());
     }
     let mut last = None;

@@ -151,8 +151,8 @@ fn fly_both(x: &S6, t: f64, w: f64, stop: f64) -> Option<(Flown, FlightEnd)> {
     ))
 }
 
-/// The origin sheet of a fitted candidate with P(unbound) ≥ `MIN_PROBABILITY` (None below it, or
-/// when the fit has no orbit).
+/// The origin sheet of a fitted candidate with P(unbound) ≥ `MIN_PROBABILITY`, or of any one with
+/// `OriginOptions::any_probability` (None below it otherwise, or when the fit has no orbit).
 pub fn origin_sheet(r: &FitResult, o: &OriginOptions) -> Option<Origin> {
     if !o.any_probability && r.p_hyperbolic.is_none_or(|p| p < MIN_PROBABILITY) {
         return None;
@@ -388,6 +388,23 @@ mod tests {
             radiant_l_deg: 0.0,
             radiant_b_deg: 0.0,
             uvw_km_s: uvw,
+        }
+    }
+
+    /// Draws from a covariance come in antithetic pairs: an odd count rounds up (3 once gave 2).
+    #[test]
+    fn draws_from_a_covariance_are_at_least_the_count_asked_in_whole_pairs() {
+        let mut r = crate::testutil::record("x", 0.5, 2);
+        r.samples.clear();
+        r.state = Some([1.0, 0.2, 0.0, 0.0, 0.017, 0.001]);
+        r.epoch_jd_tdb = Some(2_461_000.5);
+        r.covariance = Some(
+            (0..6)
+                .map(|i| std::array::from_fn(|j| if i == j { 1e-8 } else { 0.0 }))
+                .collect(),
+        );
+        for (asked, got) in [(1, 2), (2, 2), (3, 4), (7, 8), (48, 48)] {
+            assert_eq!(orbit_samples(&r, asked, 1).len(), got, "{asked}");
         }
     }
 
