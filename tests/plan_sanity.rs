@@ -207,6 +207,10 @@ fn nothing_fainter_than_the_site_limit_is_scheduled() {
         .map(|(t, f)| tracklet_h(f, t, &model))
         .collect();
     assert!(h.iter().filter(|h| h.is_some()).count() >= 5);
+    // One H per object: the record's own is the tracklet's.
+    for (f, h) in fits.iter().zip(&h) {
+        assert_eq!(f.h_mag, *h, "{}", f.object);
+    }
     let limit = 20.0;
     let mut sites = sites_for(&["TV1", "TV2"], "2027-02-24T18:00:00Z", 24.0);
     for s in &mut sites {
@@ -214,7 +218,21 @@ fn nothing_fainter_than_the_site_limit_is_scheduled() {
     }
     let opts = PlanOptions::default();
     let bright = plan_with_h(&fits, &h, &sites, &opts, &model);
-    let all = plan(&fits, &sites, &opts, &model);
+    // Without any H (the records' own taken away) nothing is too faint.
+    let unknown: Vec<_> = fits
+        .iter()
+        .cloned()
+        .map(|mut f| {
+            f.h_mag = None;
+            f
+        })
+        .collect();
+    let all = plan(&unknown, &sites, &opts, &model);
+    // The plan reads each record's H by itself.
+    assert_eq!(
+        plan(&fits, &sites, &opts, &model).items.len(),
+        bright.items.len()
+    );
     check(&bright, &fits, &sites, opts.twilight);
     for item in &bright.items {
         let k = fits.iter().position(|f| f.object == item.object).unwrap();
