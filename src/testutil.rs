@@ -24,3 +24,25 @@ pub fn record(object: &str, p: f64, nights: usize) -> FitResult {
     r.n_nights = nights;
     r
 }
+
+/// One position at `t` (RA and Dec in degrees) from the geocentre, as site TV1 with no stated errors,
+/// magnitude or band: the arcs that unit tests build by hand.
+pub fn observation(
+    t: crate::physics::time::Instant,
+    ra_deg: f64,
+    dec_deg: f64,
+) -> crate::fitting::input::Observation {
+    crate::fitting::input::Observation {
+        time: t,
+        ra: ra_deg.to_radians(),
+        dec: dec_deg.to_radians(),
+        sigma_ra_arcsec: None,
+        sigma_dec_arcsec: None,
+        correlation: None,
+        site_code: "TV1".into(),
+        location: crate::physics::observe::ObserverLocation::Geocentric { pos_km: [0.0; 3] },
+        mag: None,
+        band: None,
+        origin: "test".into(),
+    }
+}

@@ -212,7 +212,6 @@ fn median(mut v: Vec<f64>) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::observe::ObserverLocation;
     use crate::physics::time::parse_utc;
 
     /// A straight path at `rate` degrees a day near RA 120°, Dec 10°, four positions a night for three
@@ -229,19 +228,11 @@ mod tests {
                 {
                     ra += off;
                 }
-                obs.push(Observation {
-                    time: start.plus_days(t),
-                    ra: ra.to_radians(),
-                    dec: (10.0 + 0.3 * rate * t).to_radians(),
-                    sigma_ra_arcsec: None,
-                    sigma_dec_arcsec: None,
-                    correlation: None,
-                    site_code: "TV1".into(),
-                    location: ObserverLocation::Geocentric { pos_km: [0.0; 3] },
-                    mag: None,
-                    band: None,
-                    origin: "test".into(),
-                });
+                obs.push(crate::testutil::observation(
+                    start.plus_days(t),
+                    ra,
+                    10.0 + 0.3 * rate * t,
+                ));
             }
         }
         Tracklet::new("x".into(), "x".into(), obs)

@@ -190,8 +190,6 @@ fn retry_without_one(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::fitting::input::Observation;
-    use crate::physics::observe::ObserverLocation;
     use crate::physics::time::parse_utc;
 
     /// Nights of `per_night[k]` positions, one site.
@@ -201,19 +199,11 @@ mod tests {
         for (night, &n) in per_night.iter().enumerate() {
             for k in 0..n {
                 let t = night as f64 + k as f64 * 25.0 / 1440.0;
-                obs.push(Observation {
-                    time: start.plus_days(t),
-                    ra: (120.0 + 0.2 * t).to_radians(),
-                    dec: (10.0 + 0.05 * t).to_radians(),
-                    sigma_ra_arcsec: None,
-                    sigma_dec_arcsec: None,
-                    correlation: None,
-                    site_code: "TV1".into(),
-                    location: ObserverLocation::Geocentric { pos_km: [0.0; 3] },
-                    mag: None,
-                    band: None,
-                    origin: "test".into(),
-                });
+                obs.push(crate::testutil::observation(
+                    start.plus_days(t),
+                    120.0 + 0.2 * t,
+                    10.0 + 0.05 * t,
+                ));
             }
         }
         Tracklet::new("x".into(), "x".into(), obs)
