@@ -19,6 +19,15 @@ fn completion_scripts_name_every_command_for_each_shell() {
         for c in COMMANDS {
             assert!(text.contains(c), "{shell} completion lacks {c}");
         }
+        // Nor does it offer the hidden test command that writes fake decisions into a journal.
+        assert!(
+            !text.contains("journal-append"),
+            "{shell} offers journal-append"
+        );
+        assert!(
+            text.contains("--config") || text.contains("-l config"),
+            "{shell} completion lacks the global --config"
+        );
     }
     let bad = bin().args(["completions", "cmd.exe"]).output().unwrap();
     assert_eq!(bad.status.code(), Some(2));

@@ -12,12 +12,30 @@ pub struct CompletionsArgs {
 
 /// Print a completion script, e.g. `interloper completions bash > ~/.local/share/bash-completion/completions/interloper`.
 pub fn completions(args: &CompletionsArgs) -> anyhow::Result<i32> {
-    let mut cmd = super::Cli::command();
+    let mut cmd = visible_command();
     // Into a buffer first: written straight to a closed pipe (`| head`) the generator panics.
     let mut out = Vec::new();
     clap_complete::generate(args.shell, &mut cmd, "interloper", &mut out);
     std::io::stdout().write_all(&out)?;
     Ok(0)
+}
+
+/// The command as completions offer it: the root's own arguments and its subcommands less the hidden
+/// ones (the generator offers hidden subcommands too; the test command that writes fake decisions into
+/// a journal was offered at every <Tab>). Assembled from the parser's own definition, so it cannot drift.
+fn visible_command() -> clap::Command {
+    let full = super::Cli::command();
+    let mut cmd = clap::Command::new("interloper").version(env!("CARGO_PKG_VERSION"));
+    if let Some(a) = full.get_about() {
+        cmd = cmd.about(a.clone());
+    }
+    for arg in full.get_arguments() {
+        cmd = cmd.arg(arg.clone());
+    }
+    for sub in full.get_subcommands().filter(|s| !s.is_hide_set()) {
+        cmd = cmd.subcommand(sub.clone());
+    }
+    cmd.subcommand_required(full.is_subcommand_required_set())
 }
 
 #[derive(Debug, clap::Args)]
