@@ -198,10 +198,11 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             for (x, y) in &rejected {
                 ctx.print(*x, *y, "x");
             }
-            // Compass and scale: north up and east left, as on the sky; residuals magnified.
-            let (left, top, bottom) = (cx - span / 2.0, cy + span / 2.0, cy - span / 2.0);
-            ctx.print(left, top, "N↑ E←");
-            ctx.print(left, bottom, scale.clone());
         });
-    f.render_widget(canvas, parts[1]);
+    // Compass and scale on a line of their own below the drawing (printed inside it, they hid the
+    // points that fell under them): north up and east left, as on the sky; residuals magnified.
+    let [plot, caption] =
+        Layout::vertical([Constraint::Min(2), Constraint::Length(1)]).areas(parts[1]);
+    f.render_widget(canvas, plot);
+    f.render_widget(Paragraph::new(format!("N↑ E← · {scale}")), caption);
 }

@@ -29,19 +29,29 @@ fn strong(f: &crate::fitting::fit::FitResult) -> bool {
     f.log10_odds.is_some_and(|z| z >= 2.0) && f.status.usable()
 }
 
-/// The decision column: the verdict, `*` when it was made on fewer observations than are known now,
-/// and who made it when that was not the observer at this console.
-fn decision_text(c: &Candidate, me: &str) -> String {
+/// The decision column, `width` characters: the verdict, `*` when it was made on fewer observations
+/// than are known now, and who made it when that was not the observer at this console (the name cut
+/// to what the column leaves, never the verdict: `set aside* (al…)`).
+fn decision_text(c: &Candidate, me: &str, width: usize) -> String {
     match (&c.decision, c.saving > 0) {
         (_, true) => "saving…".into(),
         (Some(d), _) => {
             let fewer = if d.n_obs < c.fit.n_obs { "*" } else { "" };
-            let who = if d.observer() == me {
-                String::new()
-            } else {
-                format!(" ({})", clean(d.observer()))
-            };
-            format!("{}{fewer}{who}", d.verdict_label())
+            let verdict = format!("{}{fewer}", d.verdict_label());
+            if d.observer() == me {
+                return verdict;
+            }
+            let name = clean(d.observer());
+            let full = format!("{verdict} ({name})");
+            if full.chars().count() <= width {
+                return full;
+            }
+            // " (" + at least one letter + "…)".
+            let room = width.saturating_sub(verdict.chars().count() + 4);
+            match room {
+                0 => format!("{verdict}(…)"),
+                n => format!("{verdict} ({}…)", name.chars().take(n).collect::<String>()),
+            }
         }
         (None, _) => "".into(),
     }
@@ -165,7 +175,11 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 FitStatus::PoorFit => theme.fg(Color::Magenta),
                 FitStatus::Failed => theme.fg(Color::Red),
             }));
-            cells.push(Cell::from(decision_text(c, &app.me)));
+            cells.push(Cell::from(decision_text(
+                c,
+                &app.me,
+                usize::from(decision_w),
+            )));
             let row = Row::new(cells);
             if offset + k == sel {
                 row.style(theme.selected())
@@ -256,6 +270,36 @@ mod tests {
         f.status = crate::fitting::kinds::FitStatus::Ok;
         f.p_hyperbolic = Some(0.7);
         assert!(!f.model_overrules_unbound_positions());
+    }
+
+    #[test]
+    fn another_observers_name_is_cut_before_the_verdict_is() {
+        use crate::console::state::Candidate;
+        use crate::feed::journal::{Entry, Verdict};
+        use crate::fitting::input::Tracklet;
+        use crate::fitting::result::FitResult;
+        let fit = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        let mut d = Entry::decision("x", Verdict::SetAside, "2027-01-01T00:00:00Z".into());
+        d.observer = Some("bartholomew".into());
+        let c = Candidate {
+            fresh: crate::console::state::fresh::Fresh::new(&fit, std::time::SystemTime::now()),
+            fit,
+            version: 1,
+            decision: Some(d),
+            saving: 0,
+            overrides: Default::default(),
+            n_known: 0,
+        };
+        let verdict = Verdict::SetAside.label();
+        assert_eq!(
+            super::decision_text(&c, "ann", 40),
+            format!("{verdict} (bartholomew)")
+        );
+        // At 80 columns the column is about 12 wide: the verdict whole, then what of the name fits.
+        let cut = super::decision_text(&c, "ann", verdict.chars().count() + 7);
+        assert_eq!(cut, format!("{verdict} (bar…)"));
+        assert_eq!(super::decision_text(&c, "ann", 3), format!("{verdict}(…)"));
+        assert_eq!(super::decision_text(&c, "bartholomew", 3), verdict);
     }
 
     #[test]
