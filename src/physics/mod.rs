@@ -1,6 +1,7 @@
 //! The physics layer: time scales, frames, Earth's ephemeris, sites, two-body motion, elements and the
 //! observation model. Pure functions and plain data: nothing here reads files or knows about the console.
 
+pub mod calendar;
 pub mod constants;
 pub mod dopri;
 pub mod earth;

@@ -3,6 +3,7 @@
 //! replaces it); `density` evaluates it at a trial orbit.
 
 pub mod density;
+mod laws;
 pub mod model;
 
 pub use density::{Density, PopulationModel, incoming_velocity, log_sum_exp};
