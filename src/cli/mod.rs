@@ -16,6 +16,7 @@ pub mod shard;
 pub mod shell;
 pub mod watch;
 pub mod watch_alerts;
+mod watch_report;
 
 use clap::{Parser, Subcommand};
 

@@ -4,17 +4,16 @@
 //! `--json`).
 
 use super::inputs::{PopulationArgs, SiteArgs};
-use interloper::feed::InputError;
+use super::watch_report::{Counts, Out, report_with_alert};
 use interloper::feed::engine::{self, Engine, EngineEvent, Overrides};
 use interloper::feed::journal::{Journal, Kind, Standing};
 use interloper::feed::watcher::{self, WatchOptions};
-use interloper::fitting::fit::{FitOptions, FitResult};
+use interloper::fitting::fit::FitOptions;
 use interloper::fitting::origin::OriginOptions;
-use std::io::Write;
 use std::path::PathBuf;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::time::{Duration, Instant, SystemTime};
+use std::time::{Duration, Instant};
 
 #[derive(Debug, clap::Args)]
 pub struct WatchArgs {
@@ -54,72 +53,6 @@ pub struct WatchArgs {
     /// The directory to watch (it is only read).
     #[arg(value_name = "DIR")]
     pub dir: PathBuf,
-}
-
-/// At most this many reasons of one rejected file go into its JSON line (`n_errors` counts them all).
-const MAX_REASONS: usize = 100;
-
-/// Line (null for the file as a whole), column and reason of an input error.
-fn where_and_why(e: &InputError) -> serde_json::Value {
-    serde_json::json!({
-        "line": (e.line > 0).then_some(e.line), "column": e.column, "error": e.reason,
-    })
-}
-
-fn utc(t: SystemTime) -> String {
-    chrono::DateTime::<chrono::Utc>::from(t).to_rfc3339_opts(chrono::SecondsFormat::Millis, true)
-}
-
-struct Out {
-    json: bool,
-    w: std::io::BufWriter<std::io::Stdout>,
-    /// The reader went away (a closed pipe): the run ends quietly.
-    closed: bool,
-}
-
-impl Out {
-    fn emit(&mut self, value: serde_json::Value, text: String) {
-        let line = if self.json { value.to_string() } else { text };
-        // A closed pipe ends the run like a signal would: nothing to report to any more.
-        if let Err(e) = writeln!(self.w, "{line}").and_then(|_| self.w.flush())
-            && e.kind() == std::io::ErrorKind::BrokenPipe
-        {
-            self.closed = true;
-        }
-    }
-
-    /// A line of an accepted file that could not be read: one JSON line each.
-    fn input_error(&mut self, e: &InputError, arrived: SystemTime) {
-        let mut v = where_and_why(e);
-        v["kind"] = "input-error".into();
-        v["source"] = e.file.clone().into();
-        v["arrived_utc"] = utc(arrived).into();
-        self.emit(v, format!("input-error: {e}"));
-    }
-
-    /// A file refused as a whole: one JSON line for the file, with its first reason as `line`,
-    /// `column` and `error` and every reason in `errors` (the text form gives one line each).
-    fn rejected_file(&mut self, file: &str, errors: &[InputError], arrived: SystemTime) {
-        let first = errors.first().map(where_and_why).unwrap_or_else(
-            || serde_json::json!({ "line": null, "column": null, "error": "no observations" }),
-        );
-        let mut v = first;
-        v["kind"] = "rejected".into();
-        v["source"] = file.into();
-        // A file of a million bad lines stays one readable line: the first reasons and the count.
-        v["errors"] = errors.iter().take(MAX_REASONS).map(where_and_why).collect();
-        v["n_errors"] = errors.len().into();
-        v["arrived_utc"] = utc(arrived).into();
-        let text = match errors {
-            [] => format!("rejected: {file}: no observations"),
-            _ => errors
-                .iter()
-                .map(|e| format!("rejected: {e}"))
-                .collect::<Vec<_>>()
-                .join("\n"),
-        };
-        self.emit(v, text);
-    }
 }
 
 impl WatchArgs {
@@ -189,7 +122,22 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         ..WatchOptions::default()
     };
     let threads = args.threads.unwrap_or(super::config::get().threads.value);
-    if !args.headless {
+    if args.headless {
+        run_headless(args, sites, opts, threads, stop)
+    } else {
+        open_console(args, sites, opts, threads, stop)
+    }
+}
+
+/// The full-screen console on the watched directory.
+fn open_console(
+    args: &WatchArgs,
+    sites: interloper::feed::sites::SiteTable,
+    opts: WatchOptions,
+    threads: usize,
+    stop: Arc<AtomicBool>,
+) -> anyhow::Result<i32> {
+    {
         let state = args
             .state
             .clone()
@@ -218,6 +166,17 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
             stop,
         );
     }
+}
+
+/// Headless: every event as a line on standard output until a signal, a closed pipe or the idle
+/// limit.
+fn run_headless(
+    args: &WatchArgs,
+    sites: interloper::feed::sites::SiteTable,
+    opts: WatchOptions,
+    threads: usize,
+    stop: Arc<AtomicBool>,
+) -> anyhow::Result<i32> {
     let events = watcher::spawn(args.dir.clone(), opts, stop.clone());
     let population = args.population.load()?;
     let fit_opts = FitOptions {
@@ -239,11 +198,11 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     ) {
         eprintln!("watch: {w}");
     }
-    let mut journal = Journal::follow(&state).unwrap_or_else(|e| {
+    let journal = Journal::follow(&state).unwrap_or_else(|e| {
         tracing::warn!("watch: cannot read the journal in {}: {e}", state.display());
         None
     });
-    let mut standing = journal
+    let standing = journal
         .as_ref()
         .map(|(_, r)| r.standing())
         .unwrap_or_default();
@@ -256,98 +215,123 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
         engine::overrides_in(&standing),
         move |ev| etx.send(ev).is_ok(),
     );
-    let mut out = Out {
-        json: args.json,
-        closed: false,
-        w: std::io::BufWriter::new(std::io::stdout()),
+    let mut run = Run {
+        n: Counts::default(),
+        out: Out {
+            json: args.json,
+            closed: false,
+            w: std::io::BufWriter::new(std::io::stdout()),
+        },
+        alerts: super::watch_alerts::HeadlessAlerts::new(super::config::get().alerts.value.clone()),
+        results,
     };
-    let mut n = Counts::default();
-    let mut alerts =
-        super::watch_alerts::HeadlessAlerts::new(super::config::get().alerts.value.clone());
-    let mut last_activity = Instant::now();
-    let mut last_look = Instant::now();
-    // An event taken while deciding whether the feed has gone idle, to be reported first.
-    let mut held: Option<EngineEvent> = None;
-    while !stop.load(Ordering::Relaxed) && !out.closed {
-        let next = match held.take() {
-            Some(ev) => Ok(ev),
-            None => results.recv_timeout(Duration::from_millis(100)),
-        };
-        match next {
-            Ok(ev) => {
-                last_activity = Instant::now();
-                report_with_alert(&mut n, &mut out, &mut alerts, ev)?;
+    let feed = Feed {
+        journal: journal.map(|(j, _)| j),
+        standing,
+        engine: &engine,
+        stop_after_idle: args.stop_after_idle,
+    };
+    let held = run.follow(&stop, feed)?;
+    stop.store(true, Ordering::Relaxed);
+    engine.shutdown();
+    run.close(held)
+}
+
+/// The journal a headless run follows and the engine it feeds.
+struct Feed<'a> {
+    journal: Option<Journal>,
+    standing: Standing,
+    engine: &'a Engine,
+    stop_after_idle: Option<f64>,
+}
+
+/// What a headless run still holds when it stops.
+struct Run {
+    n: Counts,
+    out: Out,
+    alerts: super::watch_alerts::HeadlessAlerts,
+    results: std::sync::mpsc::Receiver<EngineEvent>,
+}
+
+impl Run {
+    /// Report every event until a signal, a closed pipe or the idle limit; the event taken while
+    /// deciding the feed had gone idle comes back, to be reported first.
+    fn follow(&mut self, stop: &AtomicBool, mut feed: Feed) -> anyhow::Result<Option<EngineEvent>> {
+        let mut last_activity = Instant::now();
+        let mut last_look = Instant::now();
+        // An event taken while deciding whether the feed has gone idle, to be reported first.
+        let mut held: Option<EngineEvent> = None;
+        while !stop.load(Ordering::Relaxed) && !self.out.closed {
+            let next = match held.take() {
+                Some(ev) => Ok(ev),
+                None => self.results.recv_timeout(Duration::from_millis(100)),
+            };
+            match next {
+                Ok(ev) => {
+                    last_activity = Instant::now();
+                    report_with_alert(&mut self.n, &mut self.out, &mut self.alerts, ev)?;
+                }
+                Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
+                Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
             }
-            Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
-            Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
-        }
-        if let Some((j, _)) = journal.as_mut()
-            && last_look.elapsed() >= interloper::feed::journal::POLL
-        {
-            last_look = Instant::now();
-            // A refit asked for by the journal is activity: the idle clock starts again, so the run
-            // does not stop before the engine has taken it.
-            if follow(j, &mut standing, &engine) {
-                last_activity = Instant::now();
+            if let Some(j) = feed.journal.as_mut()
+                && last_look.elapsed() >= interloper::feed::journal::POLL
+            {
+                last_look = Instant::now();
+                // A refit asked for by the journal is activity: the idle clock starts again, so the run
+                // does not stop before the engine has taken it.
+                if follow(j, &mut feed.standing, feed.engine) {
+                    last_activity = Instant::now();
+                }
             }
-        }
-        if let Some(idle) = args.stop_after_idle {
-            let (waiting, running) = engine.load();
-            if waiting == 0 && running == 0 && last_activity.elapsed().as_secs_f64() >= idle {
-                // The pool counts a fit as running until the engine has handed its result on, so
-                // with the pool idle every result is already in this channel: report it first.
-                match results.try_recv() {
-                    Ok(ev) => held = Some(ev),
-                    Err(_) => break,
+            if let Some(idle) = feed.stop_after_idle {
+                let (waiting, running) = feed.engine.load();
+                if waiting == 0 && running == 0 && last_activity.elapsed().as_secs_f64() >= idle {
+                    // The pool counts a fit as running until the engine has handed its result on, so
+                    // with the pool idle every result is already in this channel: report it first.
+                    match self.results.try_recv() {
+                        Ok(ev) => held = Some(ev),
+                        Err(_) => break,
+                    }
                 }
             }
         }
+        Ok(held)
     }
-    stop.store(true, Ordering::Relaxed);
-    engine.shutdown();
-    // What was already on its way (a file taken in, a fit finished) is reported before the closing
-    // record, so that every object taken in is either fitted or named: until the engine has been
-    // quiet for a tenth of a second, two seconds at most.
-    let until = Instant::now() + Duration::from_secs(2);
-    let late = held.take().into_iter().chain(std::iter::from_fn(|| {
-        let left = until.checked_duration_since(Instant::now())?;
-        results
-            .recv_timeout(left.min(Duration::from_millis(100)))
-            .ok()
-    }));
-    for ev in late {
-        report_with_alert(&mut n, &mut out, &mut alerts, ev)?;
-    }
-    alerts.finish();
-    n.report_unfitted(&mut out);
-    tracing::info!(
-        "watch: stopped; {} file versions read, {} objects, {} observations, {} fits reported, {} rejected",
-        n.files,
-        n.objects,
-        n.observations,
-        n.fits,
-        n.rejected
-    );
-    Ok(0)
-}
 
-/// Report one engine event, and after a fit the alert it raised.
-fn report_with_alert(
-    n: &mut Counts,
-    out: &mut Out,
-    alerts: &mut super::watch_alerts::HeadlessAlerts,
-    ev: EngineEvent,
-) -> anyhow::Result<()> {
-    // The alert line follows the fit that raised it.
-    let alert = match &ev {
-        EngineEvent::Fit { fit, .. } => alerts.on_fit(fit),
-        _ => None,
-    };
-    n.report(out, ev)?;
-    if let Some((json, text)) = alert {
-        out.emit(json, text);
+    /// Report what was already on its way, then the objects left unfitted and the closing log line.
+    fn close(self, held: Option<EngineEvent>) -> anyhow::Result<i32> {
+        let Run {
+            mut n,
+            mut out,
+            mut alerts,
+            results,
+        } = self;
+        // What was already on its way (a file taken in, a fit finished) is reported before the closing
+        // record, so that every object taken in is either fitted or named: until the engine has been
+        // quiet for a tenth of a second, two seconds at most.
+        let until = Instant::now() + Duration::from_secs(2);
+        let late = held.into_iter().chain(std::iter::from_fn(|| {
+            let left = until.checked_duration_since(Instant::now())?;
+            results
+                .recv_timeout(left.min(Duration::from_millis(100)))
+                .ok()
+        }));
+        for ev in late {
+            report_with_alert(&mut n, &mut out, &mut alerts, ev)?;
+        }
+        alerts.finish();
+        n.report_unfitted(&mut out);
+        tracing::info!(
+            "watch: stopped; {} file versions read, {} objects, {} observations, {} fits reported, {} rejected",
+            n.files,
+            n.objects,
+            n.observations,
+            n.fits,
+            n.rejected
+        );
+        Ok(0)
     }
-    Ok(())
 }
 
 /// Lines the observers added: objects whose exclusions or forced methods changed are refitted.
@@ -368,122 +352,4 @@ fn follow(j: &mut Journal, standing: &mut Standing, engine: &Engine) -> bool {
         engine.set_overrides(&obj, ov);
     }
     refits
-}
-
-/// What the run has seen, for the closing line.
-#[derive(Default)]
-struct Counts {
-    files: usize,
-    objects: usize,
-    observations: usize,
-    fits: usize,
-    rejected: usize,
-    /// Objects whose newest observations were queued for a fit not reported yet.
-    awaiting: std::collections::BTreeSet<String>,
-}
-
-impl Counts {
-    /// Report one engine event (a JSON line with `--json`, else a line of text).
-    fn report(&mut self, out: &mut Out, ev: EngineEvent) -> anyhow::Result<()> {
-        match ev {
-            EngineEvent::Ingested {
-                path,
-                arrived,
-                errors,
-                rejected,
-                objects,
-                observations,
-                queued,
-                ..
-            } => {
-                self.files += 1;
-                self.awaiting.extend(queued);
-                (self.objects, self.observations) = (objects, observations);
-                if rejected {
-                    out.rejected_file(&interloper::feed::sanitize::clean(&path), &errors, arrived);
-                } else {
-                    for e in &errors {
-                        out.input_error(e, arrived);
-                    }
-                }
-                self.rejected += usize::from(rejected);
-            }
-            EngineEvent::Refused {
-                path,
-                reason,
-                arrived,
-            } => {
-                self.rejected += 1;
-                let file = interloper::feed::sanitize::clean(&path);
-                let e = InputError {
-                    file: file.clone(),
-                    line: 0,
-                    column: None,
-                    reason,
-                };
-                out.rejected_file(&file, &[e], arrived);
-            }
-            EngineEvent::Failed(msg) => tracing::error!("watch: {msg}"),
-            EngineEvent::Fit { fit, arrived, .. } => {
-                self.fits += 1;
-                self.awaiting.remove(&fit.object);
-                fit_line(out, &fit, arrived)?;
-            }
-        }
-        Ok(())
-    }
-}
-
-impl Counts {
-    /// Stopped (a signal, a closed pipe) with fits still to come: which objects have no reported fit
-    /// of their newest observations, so that a pipeline can fit them (their observations are in the
-    /// files; nothing is lost, but nothing about them was said).
-    fn report_unfitted(&self, out: &mut Out) {
-        if self.awaiting.is_empty() {
-            return;
-        }
-        let ids: Vec<&str> = self.awaiting.iter().map(String::as_str).collect();
-        const SHOWN: usize = 20;
-        let more = ids.len().saturating_sub(SHOWN);
-        let text = format!(
-            "unfitted: {} object(s) stopped before their fit was reported (their observations are in \
-             the files; `interloper fit` takes them): {}{}",
-            ids.len(),
-            ids[..ids.len().min(SHOWN)].join(", "),
-            if more > 0 {
-                format!(" and {more} more")
-            } else {
-                String::new()
-            }
-        );
-        tracing::warn!("watch: {text}");
-        let v = serde_json::json!({
-            "kind": "unfitted",
-            "n_objects": ids.len(),
-            "objects": ids,
-        });
-        out.emit(v, text);
-    }
-}
-
-fn fit_line(out: &mut Out, r: &FitResult, at: SystemTime) -> anyhow::Result<()> {
-    let mut v = serde_json::to_value(r)?;
-    if let Some(m) = v.as_object_mut() {
-        m.insert("kind".into(), "fit".into());
-        m.insert("arrived_utc".into(), utc(at).into());
-    }
-    let text = format!(
-        "{} {:<14} odds {:>6} P(unb) {:>6} e {:>9} {} ({} obs, {} nights) {}",
-        utc(at),
-        interloper::feed::sanitize::clean(&r.object),
-        interloper::report::odds_text(r),
-        r.p_hyperbolic.map_or("-".into(), |p| format!("{p:.3}")),
-        r.e.map_or("-".into(), |e| format!("{e:.4}")),
-        r.status,
-        r.n_obs,
-        r.n_nights,
-        r.error.clone().unwrap_or_default()
-    );
-    out.emit(v, text);
-    Ok(())
 }
