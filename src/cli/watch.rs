@@ -137,35 +137,33 @@ fn open_console(
     threads: usize,
     stop: Arc<AtomicBool>,
 ) -> anyhow::Result<i32> {
-    {
-        let state = args
-            .state
-            .clone()
-            .unwrap_or_else(|| super::config::get().state_dir.value.clone());
-        std::fs::create_dir_all(&state).map_err(|e| {
-            super::Usage(format!(
-                "cannot use {} as the state directory: {e}",
-                state.display()
-            ))
-        })?;
-        return super::console::open(
-            super::console::ConsoleConfig {
-                dir: args.dir.clone(),
-                sites,
-                state,
-                keymap: args
-                    .keymap
-                    .clone()
-                    .or_else(|| super::config::get().keymap.value.clone()),
-                watch: opts,
-                threads,
-                population: args.population.load()?,
-                theme: args.color.theme(),
-                observer: super::config::get().observer_for(args.observer.as_deref()),
-            },
-            stop,
-        );
-    }
+    let state = args
+        .state
+        .clone()
+        .unwrap_or_else(|| super::config::get().state_dir.value.clone());
+    std::fs::create_dir_all(&state).map_err(|e| {
+        super::Usage(format!(
+            "cannot use {} as the state directory: {e}",
+            state.display()
+        ))
+    })?;
+    super::console::open(
+        super::console::ConsoleConfig {
+            dir: args.dir.clone(),
+            sites,
+            state,
+            keymap: args
+                .keymap
+                .clone()
+                .or_else(|| super::config::get().keymap.value.clone()),
+            watch: opts,
+            threads,
+            population: args.population.load()?,
+            theme: args.color.theme(),
+            observer: super::config::get().observer_for(args.observer.as_deref()),
+        },
+        stop,
+    )
 }
 
 /// Headless: every event as a line on standard output until a signal, a closed pipe or the idle
