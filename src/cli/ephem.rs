@@ -1,6 +1,7 @@
 //! `interloper ephem`: fit the given tracklets, then predict where each object will be from a site over a
 //! time range: position, rates, brightness, altitude, observability and the uncertainty region.
 
+use super::ephem_request::windows;
 use super::fit::fit_all_default;
 use super::inputs::SiteArgs;
 use anyhow::{Context, bail};
@@ -11,7 +12,7 @@ use interloper::fitting::fit::FitResult;
 use interloper::fitting::kinds::FitStatus;
 use interloper::physics::observe::ObserverModel;
 use interloper::physics::sky::Twilight;
-use interloper::physics::time::{UtcTime, tt_to_utc};
+use interloper::physics::time::{Instant, UtcTime, tt_to_utc};
 use std::io::Write;
 use std::path::PathBuf;
 
@@ -80,28 +81,7 @@ pub fn parse_step(s: &str) -> anyhow::Result<f64> {
     Ok(days)
 }
 
-fn windows(points: &[EphemerisPoint]) -> Vec<(String, String)> {
-    let mut out = Vec::new();
-    let mut start: Option<&str> = None;
-    let mut last = "";
-    for p in points {
-        match (p.observable, start) {
-            (true, None) => start = Some(&p.time_utc),
-            (false, Some(s)) => {
-                out.push((s.to_string(), last.to_string()));
-                start = None;
-            }
-            _ => {}
-        }
-        last = &p.time_utc;
-    }
-    if let Some(s) = start {
-        out.push((s.to_string(), last.to_string()));
-    }
-    out
-}
-
-fn table(points: &[EphemerisPoint]) -> String {
+pub(super) fn table(points: &[EphemerisPoint]) -> String {
     let mut s = String::new();
     let Some(first) = points.first() else {
         return s;
@@ -168,43 +148,9 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let Some(site) = sites.get(&args.site) else {
         return Err(super::inputs::unknown_site(&sites, &args.site));
     };
-    if !(args.exposure > 0.0 && args.exposure <= 86_400.0) {
-        crate::usage!(
-            "--exposure {} must be between 0 and 86400 seconds",
-            args.exposure
-        );
-    }
-    if let Some(a) = args.min_alt
-        && !(-90.0..90.0).contains(&a)
-    {
-        crate::usage!("--min-alt {a} is not an altitude");
-    }
-    let row_opts = RowOptions {
-        caps: Capabilities {
-            min_alt_deg: args.min_alt.unwrap_or(site.caps.min_alt_deg),
-            ..site.caps
-        },
-        twilight: args.twilight,
-        exposure_s: args.exposure,
-    };
+    let row_opts = row_options(args, site.caps)?;
     let site = site.position;
-    let time = |flag: &str, v: &str| match UtcTime::parse(v).and_then(|u| u.instant()) {
-        Ok(t) => Ok(t),
-        Err(e) => Err(crate::cli::Usage(format!("{flag} {}: {e}", clean(v)))),
-    };
-    let from = time("--from", &args.from)?;
-    let to = time("--to", &args.to)?;
-    let step = parse_step(&args.step).map_err(|e| crate::cli::Usage(format!("--step {e:#}")))?;
-    let span = to.tt.minus(from.tt);
-    if span < 0.0 {
-        crate::usage!("--to is before --from");
-    }
-    let Some(offsets) = offsets_days(span, step) else {
-        crate::usage!(
-            "from --from to --to every --step is more than the {MAX_ROWS} rows of one run (or a step \
-             under a millisecond)"
-        );
-    };
+    let (from, offsets) = time_grid(args)?;
     let n = offsets.len();
     let (mut tracklets, input_errors) = super::inputs::read_tracklets(&args.paths, &sites)?;
     super::inputs::keep_objects(&mut tracklets, &args.objects)?;
@@ -224,7 +170,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     let mut all: Vec<EphemerisPoint> = Vec::new();
     let mut failed = 0;
     // Each object's status and note, for the request.
-    let mut standing: Vec<(String, FitStatus, Option<String>)> = Vec::new();
+    let mut standing: Vec<Standing> = Vec::new();
     for fit in &results {
         if fit.status == "failed" {
             eprintln!(
@@ -235,43 +181,20 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             failed += 1;
             continue;
         }
-        let h = fit.h_mag;
         let mut points = Vec::with_capacity(n);
         for &dt in &offsets {
             let inst = from.plus_days(dt);
-            let tt = inst.tt;
-            if let Some(p) = point_with(
-                fit,
-                &inst,
-                tt_to_utc(tt).to_string(),
-                &site,
-                &model,
-                h,
-                &row_opts,
-            ) {
-                points.push(p);
-            } else if uncomputable.len() < 3 {
-                uncomputable.push(format!("{} at {}", clean(&fit.object), tt_to_utc(tt)));
-            } else {
-                uncomputable.push(String::new());
+            let utc = tt_to_utc(inst.tt).to_string();
+            match point_with(fit, &inst, utc, &site, &model, fit.h_mag, &row_opts) {
+                Some(p) => points.push(p),
+                None if uncomputable.len() < 3 => {
+                    uncomputable.push(format!("{} at {}", clean(&fit.object), tt_to_utc(inst.tt)))
+                }
+                None => uncomputable.push(String::new()),
             }
         }
         let note = fit_note(fit);
-        if args.json {
-            for p in &points {
-                // Each row says how far its orbit can be trusted (a poor fit's rows look as exact).
-                let mut row = serde_json::to_value(p)?;
-                row["status"] = serde_json::json!(fit.status);
-                row["note"] = serde_json::json!(note);
-                serde_json::to_writer(&mut out, &row)?;
-                out.write_all(b"\n")?;
-            }
-        } else {
-            out.write_all(table(&points).as_bytes())?;
-            if let Some(n) = &note {
-                out.write_all(format!("note: {n}\n").as_bytes())?;
-            }
-        }
+        write_rows(&mut out, args.json, fit, &points, note.as_deref())?;
         if !points.is_empty() {
             standing.push((fit.object.clone(), fit.status, note));
         }
@@ -279,47 +202,7 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
     }
     out.flush()?;
     if let Some(prefix) = &args.request {
-        let (txt, json) = (with_suffix(prefix, ".txt"), with_suffix(prefix, ".json"));
-        let mut text = String::from(
-            "Follow-up request (advisory: a high hyperbolicity score is a reason for follow-up, not a discovery)\n",
-        );
-        text.push_str(&format!(
-            "site {} from {} to {} step {}\n\n",
-            clean(&args.site),
-            args.from,
-            args.to,
-            args.step
-        ));
-        let mut objects: Vec<&str> = all.iter().map(|p| p.object.as_str()).collect();
-        objects.dedup();
-        let about = |o: &str| standing.iter().find(|s| s.0 == o);
-        for o in &objects {
-            let pts: Vec<EphemerisPoint> = all.iter().filter(|p| p.object == *o).cloned().collect();
-            text.push_str(&table(&pts));
-            if let Some((_, _, Some(n))) = about(o) {
-                text.push_str(&format!("note: {n}\n"));
-            }
-            text.push('\n');
-        }
-        std::fs::write(&txt, text).with_context(|| format!("writing {}", txt.display()))?;
-        let req = serde_json::json!({
-            "site": args.site, "from": args.from, "to": args.to, "step": args.step,
-            "advisory": "a hyperbolicity score is a reason for follow-up, not a discovery; check the site's own solar-avoidance limits",
-            "targets": objects.iter().map(|o| serde_json::json!({
-                "object": o,
-                "status": about(o).map(|s| s.1),
-                "note": about(o).and_then(|s| s.2.clone()),
-                "windows": windows(&all.iter().filter(|p| p.object == *o).cloned().collect::<Vec<_>>()),
-                "points": all.iter().filter(|p| p.object == *o).collect::<Vec<_>>(),
-            })).collect::<Vec<_>>(),
-        });
-        std::fs::write(&json, serde_json::to_string_pretty(&req)?)
-            .with_context(|| format!("writing {}", json.display()))?;
-        eprintln!(
-            "request written to {} and {}",
-            txt.display(),
-            json.display()
-        );
+        super::ephem_request::write_request(args, prefix, &all, &standing)?;
     }
     // A time that cannot be computed is an error, not a silent gap in the table.
     if !uncomputable.is_empty() {
@@ -342,6 +225,81 @@ pub fn run(args: &EphemArgs) -> anyhow::Result<i32> {
             0
         },
     )
+}
+
+/// An object's status and note, as its rows in the request carry them.
+pub(super) type Standing = (String, FitStatus, Option<String>);
+
+/// The row options from the site's limits and the command line's, checked.
+fn row_options(args: &EphemArgs, caps: Capabilities) -> anyhow::Result<RowOptions> {
+    if !(args.exposure > 0.0 && args.exposure <= 86_400.0) {
+        crate::usage!(
+            "--exposure {} must be between 0 and 86400 seconds",
+            args.exposure
+        );
+    }
+    if let Some(a) = args.min_alt
+        && !(-90.0..90.0).contains(&a)
+    {
+        crate::usage!("--min-alt {a} is not an altitude");
+    }
+    Ok(RowOptions {
+        caps: Capabilities {
+            min_alt_deg: args.min_alt.unwrap_or(caps.min_alt_deg),
+            ..caps
+        },
+        twilight: args.twilight,
+        exposure_s: args.exposure,
+    })
+}
+
+/// The first instant and the offsets (days) of every row, `--to` included.
+fn time_grid(args: &EphemArgs) -> anyhow::Result<(Instant, Vec<f64>)> {
+    let time = |flag: &str, v: &str| match UtcTime::parse(v).and_then(|u| u.instant()) {
+        Ok(t) => Ok(t),
+        Err(e) => Err(crate::cli::Usage(format!("{flag} {}: {e}", clean(v)))),
+    };
+    let from = time("--from", &args.from)?;
+    let to = time("--to", &args.to)?;
+    let step = parse_step(&args.step).map_err(|e| crate::cli::Usage(format!("--step {e:#}")))?;
+    let span = to.tt.minus(from.tt);
+    if span < 0.0 {
+        crate::usage!("--to is before --from");
+    }
+    let Some(offsets) = offsets_days(span, step) else {
+        crate::usage!(
+            "from --from to --to every --step is more than the {MAX_ROWS} rows of one run (or a step \
+             under a millisecond)"
+        );
+    };
+    Ok((from, offsets))
+}
+
+/// One object's rows: JSON lines that each say how far their orbit can be trusted, or a table with
+/// its note.
+fn write_rows(
+    out: &mut impl Write,
+    json: bool,
+    fit: &FitResult,
+    points: &[EphemerisPoint],
+    note: Option<&str>,
+) -> anyhow::Result<()> {
+    if json {
+        for p in points {
+            // Each row says how far its orbit can be trusted (a poor fit's rows look as exact).
+            let mut row = serde_json::to_value(p)?;
+            row["status"] = serde_json::json!(fit.status);
+            row["note"] = serde_json::json!(note);
+            serde_json::to_writer(&mut *out, &row)?;
+            out.write_all(b"\n")?;
+        }
+    } else {
+        out.write_all(table(points).as_bytes())?;
+        if let Some(n) = note {
+            out.write_all(format!("note: {n}\n").as_bytes())?;
+        }
+    }
+    Ok(())
 }
 
 /// What a follow-up table must say about its orbit: a fit that is not `ok`, or whose answer the
@@ -390,14 +348,6 @@ fn offsets_days(span: f64, step: f64) -> Option<Vec<f64>> {
     (out.len() <= MAX_ROWS).then_some(out)
 }
 
-/// `PREFIX` with `suffix` appended (a dot in the prefix is part of the name: `req/a.tv1` gives
-/// `req/a.tv1.txt`, never `req/a.txt`).
-fn with_suffix(prefix: &std::path::Path, suffix: &str) -> std::path::PathBuf {
-    let mut name = prefix.as_os_str().to_os_string();
-    name.push(suffix);
-    std::path::PathBuf::from(name)
-}
-
 /// Rows one `ephem` run writes at most (all objects together): a month at one-minute steps for
 /// four objects.
 pub const MAX_ROWS: usize = 200_000;
@@ -419,18 +369,5 @@ mod tests {
         assert_eq!(offsets_days(60.0 * minute, 30.0 * minute).unwrap().len(), 3);
         assert_eq!(offsets_days(0.0, minute).unwrap(), vec![0.0]);
         assert!(offsets_days(1.0, 1.0 / MAX_ROWS as f64).is_none());
-    }
-
-    #[test]
-    fn a_request_prefix_keeps_its_dots() {
-        let p = std::path::Path::new("req/a.tv1");
-        assert_eq!(
-            with_suffix(p, ".txt"),
-            std::path::PathBuf::from("req/a.tv1.txt")
-        );
-        assert_eq!(
-            with_suffix(p, ".json"),
-            std::path::PathBuf::from("req/a.tv1.json")
-        );
     }
 }

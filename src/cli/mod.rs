@@ -5,6 +5,7 @@ pub mod config_show;
 pub mod console;
 pub mod demo;
 pub mod ephem;
+mod ephem_request;
 pub mod fit;
 pub mod inputs;
 pub mod journal;
