@@ -226,6 +226,46 @@ pub fn range(
     opts: &RangingOptions,
     prior: (&PopulationModel, f64),
 ) -> Option<RangingResult> {
+    if tr.obs.len() < 2 {
+        return None;
+    }
+    let scan = scan_of(tr, observers, cov, observer_at_t0, sun_bary, prior)?;
+    let mut rng = SplitMix::new(opts.seed);
+    let (mut nodes, mut trials) = first_grid(&scan, opts, &mut rng);
+    if nodes.is_empty() {
+        return None;
+    }
+    trials += refine(&scan, &mut nodes, &mut rng);
+    if nodes.is_empty() {
+        return None;
+    }
+    let best_chi2 = nodes
+        .iter()
+        .map(|n| n.sample.chi2)
+        .fold(f64::INFINITY, f64::min);
+    let e_data_interval = super::datainterval::e_range_of_nodes(
+        nodes.iter().map(|n| (&n.sample.state, n.sample.chi2)),
+    );
+    let ln_w: Vec<f64> = nodes
+        .iter()
+        .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
+        .collect();
+    with_elements(&mut nodes, &ln_w, sun_bary);
+    let mut r = summarise(&nodes, &ln_w)?;
+    r.trials = trials;
+    r.e_data_interval = e_data_interval;
+    Some(r)
+}
+
+/// The tracklet's attributable, whitened linear model and projector, ready to place cells.
+fn scan_of<'a>(
+    tr: &'a Tracklet,
+    observers: &'a [ObserverState],
+    cov: &[Matrix2<f64>],
+    observer_at_t0: impl Fn(Jd2) -> Option<ObserverState>,
+    sun_bary: (V3, V3),
+    prior: (&'a PopulationModel, f64),
+) -> Option<Scan<'a>> {
     let (model, v_mag) = prior;
     let sun6 = S6::new(
         sun_bary.0.x,
@@ -236,9 +276,6 @@ pub fn range(
         sun_bary.1.z,
     );
     let n = tr.obs.len();
-    if n < 2 {
-        return None;
-    }
     let att = attributable(tr);
     let obs0 = observer_at_t0(att.t0)?;
     let whiten: Vec<Matrix2<f64>> = cov
@@ -263,10 +300,7 @@ pub fn range(
     }
     let ata_inv = (a.transpose() * &a).try_inverse()?;
     let ata4: nalgebra::Matrix4<f64> = nalgebra::Matrix4::from_fn(|i, j| ata_inv[(i, j)]);
-    let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
-    let resolved_v = RESOLVED_V_KM_S / AU_PER_DAY_TO_KM_S;
-    let ecl = equatorial_to_ecliptic();
-    let scan = Scan {
+    Some(Scan {
         tr,
         observers,
         whiten,
@@ -277,14 +311,19 @@ pub fn range(
         model,
         v_mag,
         sun6,
-    };
-    let mut rng = SplitMix::new(opts.seed);
+    })
+}
+
+/// The first grid: one jittered distance per row of cells, its ρ̇ range from the speed cap there;
+/// the nodes that fit and the number of trials.
+fn first_grid(scan: &Scan, opts: &RangingOptions, rng: &mut SplitMix) -> (Vec<Node>, usize) {
+    let v_cap = opts.v_cap_km_s / AU_PER_DAY_TO_KM_S;
+    let resolved_v = RESOLVED_V_KM_S / AU_PER_DAY_TO_KM_S;
     let dln = (RHO_MAX_AU / RHO_MIN_AU).ln() / opts.n_rho as f64;
     let mut nodes: Vec<Node> = Vec::new();
     let mut trials = 0;
-    let mut xi = DVector::zeros(2 * n);
+    let mut xi = DVector::zeros(2 * scan.tr.obs.len());
     for k in 0..opts.n_rho {
-        // One jittered distance per row of cells, its ρ̇ range from the speed cap there.
         let row = RHO_MIN_AU.ln() + dln * k as f64;
         let ln_rho = RHO_MIN_AU.ln() + dln * (k as f64 + rng.uniform());
         let Some(full) = scan.rhodot_bounds(ln_rho.exp(), v_cap) else {
@@ -304,30 +343,17 @@ pub fn range(
             nodes.extend(scan.node(ln_rho, rhodot, cell, &mut xi));
         }
     }
-    if nodes.is_empty() {
-        return None;
-    }
-    trials += refine(&scan, &mut nodes, &mut rng);
-    if nodes.is_empty() {
-        return None;
-    }
-    let best_chi2 = nodes
-        .iter()
-        .map(|n| n.sample.chi2)
-        .fold(f64::INFINITY, f64::min);
-    let e_data_interval = super::datainterval::e_range_of_nodes(
-        nodes.iter().map(|n| (&n.sample.state, n.sample.chi2)),
-    );
-    let ln_w: Vec<f64> = nodes
-        .iter()
-        .map(|n| n.ln_prior - 0.5 * (n.sample.chi2 - best_chi2))
-        .collect();
-    // Elements only where the weight is not negligible (below e⁻³⁰ of the heaviest cell's: cells of
-    // split grids differ in area, so χ² alone does not say).
+    (nodes, trials)
+}
+
+/// Elements only where the weight is not negligible (below e⁻³⁰ of the heaviest cell's: cells of
+/// split grids differ in area, so χ² alone does not say).
+fn with_elements(nodes: &mut [Node], ln_w: &[f64], sun_bary: (V3, V3)) {
+    let ecl = equatorial_to_ecliptic();
     let ln_w_max = ln_w.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     for (n, _) in nodes
         .iter_mut()
-        .zip(&ln_w)
+        .zip(ln_w)
         .filter(|(_, w)| **w - ln_w_max >= -30.0)
     {
         let st = &n.sample.state;
@@ -345,6 +371,11 @@ pub fn range(
         n.sample.q = el.q;
         n.sample.i = el.i;
     }
+}
+
+/// The posterior over the weighted cells: P with its error, the weighted samples, their central 95 %
+/// intervals and medians, the heaviest cell (trials and the data's e range are the caller's).
+fn summarise(nodes: &[Node], ln_w: &[f64]) -> Option<RangingResult> {
     let classes: Vec<bool> = nodes.iter().map(|n| n.unbound).collect();
     let post = Masses::of(classes.iter().zip(ln_w.iter().copied()));
     let prior = Masses::of(classes.iter().zip(nodes.iter().map(|n| n.ln_prior)));
@@ -354,7 +385,7 @@ pub fn range(
     let posterior = Posterior::new(
         post,
         prior,
-        sampled_ln_odds_error(&ln_w, &classes),
+        sampled_ln_odds_error(ln_w, &classes),
         Some(n_eff_all),
     );
     let mut samples: Vec<RangingSample> = nodes
@@ -393,8 +424,8 @@ pub fn range(
         q_interval,
         i_interval,
         best,
-        trials,
-        e_data_interval,
+        trials: 0,
+        e_data_interval: None,
     })
 }
 
