@@ -289,9 +289,12 @@ impl App {
         let f = &c.fit;
         let v = match self.sort {
             SortKey::Rank => {
-                // Tiers first; within a tier the posterior odds (any finite log-odds fits in ±1e5).
+                // Tiers first; within a tier the posterior odds, squeezed monotonically into ±710 so
+                // that the tier always wins (a clamp once tied every log-odds past 10⁵, and the
+                // strongest candidates fell into id order).
                 let (tier, z) = f.rank_key();
-                -(f64::from(tier) * 1e6 + z.clamp(-1e5, 1e5))
+                let squeezed = z.signum() * z.abs().ln_1p();
+                -(f64::from(tier) * 1e6 + squeezed.clamp(-1e3, 1e3))
             }
             SortKey::Odds => -f.log10_odds.unwrap_or(f64::NEG_INFINITY),
             SortKey::Probability => -f.p_hyperbolic.unwrap_or(-1.0),

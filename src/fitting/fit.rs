@@ -111,6 +111,7 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
         super::gross::fit_without(tr, &gross, model, opts.inflate_nights, fit)
     };
     r.mark_undetermined();
+    super::unresolved::bound_unresolved_odds(&mut r);
     r.h_mag = super::ephemeris::tracklet_h(&r, tr, model);
     if let Some(o) = &opts.origin {
         r.origin = super::origin::origin_sheet(&r, o).map(Box::new);

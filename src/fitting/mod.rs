@@ -47,5 +47,6 @@ pub mod standing;
 pub mod stats;
 pub mod trust;
 pub mod twonight;
+pub mod unresolved;
 pub mod valleyseeds;
 pub mod valleyzoom;

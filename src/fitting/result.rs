@@ -319,10 +319,10 @@ impl FitResult {
         self.prior = Some(model.to_string());
         let l10k = p.ln_bayes / std::f64::consts::LN_10;
         self.log10_bayes_factor = finite(l10k);
-        self.bayes_factor = finite(l10k)
-            .map(|l| 10f64.powf(l))
-            .filter(|k| k.is_finite());
-        self.prior_dominated = !l10k.is_finite() || l10k.abs() < 0.5;
+        self.bayes_factor = super::unresolved::bayes_factor_of(l10k);
+        // A class with no weight on the trial orbits (±∞) was decided by the positions, not the model
+        // (`unresolved` bounds it); undefined evidence (NaN) leaves the model to decide.
+        self.prior_dominated = l10k.is_nan() || l10k.abs() < 0.5;
         self.n_eff = p.n_eff;
         self.probability_from = from;
     }

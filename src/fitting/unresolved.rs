@@ -1,0 +1,121 @@
+//! Odds the trial orbits cannot resolve. Where no trial orbit of one class carries any weight (a
+//! strongly hyperbolic fit whose energy line never reaches a bound orbit, draws that all land on one
+//! side), the posterior odds are infinite only as far as the trial orbits reach. The record then
+//! states the odds as a bound set by the data's own spread: the Gaussian tail of the barycentric e
+//! beyond e = 1, −log₁₀ Φ(−|z|) with z = (e_bary − 1)/σ, or, without that spread, one draw's share
+//! of the effective sample (log₁₀ n_eff). The same bound stands for the evidence (the data decided,
+//! not the model), P is the probability those odds give (P, z and the odds stay one quantity), and
+//! `z_is_bound` says the numbers are bounds.
+
+use super::posterior::{Posterior, z_of_ln_odds};
+use super::result::FitResult;
+use super::stats::normal_cdf;
+use std::f64::consts::LN_10;
+
+/// log₁₀ of the odds the data's spread alone can resolve on the side P points to (positive), or
+/// None where the record holds nothing to size it.
+fn resolvable_log10_odds(r: &FitResult, unbound: bool) -> Option<f64> {
+    if let (Some(e), Some(s)) = (r.e_bary, r.e_bary_sigma)
+        && e.is_finite()
+        && s.is_finite()
+        && s > 0.0
+        && (e > 1.0) == unbound
+    {
+        let z = (e - 1.0).abs() / s;
+        return Some(-ln_normal_tail(z) / LN_10);
+    }
+    r.n_eff
+        .filter(|n| n.is_finite() && *n > 1.0)
+        .map(f64::log10)
+}
+
+/// ln Φ(−z) for z ≥ 0, without underflow far in the tail.
+fn ln_normal_tail(z: f64) -> f64 {
+    if z < 30.0 {
+        return normal_cdf(-z).ln();
+    }
+    // Asymptotic series: Φ(−z) ≈ φ(z)/z · (1 − 1/z²), relative error below 3/z⁴ (10⁻⁵ at 30).
+    -0.5 * z * z - z.ln() - 0.5 * (2.0 * std::f64::consts::PI).ln() + (1.0 - 1.0 / (z * z)).ln()
+}
+
+/// Where P is exactly 0 or 1 because one class has no weight, state the odds and the evidence as the
+/// bound the data resolve (see the module's words); a record with finite odds is left alone.
+pub fn bound_unresolved_odds(r: &mut FitResult) {
+    let Some(p) = r.p_hyperbolic else {
+        return;
+    };
+    let infinite = r.log10_odds.is_none_or(|l| !l.is_finite());
+    if !(r.z_is_bound && infinite) {
+        return;
+    }
+    let unbound = p >= 0.5;
+    let Some(b) = resolvable_log10_odds(r, unbound) else {
+        return;
+    };
+    let l10 = if unbound { b } else { -b };
+    r.log10_odds = Some(l10);
+    // P, its score and the odds stay one quantity: P is the probability the bound odds give.
+    let odds = Posterior {
+        ln_odds: l10 * LN_10,
+        ln_bayes: l10 * LN_10,
+        ln_odds_error: 0.0,
+        n_eff: None,
+    };
+    r.p_hyperbolic = Some(odds.p());
+    r.z_hyperbolic = Some(z_of_ln_odds(l10 * LN_10)).filter(|z| z.is_finite());
+    if r.log10_bayes_factor.is_none_or(|k| !k.is_finite()) {
+        r.log10_bayes_factor = Some(l10);
+        r.bayes_factor = bayes_factor_of(l10);
+    }
+    r.prior_dominated = false;
+}
+
+/// 10^log10 where a double holds it, else None (the log10 field carries it).
+pub fn bayes_factor_of(log10: f64) -> Option<f64> {
+    (log10.is_finite() && log10.abs() <= 300.0).then(|| 10f64.powf(log10))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_tail_is_continuous_where_the_series_takes_over_and_matches_known_values() {
+        // Φ(−5) = 2.866516e-7 (any table of the normal distribution).
+        assert!((ln_normal_tail(5.0) - 2.866_516e-7_f64.ln()).abs() < 1e-5);
+        let (below, above) = (normal_cdf(-29.999_999).ln(), ln_normal_tail(30.0));
+        assert!((below - above).abs() < 1e-4, "{below} {above}");
+    }
+
+    #[test]
+    fn a_strongly_unbound_record_with_no_bound_weight_gets_finite_bounded_odds() {
+        use crate::fitting::input::Tracklet;
+        let mut r = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        r.p_hyperbolic = Some(1.0);
+        r.log10_odds = Some(f64::INFINITY);
+        r.z_is_bound = true;
+        r.prior_dominated = true;
+        (r.e_bary, r.e_bary_sigma) = (Some(3.0), Some(0.1));
+        bound_unresolved_odds(&mut r);
+        // z = 20: −log₁₀ Φ(−20) = 88.56 (Φ(−20) = 2.754e-89; scipy.stats.norm.logsf(20)/ln 10, from
+        // memory; by hand 200/ln 10 + log₁₀(20√(2π)) − log₁₀(1 − 1/400) = 86.859 + 1.700 + 0.001).
+        let l = r.log10_odds.unwrap();
+        assert!((l - 88.56).abs() < 0.01, "{l}");
+        assert!(r.z_hyperbolic.unwrap() > 19.9, "{:?}", r.z_hyperbolic);
+        let p = r.p_hyperbolic.unwrap();
+        assert!(p < 1.0 || l > 16.0, "P {p} must be what the odds give");
+        assert_eq!(r.log10_bayes_factor, Some(l));
+        let k = r.bayes_factor.unwrap();
+        assert!((k.log10() - l).abs() < 1e-9, "{k}");
+        // Beyond a double's range the factor itself is left out (its log₁₀ carries it).
+        assert_eq!(bayes_factor_of(415.3), None);
+        assert_eq!(bayes_factor_of(-415.3), None);
+        assert!(!r.prior_dominated);
+        // A record whose odds were resolved is left alone.
+        let mut f = FitResult::empty(&Tracklet::new("y".into(), "y".into(), Vec::new()));
+        f.p_hyperbolic = Some(0.7);
+        f.log10_odds = Some(0.37);
+        bound_unresolved_odds(&mut f);
+        assert_eq!(f.log10_odds, Some(0.37));
+    }
+}
