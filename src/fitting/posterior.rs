@@ -63,7 +63,10 @@ impl Posterior {
         }
     }
 
-    /// One-sigma numerical error of P.
+    /// One-sigma numerical error of P: P(1 − P) times the error of ln odds, and never more than P's
+    /// distance to 0 or 1. Where the estimate cannot size its own error (the coarser rule found no
+    /// weight in one class) that is the answer: P is known in its order of magnitude only. (A flat
+    /// 0.5 stood there once, beside P = 4 × 10⁻¹⁰.)
     pub fn p_error(&self) -> f64 {
         let p = self.p();
         let spread = p * (1.0 - p);
@@ -71,7 +74,7 @@ impl Posterior {
             // P is 0 or 1 to double precision; the error of the odds cannot move it.
             return 0.0;
         }
-        (spread * self.ln_odds_error).min(0.5)
+        (spread * self.ln_odds_error).min(p.min(1.0 - p))
     }
 
     /// log₁₀ of the posterior odds.
@@ -134,6 +137,24 @@ pub fn sampled_ln_odds_error(ln_w: &[f64], unbound: &[bool]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn an_unsized_error_of_p_is_its_own_size_not_a_flat_half() {
+        let post = |ln_odds: f64, err: f64| Posterior {
+            ln_odds,
+            ln_bayes: 0.0,
+            ln_odds_error: err,
+            n_eff: None,
+        };
+        let tiny = post(-21.76, f64::INFINITY);
+        assert!((tiny.p_error() - tiny.p()).abs() < 1e-20, "{}", tiny.p_error());
+        let near_one = post(4.1, f64::INFINITY);
+        assert!((near_one.p_error() - (1.0 - near_one.p())).abs() < 1e-15);
+        // A sized error is the delta method's: P(1 − P) · σ(ln odds).
+        let mid = post(0.08, 0.5);
+        let p = mid.p();
+        assert!((mid.p_error() - p * (1.0 - p) * 0.5).abs() < 1e-15);
+    }
 
     #[test]
     fn z_is_the_normal_quantile_of_p_in_the_middle_and_the_tails() {
