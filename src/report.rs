@@ -56,7 +56,7 @@ pub fn ranked_table(results: &[FitResult]) -> String {
         } else if r.status == crate::fitting::kinds::FitStatus::Undetermined {
             "e ± σ are the population model's, not measured".into()
         } else if !r.distrust_linear.is_empty() {
-            format!("not linear: {}", clean(&r.distrust_linear.join(", ")))
+            format!("caveats: {}", clean(&r.distrust_linear.join(", ")))
         } else {
             String::new()
         };

@@ -255,7 +255,8 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // Where the linear answer cannot be trusted, the range profile gives the posterior (it follows a
     // curved valley that Gaussian sampling around the minimum would need thousands of draws for).
     let judged = Judged::new(&fit, &shift, &alternatives, range_sigma, tr.n_nights());
-    let reasons = !distrust_reasons(&problem, &fit, &shift).is_empty() || !alternatives.is_empty();
+    let first_reasons = distrust_reasons(&problem, &fit, &shift);
+    let reasons = !first_reasons.is_empty() || !alternatives.is_empty();
     // Before a linear answer stands alone, χ² a few σ out along the distance must follow its
     // covariance on both sides.
     if !(reasons || doubts.any()) || judged.decides(&doubts) {
@@ -271,9 +272,25 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         && let Some(mut r) =
             super::twonight::fit_by_profile(inputs, Some(&fit), &found.elsewhere, dynamics)
     {
-        // The profile's refit may look linear again; the doubts were found about this minimum.
+        // The profile's refit may look linear again; the doubts and the reasons were found about
+        // this minimum, and they are why the record's P is not the linear one: no linear z.
         doubts.mark(&mut r);
-        r.z_linear = r.z_linear.filter(|_| !doubts.any());
+        for why in first_reasons {
+            if !r.distrust_linear.contains(&why) {
+                r.distrust_linear.push(why);
+            }
+        }
+        if r.alternatives.is_empty() && !alternatives.is_empty() {
+            let worst = alternatives
+                .iter()
+                .map(|a| a.chi2 - fit.chi2)
+                .fold(f64::NEG_INFINITY, f64::max);
+            r.distrust_linear.push(format!(
+                "{} other least-squares minimum(s) (Δχ² up to {worst:+.1}): the range profile weighs them",
+                alternatives.len()
+            ));
+        }
+        r.z_linear = None;
         return r;
     }
     let mut r = lsq_result(

@@ -147,7 +147,11 @@ mod tests {
             n_eff: None,
         };
         let tiny = post(-21.76, f64::INFINITY);
-        assert!((tiny.p_error() - tiny.p()).abs() < 1e-20, "{}", tiny.p_error());
+        assert!(
+            (tiny.p_error() - tiny.p()).abs() < 1e-20,
+            "{}",
+            tiny.p_error()
+        );
         let near_one = post(4.1, f64::INFINITY);
         assert!((near_one.p_error() - (1.0 - near_one.p())).abs() < 1e-15);
         // A sized error is the delta method's: P(1 − P) · σ(ln odds).

@@ -128,7 +128,7 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
     }
     if !f.distrust_linear.is_empty() {
         out.push(Line::from(format!(
-            "not linear: {}",
+            "caveats: {}",
             clean(&f.distrust_linear.join("; "))
         )));
     }
