@@ -104,12 +104,14 @@ fn the_estimate_is_made_only_where_p_is_open_and_its_verdict_follows_its_numbers
     let tr = util::noisy(&t, &mut rng, 0.3);
     let mut fit = fit_tracklet(&tr, &model, &FitOptions::default());
     let mut seen = 0;
+    let mut estimated = None;
     for p in [0.02, 0.3, 0.5, 0.9] {
         fit.p_hyperbolic = Some(p);
         let Some(n) = next_night(&fit, &tr, &model) else {
             continue;
         };
         seen += 1;
+        estimated = Some(p);
         assert!(n.e_sigma <= n.e_sigma_now && n.inv_a_sigma <= n.inv_a_sigma_now);
         assert!(n.p_hyperbolic > 0.0 && n.p_hyperbolic < 1.0);
         let open = (OPEN_P.0..=OPEN_P.1).contains(&n.p_hyperbolic);
@@ -117,6 +119,26 @@ fn the_estimate_is_made_only_where_p_is_open_and_its_verdict_follows_its_numbers
         assert_eq!(n.positions, 4);
     }
     assert!(seen > 0, "no night found for any P");
+    // With another solution of the other class listed, an update around one minimum cannot weigh
+    // it: no estimate (a regression: it once promised to settle an arc at P → 10⁻¹⁶⁴ whose other,
+    // unbound solution was the true orbit).
+    let p = estimated.unwrap();
+    fit.p_hyperbolic = Some(p);
+    fit.alternatives = vec![interloper::fitting::fit::Alternative {
+        delta_chi2: 0.1,
+        e: 2.3,
+        q_au: 1.0,
+        i_deg: 10.0,
+        unbound: p < 0.5,
+        probability: Some(0.03),
+    }];
+    assert!(next_night(&fit, &tr, &model).is_none());
+    fit.alternatives[0].unbound = p >= 0.5;
+    assert!(
+        next_night(&fit, &tr, &model).is_some(),
+        "one of the same class changes nothing"
+    );
+    fit.alternatives.clear();
     // Decided candidates and one-night arcs get no estimate.
     fit.p_hyperbolic = Some(0.001);
     assert!(next_night(&fit, &tr, &model).is_none());

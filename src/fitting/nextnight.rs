@@ -169,6 +169,12 @@ pub fn next_night(fit: &FitResult, tr: &Tracklet, model: &ObserverModel) -> Opti
     if fit.n_nights < 2 || fit.covariance.is_none() || !(OPEN_P.0..=OPEN_P.1).contains(&p) {
         return None;
     }
+    // An update around one minimum cannot weigh another of the other class: with such a solution
+    // listed it once promised "one more night should settle it" at P → 10⁻¹⁶⁴ for an arc whose other
+    // solution was the true, unbound orbit.
+    if fit.alternatives.iter().any(|a| a.unbound != (p >= 0.5)) {
+        return None;
+    }
     let last = tr.obs.last()?.time.tdb;
     let pred = Predictor::new(fit, last.plus_days(1.0), model)?;
     let night = choose_night(&pred, tr, model, Twilight::default())?;
