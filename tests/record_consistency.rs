@@ -3,9 +3,10 @@
 //! story: P, its score and its odds are one quantity (finite odds wherever P is given, a bound where
 //! no trial orbit of the other class had weight, and such a row decided by the positions, not the
 //! model); P's error never exceeds its distance to 0 or 1; an answer the range profile gave because
-//! the linear one could not be trusted says why and shows no linear z. Each was found broken by a
-//! command-line audit: null odds on the strongest candidates, a flat 0.5 beside P = 4 × 10⁻¹⁰, and
-//! range-profile answers with a linear z and no reason.
+//! the linear one could not be trusted says why and shows no linear z; another solution of the other
+//! class than P's is said in words. Each was found broken by a command-line audit: null odds on the
+//! strongest candidates, a flat 0.5 beside P = 4 × 10⁻¹⁰, range-profile answers with a linear z and
+//! no reason, and a bound answer whose unbound alternative went unsaid.
 #![allow(clippy::unwrap_used)] // a failed step in a test should stop it loudly
 
 mod util;
@@ -54,6 +55,23 @@ fn check(file: &str) -> (usize, usize) {
         assert!((p - from_odds).abs() <= 1e-12, "{id}: P {p} vs odds {l}");
         let err = r.p_hyperbolic_error.unwrap_or(0.0);
         assert!(err <= p.min(1.0 - p) + 1e-300, "{id}: P {p} ± {err}");
+        // Another solution of the other class than the one P reports is said in words, too.
+        let flips = r
+            .alternatives
+            .iter()
+            .filter(|a| a.unbound != (p >= 0.5))
+            .count();
+        if flips > 0 {
+            let said = format!(
+                "{flips} of them {}",
+                if p >= 0.5 { "bound" } else { "unbound" }
+            );
+            assert!(
+                r.distrust_linear.iter().any(|d| d.contains(&said)),
+                "{id}: {:?}",
+                r.distrust_linear
+            );
+        }
         if r.z_is_bound {
             bounded += 1;
             assert!(!r.prior_dominated, "{id}: a bound set by the positions");

@@ -88,16 +88,13 @@ pub fn lsq_result(
     let reasons = distrust_reasons(p, fit, shift);
     out.distrust_linear.clone_from(&reasons);
     out.alternatives = alternatives_out(fit, alternatives, shift);
-    if let Some(why) = alternatives_note(&out.alternatives, e_bary >= 1.0) {
-        out.distrust_linear.push(why);
-    }
     let z_linear = sigma_eb.filter(|s| *s > 0.0).map(|s| (e_bary - 1.0) / s);
     // Beyond ±6σ a nonlinearity of a fifth of σ (the distrust trigger) cannot carry e across 1: keep
     // the linear answer there for three nights or more.
     let decided = z_linear.is_some_and(|z| z.abs() >= LINEAR_DECIDES)
         && tr.n_nights() >= 3
         && alternatives.is_empty();
-    let trusted = out.distrust_linear.is_empty() || decided;
+    let trusted = (out.distrust_linear.is_empty() && out.alternatives.is_empty()) || decided;
     let sampled = given.is_some();
     match given {
         Some(g) => {
@@ -131,6 +128,15 @@ pub fn lsq_result(
         && let Some(c) = fit.cov
     {
         super::spreads::gaussian_spreads(&mut out, fit, &c, shift, opts.seed);
+    }
+    // The other solutions against the class the record reports (P's, where there is one: a profile's
+    // P can call bound an arc whose least-squares minimum lies just past e = 1, and its unbound
+    // alternative then went unsaid).
+    let unbound = out
+        .p_hyperbolic
+        .map_or(out.e_bary.unwrap_or(e_bary) >= 1.0, |p| p >= 0.5);
+    if let Some(why) = alternatives_note(&out.alternatives, unbound) {
+        out.distrust_linear.push(why);
     }
     out.poor_fit = poor_fit_reasons(p, fit, e_helio, &opts.lsq);
     out.status = if out.poor_fit.is_empty() {
