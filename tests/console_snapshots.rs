@@ -356,3 +356,24 @@ fn a_bound_answer_whose_positions_allow_only_unbound_orbits_is_marked_and_explai
     );
     assert!(shown.contains("another night tests the model"), "{shown}");
 }
+
+#[test]
+fn at_80x24_the_orbit_pane_keeps_the_probability_the_evidence_and_why_a_fit_is_poor() {
+    // The orbit pane at 80×24 has room for nine lines: the probability, the evidence and why a fit
+    // is poor come before the orbit's angles (they were once cut off while Ω, ω and Tp stayed).
+    // qk9h6tx is the demo night's false linkage (no probability: no orbit fits it); qk2m4wc an
+    // answer the population model set.
+    for (object, wants) in [
+        ("qk9h6tx", ["P(unbound)", "POOR FIT", "chi2/dof"]),
+        ("qk2m4wc", ["P(unbound)", "log₁₀K", "THE MODEL'S"]),
+    ] {
+        let mut app = demo_app();
+        select(&mut app, object);
+        app.message = None;
+        let s = screen(&mut app, 80, 24);
+        check(&format!("orbit_{object}_80x24"), &s);
+        for want in wants {
+            assert!(s.contains(want), "{want} is not on the 80×24 screen:\n{s}");
+        }
+    }
+}

@@ -36,43 +36,142 @@ fn nothing_selected(app: &App) -> Vec<Line<'static>> {
     })]
 }
 
-/// The orbit pane's lines for one candidate (the compare panel shows two side by side).
+/// The orbit pane's lines for one candidate (the compare panel shows two side by side). What decides
+/// comes first (at 80×24 the pane shows nine lines): P and the odds, whether the model or the
+/// positions set them, why a fit is poor, e q i, the other solutions, the decision, the range of e
+/// (and whether the model set it); then the barycentric orbit, the fit's rms, the caveats, v∞ and
+/// the angles. Ω, ω and Tp once stayed on screen while the evidence and a poor fit's reasons fell off.
 pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'static>> {
     let f = &c.fit;
-    let mut out = Vec::new();
-    out.push(Line::from(vec![
+    let mut out = vec![Line::from(vec![
         Span::raw(format!("{}  ", clean(&f.object))),
         Span::raw(format!(
             "{} · {} · {}",
             f.method, f.probability_from, f.dynamics
         )),
-    ]));
+    ])];
     if let Some(e) = &f.error {
         out.push(Line::from(format!("failed: {}", clean(e))));
         return out;
     }
-    if let Some(el) = &f.elements {
+    out.extend(probability_lines(f));
+    out.extend(f.elements.as_ref().map(|el| {
         let s = el.sigma;
-        out.push(Line::from(format!(
+        Line::from(format!(
             "helio  q {}  e {}  i {}°",
             pm(Some(el.q_au), s.map(|s| s.q), 4),
             pm(Some(el.e), s.map(|s| s.e), 5),
             pm(Some(el.i_deg), s.map(|s| s.i), 2)
-        )));
+        ))
+    }));
+    for a in f.alternatives.iter().take(MAX_ALTERNATIVE_LINES) {
+        out.push(Line::from(alternative_line(a)));
+    }
+    out.extend(decision_line(app, c));
+    out.extend(e_range_lines(f));
+    out.extend(orbit_lines(f));
+    out.extend(super::nextnight::line(f));
+    // Last, as the least decisive: when it came and how its answer moved.
+    out.push(Line::from(c.fresh.age_line((app.now)())));
+    if c.fresh.history.len() > 1 {
+        out.push(Line::from(c.fresh.history_line(76)));
+    }
+    out
+}
+
+/// P with its error, odds and score; the evidence (and whether the model set P); why a fit is poor.
+fn probability_lines(f: &crate::fitting::result::FitResult) -> Vec<Line<'static>> {
+    let mut out = vec![Line::from(format!(
+        "P(unbound) {}±{}  log₁₀ odds {}  z {}{}",
+        num(f.p_hyperbolic, 4),
+        num(f.p_hyperbolic_error, 4),
+        num(f.log10_odds, 1),
+        num(f.z_hyperbolic, 2),
+        f.z_linear
+            .map_or(String::new(), |z| format!(" (linear {z:+.2})")),
+    ))];
+    if let Some(p) = &f.prior {
         out.push(Line::from(format!(
-            "       Ω {}°  ω {}°  Tp {}  1/a {}",
-            pm(Some(el.node_deg), s.map(|s| s.node), 2),
-            pm(Some(el.peri_deg), s.map(|s| s.peri), 2),
-            pm(Some(el.tp_jd_tdb), s.map(|s| s.tp), 2),
-            pm(Some(el.inv_a_per_au), s.map(|s| s.inv_a), 5)
+            "evidence of the positions log₁₀K {}{} · under {}",
+            num(f.log10_bayes_factor, 1),
+            if f.prior_dominated {
+                " — SET BY THE MODEL, NOT THE DATA"
+            } else {
+                ""
+            },
+            clean(p),
         )));
     }
+    if !f.poor_fit.is_empty() {
+        out.push(Line::from(Span::raw(format!(
+            "POOR FIT: {}",
+            clean(&f.poor_fit.join("; "))
+        ))));
+    }
+    out
+}
+
+/// The standing decision: verdict, time, who (when another observer), note, and whether it was made
+/// on fewer observations than are known now.
+fn decision_line(app: &App, c: &crate::console::state::Candidate) -> Option<Line<'static>> {
+    let d = c.decision.as_ref()?;
+    let fewer = if d.n_obs < c.fit.n_obs {
+        format!(" — decided on {} of {} observations", d.n_obs, c.fit.n_obs)
+    } else {
+        String::new()
+    };
+    let by = if d.observer() == app.me {
+        String::new()
+    } else {
+        format!(" by {}", clean(d.observer()))
+    };
+    Some(Line::from(format!(
+        "decision: {} at {}{by}{}{}",
+        d.verdict_label(),
+        d.time_utc,
+        d.note
+            .as_ref()
+            .map(|n| format!(" — \"{}\"", clean(n)))
+            .unwrap_or_default(),
+        fewer
+    )))
+}
+
+/// The range of e the positions alone allow (first: it says when e ± σ are the model's) and the
+/// posterior's central intervals.
+fn e_range_lines(f: &crate::fitting::result::FitResult) -> Vec<Line<'static>> {
+    let mut out = Vec::new();
+    if let Some(interval) = f.e_data_interval {
+        out.push(Line::from(data_interval_line(
+            interval,
+            f.status == crate::fitting::kinds::FitStatus::Undetermined,
+        )));
+    }
+    out.extend(posterior_interval_line(f).map(Line::from));
+    out
+}
+
+/// The rest of the orbit: barycentric elements, the fit's rms and χ², the caveats, the incoming
+/// asymptote, ranging intervals and the orientation angles.
+fn orbit_lines(f: &crate::fitting::result::FitResult) -> Vec<Line<'static>> {
+    let mut out = Vec::new();
     if let Some(b) = &f.barycentric {
         out.push(Line::from(format!(
             "bary   e {}  q {} AU  1/a {} /AU",
             pm(f.e_bary, f.e_bary_sigma, 5),
             num(Some(b.q_au), 4),
             pm(Some(b.inv_a_per_au), b.sigma.map(|s| s.inv_a), 5)
+        )));
+    }
+    out.push(Line::from(format!(
+        "fit rms {}\"  χ²/dof {}",
+        num(f.rms_arcsec, 2),
+        num(f.chi2_per_dof, 2)
+    )));
+    if !f.distrust_linear.is_empty() {
+        out.push(Line::from(format!(
+            "caveats: {}",
+            clean(&f.distrust_linear.join("; "))
         )));
     }
     if let Some(inc) = &f.incoming {
@@ -94,80 +193,15 @@ pub fn lines_for(app: &App, c: &crate::console::state::Candidate) -> Vec<Line<'s
             r.e_interval[0], r.e_interval[2], r.q_interval[0], r.q_interval[2], r.i_interval[0], r.i_interval[2], r.trials, r.v_cap_km_s
         )));
     }
-    out.push(Line::from(format!(
-        "P(unbound) {}±{}  log₁₀ odds {}  z {}{}  rms {}\"  χ²/dof {}",
-        num(f.p_hyperbolic, 4),
-        num(f.p_hyperbolic_error, 4),
-        num(f.log10_odds, 1),
-        num(f.z_hyperbolic, 2),
-        f.z_linear
-            .map_or(String::new(), |z| format!(" (linear {z:+.2})")),
-        num(f.rms_arcsec, 2),
-        num(f.chi2_per_dof, 2)
-    )));
-    if let Some(p) = &f.prior {
+    if let Some(el) = &f.elements {
+        let s = el.sigma;
         out.push(Line::from(format!(
-            "under {}; evidence of the positions log₁₀K {}{}",
-            clean(p),
-            num(f.log10_bayes_factor, 1),
-            if f.prior_dominated {
-                " — SET BY THE MODEL, NOT THE DATA"
-            } else {
-                ""
-            }
+            "       Ω {}°  ω {}°  Tp {}  1/a {}",
+            pm(Some(el.node_deg), s.map(|s| s.node), 2),
+            pm(Some(el.peri_deg), s.map(|s| s.peri), 2),
+            pm(Some(el.tp_jd_tdb), s.map(|s| s.tp), 2),
+            pm(Some(el.inv_a_per_au), s.map(|s| s.inv_a), 5)
         )));
-    }
-    if let Some(line) = posterior_interval_line(f) {
-        out.push(Line::from(line));
-    }
-    if let Some(interval) = f.e_data_interval {
-        out.push(Line::from(data_interval_line(
-            interval,
-            f.status == crate::fitting::kinds::FitStatus::Undetermined,
-        )));
-    }
-    if !f.distrust_linear.is_empty() {
-        out.push(Line::from(format!(
-            "caveats: {}",
-            clean(&f.distrust_linear.join("; "))
-        )));
-    }
-    for a in f.alternatives.iter().take(MAX_ALTERNATIVE_LINES) {
-        out.push(Line::from(alternative_line(a)));
-    }
-    if !f.poor_fit.is_empty() {
-        out.push(Line::from(Span::raw(format!(
-            "POOR FIT: {}",
-            clean(&f.poor_fit.join("; "))
-        ))));
-    }
-    out.extend(super::nextnight::line(f));
-    if let Some(d) = &c.decision {
-        let fewer = if d.n_obs < f.n_obs {
-            format!(" — decided on {} of {} observations", d.n_obs, f.n_obs)
-        } else {
-            String::new()
-        };
-        let by = if d.observer() == app.me {
-            String::new()
-        } else {
-            format!(" by {}", clean(d.observer()))
-        };
-        out.push(Line::from(format!(
-            "decision: {} at {}{by}{}{}",
-            d.verdict_label(),
-            d.time_utc,
-            d.note
-                .as_ref()
-                .map(|n| format!(" — \"{}\"", clean(n)))
-                .unwrap_or_default(),
-            fewer
-        )));
-    }
-    // Last, as the least decisive: when it came and how its answer moved.
-    out.push(Line::from(c.fresh.age_line((app.now)())));
-    if c.fresh.history.len() > 1 {
-        out.push(Line::from(c.fresh.history_line(76)));
     }
     out
 }
@@ -191,14 +225,15 @@ fn posterior_interval_line(f: &crate::fitting::result::FitResult) -> Option<Stri
 
 /// The range of e the positions alone allow, beside the posterior's e ± σ above it.
 fn data_interval_line([lo, hi]: [f64; 2], undetermined: bool) -> String {
+    // The warning first: on a narrow pane the line wraps, and its end may fall off.
     format!(
-        "positions alone: e {lo:.3}–{hi:.3} (Δχ² ≤ {}){}",
-        crate::fitting::datainterval::DATA_DCHI2,
+        "{}positions alone: e {lo:.3}–{hi:.3} (Δχ² ≤ {})",
         if undetermined {
-            " — e ± σ ARE THE MODEL'S, NOT MEASURED"
+            "e ± σ ARE THE MODEL'S, NOT MEASURED — "
         } else {
             ""
-        }
+        },
+        crate::fitting::datainterval::DATA_DCHI2,
     )
 }
 
@@ -243,7 +278,7 @@ mod tests {
     fn an_undetermined_fit_says_its_e_is_the_models() {
         assert_eq!(
             data_interval_line([0.6449, 14.0367], true),
-            "positions alone: e 0.645–14.037 (Δχ² ≤ 3.84) — e ± σ ARE THE MODEL'S, NOT MEASURED"
+            "e ± σ ARE THE MODEL'S, NOT MEASURED — positions alone: e 0.645–14.037 (Δχ² ≤ 3.84)"
         );
     }
 

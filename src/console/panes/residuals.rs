@@ -59,6 +59,15 @@ pub fn strip(
     (bars, signs, marks)
 }
 
+/// An arcsecond value in at most seven characters: two decimals below 100″, whole above.
+fn compact(x: f64) -> String {
+    match x {
+        x if x < 100.0 => format!("{x:.2}"),
+        x if x < 9_999_999.0 => format!("{x:.0}"),
+        _ => ">1e7".into(),
+    }
+}
+
 /// An angle given in arcminutes, in the unit that reads best.
 fn arcmin(x: f64) -> String {
     if x >= 60.0 {
@@ -125,11 +134,14 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
             ),
         },
     );
+    // The largest |O−C| under each label, in the label's own nine columns (after the strip, a full
+    // strip pushed it off the pane: "max 0." at 80 columns).
+    let most = |dec: bool| format!("{:>8} ", format!("{}\"", compact(max(dec))));
     let text = vec![
-        Line::from(format!("RA cosδ  {ra_b}  max {:.2}\"", max(false))),
-        Line::from(format!("         {ra_s}")),
-        Line::from(format!("Dec      {de_b}  max {:.2}\"", max(true))),
-        Line::from(format!("         {de_s}")),
+        Line::from(format!("RA cosδ  {ra_b}")),
+        Line::from(format!("{}{ra_s}", most(false))),
+        Line::from(format!("Dec      {de_b}")),
+        Line::from(format!("{}{de_s}", most(true))),
         Line::from(format!("         {marks}")),
         Line::from(sel.unwrap_or_default()),
     ];
