@@ -290,6 +290,7 @@ pub fn read_files(
 pub enum ColorChoice {
     /// Colour unless NO_COLOR is set.
     Auto,
+    /// Colour even where NO_COLOR is set (the flag wins).
     Always,
     Never,
 }
@@ -305,7 +306,12 @@ impl ColorArgs {
     pub fn theme(&self) -> interloper::console::panes::Theme {
         match self.color {
             ColorChoice::Auto => interloper::console::panes::Theme::from_env(),
-            ColorChoice::Always => interloper::console::panes::Theme { color: true },
+            ColorChoice::Always => {
+                // The terminal library drops colours itself under NO_COLOR: a flag on the command
+                // line says otherwise, and wins.
+                crossterm::style::force_color_output(true);
+                interloper::console::panes::Theme { color: true }
+            }
             ColorChoice::Never => interloper::console::panes::Theme { color: false },
         }
     }
@@ -443,5 +449,18 @@ mod tests {
         let named = expand(std::slice::from_ref(&file)).unwrap();
         assert_eq!(named.files[0].accept, Accept::AnyFile);
         std::fs::remove_dir_all(&dir).unwrap();
+    }
+
+    #[test]
+    fn color_always_overrides_a_no_color_environment() {
+        use crossterm::style::Colored;
+        // What NO_COLOR does inside the terminal library, without touching the environment.
+        Colored::set_ansi_color_disabled(true);
+        let theme = ColorArgs {
+            color: ColorChoice::Always,
+        }
+        .theme();
+        assert!(theme.color);
+        assert!(!Colored::ansi_color_disabled_memoized());
     }
 }
