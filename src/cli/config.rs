@@ -269,7 +269,8 @@ impl Config {
         }
         if let Some(a) = f.alerts {
             let at = line_of_table(text, "alerts");
-            a.check().map_err(|r| err(at, format!("[alerts] {r}")))?;
+            a.check()
+                .map_err(|(key, r)| err(line_in_table(text, at, key), format!("[alerts] {r}")))?;
             c.alerts = Setting {
                 value: a,
                 from: Source::File {
@@ -292,8 +293,11 @@ impl Config {
         });
         let path = match named {
             Some(p) => {
-                if !p.is_file() {
+                if !p.exists() {
                     crate::usage!("configuration file {} does not exist", p.display());
+                }
+                if !p.is_file() {
+                    crate::usage!("configuration file {} is not a regular file", p.display());
                 }
                 p
             }
@@ -327,6 +331,21 @@ fn line_of(text: &str, key: &str) -> usize {
                 .is_some_and(|rest| rest.trim_start().starts_with('='))
         })
         .map_or(1, |i| i + 1)
+}
+
+/// The line on which `key` is set inside the table whose header is on line `header` (the header's
+/// own line if it cannot be found).
+fn line_in_table(text: &str, header: usize, key: &str) -> usize {
+    text.lines()
+        .enumerate()
+        .skip(header)
+        .take_while(|(_, l)| !l.trim_start().starts_with('['))
+        .find(|(_, l)| {
+            l.trim_start()
+                .strip_prefix(key)
+                .is_some_and(|rest| rest.trim_start().starts_with('='))
+        })
+        .map_or(header, |(i, _)| i + 1)
 }
 
 /// The line of a `[name]` table header (1 if it cannot be found).
@@ -420,6 +439,12 @@ mod tests {
         );
         let e = parse("[alerts]\nmin_probability = 2\n").unwrap_err();
         assert!(e.reason.contains("min_probability 2"), "{e}");
+        // The line of the key itself, not the table's header (it once said line 1).
+        assert_eq!(e.line, 2, "{e}");
+        let e = parse("threads = 1\n[alerts]\nbell = true\nmin_nights = 0\n").unwrap_err();
+        assert_eq!(e.line, 4, "{e}");
+        let e = parse("[alerts]\nmin_probability = 0\n").unwrap_err();
+        assert!(e.reason.contains("must be above 0"), "{e}");
         let e = parse("[alerts]\nbeep = true\n").unwrap_err();
         assert_eq!(e.line, 2, "{e}");
         assert!(e.reason.contains("unknown field `beep`"), "{e}");

@@ -44,22 +44,25 @@ impl Default for AlertRules {
 }
 
 impl AlertRules {
-    /// The ranges every rule value must be in, as a reason when one is not.
-    pub fn check(&self) -> Result<(), String> {
+    /// The ranges every rule value must be in: where one is not, its key and the reason.
+    pub fn check(&self) -> Result<(), (&'static str, String)> {
         if !(self.min_probability > 0.0 && self.min_probability < 1.0) {
-            return Err(format!(
-                "min_probability {} is not between 0 and 1",
-                self.min_probability
+            return Err((
+                "min_probability",
+                format!(
+                    "min_probability {} must be above 0 and below 1",
+                    self.min_probability
+                ),
             ));
         }
         if !(1..=100).contains(&self.min_nights) {
-            return Err(format!(
-                "min_nights {} is not between 1 and 100",
-                self.min_nights
+            return Err((
+                "min_nights",
+                format!("min_nights {} is not between 1 and 100", self.min_nights),
             ));
         }
         if self.command.as_deref().is_some_and(|c| c.trim().is_empty()) {
-            return Err("command is empty".into());
+            return Err(("command", "command is empty".into()));
         }
         Ok(())
     }
@@ -281,7 +284,7 @@ mod tests {
             min_probability: 1.5,
             ..AlertRules::default()
         };
-        assert!(bad.check().unwrap_err().contains("min_probability"));
+        assert_eq!(bad.check().unwrap_err().0, "min_probability");
         let bad = AlertRules {
             command: Some("  ".into()),
             ..AlertRules::default()
