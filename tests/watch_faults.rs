@@ -253,3 +253,28 @@ fn a_non_utf8_name_is_read_and_broken_links_are_reported_once() {
     names.sort();
     assert_eq!(names, ["dangling.psv", "loop.psv"]);
 }
+
+#[test]
+fn a_named_state_directory_that_is_not_there_is_said_not_silently_skipped() {
+    // Headless runs never create the state directory; one the user named that is missing once left
+    // no journal followed and no log, without a word.
+    let dir = std::env::temp_dir().join(format!("il-headless-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let missing = dir.join("no-such-state");
+    let (code, _, err) = util::run_bin(&[
+        "watch",
+        "--headless",
+        "--stop-after-idle",
+        "0.3",
+        "--state",
+        missing.to_str().unwrap(),
+        dir.to_str().unwrap(),
+    ]);
+    assert_eq!(code, Some(0), "{err}");
+    assert!(err.contains("is not a directory"), "{err}");
+    assert!(
+        !missing.exists(),
+        "a headless run creates no state directory"
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}

@@ -196,6 +196,16 @@ fn run_headless(
     ) {
         eprintln!("watch: {w}");
     }
+    // A state directory the user named (with --state or in the configuration) that is not there is
+    // said once: no journal is followed and no log written (headless runs never create it).
+    let named = args.state.is_some()
+        || super::config::get().state_dir.from != super::config::Source::Default;
+    if named && !state.is_dir() {
+        tracing::warn!(
+            "watch: state directory {} is not a directory: no observers' journal is followed and no log is written there",
+            interloper::feed::sanitize::clean(&state.display().to_string())
+        );
+    }
     let journal = Journal::follow(&state).unwrap_or_else(|e| {
         tracing::warn!("watch: cannot read the journal in {}: {e}", state.display());
         None
