@@ -221,3 +221,20 @@ fn negative_numbers_are_values_not_options() {
         assert!(!err.contains("unexpected argument"), "{args:?}: {err}");
     }
 }
+
+#[test]
+fn the_console_without_a_terminal_is_a_usage_error_whose_hint_runs() {
+    // Output is not a terminal here. The demo's hint names the demo (it once named its replay
+    // folder, removed a moment later).
+    let (code, err) = run(&["demo", "--speed", "1000"]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("`interloper demo --headless`"), "{err}");
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path().to_str().unwrap();
+    let (code, err) = run(&["watch", d]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(
+        err.contains(&format!("`interloper watch --headless {d}`")),
+        "{err}"
+    );
+}

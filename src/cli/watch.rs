@@ -53,6 +53,9 @@ pub struct WatchArgs {
     /// The directory to watch (it is only read).
     #[arg(value_name = "DIR")]
     pub dir: PathBuf,
+    /// Run for `demo` (its replay folder is removed when it ends: a hint names `demo`, not it).
+    #[arg(skip)]
+    pub for_demo: bool,
 }
 
 impl WatchArgs {
@@ -80,6 +83,7 @@ impl WatchArgs {
             keymap: demo.keymap.clone(),
             observer: demo.observer.clone(),
             dir,
+            for_demo: true,
         }
     }
 }
@@ -98,10 +102,14 @@ pub fn run_with(args: &WatchArgs, stop: Arc<AtomicBool>) -> anyhow::Result<i32> 
     if !args.headless {
         use std::io::IsTerminal;
         if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
+            let instead = if args.for_demo {
+                "interloper demo --headless".to_string()
+            } else {
+                format!("interloper watch --headless {}", args.dir.display())
+            };
             eprintln!(
                 "error: the console needs a terminal (standard input and output); for scripts and \
-                 pipelines use `interloper watch --headless {}`",
-                args.dir.display()
+                 pipelines use `{instead}`"
             );
             return Ok(2);
         }
