@@ -84,6 +84,8 @@ fn an_object_that_matches_nothing_is_a_usage_error() {
     let (code, err) = run(&a);
     assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("NOPE"), "{err}");
+    // The demo night's eleven ids: ten named, and the cut said (one once went missing silently).
+    assert!(err.contains("and 1 more"), "{err}");
 }
 
 #[test]

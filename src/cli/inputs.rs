@@ -354,11 +354,17 @@ pub fn keep_objects(
     if objects.is_empty() {
         return Ok(());
     }
-    let known: Vec<String> = tracklets
+    const SHOWN: usize = 10;
+    let total = tracklets.len();
+    let mut known: Vec<String> = tracklets
         .iter()
-        .take(10)
+        .take(SHOWN)
         .map(|t| interloper::feed::sanitize::clean(&t.object))
         .collect();
+    // The list is cut, and says so (an eleventh id once went missing without a word).
+    if total > SHOWN {
+        known.push(format!("and {} more", total - SHOWN));
+    }
     tracklets.retain(|t| objects.contains(&t.object));
     if tracklets.is_empty() {
         let asked: Vec<String> = objects
