@@ -240,3 +240,16 @@ fn the_console_without_a_terminal_is_a_usage_error_whose_hint_runs() {
         "{err}"
     );
 }
+
+#[test]
+fn a_site_code_table_with_no_site_in_it_is_a_usage_error() {
+    // A wrong file named as the site-code table once ran on without a word.
+    let dir = tempfile::tempdir().unwrap();
+    let codes = dir.path().join("codes.txt");
+    std::fs::write(&codes, "garbage\nmore garbage here and there\n").unwrap();
+    let one = format!("{}/003_qka2e7f_n1.psv", feed());
+    let (code, err) = run(&["fit", "--site-codes", codes.to_str().unwrap(), &one]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("no site could be read"), "{err}");
+    assert!(err.contains("line 2"), "{err}");
+}

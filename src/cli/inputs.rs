@@ -37,7 +37,26 @@ impl SiteArgs {
         let sites = self.sites.as_ref().or(cfg.sites.value.as_ref());
         if let Some(p) = site_codes {
             let text = read_side_file(p)?;
-            let (_, bad) = t.load_site_codes(&p.display().to_string(), &text);
+            let (n, bad) = t.load_site_codes(&p.display().to_string(), &text);
+            // A table with no site in it is not a site-code table (a wrong file named, or every
+            // line broken): refused, as an invalid site table is. A few bad lines are said.
+            if n == 0 {
+                let why = bad
+                    .iter()
+                    .take(3)
+                    .map(|b| b.to_string())
+                    .collect::<Vec<_>>()
+                    .join("; ");
+                anyhow::bail!(
+                    "{}: no site could be read (code, longitude, rho cos phi, rho sin phi, name){}",
+                    p.display(),
+                    if why.is_empty() {
+                        String::new()
+                    } else {
+                        format!(": {why}")
+                    }
+                );
+            }
             for b in bad {
                 eprintln!("warning: {b}");
             }
