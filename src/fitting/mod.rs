@@ -19,6 +19,7 @@ pub mod lsq;
 pub mod lsqrecord;
 pub mod lsqstep;
 pub mod nextnight;
+pub mod nightpoly;
 pub mod obsid;
 pub mod onenight;
 pub mod origin;

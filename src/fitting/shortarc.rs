@@ -18,7 +18,7 @@ use crate::physics::frames::unit_from_radec;
 use crate::physics::observe::ObserverState;
 use crate::physics::time::Jd2;
 use crate::physics::{S6, V3};
-use nalgebra::{Matrix2, Matrix3, Vector3};
+use nalgebra::Matrix2;
 
 const MU_BARY: f64 = MU_SUN * MU_BARY_OVER_SUN;
 
@@ -66,6 +66,8 @@ pub struct Attributable {
     /// Second derivatives of the tangent-plane coordinates (rad/day²) and their one-sigma, when the
     /// night has enough positions to measure them.
     pub curvature: Option<([f64; 2], [f64; 2])>,
+    /// Correlation of the two curvature components' errors (from the positions' own correlation).
+    pub curvature_corr: f64,
     /// χ² of the polynomial fit and its degrees of freedom (a failed fit hints at a false linkage).
     pub chi2: f64,
     pub dof: usize,
@@ -79,40 +81,6 @@ pub fn tangent_axes(u: &V3) -> (V3, V3) {
         V3::x()
     };
     (e_a, u.cross(&e_a))
-}
-
-/// Weighted polynomial fit (degree 1 or 2) of one coordinate: coefficients, their covariance, χ².
-fn poly_fit(
-    t: &[f64],
-    x: &[f64],
-    var: &[f64],
-    degree: usize,
-) -> Option<([f64; 3], Matrix3<f64>, f64)> {
-    let m = degree + 1;
-    let mut n = Matrix3::<f64>::zeros();
-    let mut b = Vector3::<f64>::zeros();
-    for ((ti, xi), vi) in t.iter().zip(x).zip(var) {
-        let basis = [1.0, *ti, ti * ti];
-        for r in 0..m {
-            b[r] += basis[r] * xi / vi;
-            for c in 0..m {
-                n[(r, c)] += basis[r] * basis[c] / vi;
-            }
-        }
-    }
-    if m == 2 {
-        n[(2, 2)] = 1.0;
-    }
-    let inv = n.try_inverse()?;
-    let c = inv * b;
-    let coef = [c[0], c[1], if m == 3 { c[2] } else { 0.0 }];
-    let chi2 = t
-        .iter()
-        .zip(x)
-        .zip(var)
-        .map(|((ti, xi), vi)| (xi - coef[0] - coef[1] * ti - coef[2] * ti * ti).powi(2) / vi)
-        .sum();
-    Some((coef, inv, chi2))
 }
 
 /// The attributable of one night's positions, weighted by their covariances.
@@ -133,35 +101,35 @@ pub fn attributable(tr: &Tracklet, cov: &[Matrix2<f64>]) -> Option<Attributable>
     let t: Vec<f64> = tr.obs.iter().map(|o| o.time.tdb.minus(t0)).collect();
     let gx: Vec<f64> = dirs.iter().map(|d| d.dot(&e_a0) / d.dot(&u0)).collect();
     let gy: Vec<f64> = dirs.iter().map(|d| d.dot(&e_d0) / d.dot(&u0)).collect();
-    let vx: Vec<f64> = cov.iter().map(|c| c[(0, 0)]).collect();
-    let vy: Vec<f64> = cov.iter().map(|c| c[(1, 1)]).collect();
     let degree = if n >= 4 { 2 } else { 1 };
-    let (cx, px, chx) = poly_fit(&t, &gx, &vx, degree)?;
-    let (cy, py, chy) = poly_fit(&t, &gy, &vy, degree)?;
+    // Both coordinates at once, each position weighted by its full covariance (a correlation
+    // between its RA and Dec errors was once dropped here).
+    let fit = super::nightpoly::fit(&t, &gx, &gy, cov, degree)?;
+    let (cx, cy) = (fit.x, fit.y);
     let u = (u0 + cx[0] * e_a0 + cy[0] * e_d0).normalize();
     let raw = cx[1] * e_a0 + cy[1] * e_d0;
     let udot = raw - u * u.dot(&raw);
     let (e_a, e_d) = tangent_axes(&u);
     let curvature = (degree == 2).then(|| {
-        (
-            [2.0 * cx[2], 2.0 * cy[2]],
-            [2.0 * px[(2, 2)].sqrt(), 2.0 * py[(2, 2)].sqrt()],
-        )
+        let [sx, sy] = fit.sigma(2);
+        ([2.0 * cx[2], 2.0 * cy[2]], [2.0 * sx, 2.0 * sy])
     });
+    let ([s0x, s0y], [s1x, s1y]) = (fit.sigma(0), fit.sigma(1));
     Some(Attributable {
         t0,
         u,
         udot,
         e_a,
         e_d,
-        sigma: [
-            px[(0, 0)].sqrt(),
-            py[(0, 0)].sqrt(),
-            px[(1, 1)].sqrt(),
-            py[(1, 1)].sqrt(),
-        ],
+        sigma: [s0x, s0y, s1x, s1y],
         curvature,
-        chi2: chx + chy,
+        curvature_corr: if degree == 2 {
+            let [sx, sy] = fit.sigma(2);
+            (fit.cov[(2, 5)] / (sx * sy)).clamp(-0.999, 0.999)
+        } else {
+            0.0
+        },
+        chi2: fit.chi2,
         dof: (2 * n).saturating_sub(2 * (degree + 1)),
     })
 }
@@ -362,5 +330,7 @@ fn curvature_chi2(att: &Attributable, g: &Geometry, r_h: &V3, rho: f64, rhodot: 
     let perp = acc - att.u * att.u.dot(&acc);
     let uddot = (perp - 2.0 * rhodot * att.udot) / rho;
     let kp = [uddot.dot(&att.e_a), uddot.dot(&att.e_d)];
-    ((k_obs[0] - kp[0]) / k_sig[0]).powi(2) + ((k_obs[1] - kp[1]) / k_sig[1]).powi(2)
+    let (dx, dy) = ((k_obs[0] - kp[0]) / k_sig[0], (k_obs[1] - kp[1]) / k_sig[1]);
+    let r = att.curvature_corr;
+    (dx * dx - 2.0 * r * dx * dy + dy * dy) / (1.0 - r * r)
 }
