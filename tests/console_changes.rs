@@ -106,3 +106,17 @@ fn the_cursor_starts_on_the_top_row_and_follows_its_candidate_once_moved() {
     app.on_fit(1, fit_of(&["002_qk8w3bs_n1.psv"]), 4);
     assert_eq!(app.selected.as_deref(), Some("qk0f3ra"));
 }
+
+#[test]
+fn the_row_the_cursor_starts_on_is_seen_once_the_observer_moves_off_it() {
+    // The cursor starts on the top row; moving down once left that row marked new.
+    let mut app = App::new(Keymap::builtin());
+    app.on_fit(1, fit_of(&["003_qka2e7f_n1.psv"]), 5);
+    app.on_fit(1, fit_of(&["001_qk0f3ra_n1.psv"]), 4);
+    let top = app.candidates[app.view[0]].fit.object.clone();
+    assert_eq!(app.selected.as_deref(), Some(top.as_str()));
+    assert_eq!(mark(&app, &top), Mark::New, "nobody has pressed a key yet");
+    app.on_key(KeyEvent::new(KeyCode::Char('j'), KeyModifiers::NONE));
+    assert_ne!(app.selected.as_deref(), Some(top.as_str()));
+    assert_eq!(mark(&app, &top), Mark::Seen);
+}

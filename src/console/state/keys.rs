@@ -53,11 +53,20 @@ impl App {
                 }
             };
         }
+        // The row the cursor was on when the key came has been seen (the top row, where the cursor
+        // starts, once kept its mark after the observer moved off it), and so has the one it is on
+        // after.
+        self.visit_selected();
         let fx = match action {
             Some(a) => self.act(a),
             None => Vec::new(),
         };
-        // The row under the cursor has been seen as it is now.
+        self.visit_selected();
+        fx
+    }
+
+    /// In the list, the row under the cursor has been seen as it is now.
+    fn visit_selected(&mut self) {
         if self.mode == Mode::List
             && let Some(i) = self
                 .selected
@@ -67,7 +76,6 @@ impl App {
         {
             self.candidates[i].fresh.visit();
         }
-        fx
     }
 
     /// First press marks the selected candidate; a press on another opens the two side by side.
