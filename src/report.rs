@@ -26,6 +26,28 @@ pub fn odds_text(r: &FitResult) -> String {
     }
 }
 
+/// An object id cut to `width` characters, where it must be, in the middle: ids that differ only at
+/// their end (`hyp_strong_10n`, `hyp_strong_1n`) stay apart (cut at the end, both read
+/// `hyp_strong_1`).
+pub fn id_within(id: &str, width: usize) -> String {
+    let chars: Vec<char> = id.chars().collect();
+    if chars.len() <= width {
+        return id.to_string();
+    }
+    if width < 3 {
+        return chars.iter().take(width).collect();
+    }
+    let tail = (width - 1) / 2;
+    let head = width - 1 - tail;
+    let mut out: String = chars[..head].iter().collect();
+    out.push('…');
+    out.extend(&chars[chars.len() - tail..]);
+    out
+}
+
+/// Width of the text table's id column.
+const ID_WIDTH: usize = 14;
+
 /// The ranked table printed by `fit` without `--json`.
 pub fn ranked_table(results: &[FitResult]) -> String {
     let mut s = String::new();
@@ -63,7 +85,7 @@ pub fn ranked_table(results: &[FitResult]) -> String {
         s.push_str(&format!(
             "{:>4} {:<14} {:>6} {:>7} {:>10} {:>8} {:>8} {:>6} {:>6} {:>7} {:>6} {:<13} {:<12} {}\n",
             k + 1,
-            clean(&r.object).chars().take(14).collect::<String>(),
+            id_within(&clean(&r.object), ID_WIDTH),
             odds_text(r),
             opt(r.p_hyperbolic, 3),
             opt(r.e, 5),
@@ -83,4 +105,23 @@ pub fn ranked_table(results: &[FitResult]) -> String {
          probability. A high value is a reason for follow-up, not a discovery.\n",
     );
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::id_within;
+
+    #[test]
+    fn ids_cut_to_their_column_stay_apart_where_they_differ_at_the_end() {
+        assert_eq!(id_within("qka2e7f", 14), "qka2e7f");
+        let (a, b) = (
+            id_within("hyp_strong_10n", 12),
+            id_within("hyp_strong_1n", 12),
+        );
+        assert_eq!(a.chars().count(), 12);
+        assert_eq!(b.chars().count(), 12);
+        assert_ne!(a, b);
+        assert_eq!(a, "hyp_st…g_10n");
+        assert_eq!(id_within("abcdef", 2), "ab");
+    }
 }

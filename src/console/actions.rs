@@ -153,7 +153,7 @@ impl Action {
             Action::ForcePerturbations => {
                 "refit with planetary perturbations (or back to automatic)"
             }
-            Action::Ephemeris => "follow-up ephemeris for the next 24 hours",
+            Action::Ephemeris => "follow-up ephemeris over the next dark window at the chosen site",
             Action::Plan => "follow-up plan for the next 24 hours at the sites of the feed",
             Action::Origin => {
                 "where an unbound candidate comes from: original orbit, arrival, Galactic orbit"

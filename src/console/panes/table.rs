@@ -140,7 +140,14 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 _ => "-".into(),
             };
             let mut cells = vec![
-                Cell::from(format!("{}{}", c.fresh.mark().symbol(), clean(&fit.object))),
+                Cell::from(format!(
+                    "{}{}",
+                    c.fresh.mark().symbol(),
+                    crate::report::id_within(
+                        &clean(&fit.object),
+                        usize::from(object_w).saturating_sub(1)
+                    )
+                )),
                 Cell::from(score_text(c)).style(if strong(fit) {
                     theme.fg(Color::Yellow).patch(theme.strong())
                 } else {
