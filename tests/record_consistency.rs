@@ -102,3 +102,23 @@ fn three_night_records_keep_p_its_score_and_its_odds_one_quantity_and_say_why_th
 fn two_night_records_keep_p_its_score_and_its_odds_one_quantity() {
     check("two_night.psv");
 }
+
+#[test]
+fn a_fit_no_orbit_explains_shows_no_incoming_asymptote() {
+    // The demo night's false linkage (χ²/dof ~ 3 × 10⁸): its "v∞" once read 277,000 km/s.
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let sites = SiteTable::builtin();
+    let mut tracklets = Vec::new();
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        let name = path.file_name().unwrap().to_string_lossy().into_owned();
+        if name.contains("qk9h6tx") {
+            let bytes = std::fs::read(&path).unwrap();
+            tracklets.extend(read_bytes(&name, &bytes, &sites, &Limits::default()).tracklets);
+        }
+    }
+    let opts = FitOptions::default();
+    let r = fit_all(merge(tracklets), &opts, 1).remove(0);
+    assert!(r.p_hyperbolic.is_none(), "{:?}", r.p_hyperbolic);
+    assert!(r.incoming.is_none(), "{:?}", r.incoming);
+}

@@ -257,6 +257,8 @@ pub(super) fn withhold_probability(out: &mut FitResult) {
     out.log10_bayes_factor = None;
     out.z_is_bound = false;
     out.e_data_interval = None;
+    // Nor an incoming asymptote: a "v∞" of 0.9 c once stood beside a false linkage.
+    out.incoming = None;
     out.probability_from = ProbabilitySource::NoProbability;
     out.poor_fit
         .push("no probability: no orbit fits these positions".into());
