@@ -377,3 +377,16 @@ fn at_80x24_the_orbit_pane_keeps_the_probability_the_evidence_and_why_a_fit_is_p
         }
     }
 }
+
+#[test]
+fn the_observations_column_counts_every_known_position_also_the_excluded_ones() {
+    // A position the observer excluded is refitted away; the total stayed the fit's own count and
+    // shrank with every exclusion (11/12 became 10/11).
+    let mut app = demo_app();
+    let i = app.view[0];
+    let (used, n) = (app.candidates[i].fit.n_used, app.candidates[i].fit.n_obs);
+    app.candidates[i].n_known = n + 1;
+    app.message = None;
+    let s = screen(&mut app, 100, 30);
+    assert!(s.contains(&format!("{used}/{}", n + 1)), "{s}");
+}

@@ -18,7 +18,9 @@ pub fn status_text(app: &App, width: usize) -> String {
         ("waiting", "wait", s.waiting),
         ("fitting", "fit", s.fitting),
         ("failed", "fail", s.failed),
-        ("rejected", "rej", app.rejected.len()),
+        // Files with refused input, as headless watch counts them (one file of two bad lines once
+        // counted 2 here and 1 there); the overlay lists every reason.
+        ("rejected", "rej", rejected_files(app)),
     ];
     let join = |long: bool| {
         counts
@@ -35,6 +37,15 @@ pub fn status_text(app: &App, width: usize) -> String {
         format!(" {} {last}", join(false).replace(" · ", " ")),
     ];
     fit_or_cut(&forms, width)
+}
+
+/// How many distinct files the refused input came from.
+fn rejected_files(app: &App) -> usize {
+    app.rejected
+        .iter()
+        .map(|e| e.file.as_str())
+        .collect::<std::collections::HashSet<_>>()
+        .len()
 }
 
 /// The first form that fits `width` cells, else the last one cut with an ellipsis.

@@ -168,7 +168,13 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
                 cells.push(Cell::from(num(fit.q_au, 2)));
                 cells.push(Cell::from(format!("{:.1}", fit.arc_days)));
             }
-            cells.push(Cell::from(format!("{}/{}", fit.n_used, fit.n_obs)));
+            // Used of all known: positions the observer excluded count in the total (it once
+            // shrank with every exclusion).
+            cells.push(Cell::from(format!(
+                "{}/{}",
+                fit.n_used,
+                fit.n_obs.max(c.n_known)
+            )));
             if wide {
                 cells.push(Cell::from(num(fit.rms_arcsec, 2)));
                 cells.push(Cell::from(match fit.method {
