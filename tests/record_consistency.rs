@@ -122,3 +122,20 @@ fn a_fit_no_orbit_explains_shows_no_incoming_asymptote() {
     assert!(r.p_hyperbolic.is_none(), "{:?}", r.p_hyperbolic);
     assert!(r.incoming.is_none(), "{:?}", r.incoming);
 }
+
+#[test]
+fn a_record_says_when_its_times_lie_past_the_leap_second_table() {
+    // The table is known through 2026-06-30 (src/physics/calendar.rs). The population sky spans
+    // February 2026 to December 2027: the flag follows each arc's own dates.
+    let sky = fit_sky("two_night.psv");
+    let past = sky.iter().filter(|r| r.times_past_leap_table).count();
+    assert!(past > 0 && past < sky.len(), "{past} of {}", sky.len());
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let name = "003_qka2e7f_n1.psv";
+    let bytes = std::fs::read(dir.join(name)).unwrap();
+    let t = read_bytes(name, &bytes, &SiteTable::builtin(), &Limits::default()).tracklets;
+    let r = fit_all(merge(t), &FitOptions::default(), 1).remove(0);
+    assert!(r.times_past_leap_table);
+    let json = serde_json::to_value(&r).unwrap();
+    assert_eq!(json["times_past_leap_table"], serde_json::json!(true));
+}

@@ -145,6 +145,9 @@ pub struct FitResult {
     /// Absolute magnitude (H–G, G = 0.15) from the tracklet's magnitudes on the fitted orbit (median of
     /// the per-position values; None without magnitudes): what every ephemeris predicts V from.
     pub h_mag: Option<f64>,
+    /// Some position lies past the end of the leap-second table: its UTC was converted with the last
+    /// known offset (a leap second announced since would move it by 1 s).
+    pub times_past_leap_table: bool,
     pub q_au: Option<f64>,
     pub q_sigma: Option<f64>,
     pub i_deg: Option<f64>,
@@ -255,6 +258,10 @@ impl FitResult {
             v_mag: None,
             v_mag_assumed: false,
             h_mag: None,
+            times_past_leap_table: tr
+                .obs
+                .iter()
+                .any(|o| o.time.status == crate::physics::time::TableStatus::Extrapolated),
             q_au: None,
             q_sigma: None,
             i_deg: None,
