@@ -205,7 +205,14 @@ pub fn merge(tracklets: Vec<Tracklet>) -> Vec<Tracklet> {
         .collect()
 }
 
-/// Same time, place and position: the same observation reported twice.
+/// Two reports of one observation in different precisions (an 80-column record keeps the time to
+/// 10⁻⁵ or 10⁻⁶ day and RA to a millisecond of time): the same site, times within this (days)…
+const SAME_TIME_DAYS: f64 = 1.0e-5;
+/// …and positions within this (arcsec). Common practice, no source: the formats' rounding is well
+/// inside both, and two real exposures from one site are never this close in both.
+const SAME_PLACE_ARCSEC: f64 = 0.3;
+
+/// Same time, place and position: the same observation reported twice (also in two formats).
 pub fn dedupe(obs: Vec<Observation>) -> Vec<Observation> {
     // One identity decides "the same observation" here as everywhere (store, residuals, journal):
     // sorted by it, the list is in time order and a repeat sits next to its first report.
@@ -215,7 +222,26 @@ pub fn dedupe(obs: Vec<Observation>) -> Vec<Observation> {
         .collect();
     keyed.sort_by(|a, b| a.0.cmp(&b.0));
     keyed.dedup_by(|a, b| a.0 == b.0);
-    keyed.into_iter().map(|(_, o)| o).collect()
+    // The same observation in another precision: the first in identity order stands (whatever order
+    // the files came in), so exclusions keep naming it. A night once counted twice this way.
+    let mut kept: Vec<Observation> = Vec::with_capacity(keyed.len());
+    for (_, o) in keyed {
+        let repeat = kept
+            .iter()
+            .rev()
+            .take_while(|k| o.time.tt.minus(k.time.tt).abs() <= SAME_TIME_DAYS)
+            .any(|k| k.site_code == o.site_code && separation_arcsec(k, &o) <= SAME_PLACE_ARCSEC);
+        if !repeat {
+            kept.push(o);
+        }
+    }
+    kept
+}
+
+fn separation_arcsec(a: &Observation, b: &Observation) -> f64 {
+    use crate::physics::frames::unit_from_radec;
+    unit_from_radec(a.ra, a.dec).angle(&unit_from_radec(b.ra, b.dec))
+        / crate::physics::constants::ARCSEC
 }
 
 fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observation, InputError> {
@@ -351,6 +377,39 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn one_observation_reported_in_two_precisions_is_kept_once() {
+        use crate::physics::time::UtcTime;
+        let at = |s: &str| UtcTime::parse(s).unwrap().instant().unwrap();
+        let fine = crate::testutil::observation(
+            at("2027-02-24T03:08:38.816Z"),
+            136.671_939_3,
+            -60.445_191_9,
+        );
+        // The same exposure as an 80-column record keeps: the time to 10⁻⁵ day, RA to 1 ms of time.
+        let coarse =
+            crate::testutil::observation(at("2027-02-24T03:08:38.400Z"), 136.671_946, -60.445_19);
+        let mut elsewhere = coarse.clone();
+        elsewhere.site_code = "TV2".into();
+        let later = crate::testutil::observation(
+            at("2027-02-24T03:08:40.000Z"),
+            136.671_939_3,
+            -60.445_191_9,
+        );
+        let moved =
+            crate::testutil::observation(at("2027-02-24T03:08:38.600Z"), 136.672_5, -60.445_191_9);
+        let kept = dedupe(vec![coarse.clone(), fine.clone()]);
+        assert_eq!(kept.len(), 1);
+        // Whatever order the reports came in, the same one stands.
+        let again = dedupe(vec![fine, coarse]);
+        assert_eq!(again.len(), 1);
+        assert_eq!(kept[0].time.tt, again[0].time.tt);
+        // Another site, a second later, or 1″ away: another observation.
+        for other in [elsewhere, later, moved] {
+            assert_eq!(dedupe(vec![kept[0].clone(), other]).len(), 2);
+        }
+    }
 
     const A: &str = "trkSub|stn|obsTime|ra|dec\nqk0f3ra|TV1|2027-02-26T03:00:00Z|120.5|10.25\nqk0f3ra|TV1|2027-02-26T03:30:00Z|120.51|10.26\n";
     /// The second position again (from a partner's file), and one at the same time from another site.
