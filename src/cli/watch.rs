@@ -238,7 +238,10 @@ fn run_headless(
             closed: false,
             w: std::io::BufWriter::new(std::io::stdout()),
         },
-        alerts: super::watch_alerts::HeadlessAlerts::new(super::config::get().alerts.value.clone()),
+        alerts: super::watch_alerts::HeadlessAlerts::new(
+            super::config::get().alerts.value.clone(),
+            Some(state.as_path()),
+        ),
         results,
     };
     let feed = Feed {

@@ -3,18 +3,27 @@
 //! without a screen. Quiet (from the configuration) keeps the lines and drops the command.
 
 use interloper::console::alerting::Alerts;
+use interloper::feed::alertlog::AlertLog;
 use interloper::feed::alerts::{AlertRules, alert_json, spawn_command};
 use interloper::fitting::fit::FitResult;
 
 pub struct HeadlessAlerts {
     alerts: Alerts,
+    /// The alerts raised before, in the state directory when there is one.
+    log: AlertLog,
     commands: Vec<std::thread::JoinHandle<()>>,
 }
 
 impl HeadlessAlerts {
-    pub fn new(rules: AlertRules) -> HeadlessAlerts {
+    /// Under `rules`, remembering the alerts raised before in `state_dir` (if it is there): a
+    /// restarted pipeline does not page again for what it paged for already.
+    pub fn new(rules: AlertRules, state_dir: Option<&std::path::Path>) -> HeadlessAlerts {
+        let log = AlertLog::open(state_dir);
+        let mut alerts = Alerts::new(rules);
+        alerts.earlier = log.fired().clone();
         HeadlessAlerts {
-            alerts: Alerts::new(rules),
+            alerts,
+            log,
             commands: Vec::new(),
         }
     }
@@ -23,6 +32,7 @@ impl HeadlessAlerts {
     pub fn on_fit(&mut self, fit: &FitResult) -> Option<(serde_json::Value, String)> {
         let (alert, fx) = self.alerts.on_fit(fit)?;
         tracing::warn!("ALERT {}", alert.text);
+        self.log.record(&alert);
         if let Some(cmd) = fx.command {
             self.commands
                 .push(spawn_command(cmd, alert_json(fit, &alert)));

@@ -2,9 +2,9 @@
 //! once when it starts to hold, keeps the night's alerts for their overlay, and says what an alert
 //! should do (bell, flash, command) unless the observer has asked for quiet.
 
-use crate::feed::alerts::{Alert, AlertRules, Summary, check};
+use crate::feed::alerts::{Alert, AlertKind, AlertRules, Summary, check};
 use crate::fitting::fit::FitResult;
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 use std::time::{Duration, Instant, SystemTime};
 
 /// How long the status line stays flashed after an alert.
@@ -28,6 +28,9 @@ pub struct Alerts {
     pub list: Vec<Alert>,
     /// What each object's previous fit said (only what the rules read).
     previous: HashMap<String, Summary>,
+    /// Alerts raised before this run (the state directory's record): an object's first fit of the
+    /// run does not raise them again.
+    pub earlier: HashSet<(String, AlertKind)>,
     /// The status line is flashed until then.
     flash_until: Option<Instant>,
 }
@@ -39,6 +42,7 @@ impl Alerts {
             rules,
             list: Vec::new(),
             previous: HashMap::new(),
+            earlier: HashSet::new(),
             flash_until: None,
         }
     }
@@ -47,8 +51,12 @@ impl Alerts {
     pub fn on_fit(&mut self, fit: &FitResult) -> Option<(Alert, AlertEffects)> {
         let prev = self.previous.get(&fit.object);
         let alert = check(prev, fit, &self.rules);
+        let first = prev.is_none();
         self.previous.insert(fit.object.clone(), Summary::of(fit));
         let alert = alert?;
+        if first && self.earlier.contains(&(alert.object.clone(), alert.kind)) {
+            return None;
+        }
         self.list.push(alert.clone());
         let loud = !self.quiet;
         let effects = AlertEffects {
@@ -123,6 +131,17 @@ mod tests {
 
     fn fit(p: f64) -> FitResult {
         crate::testutil::record("qka2e7f", p, 3)
+    }
+
+    #[test]
+    fn an_alert_raised_before_this_run_is_not_raised_again_by_the_first_fit() {
+        let mut a = Alerts::new(AlertRules::default());
+        a.earlier
+            .insert(("qka2e7f".into(), crate::feed::alerts::AlertKind::Strong));
+        assert!(a.on_fit(&fit(0.97)).is_none());
+        // Within the run a rule that stops holding and holds again alerts as before.
+        assert!(a.on_fit(&fit(0.2)).is_none());
+        assert!(a.on_fit(&fit(0.97)).is_some());
     }
 
     #[test]

@@ -60,6 +60,8 @@ pub struct Runtime {
     bell: Option<Box<dyn Fn() + Send>>,
     /// Where exports are written.
     state_dir: PathBuf,
+    /// The alerts raised before, in the state directory (a restart does not raise them again).
+    alert_log: crate::feed::alertlog::AlertLog,
 }
 
 /// What a console runtime watches, where it keeps its state, and as whom and under which population it
@@ -138,6 +140,7 @@ pub fn start(
             journal_thread,
             sites,
             bell: None,
+            alert_log: crate::feed::alertlog::AlertLog::open(Some(&export_dir)),
             state_dir: export_dir,
         },
         replay.entries,
@@ -163,6 +166,7 @@ impl Runtime {
             return;
         };
         tracing::warn!("ALERT {}", alert.text);
+        self.alert_log.record(&alert);
         app.message = Some(format!("ALERT {} (! lists alerts)", alert.text));
         if fx.bell
             && let Some(b) = &self.bell
@@ -240,6 +244,7 @@ impl Runtime {
     /// is applied to each candidate as it appears.
     pub fn replayed(&mut self, app: &mut App, entries: Vec<Entry>) {
         self.apply_lines(app, &entries);
+        app.alerts.earlier = self.alert_log.fired().clone();
     }
 
     /// Journal lines take effect: on the screen, and in how the engine fits each object they touch

@@ -69,7 +69,7 @@ impl AlertRules {
 }
 
 /// Which rule fired.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum AlertKind {
     /// P(unbound) crossed the configured line on a usable, data-decided fit.
     Strong,
@@ -83,6 +83,13 @@ impl AlertKind {
             AlertKind::Strong => "strong",
             AlertKind::NewUnbound => "new-unbound",
         }
+    }
+
+    /// The kind a word names (as `as_str` writes it).
+    pub fn parse(word: &str) -> Option<AlertKind> {
+        [AlertKind::Strong, AlertKind::NewUnbound]
+            .into_iter()
+            .find(|k| k.as_str() == word)
     }
 }
 

@@ -3,6 +3,7 @@
 
 pub mod ades;
 pub mod ades_xml;
+pub mod alertlog;
 pub mod alerts;
 pub mod engine;
 pub mod journal;
