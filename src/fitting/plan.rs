@@ -213,7 +213,7 @@ pub fn pointings(major: f64, minor: f64, fov_deg: f64) -> usize {
 /// Where a visit can go: the start slot with the highest value among free, fully visible stretches of
 /// `len` steps (the end instant included), or None.
 fn best_start(evals: &[Option<SlotEval>], busy: &[bool], len: usize) -> Option<usize> {
-    let mut best: Option<(usize, f64, f64)> = None;
+    let mut best: Option<(usize, (f64, f64))> = None;
     for k in 0..evals.len().saturating_sub(len) {
         let stretch = &evals[k..=k + len];
         if busy[k..k + len].iter().any(|b| *b) || stretch.iter().any(Option::is_none) {
@@ -225,11 +225,19 @@ fn best_start(evals: &[Option<SlotEval>], busy: &[bool], len: usize) -> Option<u
             .flatten()
             .map(|e| e.alt_deg)
             .fold(f64::INFINITY, f64::min);
-        if best.is_none_or(|(_, v, a)| (mid.value, low) > (v, a)) {
-            best = Some((k, mid.value, low));
+        // Expected |ΔP| (below MIN_DP all alike: a slot worth 10⁻³³ more in P once beat a higher
+        // one), then the altitude, as the candidates' own order reads their highest slot.
+        let key = (slot_dp(mid), low);
+        if best.is_none_or(|(_, b)| key > b) {
+            best = Some((k, key));
         }
     }
     best.map(|b| b.0)
+}
+
+/// A slot's expected |ΔP|, as the ranking reads it (below `MIN_DP`, zero).
+fn slot_dp(e: &SlotEval) -> f64 {
+    if e.value < MIN_DP { 0.0 } else { e.value }
 }
 
 /// Make the plan for `fits` at `sites`, without brightness limits.
@@ -267,13 +275,31 @@ pub fn plan_with_h(
     }
     // Most valuable first: expected |ΔP| (below 1e-4 all alike), then the shrinkage of σ(1/a), then
     // the name.
+    // The shrinkage is the one at the slot the visit would take on an empty night (the one the plan
+    // then shows, unless a more valuable visit took it): the largest anywhere once ranked a visit
+    // that was then placed where σ(1/a) shrank by 5 %.
     let dp = |e: &Evaluation| if e.best < MIN_DP { 0.0 } else { e.best };
-    evals.sort_by(|(ia, a), (ib, b)| {
+    let free: Vec<Vec<bool>> = grids.iter().map(|g| vec![false; g.len()]).collect();
+    let shrink_where_placed = |ev: &Evaluation| match place(ev, sites, &mut free.clone(), opts) {
+        Ok((s, k, len)) => ev.slots[s][k + len / 2]
+            .as_ref()
+            .filter(|e| e.inv_a_sigma_now > 0.0)
+            .map_or(ev.best_shrink, |e| {
+                1.0 - e.inv_a_sigma_after / e.inv_a_sigma_now
+            }),
+        Err(_) => ev.best_shrink,
+    };
+    let shrink: Vec<f64> = evals.iter().map(|(_, e)| shrink_where_placed(e)).collect();
+    let mut order: Vec<usize> = (0..evals.len()).collect();
+    order.sort_by(|&x, &y| {
+        let ((ia, a), (ib, b)) = (&evals[x], &evals[y]);
         dp(b)
             .total_cmp(&dp(a))
-            .then(b.best_shrink.total_cmp(&a.best_shrink))
+            .then(shrink[y].total_cmp(&shrink[x]))
             .then(fits[*ia].object.cmp(&fits[*ib].object))
     });
+    let mut slots: Vec<Option<(usize, Evaluation)>> = evals.into_iter().map(Some).collect();
+    let evals: Vec<(usize, Evaluation)> = order.iter().filter_map(|&k| slots[k].take()).collect();
     let mut busy: Vec<Vec<bool>> = grids.iter().map(|g| vec![false; g.len()]).collect();
     let mut items = Vec::new();
     for (rank, (i, ev)) in evals.iter().enumerate() {
@@ -314,7 +340,7 @@ fn place(
     busy: &mut [Vec<bool>],
     opts: &PlanOptions,
 ) -> Result<(usize, usize, usize), Unplanned> {
-    let mut best: Option<(usize, usize, usize, f64)> = None;
+    let mut best: Option<(usize, usize, usize, (f64, f64))> = None;
     let (mut any_visible, mut too_large, mut taken) = (false, false, false);
     for (s, site) in sites.iter().enumerate() {
         let per = &ev.slots[s];
@@ -341,7 +367,9 @@ fn place(
             .ceil()
             .max(1.0) as usize;
         if let Some(k) = best_start(per, &busy[s], len) {
-            let v = per[k + len / 2].as_ref().map_or(0.0, |e| e.value);
+            let v = per[k + len / 2]
+                .as_ref()
+                .map_or((0.0, 0.0), |e| (slot_dp(e), e.alt_deg));
             if best.is_none_or(|b| v > b.3) {
                 best = Some((s, k, len, v));
             }

@@ -35,7 +35,9 @@ pub struct SlotEval {
 pub struct Evaluation {
     /// Per site, per step.
     pub slots: Vec<Vec<Option<SlotEval>>>,
-    /// Highest value anywhere, and the largest fractional shrinkage of σ(1/a).
+    /// Highest value anywhere, and the fractional shrinkage of σ(1/a) where the object stands
+    /// highest (the slot a visit of negligible |ΔP| is placed at, so that the order of the plan and
+    /// the shrinkage it shows agree: the largest anywhere once ranked a visit that shrank σ by 5 %).
     pub best: f64,
     pub best_shrink: f64,
 }
@@ -114,7 +116,7 @@ pub fn evaluate(
         .plus_days(0.5 * first.to.tdb.minus(first.from.tdb));
     let pred = Predictor::new(fit, t_ref, model)?;
     let mut best: f64 = 0.0;
-    let mut best_shrink: f64 = 0.0;
+    let (mut highest, mut best_shrink) = (f64::NEG_INFINITY, 0.0);
     let slots = sites
         .iter()
         .zip(grids)
@@ -123,9 +125,9 @@ pub fn evaluate(
                 .map(|slot| {
                     let e = at_slot(fit, h, &pred, slot.as_ref()?, site, opts)?;
                     best = best.max(e.value);
-                    if e.inv_a_sigma_now > 0.0 {
-                        best_shrink =
-                            best_shrink.max(1.0 - e.inv_a_sigma_after / e.inv_a_sigma_now);
+                    if e.inv_a_sigma_now > 0.0 && e.alt_deg > highest {
+                        highest = e.alt_deg;
+                        best_shrink = 1.0 - e.inv_a_sigma_after / e.inv_a_sigma_now;
                     }
                     Some(e)
                 })
