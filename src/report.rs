@@ -11,11 +11,15 @@ fn opt(x: Option<f64>, prec: usize) -> String {
 }
 
 /// log₁₀ of the posterior odds unbound : bound as shown in tables: signed, one decimal, written as a
-/// bound past ±999 and as ±∞ when one class has no weight at all.
+/// bound past ±999, with ≥ or ≤ where it is the bound the positions resolve, and as ±∞ when one
+/// class has no weight at all and nothing sizes a bound.
 pub fn odds_text(r: &FitResult) -> String {
     match r.log10_odds {
         Some(z) if z > 999.0 => ">+999".into(),
         Some(z) if z < -999.0 => "<-999".into(),
+        // A bound the positions' spread gives (no trial orbit of the other class had weight).
+        Some(z) if r.z_is_bound && z >= 0.0 => format!("≥{z:.1}"),
+        Some(z) if r.z_is_bound => format!("≤{z:.1}"),
         Some(z) => format!("{z:+.1}"),
         None if r.z_is_bound => match r.p_hyperbolic {
             Some(p) if p >= 0.5 => "+∞".into(),

@@ -74,7 +74,7 @@ fn check(file: &str) -> (usize, usize) {
         }
         if r.z_is_bound {
             bounded += 1;
-            assert!(!r.prior_dominated, "{id}: a bound set by the positions");
+            assert_eq!(r.prior_dominated, l.abs() < 0.5, "{id}: bound {l}");
             assert!(r.log10_bayes_factor.is_some_and(f64::is_finite), "{id}");
         }
         if r.probability_from == ProbabilitySource::RangeProfile && r.n_nights >= 3 {

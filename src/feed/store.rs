@@ -133,10 +133,11 @@ impl Store {
     /// The current tracklet of an object.
     pub fn tracklet(&self, object: &str) -> Option<Tracklet> {
         let e = self.objects.get(object)?;
+        // The same rule as every other path: one observation reported in two precisions is one.
         Some(Tracklet::new(
             object.to_string(),
             e.sources.join("; "),
-            e.obs.values().map(|(o, _)| o.clone()).collect(),
+            super::tracklets::dedupe(e.obs.values().map(|(o, _)| o.clone()).collect()),
         ))
     }
 

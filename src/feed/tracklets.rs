@@ -222,20 +222,31 @@ pub fn dedupe(obs: Vec<Observation>) -> Vec<Observation> {
         .collect();
     keyed.sort_by(|a, b| a.0.cmp(&b.0));
     keyed.dedup_by(|a, b| a.0 == b.0);
-    // The same observation in another precision: the first in identity order stands (whatever order
-    // the files came in), so exclusions keep naming it. A night once counted twice this way.
+    // The same observation in another precision: one report stands, the same whatever order the
+    // files came in (so exclusions keep naming it): the one that states its uncertainty (an
+    // 80-column record states none), else the first in identity order. A night once counted twice.
     let mut kept: Vec<Observation> = Vec::with_capacity(keyed.len());
     for (_, o) in keyed {
+        let n = kept.len();
         let repeat = kept
             .iter()
             .rev()
             .take_while(|k| o.time.tt.minus(k.time.tt).abs() <= SAME_TIME_DAYS)
-            .any(|k| k.site_code == o.site_code && separation_arcsec(k, &o) <= SAME_PLACE_ARCSEC);
-        if !repeat {
-            kept.push(o);
+            .position(|k| {
+                k.site_code == o.site_code && separation_arcsec(k, &o) <= SAME_PLACE_ARCSEC
+            })
+            .map(|back| n - 1 - back);
+        match repeat {
+            None => kept.push(o),
+            Some(i) if states_uncertainty(&o) && !states_uncertainty(&kept[i]) => kept[i] = o,
+            Some(_) => {}
         }
     }
     kept
+}
+
+fn states_uncertainty(o: &Observation) -> bool {
+    o.sigma_ra_arcsec.is_some() || o.sigma_dec_arcsec.is_some()
 }
 
 fn separation_arcsec(a: &Observation, b: &Observation) -> f64 {
@@ -390,6 +401,18 @@ mod tests {
         // The same exposure as an 80-column record keeps: the time to 10⁻⁵ day, RA to 1 ms of time.
         let coarse =
             crate::testutil::observation(at("2027-02-24T03:08:38.400Z"), 136.671_946, -60.445_19);
+        // The report that states its uncertainty stands, whichever came first.
+        let mut stated = coarse.clone();
+        stated.sigma_ra_arcsec = Some(0.2);
+        stated.sigma_dec_arcsec = Some(0.2);
+        for pair in [
+            vec![fine.clone(), stated.clone()],
+            vec![stated.clone(), fine.clone()],
+        ] {
+            let one = dedupe(pair);
+            assert_eq!(one.len(), 1);
+            assert_eq!(one[0].sigma_ra_arcsec, Some(0.2));
+        }
         let mut elsewhere = coarse.clone();
         elsewhere.site_code = "TV2".into();
         let later = crate::testutil::observation(

@@ -322,7 +322,7 @@ impl FitResult {
         self.p_hyperbolic_error = Some(p.p_error()).filter(|e| e.is_finite());
         self.z_hyperbolic = finite(p.z());
         self.log10_odds = Some(p.log10_odds()).filter(|x| !x.is_nan());
-        self.z_is_bound = !p.ln_odds.is_finite();
+        self.z_is_bound = p.ln_odds.is_infinite();
         self.prior = Some(model.to_string());
         let l10k = p.ln_bayes / std::f64::consts::LN_10;
         self.log10_bayes_factor = finite(l10k);

@@ -1,9 +1,9 @@
 //! Odds the trial orbits cannot resolve. Where no trial orbit of one class carries any weight (a
 //! strongly hyperbolic fit whose energy line never reaches a bound orbit, draws that all land on one
 //! side), the posterior odds are infinite only as far as the trial orbits reach. The record then
-//! states the odds as a bound set by the data's own spread: the Gaussian tail of the barycentric e
-//! beyond e = 1, −log₁₀ Φ(−|z|) with z = (e_bary − 1)/σ, or, without that spread, one draw's share
-//! of the effective sample (log₁₀ n_eff). The same bound stands for the evidence (the data decided,
+//! states the odds as a bound set by the data's own spread: the odds of a Gaussian in the barycentric
+//! e on either side of e = 1, log₁₀ Φ(|z|)/Φ(−|z|) with z = (e_bary − 1)/σ, or, without that spread,
+//! one draw's share of the effective sample (log₁₀ n_eff). The same bound stands for the evidence (the data decided,
 //! not the model), P is the probability those odds give (P, z and the odds stay one quantity), and
 //! `z_is_bound` says the numbers are bounds.
 
@@ -22,7 +22,7 @@ fn resolvable_log10_odds(r: &FitResult, unbound: bool) -> Option<f64> {
         && (e > 1.0) == unbound
     {
         let z = (e - 1.0).abs() / s;
-        return Some(-ln_normal_tail(z) / LN_10);
+        return Some((normal_cdf(z).ln() - ln_normal_tail(z)) / LN_10);
     }
     r.n_eff
         .filter(|n| n.is_finite() && *n > 1.0)
@@ -41,10 +41,11 @@ fn ln_normal_tail(z: f64) -> f64 {
 /// Where P is exactly 0 or 1 because one class has no weight, state the odds and the evidence as the
 /// bound the data resolve (see the module's words); a record with finite odds is left alone.
 pub fn bound_unresolved_odds(r: &mut FitResult) {
-    let Some(p) = r.p_hyperbolic else {
+    // Only P exactly 0 or 1 from one empty class: undefined odds (no weight anywhere) stay unstated.
+    let Some(p) = r.p_hyperbolic.filter(|p| *p == 0.0 || *p == 1.0) else {
         return;
     };
-    let infinite = r.log10_odds.is_none_or(|l| !l.is_finite());
+    let infinite = r.log10_odds.is_some_and(f64::is_infinite);
     if !(r.z_is_bound && infinite) {
         return;
     }
@@ -67,7 +68,10 @@ pub fn bound_unresolved_odds(r: &mut FitResult) {
         r.log10_bayes_factor = Some(l10);
         r.bayes_factor = bayes_factor_of(l10);
     }
-    r.prior_dominated = false;
+    // The bound is the positions' own: where it is weak (under half a decade) they did not decide.
+    r.prior_dominated = l10.abs() < 0.5;
+    // How far P itself may be off is not known beyond its being a bound.
+    r.p_hyperbolic_error = None;
 }
 
 /// 10^log10 where a double holds it, else None (the log10 field carries it).
@@ -97,13 +101,18 @@ mod tests {
         r.prior_dominated = true;
         (r.e_bary, r.e_bary_sigma) = (Some(3.0), Some(0.1));
         bound_unresolved_odds(&mut r);
-        // z = 20: −log₁₀ Φ(−20) = 88.56 (Φ(−20) = 2.754e-89; scipy.stats.norm.logsf(20)/ln 10, from
-        // memory; by hand 200/ln 10 + log₁₀(20√(2π)) − log₁₀(1 − 1/400) = 86.859 + 1.700 + 0.001).
+        // z = 20: log₁₀ Φ(20)/Φ(−20) = −log₁₀ Φ(−20) = 88.56 (by hand, the asymptotic series:
+        // 200/ln 10 + log₁₀(20√(2π)) − log₁₀(1 − 1/400) = 86.859 + 1.700 + 0.001).
         let l = r.log10_odds.unwrap();
         assert!((l - 88.56).abs() < 0.01, "{l}");
         assert!(r.z_hyperbolic.unwrap() > 19.9, "{:?}", r.z_hyperbolic);
         let p = r.p_hyperbolic.unwrap();
-        assert!(p < 1.0 || l > 16.0, "P {p} must be what the odds give");
+        assert_eq!(
+            p,
+            1.0 / (1.0 + 10f64.powf(-l)),
+            "P must be what the odds give"
+        );
+        assert_eq!(r.p_hyperbolic_error, None);
         assert_eq!(r.log10_bayes_factor, Some(l));
         let k = r.bayes_factor.unwrap();
         assert!((k.log10() - l).abs() < 1e-9, "{k}");
@@ -111,6 +120,36 @@ mod tests {
         assert_eq!(bayes_factor_of(415.3), None);
         assert_eq!(bayes_factor_of(-415.3), None);
         assert!(!r.prior_dominated);
+        // Near e = 1 the bound is the Gaussian's own odds: z = 0 is even (P ½), z = 1 gives
+        // Φ(1)/Φ(−1) = 0.8413/0.1587 = 5.30 (normal table), and so weak a bound leaves the
+        // model in charge.
+        for (z, want) in [(1e-9, 0.0), (1.0, 5.30_f64.log10())] {
+            let mut near = FitResult::empty(&Tracklet::new("n".into(), "n".into(), Vec::new()));
+            near.p_hyperbolic = Some(1.0);
+            near.log10_odds = Some(f64::INFINITY);
+            near.z_is_bound = true;
+            (near.e_bary, near.e_bary_sigma) = (Some(1.0 + 0.1 * z), Some(0.1));
+            bound_unresolved_odds(&mut near);
+            let got = near.log10_odds.unwrap();
+            assert!((got - want).abs() < 0.002, "z {z}: {got} vs {want}");
+            assert_eq!(near.prior_dominated, got.abs() < 0.5);
+        }
+        // Draws on one side only and no spread of e: one draw's share of the effective sample.
+        let mut drawn = FitResult::empty(&Tracklet::new("d".into(), "d".into(), Vec::new()));
+        drawn.p_hyperbolic = Some(0.0);
+        drawn.log10_odds = Some(f64::NEG_INFINITY);
+        drawn.z_is_bound = true;
+        drawn.n_eff = Some(1000.0);
+        bound_unresolved_odds(&mut drawn);
+        assert_eq!(drawn.log10_odds, Some(-3.0));
+        // Undefined odds (no weight in either class) are not turned into a bound.
+        let mut none = FitResult::empty(&Tracklet::new("u".into(), "u".into(), Vec::new()));
+        none.p_hyperbolic = Some(f64::NAN);
+        none.log10_odds = None;
+        none.z_is_bound = true;
+        none.n_eff = Some(1000.0);
+        bound_unresolved_odds(&mut none);
+        assert_eq!(none.log10_odds, None);
         // A record whose odds were resolved is left alone.
         let mut f = FitResult::empty(&Tracklet::new("y".into(), "y".into(), Vec::new()));
         f.p_hyperbolic = Some(0.7);

@@ -85,7 +85,7 @@ fn probability_lines(f: &crate::fitting::result::FitResult) -> Vec<Line<'static>
         "P(unbound) {}±{}  log₁₀ odds {}  z {}{}",
         num(f.p_hyperbolic, 4),
         num(f.p_hyperbolic_error, 4),
-        num(f.log10_odds, 1),
+        crate::report::odds_text(f),
         num(f.z_hyperbolic, 2),
         f.z_linear
             .map_or(String::new(), |z| format!(" (linear {z:+.2})")),
