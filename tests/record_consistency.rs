@@ -125,17 +125,27 @@ fn a_fit_no_orbit_explains_shows_no_incoming_asymptote() {
 
 #[test]
 fn a_record_says_when_its_times_lie_past_the_leap_second_table() {
-    // The table is known through 2026-06-30 (src/physics/calendar.rs). The population sky spans
-    // February 2026 to December 2027: the flag follows each arc's own dates.
+    // The flag follows each arc's own dates against the table's end (src/physics/calendar.rs): the
+    // population sky spans February 2026 to December 2027.
+    let (y, m, d) = interloper::physics::time::LEAP_TABLE_VALID_BEFORE;
+    let end = format!("{y:04}-{m:02}-{d:02}");
     let sky = fit_sky("two_night.psv");
-    let past = sky.iter().filter(|r| r.times_past_leap_table).count();
-    assert!(past > 0 && past < sky.len(), "{past} of {}", sky.len());
+    for r in &sky {
+        // The last position's date (residuals are in time order).
+        let last = &r.residuals.last().unwrap().time_utc[..10];
+        assert_eq!(
+            r.times_past_leap_table,
+            last >= end.as_str(),
+            "{}",
+            r.object
+        );
+    }
     let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
     let name = "003_qka2e7f_n1.psv";
     let bytes = std::fs::read(dir.join(name)).unwrap();
     let t = read_bytes(name, &bytes, &SiteTable::builtin(), &Limits::default()).tracklets;
     let r = fit_all(merge(t), &FitOptions::default(), 1).remove(0);
-    assert!(r.times_past_leap_table);
+    assert_eq!(r.times_past_leap_table, "2027-02-24" >= end.as_str());
     let json = serde_json::to_value(&r).unwrap();
-    assert_eq!(json["times_past_leap_table"], serde_json::json!(true));
+    assert_eq!(json["times_past_leap_table"], r.times_past_leap_table);
 }

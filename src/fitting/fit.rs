@@ -280,16 +280,7 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
                 r.distrust_linear.push(why);
             }
         }
-        if r.alternatives.is_empty() && !alternatives.is_empty() {
-            let worst = alternatives
-                .iter()
-                .map(|a| a.chi2 - fit.chi2)
-                .fold(f64::NEG_INFINITY, f64::max);
-            r.distrust_linear.push(format!(
-                "{} other least-squares minimum(s) (Δχ² up to {worst:+.1}): the range profile weighs them",
-                alternatives.len()
-            ));
-        }
+        super::lsqrecord::list_other_minima(&mut r, &fit, &alternatives, &shift);
         r.z_linear = None;
         return r;
     }

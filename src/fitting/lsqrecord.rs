@@ -198,6 +198,27 @@ fn fill_orbit(
 }
 
 /// The other solutions as listed: orbit, Δχ² against the reported one, and whether each is unbound.
+/// List the search's other least-squares minima on a record that has none (an answer the range
+/// profile gave, whose own valleys held too little weight to list), with the note that says which
+/// class they are against P's: `next_night` and the plan must know of another solution of the
+/// other class (a note alone once let the next night "settle" such an arc).
+pub(super) fn list_other_minima(
+    out: &mut FitResult,
+    fit: &LsqFit,
+    alternatives: &[LsqFit],
+    shift: &S6,
+) {
+    if !out.alternatives.is_empty() || alternatives.is_empty() {
+        return;
+    }
+    out.alternatives = alternatives_out(fit, alternatives, shift);
+    let unbound = out
+        .p_hyperbolic
+        .map_or(out.e_bary.is_some_and(|e| e >= 1.0), |p| p >= 0.5);
+    out.distrust_linear
+        .extend(alternatives_note(&out.alternatives, unbound));
+}
+
 fn alternatives_out(fit: &LsqFit, alternatives: &[LsqFit], shift: &S6) -> Vec<Alternative> {
     let ecl = equatorial_to_ecliptic();
     alternatives

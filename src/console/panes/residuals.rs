@@ -177,7 +177,15 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .fold(1e-6, f64::max);
     let exaggerate = 0.15 * span / rmax;
     // The drawing spans `span` arcmin; a residual of 1″ (1/60′) is drawn `exaggerate` arcmin long.
-    let scale = format!("{} across · O−C ×{:.0}", arcmin(span), exaggerate * 60.0);
+    let times = exaggerate * 60.0;
+    // Two significant figures below ten (a false linkage's O−C is drawn shrunk: "×0" said nothing).
+    let times = match times {
+        t if t >= 10.0 => format!("{t:.0}"),
+        t if t >= 1.0 => format!("{t:.1}"),
+        t if t >= 0.01 => format!("{t:.2}"),
+        t => format!("{t:.1e}"),
+    };
+    let scale = format!("{} across · O−C ×{times}", arcmin(span));
     let used: Vec<(f64, f64)> = pts
         .iter()
         .zip(res)

@@ -18,8 +18,8 @@ pub fn status_text(app: &App, width: usize) -> String {
         ("waiting", "wait", s.waiting),
         ("fitting", "fit", s.fitting),
         ("failed", "fail", s.failed),
-        // Files with refused input, as headless watch counts them (one file of two bad lines once
-        // counted 2 here and 1 there); the overlay lists every reason.
+        // Files with refused input (a file of two bad lines once counted 2); the overlay lists every
+        // reason. Headless watch counts only files refused whole, and lists bad lines apart.
         ("rejected", "rej", rejected_files(app)),
     ];
     let join = |long: bool| {
