@@ -30,7 +30,11 @@ impl HeadlessAlerts {
 
     /// The alert line a fit raises (JSON and text), with the user's command started for it.
     pub fn on_fit(&mut self, fit: &FitResult) -> Option<(serde_json::Value, String)> {
-        let (alert, fx) = self.alerts.on_fit(fit)?;
+        let raised = self.alerts.on_fit(fit);
+        for (object, kind) in self.alerts.cleared.drain(..) {
+            self.log.clear(&object, kind);
+        }
+        let (alert, fx) = raised?;
         tracing::warn!("ALERT {}", alert.text);
         self.log.record(&alert);
         if let Some(cmd) = fx.command {

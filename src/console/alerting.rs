@@ -2,7 +2,7 @@
 //! once when it starts to hold, keeps the night's alerts for their overlay, and says what an alert
 //! should do (bell, flash, command) unless the observer has asked for quiet.
 
-use crate::feed::alerts::{Alert, AlertKind, AlertRules, Summary, check};
+use crate::feed::alerts::{Alert, AlertKind, AlertRules, Summary, check, holding};
 use crate::fitting::fit::FitResult;
 use std::collections::{HashMap, HashSet};
 use std::time::{Duration, Instant, SystemTime};
@@ -31,6 +31,9 @@ pub struct Alerts {
     /// Alerts raised before this run (the state directory's record): an object's first fit of the
     /// run does not raise them again.
     pub earlier: HashSet<(String, AlertKind)>,
+    /// Rules raised before that no longer hold, for the state directory's record (drained by the
+    /// runtime): after a restart they alert again when they hold again.
+    pub cleared: Vec<(String, AlertKind)>,
     /// The status line is flashed until then.
     flash_until: Option<Instant>,
 }
@@ -43,16 +46,19 @@ impl Alerts {
             list: Vec::new(),
             previous: HashMap::new(),
             earlier: HashSet::new(),
+            cleared: Vec::new(),
             flash_until: None,
         }
     }
 
     /// A new fit of an object: the alert it raises, with what to do about it.
     pub fn on_fit(&mut self, fit: &FitResult) -> Option<(Alert, AlertEffects)> {
-        let prev = self.previous.get(&fit.object);
-        let alert = check(prev, fit, &self.rules);
+        let prev = self.previous.get(&fit.object).copied();
+        let alert = check(prev.as_ref(), fit, &self.rules);
         let first = prev.is_none();
-        self.previous.insert(fit.object.clone(), Summary::of(fit));
+        let now = Summary::of(fit);
+        self.forget_cleared(&fit.object, prev.as_ref(), &now);
+        self.previous.insert(fit.object.clone(), now);
         let alert = alert?;
         if first && self.earlier.contains(&(alert.object.clone(), alert.kind)) {
             return None;
@@ -68,6 +74,29 @@ impl Alerts {
             self.flash_until = Some(Instant::now() + FLASH_FOR);
         }
         Some((alert, effects))
+    }
+
+    /// A rule that held (in this run, or when last alerted before it) and holds no more is cleared:
+    /// its next crossing alerts again, also after a restart.
+    fn forget_cleared(&mut self, object: &str, prev: Option<&Summary>, now: &Summary) {
+        let object = crate::feed::sanitize::clean(object);
+        let held_now = holding(now, &self.rules);
+        let held_before = match prev {
+            Some(p) => holding(p, &self.rules),
+            None => [AlertKind::Strong, AlertKind::NewUnbound]
+                .into_iter()
+                .filter(|k| self.earlier.contains(&(object.clone(), *k)))
+                .collect(),
+        };
+        for k in held_before {
+            if held_now.contains(&k) {
+                continue;
+            }
+            let recorded = self.earlier.remove(&(object.clone(), k));
+            if recorded || prev.is_some() {
+                self.cleared.push((object.clone(), k));
+            }
+        }
     }
 
     /// Whether the screen must be drawn again for the flash (while it lasts, and once when it ends).
@@ -141,7 +170,24 @@ mod tests {
         assert!(a.on_fit(&fit(0.97)).is_none());
         // Within the run a rule that stops holding and holds again alerts as before.
         assert!(a.on_fit(&fit(0.2)).is_none());
+        assert_eq!(
+            a.cleared.drain(..).collect::<Vec<_>>(),
+            vec![(
+                "qka2e7f".to_string(),
+                crate::feed::alerts::AlertKind::Strong
+            )],
+            "the clearing goes to the record"
+        );
         assert!(a.on_fit(&fit(0.97)).is_some());
+        // A restart whose first fit finds the rule no longer holding clears the record: the next
+        // crossing, in this run or a later one, alerts.
+        let mut b = Alerts::new(AlertRules::default());
+        b.earlier
+            .insert(("qka2e7f".into(), crate::feed::alerts::AlertKind::Strong));
+        assert!(b.on_fit(&fit(0.3)).is_none());
+        assert_eq!(b.cleared.len(), 1);
+        assert!(b.earlier.is_empty());
+        assert!(b.on_fit(&fit(0.97)).is_some());
     }
 
     #[test]

@@ -162,7 +162,11 @@ impl Runtime {
     /// A new fit may raise an alert: shown, logged, and rung, flashed and handed to the user's command
     /// unless the observer asked for quiet.
     fn alert(&mut self, app: &mut App, fit: &FitResult) {
-        let Some((alert, fx)) = app.alerts.on_fit(fit) else {
+        let raised = app.alerts.on_fit(fit);
+        for (object, kind) in app.alerts.cleared.drain(..) {
+            self.alert_log.clear(&object, kind);
+        }
+        let Some((alert, fx)) = raised else {
             return;
         };
         tracing::warn!("ALERT {}", alert.text);

@@ -27,14 +27,25 @@ impl AlertLog {
         };
         let path = dir.join(ALERT_LOG);
         let text = std::fs::read_to_string(&path).unwrap_or_default();
-        let fired = text
+        // In file order: an alert, then perhaps its rule's clearing (after which it may alert again).
+        let mut fired = HashSet::new();
+        for v in text
             .lines()
             .filter_map(|l| serde_json::from_str::<serde_json::Value>(l).ok())
-            .filter_map(|v| {
-                let object = v["object"].as_str()?.to_string();
-                Some((object, AlertKind::parse(v["kind"].as_str()?)?))
-            })
-            .collect();
+        {
+            let (Some(object), Some(kind)) = (
+                v["object"].as_str(),
+                v["kind"].as_str().and_then(AlertKind::parse),
+            ) else {
+                continue;
+            };
+            let key = (object.to_string(), kind);
+            if v["cleared"].as_bool() == Some(true) {
+                fired.remove(&key);
+            } else {
+                fired.insert(key);
+            }
+        }
         AlertLog {
             path: Some(path),
             fired,
@@ -49,15 +60,29 @@ impl AlertLog {
     /// Keep a new alert (best effort: a full disk costs a repeated alert after a restart, no more).
     pub fn record(&mut self, alert: &Alert) {
         self.fired.insert((alert.object.clone(), alert.kind));
-        let Some(path) = &self.path else {
-            return;
-        };
-        let line = serde_json::json!({
+        self.append(serde_json::json!({
             "object": alert.object,
             "kind": alert.kind.as_str(),
             "at_utc": chrono::DateTime::<chrono::Utc>::from(alert.at)
                 .to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
-        });
+        }));
+    }
+
+    /// Keep that a rule no longer holds for an object: its next crossing alerts again.
+    pub fn clear(&mut self, object: &str, kind: AlertKind) {
+        if self.fired.remove(&(object.to_string(), kind)) {
+            self.append(serde_json::json!({
+                "object": object,
+                "kind": kind.as_str(),
+                "cleared": true,
+            }));
+        }
+    }
+
+    fn append(&self, line: serde_json::Value) {
+        let Some(path) = &self.path else {
+            return;
+        };
         let written = std::fs::OpenOptions::new()
             .create(true)
             .append(true)
@@ -93,13 +118,16 @@ mod tests {
             .open(dir.join(ALERT_LOG))
             .and_then(|mut f| writeln!(f, "{{not json"))
             .unwrap();
-        let again = AlertLog::open(Some(&dir));
+        let mut again = AlertLog::open(Some(&dir));
         assert!(
             again
                 .fired()
                 .contains(&("qka2e7f".into(), AlertKind::Strong))
         );
         assert_eq!(again.fired().len(), 1);
+        // A rule that cleared alerts again after the next restart.
+        again.clear("qka2e7f", AlertKind::Strong);
+        assert!(AlertLog::open(Some(&dir)).fired().is_empty());
         assert!(AlertLog::open(None).fired().is_empty());
         std::fs::remove_dir_all(&dir).unwrap();
     }

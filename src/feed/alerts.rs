@@ -124,6 +124,17 @@ impl Summary {
     }
 }
 
+/// The kinds whose rule holds on this summary.
+pub fn holding(r: &Summary, rules: &AlertRules) -> Vec<AlertKind> {
+    [
+        (AlertKind::Strong, strong(r, rules)),
+        (AlertKind::NewUnbound, likely_unbound(r, rules)),
+    ]
+    .into_iter()
+    .filter_map(|(k, h)| h.then_some(k))
+    .collect()
+}
+
 fn strong(r: &Summary, rules: &AlertRules) -> bool {
     r.usable
         && r.p.is_some_and(|p| p >= rules.min_probability)
