@@ -7,6 +7,7 @@ pub mod alertlog;
 pub mod alerts;
 pub mod engine;
 pub mod journal;
+mod merge;
 pub mod obs80;
 pub mod sanitize;
 mod siteentry;

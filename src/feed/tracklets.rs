@@ -3,6 +3,7 @@
 
 use super::InputError;
 use super::ades::{self, AdesRecord};
+pub use super::merge::{dedupe, merge};
 use super::sanitize::clean;
 use super::sites::SiteTable;
 use crate::fitting::input::{Observation, Tracklet};
@@ -182,78 +183,6 @@ pub const MAX_HELIOCENTRIC_AU: f64 = 100.0;
 /// degree nothing is a position any more. The fit also floors σ at 0.1″.
 pub const MIN_RMS_ARCSEC: f64 = 1e-3;
 pub const MAX_RMS_ARCSEC: f64 = 3600.0;
-
-pub fn merge(tracklets: Vec<Tracklet>) -> Vec<Tracklet> {
-    let mut order: Vec<String> = Vec::new();
-    let mut by_object: BTreeMap<String, (Vec<String>, Vec<Observation>)> = BTreeMap::new();
-    for t in tracklets {
-        let entry = by_object.entry(t.object.clone()).or_insert_with(|| {
-            order.push(t.object.clone());
-            (Vec::new(), Vec::new())
-        });
-        if !entry.0.contains(&t.source) {
-            entry.0.push(t.source.clone());
-        }
-        entry.1.extend(t.obs);
-    }
-    order
-        .into_iter()
-        .filter_map(|o| {
-            let (sources, obs) = by_object.remove(&o)?;
-            Some(Tracklet::new(o, sources.join("; "), dedupe(obs)))
-        })
-        .collect()
-}
-
-/// Two reports of one observation in different precisions (an 80-column record keeps the time to
-/// 10⁻⁵ or 10⁻⁶ day and RA to a millisecond of time): the same site, times within this (days)…
-const SAME_TIME_DAYS: f64 = 1.0e-5;
-/// …and positions within this (arcsec). Common practice, no source: the formats' rounding is well
-/// inside both, and two real exposures from one site are never this close in both.
-const SAME_PLACE_ARCSEC: f64 = 0.3;
-
-/// Same time, place and position: the same observation reported twice (also in two formats).
-pub fn dedupe(obs: Vec<Observation>) -> Vec<Observation> {
-    // One identity decides "the same observation" here as everywhere (store, residuals, journal):
-    // sorted by it, the list is in time order and a repeat sits next to its first report.
-    let mut keyed: Vec<(crate::fitting::obsid::ObsId, Observation)> = obs
-        .into_iter()
-        .map(|o| (crate::fitting::obsid::ObsId::of(&o), o))
-        .collect();
-    keyed.sort_by(|a, b| a.0.cmp(&b.0));
-    keyed.dedup_by(|a, b| a.0 == b.0);
-    // The same observation in another precision: one report stands, the same whatever order the
-    // files came in (so exclusions keep naming it): the one that states its uncertainty (an
-    // 80-column record states none), else the first in identity order. A night once counted twice.
-    let mut kept: Vec<Observation> = Vec::with_capacity(keyed.len());
-    for (_, o) in keyed {
-        let n = kept.len();
-        let repeat = kept
-            .iter()
-            .rev()
-            .take_while(|k| o.time.tt.minus(k.time.tt).abs() <= SAME_TIME_DAYS)
-            .position(|k| {
-                k.site_code == o.site_code && separation_arcsec(k, &o) <= SAME_PLACE_ARCSEC
-            })
-            .map(|back| n - 1 - back);
-        match repeat {
-            None => kept.push(o),
-            Some(i) if states_uncertainty(&o) && !states_uncertainty(&kept[i]) => kept[i] = o,
-            Some(_) => {}
-        }
-    }
-    kept
-}
-
-fn states_uncertainty(o: &Observation) -> bool {
-    o.sigma_ra_arcsec.is_some() || o.sigma_dec_arcsec.is_some()
-}
-
-fn separation_arcsec(a: &Observation, b: &Observation) -> f64 {
-    use crate::physics::frames::unit_from_radec;
-    unit_from_radec(a.ra, a.dec).angle(&unit_from_radec(b.ra, b.dec))
-        / crate::physics::constants::ARCSEC
-}
 
 fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observation, InputError> {
     let err = |column: &str, reason: String| InputError {
