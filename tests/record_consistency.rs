@@ -72,6 +72,14 @@ fn check(file: &str) -> (usize, usize) {
                 r.distrust_linear
             );
         }
+        // The population sky's generator places every position above its site's horizon.
+        assert!(
+            !r.distrust_linear
+                .iter()
+                .any(|d| d.contains("below the horizon")),
+            "{id}: {:?}",
+            r.distrust_linear
+        );
         if r.z_is_bound {
             bounded += 1;
             assert_eq!(r.prior_dominated, l.abs() < 0.5, "{id}: bound {l}");
@@ -148,4 +156,27 @@ fn a_record_says_when_its_times_lie_past_the_leap_second_table() {
     assert_eq!(r.times_past_leap_table, "2027-02-24" >= end.as_str());
     let json = serde_json::to_value(&r).unwrap();
     assert_eq!(json["times_past_leap_table"], r.times_past_leap_table);
+}
+
+#[test]
+fn positions_reported_from_below_their_sites_horizon_are_said() {
+    // The demo night's qka2e7f is reported from TV2 and TV4, southern sites, at Dec +70°: below their
+    // horizon (its generator checked the sky from one site only).
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_feeds/demo_night");
+    let mut t = Vec::new();
+    for name in ["003_qka2e7f_n1.psv", "015_qka2e7f_n2.psv"] {
+        {
+            let bytes = std::fs::read(dir.join(name)).unwrap();
+            t.extend(read_bytes(name, &bytes, &SiteTable::builtin(), &Limits::default()).tracklets);
+        }
+    }
+    assert!(!t.is_empty());
+    let r = fit_all(merge(t), &FitOptions::default(), 1).remove(0);
+    assert!(
+        r.distrust_linear
+            .iter()
+            .any(|d| d.contains("below the horizon")),
+        "{:?}",
+        r.distrust_linear
+    );
 }

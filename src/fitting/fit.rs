@@ -112,6 +112,9 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     };
     r.mark_undetermined();
     super::unresolved::bound_unresolved_odds(&mut r);
+    if let Some(low) = super::horizon::below_horizon(tr) {
+        r.distrust_linear.push(super::horizon::caveat(low));
+    }
     r.h_mag = super::ephemeris::tracklet_h(&r, tr, model);
     if let Some(o) = &opts.origin {
         r.origin = super::origin::origin_sheet(&r, o).map(Box::new);

@@ -11,6 +11,7 @@ pub mod followup;
 pub mod forcemodel;
 pub mod gauss;
 pub mod gross;
+pub mod horizon;
 pub mod input;
 pub mod kinds;
 pub mod leaveout;
