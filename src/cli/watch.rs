@@ -59,6 +59,13 @@ pub struct WatchArgs {
 }
 
 impl WatchArgs {
+    /// The state directory: `--state`, else the configuration's (the platform's by default).
+    fn state_dir(&self) -> PathBuf {
+        self.state
+            .clone()
+            .unwrap_or_else(|| super::config::get().state_dir.value.clone())
+    }
+
     /// The watcher the demo runs on its replay folder, with the demo's own options.
     pub fn for_demo(
         dir: PathBuf,
@@ -145,10 +152,7 @@ fn open_console(
     threads: usize,
     stop: Arc<AtomicBool>,
 ) -> anyhow::Result<i32> {
-    let state = args
-        .state
-        .clone()
-        .unwrap_or_else(|| super::config::get().state_dir.value.clone());
+    let state = args.state_dir();
     std::fs::create_dir_all(&state).map_err(|e| {
         super::Usage(format!(
             "cannot use {} as the state directory: {e}",
@@ -192,10 +196,7 @@ fn run_headless(
     };
     // The observers' exclusions and forced methods, if a journal is there: fits here use them too,
     // so the numbers are the consoles' numbers.
-    let state = args
-        .state
-        .clone()
-        .unwrap_or_else(|| super::config::get().state_dir.value.clone());
+    let state = args.state_dir();
     // Diagnostics to stderr, and to the state directory's log when the directory is there (headless
     // runs never create it).
     if let Some(w) = super::logging::init(
