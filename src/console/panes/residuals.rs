@@ -103,6 +103,18 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .constraints([Constraint::Length(7), Constraint::Min(3)])
         .split(inner);
     let w = inner.width.saturating_sub(9) as usize;
+    f.render_widget(Paragraph::new(strip_lines(app, &rows, res, w)), parts[0]);
+    sky_track(f, parts[1], res);
+}
+
+/// The O−C strips of RA and Dec with their largest values, the marks under them and the selected
+/// observation's line, in `w` columns of strip.
+fn strip_lines(
+    app: &App,
+    rows: &[crate::console::state::ObsRow],
+    res: &[ResidualOut],
+    w: usize,
+) -> Vec<Line<'static>> {
     let row = rows.get(app.obs_cursor);
     // The strips show fitted observations only: the mark goes under the selected one if it is fitted.
     let at = row.and_then(|r| r.residual).unwrap_or(usize::MAX);
@@ -137,17 +149,20 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     // The largest |O−C| under each label, in the label's own nine columns (after the strip, a full
     // strip pushed it off the pane: "max 0." at 80 columns).
     let most = |dec: bool| format!("{:>8} ", format!("{}\"", compact(max(dec))));
-    let text = vec![
+    vec![
         Line::from(format!("RA cosδ  {ra_b}")),
         Line::from(format!("{}{ra_s}", most(false))),
         Line::from(format!("Dec      {de_b}")),
         Line::from(format!("{}{de_s}", most(true))),
         Line::from(format!("         {marks}")),
         Line::from(sel.unwrap_or_default()),
-    ];
-    f.render_widget(Paragraph::new(text), parts[0]);
-    // Sky-plane track: offsets from the first position in arcmin, east to the left as on the sky.
-    if res.is_empty() || parts[1].height < 3 {
+    ]
+}
+
+/// The sky-plane track: offsets from the first position in arcmin, east to the left as on the sky,
+/// each position's O−C magnified.
+fn sky_track(f: &mut Frame, area: Rect, res: &[ResidualOut]) {
+    if res.is_empty() || area.height < 3 {
         return;
     }
     let (ra0, dec0) = (res[0].ra_deg, res[0].dec_deg);
@@ -221,8 +236,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         });
     // Compass and scale on a line of their own below the drawing (printed inside it, they hid the
     // points that fell under them): north up and east left, as on the sky; residuals magnified.
-    let [plot, caption] =
-        Layout::vertical([Constraint::Min(2), Constraint::Length(1)]).areas(parts[1]);
+    let [plot, caption] = Layout::vertical([Constraint::Min(2), Constraint::Length(1)]).areas(area);
     f.render_widget(canvas, plot);
     f.render_widget(Paragraph::new(format!("N↑ E← · {scale}")), caption);
 }
