@@ -78,6 +78,75 @@ fn id_and_decision_widths(width: u16, middle: &[u16], need: usize, wide: bool) -
     (id, left.saturating_sub(id).max(min_decision))
 }
 
+/// One candidate's cells, the id and decision cut to their columns' widths.
+fn row_cells<'a>(
+    c: &'a Candidate,
+    app: &App,
+    theme: Theme,
+    wide: bool,
+    (object_w, decision_w): (u16, u16),
+) -> Vec<Cell<'a>> {
+    let fit = &c.fit;
+    let status = fit.status.label();
+    let e = match (fit.e, fit.e_sigma) {
+        (Some(e), Some(s)) => value_pm(e, s),
+        (Some(e), None) => format!("{e:.3} (rng)"),
+        _ => "-".into(),
+    };
+    let mut cells = vec![
+        Cell::from(format!(
+            "{}{}",
+            c.fresh.mark().symbol(),
+            crate::report::id_within(&clean(&fit.object), usize::from(object_w).saturating_sub(1))
+        )),
+        Cell::from(score_text(c)).style(if strong(fit) {
+            theme.fg(Color::Yellow).patch(theme.strong())
+        } else {
+            theme.fg(Color::Reset)
+        }),
+        Cell::from(num(fit.p_hyperbolic, 3)),
+        Cell::from(e),
+    ];
+    if wide {
+        cells.push(Cell::from(match (fit.q_au, fit.q_sigma) {
+            (Some(q), Some(s)) => format!("{q:.3}±{s:.3}"),
+            (q, _) => num(q, 3),
+        }));
+        cells.push(Cell::from(num(fit.i_deg, 1)));
+        cells.push(Cell::from(format!("{:.2}", fit.arc_days)));
+        cells.push(Cell::from(fit.n_nights.to_string()));
+    } else {
+        cells.push(Cell::from(num(fit.q_au, 2)));
+        cells.push(Cell::from(format!("{:.1}", fit.arc_days)));
+    }
+    // Used of all known: positions the observer excluded count in the total (it once
+    // shrank with every exclusion).
+    cells.push(Cell::from(format!(
+        "{}/{}",
+        fit.n_used,
+        fit.n_obs.max(c.n_known)
+    )));
+    if wide {
+        cells.push(Cell::from(num(fit.rms_arcsec, 2)));
+        cells.push(Cell::from(match fit.method {
+            FitMethod::Ranging => "ranging",
+            FitMethod::LeastSquares => "lsq",
+        }));
+    }
+    cells.push(Cell::from(status).style(match fit.status {
+        FitStatus::Ok => theme.fg(Color::Green),
+        FitStatus::Undetermined => theme.fg(Color::Yellow),
+        FitStatus::PoorFit => theme.fg(Color::Magenta),
+        FitStatus::Failed => theme.fg(Color::Red),
+    }));
+    cells.push(Cell::from(decision_text(
+        c,
+        &app.me,
+        usize::from(decision_w),
+    )));
+    cells
+}
+
 pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
     let wide = area.width >= WIDE_FROM;
     let header_cells: Vec<&str> = if wide {
@@ -132,67 +201,7 @@ pub fn draw(f: &mut Frame, area: Rect, app: &App, theme: Theme) {
         .enumerate()
         .map(|(k, &i)| {
             let c = &app.candidates[i];
-            let fit = &c.fit;
-            let status = fit.status.label();
-            let e = match (fit.e, fit.e_sigma) {
-                (Some(e), Some(s)) => value_pm(e, s),
-                (Some(e), None) => format!("{e:.3} (rng)"),
-                _ => "-".into(),
-            };
-            let mut cells = vec![
-                Cell::from(format!(
-                    "{}{}",
-                    c.fresh.mark().symbol(),
-                    crate::report::id_within(
-                        &clean(&fit.object),
-                        usize::from(object_w).saturating_sub(1)
-                    )
-                )),
-                Cell::from(score_text(c)).style(if strong(fit) {
-                    theme.fg(Color::Yellow).patch(theme.strong())
-                } else {
-                    theme.fg(Color::Reset)
-                }),
-                Cell::from(num(fit.p_hyperbolic, 3)),
-                Cell::from(e),
-            ];
-            if wide {
-                cells.push(Cell::from(match (fit.q_au, fit.q_sigma) {
-                    (Some(q), Some(s)) => format!("{q:.3}±{s:.3}"),
-                    (q, _) => num(q, 3),
-                }));
-                cells.push(Cell::from(num(fit.i_deg, 1)));
-                cells.push(Cell::from(format!("{:.2}", fit.arc_days)));
-                cells.push(Cell::from(fit.n_nights.to_string()));
-            } else {
-                cells.push(Cell::from(num(fit.q_au, 2)));
-                cells.push(Cell::from(format!("{:.1}", fit.arc_days)));
-            }
-            // Used of all known: positions the observer excluded count in the total (it once
-            // shrank with every exclusion).
-            cells.push(Cell::from(format!(
-                "{}/{}",
-                fit.n_used,
-                fit.n_obs.max(c.n_known)
-            )));
-            if wide {
-                cells.push(Cell::from(num(fit.rms_arcsec, 2)));
-                cells.push(Cell::from(match fit.method {
-                    FitMethod::Ranging => "ranging",
-                    FitMethod::LeastSquares => "lsq",
-                }));
-            }
-            cells.push(Cell::from(status).style(match fit.status {
-                FitStatus::Ok => theme.fg(Color::Green),
-                FitStatus::Undetermined => theme.fg(Color::Yellow),
-                FitStatus::PoorFit => theme.fg(Color::Magenta),
-                FitStatus::Failed => theme.fg(Color::Red),
-            }));
-            cells.push(Cell::from(decision_text(
-                c,
-                &app.me,
-                usize::from(decision_w),
-            )));
+            let cells = row_cells(c, app, theme, wide, (object_w, decision_w));
             let row = Row::new(cells);
             if offset + k == sel {
                 row.style(theme.selected())
