@@ -89,6 +89,22 @@ fn check(file: &str) -> (usize, usize) {
             profiled += 1;
             assert!(r.z_linear.is_none(), "{id}: linear z {:?}", r.z_linear);
             assert!(!r.distrust_linear.is_empty(), "{id}: no reason given");
+            // Each kind of reason once (the first fit's and the refit's once both stood, with
+            // different numbers).
+            let kinds: Vec<String> = r
+                .distrust_linear
+                .iter()
+                .map(|w| {
+                    w.split_whitespace()
+                        .take_while(|x| !x.chars().any(|c| c.is_ascii_digit()))
+                        .collect::<Vec<_>>()
+                        .join(" ")
+                })
+                .collect();
+            let mut unique = kinds.clone();
+            unique.sort();
+            unique.dedup();
+            assert_eq!(unique.len(), kinds.len(), "{id}: {:?}", r.distrust_linear);
         }
     }
     eprintln!(

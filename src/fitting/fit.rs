@@ -278,8 +278,9 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
         // The profile's refit may look linear again; the doubts and the reasons were found about
         // this minimum, and they are why the record's P is not the linear one: no linear z.
         doubts.mark(&mut r);
+        // The same reason about the profile's refit (its numbers differ) is said once, the refit's.
         for why in first_reasons {
-            if !r.distrust_linear.contains(&why) {
+            if !r.distrust_linear.iter().any(|w| same_reason(w, &why)) {
                 r.distrust_linear.push(why);
             }
         }
@@ -299,6 +300,16 @@ fn fit_multi_night(inputs: &super::twonight::ArcInputs) -> FitResult {
     // The profile could not answer (or no orbit fits): the linear answer stands, with the warnings.
     doubts.mark(&mut r);
     r
+}
+
+/// Two reasons of one kind: the same words up to the first number ("range known to 9 %" and
+/// "range known to 11 %").
+fn same_reason(a: &str, b: &str) -> bool {
+    fn words(s: &str) -> impl Iterator<Item = &str> {
+        s.split_whitespace()
+            .take_while(|w| !w.chars().any(|c| c.is_ascii_digit()))
+    }
+    words(a).eq(words(b))
 }
 
 /// Every way out of least squares is the same: answer along the range profile (ranging if even that
