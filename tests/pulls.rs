@@ -3,7 +3,7 @@
 //! observed with ERFA site vectors and light time), 250 noise realisations each, noise drawn here. The
 //! pulls (e − e_true)/σ_e of fits with one solution must have sd in [0.9, 1.1] and ≥ 99 % within 3σ,
 //! and no fit far off (|pull| > 5) may be reported as a clean answer; a fit whose scan found a second
-//! valley lists it (and its weight in P), and is counted apart.
+//! valley lists it (and its weight in P), and is counted apart; over all fits, ≥ 97 % lie within 3σ.
 //!
 //! Where e curves within 1σ (short main-belt arcs), σ_e is the spread of the likelihood over orbits
 //! drawn about the fit, a Bayesian interval: it covers at least its nominal share but is wider than the
@@ -33,6 +33,16 @@ struct Summary {
     far_and_clean: usize,
     /// Shares of the fits whose central 68.27 % and 95 % intervals of e hold the true e.
     covered: [f64; 2],
+    /// Pull sd and share within 3σ over every fit, those listing another solution included.
+    every: (f64, f64),
+}
+
+/// Sample sd and share within 3 of a set of pulls.
+fn spread(p: &[f64]) -> (f64, f64) {
+    let n = p.len() as f64;
+    let mean = p.iter().sum::<f64>() / n;
+    let sd = (p.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+    (sd, p.iter().filter(|x| x.abs() <= 3.0).count() as f64 / n)
 }
 
 fn pulls(name: &str, seed: u64) -> Summary {
@@ -42,6 +52,7 @@ fn pulls(name: &str, seed: u64) -> Summary {
     let opts = FitOptions::default();
     let mut rng = SplitMix::new(seed);
     let mut p = Vec::new();
+    let mut every = Vec::new();
     let mut far_and_clean = 0;
     let mut two_solutions = 0;
     let mut missed = 0;
@@ -52,6 +63,7 @@ fn pulls(name: &str, seed: u64) -> Summary {
             continue;
         };
         let pull = (e - te) / s;
+        every.push(pull);
         if std::env::var("PULL_ALL").is_ok() {
             eprintln!(
                 "  ALL {pull:.2} {} {:?} {} e {:?} {:?}",
@@ -60,7 +72,12 @@ fn pulls(name: &str, seed: u64) -> Summary {
         }
         if std::env::var("PULL_DEBUG").is_ok() && pull.abs() > 3.0 {
             eprintln!(
-                "  e {e:.4} ± {s:.4} (truth {te:.4}) method {} from {} dyn {} chi2 {:?} alts {} distrust {:?} poor {:?}",
+                "  e {e:.4} ± {s:.4} (truth {te:.4}) status {} alts {:?} method {} from {} dyn {} chi2 {:?} alts {} distrust {:?} poor {:?}",
+                r.status,
+                r.alternatives
+                    .iter()
+                    .map(|a| (a.e, a.probability))
+                    .collect::<Vec<_>>(),
                 r.method,
                 r.probability_from,
                 r.dynamics,
@@ -116,9 +133,10 @@ fn pulls(name: &str, seed: u64) -> Summary {
         within3,
         far_and_clean,
         covered: held.map(|h| h as f64 / n),
+        every: spread(&every),
     };
     eprintln!(
-        "{name}: {} fits with one solution ({} more listing a second), pull mean {:+.3} sd {:.3}, within 1σ/2σ/3σ {:.1}/{:.1}/{:.1} %, max |pull| {:.2}, {} far off yet clean; the 68 % and 95 % intervals of e hold the truth in {:.1} and {:.1} %",
+        "{name}: {} fits with one solution ({} more listing a second), pull mean {:+.3} sd {:.3}, within 1σ/2σ/3σ {:.1}/{:.1}/{:.1} %, max |pull| {:.2}, {} far off yet clean; the 68 % and 95 % intervals of e hold the truth in {:.1} and {:.1} %; over all {} fits pull sd {:.3}, within 3σ {:.1} %",
         s.n,
         s.two_solutions,
         s.mean,
@@ -129,7 +147,10 @@ fn pulls(name: &str, seed: u64) -> Summary {
         p.iter().fold(0.0f64, |m, x| m.max(x.abs())),
         s.far_and_clean,
         100.0 * s.covered[0],
-        100.0 * s.covered[1]
+        100.0 * s.covered[1],
+        every.len(),
+        s.every.0,
+        100.0 * s.every.1
     );
     s
 }
@@ -150,6 +171,14 @@ fn common_checks(name: &str, seed: u64) -> Summary {
     assert_eq!(s.far_and_clean, 0, "{name}");
     assert!(s.sd <= 1.1, "{name}: sd {}", s.sd);
     assert!(s.within3 >= 0.99, "{name}: within 3σ {}", s.within3);
+    // Over every fit, those listing another solution too: a solution holding 95 % of the posterior
+    // has its own σ (a far valley of 0.04 % once widened σ_e forty times, pull sd 0.71 over all), and
+    // the truth lies in a listed minor solution about as often as the shares say.
+    assert!(
+        s.every.1 >= 0.97,
+        "{name}: within 3σ over all fits {}",
+        s.every.1
+    );
     // The central intervals hold the truth in their nominal share, within three binomial standard
     // errors over up to 250 fits (68.27 ± 8.8 %, 95 ± 4.1 %), lopsided e included.
     let [c68, c95] = s.covered;

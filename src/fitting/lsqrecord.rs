@@ -68,6 +68,9 @@ pub struct Given {
     pub weights: Vec<f64>,
     /// The range of e the positions alone allow (`FitResult::e_data_interval`).
     pub e_data_interval: Option<[f64; 2]>,
+    /// Which states belong to the answer's own solution, where the posterior has others apart from
+    /// it (the element σ and intervals describe the answer; P and the kept orbits weigh them all).
+    pub solution: Option<Vec<bool>>,
 }
 
 pub fn lsq_result(
@@ -105,8 +108,7 @@ pub fn lsq_result(
             out.e_data_interval = g.e_data_interval;
             super::spreads::sample_spreads(
                 &mut out,
-                &g.states,
-                &g.weights,
+                (&g.states, &g.weights, g.solution.as_deref()),
                 (fit.epoch.value(), shift),
                 opts.seed,
                 super::spreads::Headline::MedianE,
@@ -376,8 +378,7 @@ fn lsq_probability(
     }
     super::spreads::sample_spreads(
         out,
-        &set.states,
-        &set.weights,
+        (&set.states, &set.weights, None),
         (fit.epoch.value(), shift),
         opts.seed,
         super::spreads::Headline::MedianE,

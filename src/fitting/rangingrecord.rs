@@ -124,8 +124,7 @@ fn fill_ranging(
         .unzip();
     super::spreads::sample_spreads(
         out,
-        &states,
-        &weights,
+        (&states, &weights, None),
         (epoch.value(), shift),
         opts.seed,
         super::spreads::Headline::Central,

@@ -117,17 +117,33 @@ fn element_sigmas(els: &[CometaryElements], weights: &[f64]) -> ElementSigmas {
 
 /// Element uncertainties from weighted samples (which follow the real, curved distribution), and
 /// the orbits kept for ephemerides. One σ per quantity: the samples' spreads stand in the table, the
-/// orbit pane and the JSON alike.
+/// orbit pane and the JSON alike. With `solution`, the spreads, intervals and values are those of the
+/// states it marks (the answer's own solution: another, listed apart with its share, would widen σ
+/// by the distance between them, a valley of 0.04 % forty times); the kept orbits are drawn from all.
 pub fn sample_spreads(
     out: &mut FitResult,
-    states: &[S6],
-    weights: &[f64],
+    (states, weights, solution): (&[S6], &[f64], Option<&[bool]>),
     (epoch, shift): (f64, &S6),
     seed: u64,
     headline: Headline,
 ) {
     let (all_states, all_weights) = (states, weights);
-    let (states, weights) = &weighty(states, weights);
+    let own: (Vec<S6>, Vec<f64>) = match solution {
+        Some(mask)
+            if mask.len() == states.len()
+                && mask.iter().zip(weights).any(|(m, w)| *m && *w > 0.0) =>
+        {
+            states
+                .iter()
+                .zip(weights)
+                .zip(mask)
+                .filter(|(_, m)| **m)
+                .map(|((s, w), _)| (*s, *w))
+                .unzip()
+        }
+        _ => (states.to_vec(), weights.to_vec()),
+    };
+    let (states, weights) = &weighty(&own.0, &own.1);
     let els = elements_of(states, epoch, Centre::Sun);
     let sig = element_sigmas(&els, weights);
     out.e_sigma = Some(sig.e);
@@ -341,8 +357,7 @@ mod tests {
         let mut out = FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
         sample_spreads(
             &mut out,
-            &states,
-            &weights,
+            (&states, &weights, None),
             (0.0, &S6::zeros()),
             1,
             Headline::MedianE,
@@ -351,6 +366,62 @@ mod tests {
         assert!((e - 1.006).abs() < 1e-9, "{e}");
         // Its other elements are that same orbit's (q 1 au at perihelion).
         assert!((out.q_au.unwrap() - 1.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn a_solution_of_its_own_has_its_own_sigma_while_the_kept_orbits_span_every_solution() {
+        // A clump at e 0.10–0.12 holding 96 % of the weight and a far solution at e 0.9 holding 4 %
+        // (normalised over both, as a profile hands them over). Over both, σ_e is about 0.16; over
+        // the clump alone, the clump's own spread (0.0082 for three equal weights 0.01 apart).
+        let es = [0.10, 0.11, 0.12, 0.9];
+        let weights = [0.32, 0.32, 0.32, 0.04];
+        let states: Vec<S6> = es.iter().map(|e| at_perihelion(*e)).collect();
+        let blank = || FitResult::empty(&Tracklet::new("x".into(), "x".into(), Vec::new()));
+        let mut whole = blank();
+        sample_spreads(
+            &mut whole,
+            (&states, &weights, None),
+            (0.0, &S6::zeros()),
+            1,
+            Headline::MedianE,
+        );
+        assert!(
+            (whole.e_sigma.unwrap() - 0.155).abs() < 1e-3,
+            "{:?}",
+            whole.e_sigma
+        );
+        let mut own = blank();
+        let mask = [true, true, true, false];
+        sample_spreads(
+            &mut own,
+            (&states, &weights, Some(&mask)),
+            (0.0, &S6::zeros()),
+            1,
+            Headline::MedianE,
+        );
+        let clump = (2.0f64 / 3.0).sqrt() * 0.01;
+        assert!(
+            (own.e_sigma.unwrap() - clump).abs() < 1e-9,
+            "{:?}",
+            own.e_sigma
+        );
+        let [lo, hi] = own.e_interval_95.unwrap();
+        assert!(lo >= 0.1 - 1e-9 && hi <= 0.12 + 1e-9, "{lo} {hi}");
+        assert!((own.e.unwrap() - 0.11).abs() < 1e-9);
+        // A mask that marks nothing of weight is no solution: the spreads are the whole set's.
+        let mut none = blank();
+        sample_spreads(
+            &mut none,
+            (&states, &[0.0, 0.0, 0.0, 1.0], Some(&mask)),
+            (0.0, &S6::zeros()),
+            1,
+            Headline::MedianE,
+        );
+        assert_eq!(none.e, Some(states_e(&states[3])));
+    }
+
+    fn states_e(x: &S6) -> f64 {
+        elements_of(&[*x], 0.0, Centre::Sun)[0].e
     }
 
     #[test]

@@ -119,7 +119,12 @@ pub fn fit_by_profile(
     // A profile without a posterior is a gross misfit: the record still shows the best attempt and
     // its residuals, with P along the energy line of that fit (it ranks among the poor fits anyway).
     let v_cap = opts.ranging.v_cap_km_s / AU_PER_DAY_TO_KM_S;
-    let given = given(&prof, &frame, shift, v_cap);
+    let solution = solution_of(
+        &prof,
+        (&ids, &share),
+        home_valley(&prof, &ids, &frame, &fit),
+    );
+    let given = given(&prof, &frame, shift, v_cap).map(|g| Given { solution, ..g });
     let alternatives: Vec<LsqFit> = others.iter().map(|(f, _)| f.clone()).collect();
     let mut out = lsq_result(
         &p,
@@ -208,8 +213,37 @@ fn given(prof: &Profile, frame: &Frame, sun_bary: &S6, v_cap: f64) -> Option<Giv
         states: prof.nodes.iter().map(|n| n.state).collect(),
         weights: raw.iter().map(|w| w / total).collect(),
         e_data_interval: e_data_interval(prof, frame, sun_bary, v_cap),
+        solution: None,
     })
 }
+
+/// The valley of the profile the reported fit lies in.
+fn home_valley(prof: &Profile, ids: &[usize], frame: &Frame, fit: &LsqFit) -> usize {
+    let (_, rho_fit) = frame.params(&fit.state);
+    prof.slices
+        .iter()
+        .position(|s| s.rho >= rho_fit)
+        .map_or(ids.last().copied().unwrap_or(0), |k| ids[k])
+}
+
+/// The nodes of valley `home`, where the profile has other valleys and `home` holds at least
+/// `OWN_SOLUTION_SHARE` of the posterior (None otherwise: one valley, or an answer uncertain between
+/// valleys, whose σ then spans them).
+fn solution_of(prof: &Profile, (ids, share): (&[usize], &[f64]), home: usize) -> Option<Vec<bool>> {
+    let total: f64 = share.iter().sum();
+    let own = share.get(home).copied().unwrap_or(0.0);
+    if !(total > 0.0 && own >= OWN_SOLUTION_SHARE * total) {
+        return None;
+    }
+    let mask: Vec<bool> = prof.nodes.iter().map(|n| ids[n.k_rho] == home).collect();
+    (!mask.iter().all(|m| *m)).then_some(mask)
+}
+
+/// A valley holding this share of the posterior is a solution of its own: its σ and intervals are its
+/// own, and the others are listed apart with their shares (a far valley of 0.04 % widened σ_e forty
+/// times, 2.4 ± 1.0 for a core of ± 0.025). Below it the answer is uncertain between valleys and σ
+/// spans them.
+pub const OWN_SOLUTION_SHARE: f64 = 0.95;
 
 /// Valley number of every slice and each valley's (unnormalised) posterior weight.
 fn valley_shares(prof: &Profile) -> (Vec<usize>, Vec<f64>) {
@@ -240,12 +274,7 @@ fn other_valleys(
 ) -> Vec<(LsqFit, f64)> {
     let n = share.len();
     let total: f64 = share.iter().sum::<f64>().max(1e-300);
-    let (_, rho_fit) = frame.params(&fit.state);
-    let home = prof
-        .slices
-        .iter()
-        .position(|s| s.rho >= rho_fit)
-        .map_or(n.saturating_sub(1), |k| ids[k]);
+    let home = home_valley(prof, ids, frame, fit);
     // Compared on the positions the reported fit kept.
     let used = &fit.used;
     (0..n)
