@@ -19,17 +19,7 @@ use interloper::fitting::kinds::ProbabilitySource;
 use interloper::fitting::posterior::z_of_ln_odds;
 
 fn fit_sky(file: &str) -> Vec<FitResult> {
-    let mut sites = SiteTable::builtin();
-    let text = std::fs::read_to_string(util::reference_path("population_sky/sites.toml")).unwrap();
-    sites.load_toml("sites.toml", &text).unwrap();
-    let bytes = std::fs::read(util::reference_path(&format!("population_sky/{file}"))).unwrap();
-    let intake = read_bytes(file, &bytes, &sites, &Limits::default());
-    assert!(intake.errors.is_empty(), "{:?}", intake.errors.first());
-    let opts = FitOptions {
-        origin: None,
-        ..FitOptions::default()
-    };
-    fit_all(merge(intake.tracklets), &opts, 2)
+    util::fit_population_sky(file)
 }
 
 fn check(file: &str) -> (usize, usize) {

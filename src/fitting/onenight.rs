@@ -246,8 +246,9 @@ fn summarise(
     let chi2_dof = att.chi2 / att.dof.max(1) as f64;
     out.chi2_per_dof = Some(chi2_dof);
     out.residuals = super::lsqrecord::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
-    // χ²/dof above 3 alone called 5 % of clean nights of three or four positions poor (two degrees of
-    // freedom: P(χ²(2) > 6) = e⁻³); it must also be improbable under the positions' own errors.
+    // χ²/dof above 3 alone called 5 % of clean nights of four positions poor (two degrees of freedom:
+    // P(χ²(2) > 6) = e⁻³); it must also be improbable under the positions' own errors. (A night of
+    // three has no degree of freedom about its parabola: `bends_as_no_orbit` tests it.)
     let improbable = super::stats::chi2_survival_even(att.chi2, att.dof)
         .is_none_or(|p| p < super::quality::NIGHT_DISAGREES_P);
     if att.dof > 0 && chi2_dof > super::quality::MAX_CHI2_PER_DOF && improbable {
@@ -255,11 +256,34 @@ fn summarise(
             "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"
         ));
     }
+    if let Some(why) = bends_as_no_orbit(arc) {
+        out.poor_fit.push(why);
+    }
     out.status = if out.poor_fit.is_empty() {
         FitStatus::Ok
     } else {
         FitStatus::PoorFit
     };
+}
+
+/// Where the night measures its path's curvature, whether no trial orbit bends as the positions do:
+/// the smallest curvature χ² over the quadrature's orbits (every distance and radial speed up to the
+/// speed cap) is improbable under the positions' errors (χ²(2)). A night of three positions has no
+/// other test (its parabola fits them exactly); a close, fast body curves within the hour (diurnal
+/// parallax and the Coriolis-like 2ρ̇u̇/ρ) and a straight line once called ten interstellar nights of
+/// the population sky poor, ranking them under every bound one.
+fn bends_as_no_orbit(arc: &super::shortarc::ShortArc) -> Option<String> {
+    arc.attributable.curvature?;
+    let best = arc
+        .nodes
+        .iter()
+        .map(|n| n.chi2)
+        .fold(f64::INFINITY, f64::min);
+    let improbable = super::stats::chi2_survival_even(best, 2)
+        .is_some_and(|p| p < super::quality::NIGHT_DISAGREES_P);
+    (best.is_finite() && improbable).then(|| {
+        format!("positions bend as no orbit does: curvature chi2 {best:.1} for the best of them")
+    })
 }
 
 /// The 2.5, 15.87, 50, 84.13 and 97.5 % points of an element over equally weighted orbits.

@@ -101,7 +101,7 @@ pub fn attributable(tr: &Tracklet, cov: &[Matrix2<f64>]) -> Option<Attributable>
     let t: Vec<f64> = tr.obs.iter().map(|o| o.time.tdb.minus(t0)).collect();
     let gx: Vec<f64> = dirs.iter().map(|d| d.dot(&e_a0) / d.dot(&u0)).collect();
     let gy: Vec<f64> = dirs.iter().map(|d| d.dot(&e_d0) / d.dot(&u0)).collect();
-    let degree = if n >= 4 { 2 } else { 1 };
+    let degree = if n >= 3 { 2 } else { 1 };
     // Both coordinates at once, each position weighted by its full covariance (a correlation
     // between its RA and Dec errors was once dropped here).
     let fit = super::nightpoly::fit(&t, &gx, &gy, cov, degree)?;

@@ -12,6 +12,24 @@ pub fn reference_path(name: &str) -> PathBuf {
         .join(name)
 }
 
+/// Every record of one file of the population-model sky (tests/reference/data/population_sky, written
+/// by tests/reference/make_population_sky.py) with its own site table, fitted on two threads without
+/// origin sheets.
+pub fn fit_population_sky(file: &str) -> Vec<interloper::fitting::fit::FitResult> {
+    use interloper::feed::tracklets::{Limits, merge, read_bytes};
+    let mut sites = interloper::feed::sites::SiteTable::builtin();
+    let text = std::fs::read_to_string(reference_path("population_sky/sites.toml")).unwrap();
+    sites.load_toml("sites.toml", &text).unwrap();
+    let bytes = std::fs::read(reference_path(&format!("population_sky/{file}"))).unwrap();
+    let intake = read_bytes(file, &bytes, &sites, &Limits::default());
+    assert!(intake.errors.is_empty(), "{:?}", intake.errors.first());
+    let opts = interloper::fitting::fit::FitOptions {
+        origin: None,
+        ..interloper::fitting::fit::FitOptions::default()
+    };
+    interloper::fitting::batch::fit_all(merge(intake.tracklets), &opts, 2)
+}
+
 /// Every synthetic arc's truth (tests/reference/data/synthetic/truth.json, written by
 /// tests/reference/make_synthetic.py).
 pub fn synthetic_truth() -> Vec<serde_json::Value> {
