@@ -49,7 +49,8 @@ word_enum!(
         /// A usable orbit.
         Ok => "ok",
         /// An orbit that fits the positions, but they leave its elements open: the population model,
-        /// not the data, narrowed e ± σ (`FitResult::mark_undetermined`). P is still the posterior.
+        /// not the data, narrowed e ± σ or chose between solutions that fit nearly alike
+        /// (`FitResult::mark_undetermined`). P is still the posterior.
         Undetermined => "undetermined",
         /// An orbit that does not fit the positions well (the reasons are in `poor_fit`).
         PoorFit => "poor-fit",

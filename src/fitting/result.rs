@@ -204,14 +204,24 @@ impl FitResult {
     /// posterior's central 95 % interval, or does not hold the e shown at all (the model's spike of
     /// near-parabolic comets can hold the posterior's e where the positions allow only e ≥ 1.2). A pull
     /// of such an e against an orbit the model finds rare can be many σ: the record must not call it ok.
+    /// Likewise where another solution fits nearly as well (within `ALTERNATIVE_DCHI2`) with an e
+    /// outside this one's 95 % interval: the positions leave e open between them, and the posterior's
+    /// choice of valley is the model's (a strongly hyperbolic three-night arc headlined e 18.5 ± 0.6,
+    /// `ok`, for a true 2.4 listed at Δχ² +5.4 and 3 % of the posterior).
     pub fn mark_undetermined(&mut self) {
         // The positions' range is a little narrow where slices are sparse: a tenth of σ of slack.
         let slack = 0.1 * self.e_sigma.unwrap_or(0.0);
-        if self.status == super::kinds::FitStatus::Ok
-            && let (Some([dl, dh]), Some([pl, ph]), Some(e)) =
-                (self.e_data_interval, self.e_interval_95, self.e)
-            && (dh - dl > MODEL_NARROWED * (ph - pl) || !(dl - slack..=dh + slack).contains(&e))
-        {
+        let narrowed = matches!(
+            (self.e_data_interval, self.e_interval_95, self.e),
+            (Some([dl, dh]), Some([pl, ph]), Some(e))
+                if dh - dl > MODEL_NARROWED * (ph - pl) || !(dl - slack..=dh + slack).contains(&e)
+        );
+        let open = self.e_interval_95.is_some_and(|[lo, hi]| {
+            self.alternatives.iter().any(|a| {
+                a.delta_chi2 < super::search::ALTERNATIVE_DCHI2 && !(lo..=hi).contains(&a.e)
+            })
+        });
+        if self.status == super::kinds::FitStatus::Ok && (narrowed || open) {
             self.status = super::kinds::FitStatus::Undetermined;
         }
     }

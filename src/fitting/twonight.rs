@@ -14,7 +14,7 @@ use super::profile::{DensityContext, Frame, GridInputs, Profile, ProfileOptions,
 use super::rangescan::valley_ids;
 use super::result::FitResult;
 use super::search::ScanStart;
-use super::search::{competitive, same_minimum};
+use super::search::{cleaned, competitive, same_minimum};
 use super::stats::relative_weights;
 use crate::physics::constants::{AU_PER_DAY_TO_KM_S, MU_SUN};
 use crate::physics::frames::unit_from_radec;
@@ -291,7 +291,14 @@ fn other_valleys(
             if w < MIN_VALLEY_SHARE && !competitive(floor.chi2, fit) {
                 return None;
             }
-            let f = correct(p, &frame.state(&floor.a, floor.rho), used, &opts.lsq).ok()?;
+            let x = frame.state(&floor.a, floor.rho);
+            let f = correct(p, &x, used, &opts.lsq).ok()?;
+            // On the positions it keeps where those fit it better than the reported fit's do (a wild
+            // position the reported fit bends to keep).
+            let f = match cleaned(p, &opts.lsq, fit, &x) {
+                Some(c) if !f.converged || c.chi2 < f.chi2 => c,
+                _ => f,
+            };
             (f.converged && f.cov.is_some() && !same_minimum(fit, &f)).then_some((f, w))
         })
         .fold(Vec::new(), |mut kept: Vec<(LsqFit, f64)>, (f, w)| {
