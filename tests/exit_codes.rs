@@ -66,6 +66,16 @@ fn bad_times_and_ranges_are_usage_errors() {
             "--step",
             "0h",
         ],
+        // Past the Earth model's dates, as before the leap-second table (this once failed the
+        // fits, exit 1, at the far end only).
+        vec![
+            "--from",
+            "2150-06-01T00:00:00Z",
+            "--to",
+            "2150-06-01T02:00:00Z",
+            "--step",
+            "1h",
+        ],
     ] {
         let mut a = vec!["ephem", "--site", "TV1"];
         a.extend(args.iter().copied());
@@ -252,4 +262,33 @@ fn a_site_code_table_with_no_site_in_it_is_a_usage_error() {
     assert_eq!(code, Some(2), "{err}");
     assert!(err.contains("no site could be read"), "{err}");
     assert!(err.contains("line 2"), "{err}");
+}
+
+#[test]
+fn a_bad_solar_motion_is_a_usage_error_in_the_table_too() {
+    // Regression: without --json the value was never read, and the run ended 0.
+    let f = feed();
+    for extra in [&["--json"][..], &[][..]] {
+        let mut a = vec!["fit", "--solar-motion", "abc"];
+        a.extend(extra);
+        a.push(&f);
+        let (code, err) = run(&a);
+        assert_eq!(code, Some(2), "{extra:?}: {err}");
+        assert!(err.contains("--solar-motion"), "{err}");
+    }
+}
+
+#[test]
+fn inputs_without_a_tracklet_say_so_and_end_well() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path().to_str().unwrap();
+    for args in [
+        vec!["fit", d],
+        vec!["origin", d],
+        vec!["plan", "--site", "TV1", "--night", "2027-02-27", d],
+    ] {
+        let (code, err) = run(&args);
+        assert_eq!(code, Some(0), "{args:?}: {err}");
+        assert!(err.contains("no tracklets found in"), "{args:?}: {err}");
+    }
 }

@@ -260,3 +260,18 @@ fn a_named_object_gets_its_sheet_with_at_least_the_samples_asked() {
     // Bound now and before the planets.
     assert!(r["origin"]["inv_a_orig_per_au"].as_f64().unwrap() > 0.0);
 }
+
+/// Half of the samples flown are followed through the Galaxy: 3 asked, 4 flown, 2 followed (one once,
+/// with every spread null).
+#[test]
+fn half_of_an_odd_count_rounded_up_is_followed_through_the_galaxy() {
+    let f = synthetic("hyp_strong_3n");
+    let (code, out, err) = run(&["origin", "--json", "--samples", "3", &f]);
+    assert_eq!(code, Some(0), "{err}");
+    let recs = records(&out);
+    let o = &recs[0]["origin"];
+    let flown = o["samples"].as_u64().unwrap();
+    let followed = o["galactic_orbit"]["samples"].as_u64().unwrap();
+    assert_eq!(followed, flown.div_ceil(2), "{o}");
+    assert!(followed >= 2, "{o}");
+}

@@ -261,6 +261,11 @@ fn time_grid(args: &EphemArgs) -> anyhow::Result<(Instant, Vec<f64>)> {
     };
     let from = time("--from", &args.from)?;
     let to = time("--to", &args.to)?;
+    // A table that starts past the Earth model's dates has nothing to compute: a usage error, as a
+    // time before the leap-second table is (one that runs past them writes what it can, exit 1).
+    if let Err(e) = interloper::physics::earth::earth_state(from.tdb) {
+        crate::usage!("--from {}: {e}", clean(&args.from));
+    }
     let step = parse_step(&args.step).map_err(|e| crate::cli::Usage(format!("--step {e:#}")))?;
     let span = to.tt.minus(from.tt);
     if span < 0.0 {

@@ -87,12 +87,18 @@ pub enum Perturb {
 impl FitArgs {
     pub fn options(&self) -> anyhow::Result<FitOptions> {
         let population = self.population.load()?;
+        // A bad value is a usage error in either form, though only the JSON carries the origin sheet.
+        let solar_motion = self
+            .solar_motion
+            .as_deref()
+            .map(super::origin::parse_solar_motion)
+            .transpose()?;
         let mut o = FitOptions {
             // The origin sheet is part of the JSON record only (the table has no room for it).
             origin: if self.json {
                 let mut o = interloper::fitting::origin::OriginOptions::for_model(&population);
-                if let Some(s) = &self.solar_motion {
-                    o.frame.solar_motion_km_s = super::origin::parse_solar_motion(s)?;
+                if let Some(v) = solar_motion {
+                    o.frame.solar_motion_km_s = v;
                 }
                 Some(o)
             } else {
@@ -155,6 +161,9 @@ pub fn run(args: &FitArgs) -> anyhow::Result<i32> {
         tracklets.extend(intake.tracklets);
     }
     let mut tracklets = interloper::feed::tracklets::merge(tracklets);
+    if tracklets.is_empty() && input_errors == 0 {
+        eprintln!("{}", super::inputs::nothing_found(&args.paths));
+    }
     if let Some(shard) = args.shard {
         tracklets.retain(|t| shard.holds(&t.object));
     }

@@ -361,7 +361,20 @@ pub fn read_tracklets(
         input_errors += intake.errors.len();
         tracklets.extend(intake.tracklets);
     }
+    if tracklets.is_empty() && input_errors == 0 {
+        eprintln!("{}", nothing_found(paths));
+    }
     Ok((interloper::feed::tracklets::merge(tracklets), input_errors))
+}
+
+/// What stderr says when the inputs held no tracklet at all (and nothing was refused): an empty
+/// directory is not an error, but silence would look like one that worked.
+pub fn nothing_found(paths: &[PathBuf]) -> String {
+    let names: Vec<String> = paths
+        .iter()
+        .map(|p| interloper::feed::sanitize::clean(&p.display().to_string()))
+        .collect();
+    format!("no tracklets found in {}", names.join(", "))
 }
 
 /// Keep only the tracklets of `objects` (all when empty); naming objects that match nothing is a usage

@@ -74,7 +74,8 @@ impl OriginArgs {
         origin.samples = self.samples;
         // A named object gets its sheet whatever its P.
         origin.any_probability = !self.objects.is_empty();
-        origin.galactic_samples = (self.samples / 2).max(1);
+        // Half of the samples flown, which are whole pairs (an odd count is rounded up).
+        origin.galactic_samples = self.samples.div_ceil(2);
         Ok(FitOptions {
             population,
             origin: Some(origin),

@@ -89,7 +89,7 @@ fn plan_sites(
                     .and_then(|u| u.instant())
                     .map_err(|_| {
                         crate::cli::Usage(format!(
-                            "--night '{}' is not a date (YYYY-MM-DD) between 1972 and 2100",
+                            "--night '{}' is not a date (YYYY-MM-DD) from 1972-01-01 to 2099-12-30",
                             clean(night)
                         ))
                     })?;

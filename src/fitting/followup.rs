@@ -198,24 +198,29 @@ pub struct Gain {
 }
 
 /// Fisher update of the predictor's covariance by positions with partials `jacs`, each with a
-/// one-coordinate accuracy of `sigma_arcsec` (a sequence of rank-2 updates, kept symmetric).
+/// one-coordinate accuracy of `sigma_arcsec`: a sequence of rank-2 updates in Joseph's form, which
+/// stays positive where the covariance is enormous (a two-night arc with σ(e) near 3,000 once came
+/// out of the short form with σ(e) larger after the night than before). Information only ever
+/// narrows a σ: one that rounding widens is the σ before.
 pub fn gain(pred: &Predictor, jacs: &[Matrix2x6<f64>], sigma_arcsec: f64) -> Option<Gain> {
     let r = Matrix2::identity() * (sigma_arcsec * ARCSEC).powi(2);
     let mut cov = pred.cov;
     for j in jacs {
         let s = j * cov * j.transpose() + r;
         let k = cov * j.transpose() * s.try_inverse()?;
-        cov -= k * j * cov;
+        let keep = M6::identity() - k * j;
+        cov = keep * cov * keep.transpose() + k * r * k.transpose();
         cov = (cov + cov.transpose()) * 0.5;
     }
     let sig = |g: &RowVector6<f64>, c: &M6| (g * c * g.transpose())[0].max(0.0).sqrt();
-    let (s0, s1) = (pred.sigma(&pred.g_inv_a), sig(&pred.g_inv_a, &cov));
+    let (s0, e0) = (pred.sigma(&pred.g_inv_a), pred.sigma(&pred.g_e));
+    let s1 = sig(&pred.g_inv_a, &cov).min(s0);
     Some(Gain {
         inv_a_sigma_now: s0,
-        inv_a_sigma_after: s1.min(s0),
-        e_sigma_now: pred.sigma(&pred.g_e),
-        e_sigma_after: sig(&pred.g_e, &cov),
-        expected_dp: expected_change(pred.inv_a, s0, s1.min(s0)),
+        inv_a_sigma_after: s1,
+        e_sigma_now: e0,
+        e_sigma_after: sig(&pred.g_e, &cov).min(e0),
+        expected_dp: expected_change(pred.inv_a, s0, s1),
         p_data_now: p_unbound(pred.inv_a, s0),
         p_data_after: p_unbound(pred.inv_a, s1),
     })
@@ -286,6 +291,47 @@ pub fn expected_change_from(p_post: Option<f64>, mu: f64, s0: f64, s1: f64) -> f
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A predictor with covariance `cov` and gradients along the first and second state axes.
+    fn predictor(cov: M6) -> Predictor {
+        Predictor {
+            t_ref: Jd2::new(2_461_000.5, 0.0),
+            r: V3::new(1.0, 0.0, 0.0),
+            v: V3::new(0.0, 0.017, 0.0),
+            phi: M6::identity(),
+            cov,
+            samples: Vec::new(),
+            g_inv_a: RowVector6::new(1.0, 0.0, 0.0, 0.0, 0.0, 0.0),
+            g_e: RowVector6::new(0.0, 1.0, 0.0, 0.0, 0.0, 0.0),
+            inv_a: -0.1,
+        }
+    }
+
+    #[test]
+    fn positions_never_widen_a_sigma_even_about_an_enormous_covariance() {
+        // Regression: a two-night arc with σ(e) near 3,000 came out of the update with a larger σ(e)
+        // than it went in with, and a P that moved although σ(1/a) did not.
+        let big = M6::from_fn(|i, j| if i == j { 1e8 * (i + 1) as f64 } else { 9.9e7 });
+        let small = M6::identity() * 1e-6;
+        let jac = Matrix2x6::new(
+            1.0, 0.3, 0.0, 0.0, 0.0, 0.0, //
+            0.0, 1.0, 0.0, 0.0, 0.0, 0.0,
+        );
+        for cov in [big, small] {
+            let pred = predictor(cov);
+            let g = gain(&pred, &[jac, jac, jac, jac], 0.2).unwrap();
+            assert!(g.e_sigma_after <= g.e_sigma_now, "{g:?}");
+            assert!(g.inv_a_sigma_after <= g.inv_a_sigma_now, "{g:?}");
+            assert!(
+                g.inv_a_sigma_after < g.inv_a_sigma_now,
+                "a measured axis narrows: {g:?}"
+            );
+            assert!(
+                g.p_data_after <= 1.0 && g.p_data_after >= g.p_data_now,
+                "{g:?}"
+            );
+        }
+    }
 
     #[test]
     fn nothing_learned_moves_nothing_and_a_sharp_answer_moves_p_to_an_end() {
