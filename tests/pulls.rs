@@ -39,6 +39,7 @@ struct Summary {
 
 /// Sample sd and share within 3 of a set of pulls.
 fn spread(p: &[f64]) -> (f64, f64) {
+    assert!(p.len() >= 2, "{} pulls", p.len());
     let n = p.len() as f64;
     let mean = p.iter().sum::<f64>() / n;
     let sd = (p.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();

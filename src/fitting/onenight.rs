@@ -244,7 +244,8 @@ fn summarise(
     out.rms_arcsec = Some((ss / nn.max(1) as f64).sqrt() / ARCSEC);
     let att = &arc.attributable;
     let chi2_dof = att.chi2 / att.dof.max(1) as f64;
-    out.chi2_per_dof = Some(chi2_dof);
+    // A parabola through three positions fits them exactly: no χ²/dof to show (0 would read as perfect).
+    out.chi2_per_dof = (att.dof > 0).then_some(chi2_dof);
     out.residuals = super::lsqrecord::residual_list(tr, &res, &vec![true; tr.obs.len()], &[]);
     // χ²/dof above 3 alone called 5 % of clean nights of four positions poor (two degrees of freedom:
     // P(χ²(2) > 6) = e⁻³); it must also be improbable under the positions' own errors. (A night of
@@ -256,7 +257,9 @@ fn summarise(
             "positions off a smooth path: chi2/dof {chi2_dof:.1} of the night's polynomial"
         ));
     }
-    if let Some(why) = bends_as_no_orbit(arc) {
+    if att.dof == 0
+        && let Some(why) = bends_as_no_orbit(arc)
+    {
         out.poor_fit.push(why);
     }
     out.status = if out.poor_fit.is_empty() {
@@ -266,12 +269,13 @@ fn summarise(
     };
 }
 
-/// Where the night measures its path's curvature, whether no trial orbit bends as the positions do:
-/// the smallest curvature χ² over the quadrature's orbits (every distance and radial speed up to the
-/// speed cap) is improbable under the positions' errors (χ²(2)). A night of three positions has no
-/// other test (its parabola fits them exactly); a close, fast body curves within the hour (diurnal
-/// parallax and the Coriolis-like 2ρ̇u̇/ρ) and a straight line once called ten interstellar nights of
-/// the population sky poor, ranking them under every bound one.
+/// Whether no trial orbit bends as a night of three positions does (its parabola fits them exactly,
+/// so there is no other test): the smallest curvature χ² over the quadrature's orbits (its grid of
+/// distances and radial speeds, where the model gives weight; an upper bound on the true smallest,
+/// loose where the curvature is measured tightly, so nights of four or more keep the polynomial's
+/// test) is improbable under the positions' errors (χ²(2)). A close, fast body curves within the
+/// hour (diurnal parallax and the Coriolis-like 2ρ̇u̇/ρ): a straight line once called ten
+/// interstellar nights of the population sky poor, ranking them under every bound one.
 fn bends_as_no_orbit(arc: &super::shortarc::ShortArc) -> Option<String> {
     arc.attributable.curvature?;
     let best = arc

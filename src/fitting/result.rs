@@ -53,7 +53,8 @@ pub struct RangingOut {
 /// Another least-squares minimum that fits nearly as well (a second valley of the search).
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct Alternative {
-    /// χ² of this solution minus that of the reported one.
+    /// χ² of this solution minus that of the reported one; for a solution that sets aside a position
+    /// the reported one keeps (one it alone finds wild), the difference on the positions it keeps.
     pub delta_chi2: f64,
     pub e: f64,
     pub q_au: f64,
@@ -422,5 +423,31 @@ mod tests {
         linear.e = Some(0.2);
         linear.mark_undetermined();
         assert_eq!(linear.status, FitStatus::Ok);
+    }
+
+    #[test]
+    fn a_fit_is_undetermined_where_another_solution_fits_nearly_alike_outside_its_interval() {
+        let other = |e: f64, delta_chi2: f64| super::Alternative {
+            delta_chi2,
+            e,
+            q_au: 1.1,
+            i_deg: 63.0,
+            unbound: true,
+            probability: Some(0.03),
+        };
+        let status = |alternatives: Vec<super::Alternative>| {
+            let mut r = crate::testutil::record("a", 0.1, 3);
+            (r.e, r.e_interval_95, r.alternatives) = (Some(18.5), Some([17.4, 19.6]), alternatives);
+            r.mark_undetermined();
+            r.status
+        };
+        // The true solution of a strongly hyperbolic arc, listed at Δχ² +5.4: e is open between them.
+        assert_eq!(status(vec![other(2.4, 5.4)]), FitStatus::Undetermined);
+        // Also where it fits better (the model chose the valley).
+        assert_eq!(status(vec![other(2.4, -2.0)]), FitStatus::Undetermined);
+        // Listed for its share but fitting worse than Δχ² 9, or inside the interval: still ok.
+        assert_eq!(status(vec![other(2.4, 9.7)]), FitStatus::Ok);
+        assert_eq!(status(vec![other(18.0, 1.0)]), FitStatus::Ok);
+        assert_eq!(status(Vec::new()), FitStatus::Ok);
     }
 }

@@ -8,6 +8,7 @@ use super::gauss::{Sight, gauss};
 use super::lsq::{LsqFit, LsqOptions, Problem, correct, correct_unless, correct_with_outliers};
 use super::lsqrecord::NO_ORBIT_CHI2_PER_DOF;
 use super::profile::{Frame, V5};
+use super::rejection::reject_threshold;
 use crate::physics::constants::{C_AU_PER_DAY, MU_SUN};
 use crate::physics::frames::unit_from_radec;
 use crate::physics::propagate::propagate;
@@ -47,7 +48,8 @@ pub struct Found {
     /// The best minimum, refined with outlier handling.
     pub best: LsqFit,
     /// The other distinct minima within `ALTERNATIVE_DCHI2` of it or fitting as the errors allow
-    /// (`competitive`), on the same observations.
+    /// (`competitive`), on the same observations, and those that compete once positions they alone
+    /// find wild are set aside (`cleaned`: their χ² on the best one's footing).
     pub alternatives: Vec<LsqFit>,
     /// Every other distinct minimum within `PROFILE_SEED_DCHI2` (all observations), for the profile.
     pub elsewhere: Vec<S6>,
@@ -56,8 +58,9 @@ pub struct Found {
     pub flatter_than_linear: bool,
 }
 
-/// How much better (Δχ² on the positions the best minimum kept) another minimum must fit to take its
-/// place once outliers were set aside: more than a numerical tie.
+/// How much better (Δχ² on the positions the best minimum kept, or on every position with each χ²
+/// capped where rejection begins) another minimum must fit to take its place once outliers were set
+/// aside: more than a numerical tie.
 const SWAP_DCHI2: f64 = 1.0;
 
 /// The best least-squares orbit of the arc, the other distinct minima that compete with it, and where
@@ -74,12 +77,13 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
     minima.sort_by(|a, b| a.chi2.total_cmp(&b.chi2));
     let best = minima.first()?.clone();
     let mut flatter_than_linear = flat_sided.iter().any(|m| same_minimum(&best, m));
-    let mut elsewhere: Vec<S6> = minima
+    let near: Vec<LsqFit> = minima
         .iter()
         .skip(1)
         .filter(|m| m.chi2 - best.chi2 < PROFILE_SEED_DCHI2)
-        .map(|m| m.state)
+        .cloned()
         .collect();
+    let mut elsewhere: Vec<S6> = near.iter().map(|m| m.state).collect();
     // Outlier rejection within its limits; where no orbit explained the positions, it stands only if
     // the positions it kept are then explained (a single position 50σ off lifts χ²/dof of a 12-point
     // arc above 100; where every point looks like an outlier, none is set aside).
@@ -124,15 +128,20 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
             .collect()
     };
     let mut others = competing(others, &best_fit);
-    let cleaned = cleaned_elsewhere(p, opts, &best_fit, &elsewhere, &mut others);
+    let cap = reject_threshold(p.len(), opts.lsq.false_rejection);
+    let cleaned = cleaned_elsewhere(p, opts, &best_fit, (&near, cap), &mut others);
     others.extend(cleaned);
-    // Where another minimum, without the positions it alone finds wild, fits those same positions
-    // clearly better than the best does, it is the answer, on its own positions: the wild position
-    // chose the valley (a strongly hyperbolic three-night arc with a 1.6″ point stayed at e 18.4 for
-    // a true 2.4 that fitted the other eleven positions better by Δχ² 11).
+    // Where another minimum, without the positions it alone finds wild, fits every position clearly
+    // better than the best does, each position's χ² capped where rejection begins (a position it sets
+    // aside costs it the cap), it is the answer, on its own positions: the wild position chose the
+    // valley. Setting aside a position is never free here, so a wrong minimum cannot win by dropping
+    // the ones it misfits.
+    let capped = |f: &LsqFit| -> f64 { f.obs_chi2.iter().map(|c| c.min(cap)).sum() };
     if let Some(k) = (0..others.len())
-        .filter(|&k| others[k].used != best_fit.used && others[k].chi2 < best_fit.chi2 - SWAP_DCHI2)
-        .min_by(|&a, &b| others[a].chi2.total_cmp(&others[b].chi2))
+        .filter(|&k| {
+            others[k].used != best_fit.used && capped(&others[k]) < capped(&best_fit) - SWAP_DCHI2
+        })
+        .min_by(|&a, &b| capped(&others[a]).total_cmp(&capped(&others[b])))
         && let Ok(own) = correct(p, &others[k].state, &others[k].used, &opts.lsq)
         && own.converged
         && own.cov.is_some()
@@ -165,26 +174,29 @@ pub fn least_squares(p: &Problem, opts: &FitOptions, scan: Option<&ScanStart>) -
 
 /// Other minima that compete once the positions they alone find wild are set aside (`cleaned`),
 /// within `ALTERNATIVE_DCHI2` of the best on common positions; one already `listed` on the best's
-/// positions is replaced by its cleaned self where that fits better.
+/// positions is replaced by its cleaned self where that fits better. Only minima with a position
+/// beyond `cap` (where rejection begins) are cleaned: the others have none to set aside.
 fn cleaned_elsewhere(
     p: &Problem,
     opts: &FitOptions,
     best: &LsqFit,
-    elsewhere: &[S6],
+    (near, cap): (&[LsqFit], f64),
     listed: &mut [LsqFit],
 ) -> Vec<LsqFit> {
     let mut out: Vec<LsqFit> = Vec::new();
-    for x in elsewhere {
-        let Some(m) = cleaned(p, &opts.lsq, best, x) else {
+    for m0 in near.iter().filter(|m| m.obs_chi2.iter().any(|c| *c > cap)) {
+        let Some(m) = cleaned(p, &opts.lsq, best, &m0.state) else {
             continue;
         };
-        if let Some(l) = listed.iter_mut().find(|l| same_minimum(l, &m)) {
+        // A wild position can pull a minimum beyond its cleaned self's basin: either way round.
+        let one = |l: &LsqFit| same_minimum(l, &m) || same_minimum(&m, l);
+        if let Some(l) = listed.iter_mut().find(|l| one(l)) {
             if m.chi2 < l.chi2 {
                 *l = m;
             }
             continue;
         }
-        if m.chi2 - best.chi2 < ALTERNATIVE_DCHI2 && !out.iter().any(|l| same_minimum(l, &m)) {
+        if m.chi2 - best.chi2 < ALTERNATIVE_DCHI2 && !out.iter().any(one) {
             out.push(m);
         }
     }
@@ -194,7 +206,7 @@ fn cleaned_elsewhere(
 /// The minimum reached from `x` with its own outlier handling, where it sets aside positions `best`
 /// keeps, with its χ² on `best`'s footing: its own, plus `best`'s on every position `best` keeps, less
 /// `best`'s refitted on the positions this one keeps; Δχ² against `best` is then the difference on
-/// common positions. A wild position the best minimum bends to keep counts against every other minimum
+/// the positions this one keeps (the record's Δχ² for it says so: `FitResult::alternatives`). A wild position the best minimum bends to keep counts against every other minimum
 /// compared on the best one's positions: a 1″ point (5σ) on a strongly hyperbolic three-night arc kept
 /// a wrong minimum (e 17.4 for 2.4) at χ² 21 against 49 at the true one, answered alone, `ok`.
 pub(super) fn cleaned(p: &Problem, opts: &LsqOptions, best: &LsqFit, x: &S6) -> Option<LsqFit> {
@@ -203,7 +215,9 @@ pub(super) fn cleaned(p: &Problem, opts: &LsqOptions, best: &LsqFit, x: &S6) -> 
         return None;
     }
     let b = correct(p, &best.state, &m.used, opts).ok()?;
-    if !b.converged || same_minimum(best, &m) {
+    // The best refitted there must still be the best minimum (a position it had set aside, back in,
+    // can carry it to another basin).
+    if !b.converged || same_minimum(best, &m) || !same_minimum(best, &b) {
         return None;
     }
     m.chi2 += best.chi2 - b.chi2;

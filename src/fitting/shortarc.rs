@@ -101,10 +101,22 @@ pub fn attributable(tr: &Tracklet, cov: &[Matrix2<f64>]) -> Option<Attributable>
     let t: Vec<f64> = tr.obs.iter().map(|o| o.time.tdb.minus(t0)).collect();
     let gx: Vec<f64> = dirs.iter().map(|d| d.dot(&e_a0) / d.dot(&u0)).collect();
     let gy: Vec<f64> = dirs.iter().map(|d| d.dot(&e_d0) / d.dot(&u0)).collect();
-    let degree = if n >= 3 { 2 } else { 1 };
     // Both coordinates at once, each position weighted by its full covariance (a correlation
-    // between its RA and Dec errors was once dropped here).
-    let fit = super::nightpoly::fit(&t, &gx, &gy, cov, degree)?;
+    // between its RA and Dec errors was once dropped here). A parabola from three distinct times on
+    // (a second apart or more), a line where the times cannot carry one.
+    let mut sorted = t.clone();
+    sorted.sort_by(f64::total_cmp);
+    let distinct = 1 + sorted
+        .windows(2)
+        .filter(|w| w[1] - w[0] > 1.0 / 86_400.0)
+        .count();
+    let parabola = (distinct >= 3)
+        .then(|| super::nightpoly::fit(&t, &gx, &gy, cov, 2))
+        .flatten();
+    let (degree, fit) = match parabola {
+        Some(f) => (2, f),
+        None => (1, super::nightpoly::fit(&t, &gx, &gy, cov, 1)?),
+    };
     let (cx, cy) = (fit.x, fit.y);
     let u = (u0 + cx[0] * e_a0 + cy[0] * e_d0).normalize();
     let raw = cx[1] * e_a0 + cy[1] * e_d0;

@@ -12,6 +12,7 @@ use super::onenight::{instant_at, night_v_mag};
 use super::perturb::{Dynamics, TwoBody};
 use super::profile::{DensityContext, Frame, GridInputs, Profile, ProfileOptions, V5, profile};
 use super::rangescan::valley_ids;
+use super::rejection::reject_threshold;
 use super::result::FitResult;
 use super::search::ScanStart;
 use super::search::{cleaned, competitive, same_minimum};
@@ -295,7 +296,9 @@ fn other_valleys(
             let f = correct(p, &x, used, &opts.lsq).ok()?;
             // On the positions it keeps where those fit it better than the reported fit's do (a wild
             // position the reported fit bends to keep).
-            let f = match cleaned(p, &opts.lsq, fit, &x) {
+            let cap = reject_threshold(p.len(), opts.lsq.false_rejection);
+            let wild = f.obs_chi2.iter().any(|c| *c > cap);
+            let f = match wild.then(|| cleaned(p, &opts.lsq, fit, &x)).flatten() {
                 Some(c) if !f.converged || c.chi2 < f.chi2 => c,
                 _ => f,
             };
