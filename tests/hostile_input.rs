@@ -52,3 +52,47 @@ fn a_file_with_too_many_lines_is_refused_before_parsing() {
         intake.errors[0].reason
     );
 }
+
+/// Regression: one position of the strongly hyperbolic three-night arc (the synthetic reference of
+/// tests/reference/make_synthetic.py) dated a year early sent the fit through range profiles with the
+/// planets over the whole year: over seven minutes for one tracklet at five years, holding a watcher's
+/// worker. The fit now stops at its time budget, says so and shows no probability; the rest of the
+/// batch is answered as ever.
+#[test]
+fn a_position_a_year_from_the_others_stops_at_the_time_budget_and_says_so() {
+    let path = format!(
+        "{}/tests/reference/data/synthetic/hyp_strong_3n.psv",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    let text = std::fs::read_to_string(path).unwrap();
+    let mut moved = false;
+    let shifted: String = text
+        .lines()
+        .map(|l| {
+            if !moved && l.contains("|2026-11-26T") {
+                moved = true;
+                format!("{}\n", l.replacen("|2026-11-26T", "|2025-11-26T", 1))
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    assert!(moved);
+    let t = read_bytes(
+        "year.psv",
+        shifted.as_bytes(),
+        &SiteTable::builtin(),
+        &Limits::default(),
+    )
+    .tracklets
+    .remove(0);
+    let r = fit_tracklet(&t, &ObserverModel::new(), &FitOptions::default());
+    let said = r
+        .poor_fit
+        .iter()
+        .chain(r.error.iter())
+        .any(|w| w.contains("time budget"));
+    assert!(said, "{:?} {:?} {:?}", r.status, r.poor_fit, r.error);
+    assert!(r.p_hyperbolic.is_none() && r.log10_odds.is_none());
+    assert_ne!(r.status, "ok");
+}

@@ -99,6 +99,7 @@ pub const MIN_MOTION_ARCSEC: f64 = 0.01;
 
 /// Fit one tracklet, with the origin sheet where it is asked for and the candidate qualifies.
 pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> FitResult {
+    let _budget = super::budget::Budget::start(super::budget::FIT_BUDGET);
     let gross = super::gross::gross_outliers(tr);
     let fit = |kept: &Tracklet| fit_orbit(kept, model, opts);
     let mut r = if gross.is_empty() {
@@ -110,6 +111,22 @@ pub fn fit_tracklet(tr: &Tracklet, model: &ObserverModel, opts: &FitOptions) -> 
     } else {
         super::gross::fit_without(tr, &gross, model, opts.inflate_nights, fit)
     };
+    if super::budget::spent() {
+        match r.status {
+            super::kinds::FitStatus::Failed => {
+                r.error = Some(format!(
+                    "{}; {}",
+                    r.error.as_deref().unwrap_or("no orbit"),
+                    super::budget::reason()
+                ));
+            }
+            _ => {
+                super::lsqrecord::withhold_probability(&mut r);
+                r.poor_fit.push(super::budget::reason());
+                r.status = super::kinds::FitStatus::PoorFit;
+            }
+        }
+    }
     r.mark_undetermined();
     super::unresolved::bound_unresolved_odds(&mut r);
     if let Some(low) = super::horizon::below_horizon(tr) {

@@ -275,7 +275,8 @@ pub fn correct_unless(
     let mut undamped = true;
     let mut converged = false;
     let mut iterations = 0;
-    while iterations < opts.max_iterations {
+    // A fit past its time budget takes no more steps (unconverged, as with too few iterations).
+    while iterations < opts.max_iterations && !super::budget::spent() {
         iterations += 1;
         let Some(rd) = red.as_ref() else {
             break;

@@ -2,6 +2,7 @@
 //! hyperbolicity score. Depends on the physics layer only; no I/O.
 
 pub mod batch;
+pub mod budget;
 pub mod conditions;
 pub mod covariance;
 pub mod datainterval;

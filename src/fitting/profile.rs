@@ -137,6 +137,10 @@ pub fn solve_slice(
     used: &[bool],
     iterations: usize,
 ) -> Option<Slice> {
+    // A fit past its time budget solves no more slices (the profile is then given up).
+    if super::budget::spent() {
+        return None;
+    }
     let mut a = start;
     let mut lambda = 1e-3;
     // The normal equations at the current `a` (None once a step has moved it).
@@ -144,6 +148,9 @@ pub fn solve_slice(
     let mut prev_chi2: Option<f64> = None;
     let mut undamped = true;
     for _ in 0..iterations {
+        if super::budget::spent() {
+            return None;
+        }
         let cur = match here {
             Some(h) => h,
             None => normal(p, frame, rho, &a, used)?,
@@ -184,7 +191,8 @@ pub fn solve_slice(
             undamped = false;
         }
         let Some(trial) = damped(&step, &mut lambda, |t| {
-            chi2_at(p, frame, rho, &(a + t), used).is_some_and(|c| c <= cur.chi2)
+            !super::budget::spent()
+                && chi2_at(p, frame, rho, &(a + t), used).is_some_and(|c| c <= cur.chi2)
         }) else {
             break;
         };
@@ -313,6 +321,10 @@ pub struct DensityContext<'a> {
 pub fn profile(g: &GridInputs, ctx: &DensityContext) -> Option<Profile> {
     let (p, frame, used, opts) = (g.p, g.frame, g.used, g.opts);
     let grid = super::valleyzoom::slices(g);
+    // A grid cut short by the time budget would weigh what it happened to reach.
+    if super::budget::spent() {
+        return None;
+    }
     let mut all = grid.slices;
     let nc = SliceQuadrature {
         frame,

@@ -38,7 +38,8 @@ const MAX_POSITIONS: usize = 500;
 
 /// Whether `first` (the whole arc's record) calls for a second look.
 pub fn wanted(tr: &Tracklet, first: &FitResult) -> bool {
-    tr.n_nights() >= 2
+    !super::budget::spent()
+        && tr.n_nights() >= 2
         && tr.obs.len() <= MAX_POSITIONS
         && (untrusted(first) || first.n_used < first.n_obs)
 }
@@ -169,6 +170,9 @@ fn retry_without_one(
     far.truncate(TRIES);
     let off = |x: &ResidualOut| x.ra_arcsec.hypot(x.dec_arcsec) >= MIN_GROSS_ARCSEC;
     far.into_iter().find_map(|(_, i)| {
+        if super::budget::spent() {
+            return None;
+        }
         without(tr, (&[i], &|_| true), model, opts.inflate_nights, fit).filter(|r| {
             r.status.usable()
                 && r.n_used + 1 == tr.obs.len()
