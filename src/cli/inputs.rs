@@ -203,8 +203,18 @@ fn walk(dir: &Path, depth: usize, out: &mut Inputs) -> anyhow::Result<()> {
     for e in entries {
         let link = e.is_symlink();
         if e.is_dir() {
-            if !link && depth < MAX_DEPTH {
-                walk(&e, depth + 1, out)?;
+            // A folder that cannot be listed is one refused input among the others, not the end
+            // of the run (the files beside it are still read).
+            if !link
+                && depth < MAX_DEPTH
+                && let Err(err) = walk(&e, depth + 1, out)
+            {
+                out.refused.push(InputError {
+                    file: interloper::feed::sanitize::clean(&e.display().to_string()),
+                    line: 0,
+                    column: None,
+                    reason: format!("{:#}", err.root_cause()),
+                });
             }
             continue;
         }

@@ -205,6 +205,11 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         .time
         .instant()
         .map_err(|e| err("obsTime", e.to_string()))?;
+    // Past the Earth model's dates no observer position exists: the line is refused here, not the
+    // whole tracklet when it is fitted (one such line once failed eleven good ones).
+    if let Err(e) = crate::physics::earth::earth_state(time.tdb) {
+        return Err(err("obsTime", e.to_string()));
+    }
     let location = match &r.observer_pos {
         // A roving observer: the ground point is given on the record itself.
         Some((sys, ctr, p)) if sys == "WGS84" => {
