@@ -96,3 +96,23 @@ fn a_position_a_year_from_the_others_stops_at_the_time_budget_and_says_so() {
     assert!(r.p_hyperbolic.is_none() && r.log10_odds.is_none());
     assert_ne!(r.status, "ok");
 }
+
+/// Regression: one observation dated past the Earth model (2150) failed its whole tracklet when fitted,
+/// eleven good positions with it; it is refused as its own line, as one before 1972 is.
+#[test]
+fn an_observation_past_the_earth_model_is_refused_as_its_own_line() {
+    let text = "# version=2022\ntrkSub|mode|stn|obsTime|ra|dec|rmsRA|rmsDec|mag|band\n\
+                F1|CCD|TV1|2027-02-26T03:00:00Z|120.0|10.0|0.2|0.2|20|G\n\
+                F1|CCD|TV1|2150-02-26T03:20:00Z|120.01|10.0|0.2|0.2|20|G\n\
+                F1|CCD|TV1|2027-02-26T03:40:00Z|120.02|10.0|0.2|0.2|20|G\n";
+    let intake = read_bytes(
+        "future.psv",
+        text.as_bytes(),
+        &SiteTable::builtin(),
+        &Limits::default(),
+    );
+    assert_eq!(intake.errors.len(), 1, "{:?}", intake.errors);
+    let e = &intake.errors[0];
+    assert_eq!((e.line, e.column.as_deref()), (4, Some("obsTime")), "{e}");
+    assert_eq!(intake.tracklets[0].obs.len(), 2);
+}
