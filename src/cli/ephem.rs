@@ -263,7 +263,7 @@ fn time_grid(args: &EphemArgs) -> anyhow::Result<(Instant, Vec<f64>)> {
     let to = time("--to", &args.to)?;
     // A table that starts past the Earth model's dates has nothing to compute: a usage error, as a
     // time before the leap-second table is (one that runs past them writes what it can, exit 1).
-    if let Err(e) = interloper::physics::earth::earth_state(from.tdb) {
+    if let Err(e) = interloper::physics::earth::covers(from.tdb) {
         crate::usage!("--from {}: {e}", clean(&args.from));
     }
     let step = parse_step(&args.step).map_err(|e| crate::cli::Usage(format!("--step {e:#}")))?;

@@ -207,7 +207,7 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         .map_err(|e| err("obsTime", e.to_string()))?;
     // Past the Earth model's dates no observer position exists: the line is refused here, not the
     // whole tracklet when it is fitted (one such line once failed eleven good ones).
-    if let Err(e) = crate::physics::earth::earth_state(time.tdb) {
+    if let Err(e) = crate::physics::earth::covers(time.tdb) {
         return Err(err("obsTime", e.to_string()));
     }
     let location = match &r.observer_pos {

@@ -38,9 +38,7 @@ impl EarthState {
 /// Earth's state at a TDB date, straight from the series.
 pub fn earth_state(tdb: Jd2) -> Result<EarthState, EphemerisError> {
     let jd = tdb.value();
-    if !(2_415_020.5..=2_488_070.5).contains(&jd) {
-        return Err(EphemerisError::OutOfRange(jd));
-    }
+    covers(tdb)?;
     let (h, b) = sofars::eph::epv00(tdb.jd1, tdb.jd2).ok_or(EphemerisError::OutOfRange(jd))?;
     let v = |a: [f64; 3]| V3::new(a[0], a[1], a[2]);
     Ok(EarthState {
@@ -49,6 +47,16 @@ pub fn earth_state(tdb: Jd2) -> Result<EarthState, EphemerisError> {
         bary_pos: v(b[0]),
         bary_vel: v(b[1]),
     })
+}
+
+/// Whether the Earth's ephemeris covers `tdb` (1900-01-01 to 2100-01-01), without computing it.
+pub fn covers(tdb: Jd2) -> Result<(), EphemerisError> {
+    let jd = tdb.value();
+    if (2_415_020.5..=2_488_070.5).contains(&jd) {
+        Ok(())
+    } else {
+        Err(EphemerisError::OutOfRange(jd))
+    }
 }
 
 /// Cubic Hermite interpolation on [0, h] at fraction s; returns value and derivative.
