@@ -96,6 +96,25 @@ fn headless_watch_into_a_closed_pipe_stops_with_exit_zero() {
     assert_eq!(code, Some(0), "{err}");
 }
 
+/// Regression: with one file, the watcher reports it and goes idle, writing nothing more; it ran on
+/// after `| head -1` until another file came. It now notices the reader has gone without writing.
+#[test]
+fn an_idle_headless_watch_notices_its_reader_went_away() {
+    let dir = tempfile::tempdir().unwrap();
+    let state = tempfile::tempdir().unwrap();
+    let one = format!(
+        "{}/tests/reference/data/synthetic/mainbelt_3n.psv",
+        env!("CARGO_MANIFEST_DIR")
+    );
+    std::fs::copy(&one, dir.path().join("mainbelt_3n.psv")).unwrap();
+    let (d, s) = (
+        dir.path().display().to_string(),
+        state.path().display().to_string(),
+    );
+    let (code, err) = first_line_then_close(&["watch", "--headless", "--json", "--state", &s, &d]);
+    assert_eq!(code, Some(0), "{err}");
+}
+
 /// Run with stdout a pipe whose reading end is closed before the child starts: every write fails,
 /// however soon the child writes.
 fn into_a_closed_pipe(args: &[&str]) -> (Option<i32>, String) {

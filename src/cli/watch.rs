@@ -291,7 +291,7 @@ impl Run {
                     last_activity = Instant::now();
                     report_with_alert(&mut self.n, &mut self.out, &mut self.alerts, ev)?;
                 }
-                Err(std::sync::mpsc::RecvTimeoutError::Timeout) => {}
+                Err(std::sync::mpsc::RecvTimeoutError::Timeout) => self.out.look_for_reader(),
                 Err(std::sync::mpsc::RecvTimeoutError::Disconnected) => break,
             }
             if let Some(j) = feed.journal.as_mut()

@@ -39,6 +39,14 @@ impl Out {
         }
     }
 
+    /// Notice, without writing, that the reader went away (a pipe whose other end closed): an idle
+    /// watcher writes nothing, and `watch --headless | head -1` once ran on until the next file.
+    pub(super) fn look_for_reader(&mut self) {
+        if reader_gone() {
+            self.closed = true;
+        }
+    }
+
     /// A line of an accepted file that could not be read: one JSON line each.
     fn input_error(&mut self, e: &InputError, arrived: SystemTime) {
         let mut v = where_and_why(e);
@@ -208,4 +216,26 @@ fn fit_line(out: &mut Out, r: &FitResult, at: SystemTime) -> anyhow::Result<()> 
     );
     out.emit(v, text);
     Ok(())
+}
+
+/// Whether stdout is a pipe or socket whose reader has gone: poll(2) reports an error or hang-up on it
+/// at once, nothing on a terminal, a file or a pipe still read.
+#[cfg(unix)]
+fn reader_gone() -> bool {
+    use rustix::event::{PollFd, PollFlags, Timespec, poll};
+    use std::os::fd::AsFd;
+    let out = std::io::stdout();
+    let fd = out.as_fd();
+    let mut fds = [PollFd::new(&fd, PollFlags::empty())];
+    let now = Timespec {
+        tv_sec: 0,
+        tv_nsec: 0,
+    };
+    matches!(poll(&mut fds, Some(&now)), Ok(n) if n > 0)
+        && fds[0].revents().intersects(PollFlags::ERR | PollFlags::HUP)
+}
+
+#[cfg(not(unix))]
+fn reader_gone() -> bool {
+    false
 }
