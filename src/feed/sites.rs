@@ -22,6 +22,8 @@ pub struct SiteTable {
     sites: HashMap<String, Site>,
     /// Capabilities of a site whose entry does not state its own.
     defaults: Capabilities,
+    /// Codes a site-code table lists without parallax constants (observers off the ground).
+    off_ground: std::collections::HashSet<String>,
 }
 
 // Unknown keys are refused with their line: a misspelt key (`alt` for `altitude_m`) would otherwise put
@@ -94,12 +96,19 @@ impl SiteTable {
         let mut t = SiteTable {
             sites: HashMap::new(),
             defaults,
+            off_ground: std::collections::HashSet::new(),
         };
         // The embedded table is part of the program and tested; a failure here is a build defect.
         if let Ok(n) = t.load_toml("<built-in demo sites>", DEMO_SITES) {
             debug_assert!(n > 0);
         }
         t
+    }
+
+    /// Whether a site-code table listed `code` without parallax constants (an observer off the ground,
+    /// whose position each observation must carry).
+    pub fn off_ground(&self, code: &str) -> bool {
+        !self.sites.contains_key(code) && self.off_ground.contains(code)
     }
 
     pub fn get(&self, code: &str) -> Option<&Site> {
@@ -208,7 +217,14 @@ impl SiteTable {
             let code = field(0, 3);
             let (lon, c, s) = (field(4, 13), field(13, 21), field(21, 30));
             if lon.is_empty() || c.is_empty() {
-                continue; // header lines and space-based codes
+                // Header lines, and space-based codes (remembered, to say so when one is used).
+                if k > 0
+                    && code.chars().count() == 3
+                    && code.chars().all(|ch| ch.is_ascii_alphanumeric())
+                {
+                    self.off_ground.insert(code);
+                }
+                continue;
             }
             match (lon.parse::<f64>(), c.parse::<f64>(), s.parse::<f64>()) {
                 // On the ground (or the geocentre itself, ρ = 0), at a longitude that is an angle.
@@ -421,6 +437,9 @@ mod tests {
             t.get("XY9").unwrap().position,
             GroundPosition::Parallax { .. }
         ));
+        // The orbiting code is not a site, and is known as one off the ground (its positions must
+        // carry the observer's own: the reason says so instead of "unknown site code").
+        assert!(t.get("SP1").is_none() && t.off_ground("SP1") && !t.off_ground("XY9"));
     }
 
     /// Regression: a code-table site 1,100 km up (ρ 1.18) or at a longitude of NaN was taken (and the

@@ -293,6 +293,16 @@ fn observation(file: &str, r: &AdesRecord, sites: &SiteTable) -> Result<Observat
         }
         None => match sites.get(&r.stn) {
             Some(s) => ObserverLocation::Ground(s.position),
+            None if sites.off_ground(&r.stn) => {
+                return Err(err(
+                    "stn",
+                    format!(
+                        "site code '{}' has no parallax constants in the site-code table (an \
+                         observer off the ground): the line must carry the observer's position",
+                        r.stn
+                    ),
+                ));
+            }
             None => {
                 return Err(err(
                     "stn",
